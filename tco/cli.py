@@ -1,0 +1,142 @@
+"""The command line: parse, call, print, exit code. No modelling happens here.
+
+Exit codes: 0 success, 2 bad input (one line naming file, field or row, and the problem),
+1 internal error.
+"""
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+from pathlib import Path
+
+from tco import __version__
+from tco.errors import InputError
+
+EXIT_OK, EXIT_INTERNAL, EXIT_INPUT = 0, 1, 2
+
+
+def _parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(
+        prog="tco",
+        description="Compare battery-electric and diesel heavy trucks on a duty cycle: "
+        "energy, cost of ownership, emissions, uncertainty; writes summary.json, a PDF and "
+        "HTML report and a live workbook.",
+    )
+    p.add_argument("--version", action="version", version=f"tco {__version__}")
+    sub = p.add_subparsers(dest="command", metavar="COMMAND")
+
+    run = sub.add_parser("run", help="run a scenario and write its outputs",
+                         description="Run a scenario (default: the bundled demo) and write "
+                         "summary.json, report.pdf, report.html and workbook.xlsx into "
+                         "OUT/<scenario>/.")
+    run.add_argument("scenario", nargs="?", help="scenario TOML file (default: bundled demo)")
+    run.add_argument("--out", default="out", help="output folder (default: ./out)")
+    run.add_argument("--page-size", help="report page size: A4 or Letter (default: scenario)")
+    run.add_argument("--json-only", action="store_true",
+                     help="write summary.json only (no PDF, HTML or workbook)")
+    run.add_argument("--draws", type=int, help="Monte Carlo draws (default: scenario)")
+    run.add_argument("--quiet", action="store_true", help="print only the output paths")
+
+    chk = sub.add_parser("check", help="validate a scenario without running it",
+                         description="Validate a scenario and its trace files; print what "
+                         "it describes. Exit 0 when valid, 2 when not.")
+    chk.add_argument("scenario", help="scenario TOML file")
+
+    init = sub.add_parser("init", help="write a commented starter scenario",
+                          description="Write a commented starter scenario to PATH.")
+    init.add_argument("path", nargs="?", default="scenario.toml",
+                      help="where to write it (default: scenario.toml)")
+    init.add_argument("--force", action="store_true", help="overwrite an existing file")
+    return p
+
+
+def _cmd_run(args) -> int:
+    from tco.pipeline import evaluate
+    from tco.progress import Steps
+    from tco.report import write_outputs
+    from tco.resources import demo_path
+    from tco.scenario import load_scenario
+
+    path = Path(args.scenario) if args.scenario else demo_path()
+    with Steps(quiet=args.quiet) as steps:
+        steps.start("reading scenario")
+        loaded = load_scenario(path)
+        if args.page_size:
+            if args.page_size.lower() not in ("a4", "letter"):
+                raise InputError(f"unknown page size '{args.page_size}' (use A4 or Letter)",
+                                 where="--page-size")
+            loaded.scenario.study.page_size = "A4" if args.page_size.lower() == "a4" \
+                else "Letter"
+        if args.draws is not None:
+            if args.draws < 0:
+                raise InputError("must be zero or more", where="--draws")
+            loaded.scenario.uncertainty.draws = args.draws
+        result = evaluate(loaded, progress=steps)
+        steps.start("writing outputs")
+        written = write_outputs(result, Path(args.out), json_only=args.json_only,
+                                progress=steps)
+    if not args.quiet:
+        from tco.report.console import print_summary
+
+        print_summary(result)
+    for f in written:
+        print(f)
+    return EXIT_OK
+
+
+def _cmd_check(args) -> int:
+    from tco.pipeline import build_traces
+    from tco.scenario import load_scenario
+
+    loaded = load_scenario(args.scenario)
+    traces = build_traces(loaded)
+    s = loaded.scenario
+    total = sum(float(t["distance"].iloc[-1]) for t in traces)
+    print(f"{args.scenario}: valid — '{s.study.name}', {len(s.trucks)} trucks "
+          f"({', '.join(t.name for t in s.trucks)}), {len(s.route.legs)} legs, "
+          f"{total / 1000:.1f} km per trip")
+    return EXIT_OK
+
+
+def _cmd_init(args) -> int:
+    from tco.starter import STARTER
+
+    path = Path(args.path)
+    if path.exists() and not args.force:
+        raise InputError("already exists; use --force to overwrite", file=path)
+    from tco.report.atomic import write_text_atomic
+
+    try:
+        write_text_atomic(path, STARTER)
+    except OSError as exc:
+        raise InputError(f"cannot write: {exc.strerror}", file=path) from None
+    print(f"wrote {path}; edit it, then run: tco check {path} && tco run {path}")
+    return EXIT_OK
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = _parser()
+    args = parser.parse_args(argv)
+    if args.command is None:
+        parser.print_help()
+        return EXIT_INPUT
+    handler = {"run": _cmd_run, "check": _cmd_check, "init": _cmd_init}[args.command]
+    try:
+        return handler(args)
+    except InputError as exc:
+        print(f"tco: error: {exc.line()}", file=sys.stderr)
+        return EXIT_INPUT
+    except KeyboardInterrupt:
+        print("tco: interrupted; previous outputs left as they were", file=sys.stderr)
+        return 130
+    except Exception as exc:  # noqa: BLE001 - the one place internal errors are reported
+        if os.environ.get("TCO_DEBUG"):
+            raise
+        print(f"tco: internal error: {type(exc).__name__}: {exc} "
+              "(set TCO_DEBUG=1 for a traceback)", file=sys.stderr)
+        return EXIT_INTERNAL
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,186 @@
+"""The validated scenario: loading a hand-written TOML file into SI quantities.
+
+A scenario file has these sections (each documented field by field in its model):
+
+``[study]`` title, currency, unit system · ``[ambient]`` conditions · ``[route]`` with
+``[[route.legs]]`` and their ``[[route.legs.segments]]`` or trace files · ``[[trucks]]``
+with ``[trucks.body]``, ``[trucks.diesel]`` or ``[trucks.electric]`` and ``[trucks.costs]``
+· ``[finance]`` · ``[prices]`` · ``[depot]`` · ``[emissions]`` · ``[uncertainty]``.
+
+Every problem is raised as :class:`tco.errors.InputError` naming the file and the field.
+"""
+from __future__ import annotations
+
+import hashlib
+import tomllib
+from pathlib import Path
+from typing import Literal
+
+from pydantic import Field, ValidationError, model_validator
+
+from tco.errors import InputError
+from tco.scenario.base import Section, field_sources, mfield
+from tco.scenario.costs import Depot, Finance, Prices, TruckCosts
+from tco.scenario.emissions import EmissionsSettings
+from tco.scenario.route import Ambient, Leg, Route, Segment, Study
+from tco.scenario.uncertainty import UncertaintySettings
+from tco.scenario.vehicle import Body, Diesel, Electric, EnRoute
+
+__all__ = [
+    "Ambient", "Body", "Depot", "Diesel", "Electric", "EmissionsSettings", "EnRoute",
+    "Finance", "Leg", "LoadedScenario", "Prices", "Route", "Scenario", "Segment", "Study",
+    "Truck", "TruckCosts", "UncertaintySettings", "field_sources", "load_scenario",
+    "parse_scenario",
+]
+
+
+class Truck(Section):
+    """One candidate truck."""
+
+    name: str = mfield(..., "", "Name of the truck, unique in the scenario")
+    powertrain: Literal["diesel", "electric"] = mfield(..., "", "diesel or electric")
+    body: Body = Field(..., description="Masses, aerodynamics, tyres")
+    diesel: Diesel | None = Field(None, description="Diesel powertrain (diesel trucks)")
+    electric: Electric | None = Field(None, description="Electric powertrain (electric trucks)")
+    costs: TruckCosts = Field(default_factory=TruckCosts, description="Costs of this truck")
+
+    @model_validator(mode="after")
+    def _powertrain_block(self):
+        if self.powertrain == "diesel" and self.diesel is None:
+            raise ValueError("a diesel truck needs a [trucks.diesel] section")
+        if self.powertrain == "electric" and self.electric is None:
+            raise ValueError("an electric truck needs a [trucks.electric] section")
+        if self.powertrain == "diesel" and self.electric is not None:
+            raise ValueError("a diesel truck cannot have an [trucks.electric] section")
+        if self.powertrain == "electric" and self.diesel is not None:
+            raise ValueError("an electric truck cannot have a [trucks.diesel] section")
+        return self
+
+
+class Scenario(Section):
+    """A whole study: the job, the candidate trucks, prices, finance, emissions settings."""
+
+    study: Study
+    ambient: Ambient = Field(default_factory=Ambient)
+    route: Route
+    trucks: list[Truck] = Field(..., min_length=2, description="Candidate trucks (two or more)")
+    finance: Finance = Field(default_factory=Finance)
+    prices: Prices = Field(default_factory=Prices)
+    depot: Depot = Field(default_factory=Depot)
+    emissions: EmissionsSettings = Field(default_factory=EmissionsSettings)
+    uncertainty: UncertaintySettings = Field(default_factory=UncertaintySettings)
+
+    @model_validator(mode="after")
+    def _unique_names(self):
+        names = [t.name for t in self.trucks]
+        dupes = sorted({n for n in names if names.count(n) > 1})
+        if dupes:
+            raise ValueError(f"truck names must be unique; repeated: {', '.join(dupes)}")
+        return self
+
+
+class LoadedScenario:
+    """A validated scenario with the file it came from.
+
+    Attributes
+    ----------
+    scenario : Scenario
+        The validated model (SI quantities).
+    path : Path or None
+        The scenario file; trace files are resolved relative to its folder.
+    raw : dict
+        The TOML as written (for the assumptions table and the fingerprint).
+    fingerprint : str
+        SHA-256 of the scenario file's bytes and every trace file it uses.
+    """
+
+    def __init__(self, scenario: Scenario, path: Path | None, raw: dict, fingerprint: str):
+        self.scenario = scenario
+        self.path = path
+        self.raw = raw
+        self.fingerprint = fingerprint
+
+    @property
+    def base_dir(self) -> Path:
+        return self.path.parent if self.path else Path.cwd()
+
+    @property
+    def slug(self) -> str:
+        if self.scenario.study.slug:
+            return self.scenario.study.slug
+        stem = self.path.stem if self.path else "scenario"
+        return "".join(c if c.isalnum() or c in "._-" else "-" for c in stem).lstrip(".-") \
+            or "scenario"
+
+    def resolve(self, name: str) -> Path:
+        """Absolute path of a file named in the scenario."""
+        p = Path(name)
+        return p if p.is_absolute() else self.base_dir / p
+
+
+def _loc(loc: tuple) -> str:
+    out = ""
+    for part in loc:
+        if isinstance(part, int):
+            out += f"[{part}]"
+        elif part in ("function-after", "function-before") or "[" in str(part):
+            continue
+        else:
+            out += ("." if out else "") + str(part)
+    return out
+
+
+def parse_scenario(data: dict, path: Path | None = None) -> Scenario:
+    """Validate a scenario given as a dict (e.g. parsed TOML); errors as InputError."""
+    try:
+        return Scenario.model_validate(data)
+    except ValidationError as exc:
+        err = exc.errors()[0]
+        where = _loc(err["loc"]) or None
+        kind = err.get("type", "")
+        msg = err.get("msg", "invalid value")
+        msg = msg.removeprefix("Value error, ")
+        if kind == "extra_forbidden":
+            msg = "unknown field (check its spelling against `tco init`)"
+        elif kind == "missing":
+            msg = "required field is missing"
+        raise InputError(msg, file=path, where=where) from None
+
+
+def load_scenario(path: str | Path) -> LoadedScenario:
+    """Read and validate a scenario TOML file.
+
+    Parameters
+    ----------
+    path : str or Path
+        The scenario file.
+
+    Returns
+    -------
+    LoadedScenario
+
+    Raises
+    ------
+    InputError
+        When the file is missing, is not valid TOML, or a field is wrong.
+    """
+    path = Path(path)
+    if not path.is_file():
+        raise InputError("file not found", file=path)
+    blob = path.read_bytes()
+    try:
+        raw = tomllib.loads(blob.decode("utf-8"))
+    except UnicodeDecodeError:
+        raise InputError("not a UTF-8 text file", file=path) from None
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"not valid TOML: {exc}", file=path) from None
+    scenario = parse_scenario(raw, path)
+    h = hashlib.sha256(blob)
+    for i, leg in enumerate(scenario.route.legs):
+        if leg.file:
+            trace = (path.parent / leg.file)
+            if not trace.is_file():
+                raise InputError(f"trace file '{leg.file}' not found", file=path,
+                                 where=f"route.legs[{i}].file")
+            h.update(trace.read_bytes())
+    return LoadedScenario(scenario, path.resolve(), raw, h.hexdigest())

@@ -1,0 +1,137 @@
+"""Scenario sections describing the job: study settings, ambient conditions and the route."""
+from __future__ import annotations
+
+import re
+from typing import Literal
+
+from pydantic import Field, field_validator, model_validator
+
+from tco.scenario.base import ASSUMPTION, Qty, Section, mfield, qfield
+
+ISA_SEA_LEVEL = "U.S. Standard Atmosphere 1976: 15 °C at sea level"
+SLUG = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._-]{0,79}$")
+CURRENCY = re.compile(r"^[A-Z]{3}$")
+
+
+class Study(Section):
+    """What the study is called and how results are shown."""
+
+    name: str = mfield(..., "", "Title of the study, shown on the report (any text)")
+    slug: str | None = mfield(
+        None, "", "Name of the output folder under --out; letters, digits, '.', '_' and '-' "
+        "only. Default: the scenario file's name without extension", "scenario file name"
+    )
+    currency: str = mfield(
+        "EUR", "", "ISO 4217 code of the currency all money is written in", ASSUMPTION
+    )
+    units: Literal["metric", "us"] = mfield(
+        "metric", "", "Unit system for displayed results: metric or US customary", ASSUMPTION
+    )
+    start_year: int = mfield(2027, "", "Calendar year of the first year of service", ASSUMPTION)
+    page_size: Literal["A4", "Letter"] = mfield("A4", "", "Report page size", ASSUMPTION)
+    notes: str = mfield("", "", "Free text shown in the report", ASSUMPTION)
+
+    @field_validator("slug")
+    @classmethod
+    def _slug(cls, v):
+        if v is not None and not SLUG.match(v):
+            raise ValueError(
+                f"'{v}' is not a valid file name: use letters, digits, '.', '_' or '-', "
+                "starting with a letter or digit, at most 80 characters"
+            )
+        return v
+
+    @field_validator("currency")
+    @classmethod
+    def _currency(cls, v):
+        if not CURRENCY.match(v):
+            raise ValueError(f"'{v}' is not an ISO 4217 code (three capital letters, e.g. EUR, USD)")
+        return v
+
+    @field_validator("start_year")
+    @classmethod
+    def _year(cls, v):
+        if not 1990 <= v <= 2100:
+            raise ValueError("must be a calendar year between 1990 and 2100")
+        return v
+
+
+class Ambient(Section):
+    """Ambient conditions on the route."""
+
+    temperature: Qty("degC", ge=-60, le=60) = qfield(
+        15.0, "degC", "Ambient air temperature", ISA_SEA_LEVEL
+    )
+    altitude: Qty("m", ge=-500, le=6000) = qfield(
+        0.0, "m", "Elevation of the route's start above sea level (synthetic routes; "
+        "traces bring their own elevation)", ASSUMPTION
+    )
+    headwind: Qty("km/h", ge=-100, le=100) = qfield(
+        0.0, "km/h", "Mean headwind along the direction of travel (negative: tailwind)",
+        ASSUMPTION + " (still air)"
+    )
+
+
+class Segment(Section):
+    """One stretch of a synthetic route."""
+
+    length: Qty("km", gt=0) = qfield(..., "km", "Horizontal length of the stretch")
+    speed: Qty("km/h", gt=0, le=150) = qfield(..., "km/h", "Cruise speed")
+    grade: Qty("percent", ge=-30, le=30) = qfield(
+        0.0, "percent", "Road grade, rise over run (negative downhill)", ASSUMPTION
+    )
+    stops: int = mfield(0, "", "Stops inside the stretch (evenly spaced)", ASSUMPTION, ge=0)
+    dwell: Qty("s", ge=0) = qfield(
+        30.0, "s", "Time standing at each stop", ASSUMPTION
+    )
+
+
+class Leg(Section):
+    """A part of the trip with one payload, e.g. loaded out or empty back."""
+
+    name: str = mfield("leg", "", "Name of the leg", ASSUMPTION)
+    payload: Qty("t", ge=0) = qfield(..., "t", "Payload carried on this leg")
+    file: str | None = mfield(
+        None, "", "CSV trace or GPX track for this leg, relative to the scenario file",
+        "none: the leg is built from segments"
+    )
+    cruise_speed: Qty("km/h", gt=0) | None = qfield(
+        None, "km/h", "Constant cruise speed for a CSV with distance and elevation only",
+        "none"
+    )
+    segments: list[Segment] = Field(default_factory=list, description="Synthetic stretches")
+    dwell_end: Qty("min", ge=0) = qfield(
+        0.0, "min", "Time standing at the end of the leg (loading or unloading)", ASSUMPTION
+    )
+
+    @model_validator(mode="after")
+    def _one_source(self):
+        if self.file and self.segments:
+            raise ValueError("give either file or segments, not both")
+        if not self.file and not self.segments:
+            raise ValueError("needs a file (CSV or GPX) or at least one segment")
+        if self.file and not self.file.lower().endswith((".csv", ".gpx")):
+            raise ValueError(f"file '{self.file}' must be a .csv trace or a .gpx track")
+        return self
+
+
+class Route(Section):
+    """The duty cycle: legs of one trip, and how often it runs."""
+
+    legs: list[Leg] = Field(..., min_length=1, description="Legs of one trip, in order")
+    trips_per_day: Qty("", gt=0, le=50) = qfield(1.0, "", "Trips per operating day", ASSUMPTION)
+    days_per_year: Qty("", gt=0, le=366) = qfield(
+        250.0, "", "Operating days per year", "common practice: about 250 working days a year"
+    )
+    time_step: Qty("s", gt=0, le=10) = qfield(1.0, "s", "Simulation time step", ASSUMPTION)
+    smoothing_window: Qty("m", ge=0, le=5000) = qfield(
+        250.0, "m", "Elevation smoothing window for CSV and GPX traces (0 = off)", ASSUMPTION
+    )
+    max_accel: Qty("m/s^2", gt=0, le=3) = qfield(
+        0.4, "m/s^2", "Acceleration limit for synthetic routes",
+        "common practice: 0.3–0.5 m/s² for a loaded heavy truck"
+    )
+    max_decel: Qty("m/s^2", gt=0, le=5) = qfield(
+        0.8, "m/s^2", "Service-braking deceleration for synthetic routes",
+        "common practice: 0.7–1.0 m/s² comfortable braking for heavy trucks"
+    )

@@ -1,0 +1,170 @@
+"""Scenario sections describing the trucks' physics: body, diesel and electric powertrains."""
+from __future__ import annotations
+
+from typing import Literal
+
+from pydantic import Field, model_validator
+
+from tco.scenario.base import ASSUMPTION, Qty, Section, qfield
+
+EU_TYRE_LABEL = (
+    "Regulation (EU) 2020/740, Annex I Part A: C3 (truck) tyre rolling-resistance classes "
+    "A ≤ 4.0, B 4.1–5.0, C 5.1–6.0 kg/t; 5.5 kg/t is the middle of class C"
+)
+COMMON_DRIVETRAIN = "common practice: battery-to-wheel drivetrain efficiency about 90 %"
+COMMON_DRIVELINE = "common practice: engine-output-to-wheel driveline efficiency about 85–90 % at highway load"
+JEC_FUELS = "JEC Well-to-Tank report v5 (JRC, 2020), standard properties of fuels"
+
+
+class Body(Section):
+    """The vehicle as the road sees it: masses, aerodynamics, tyres."""
+
+    curb_mass: Qty("kg", gt=0) = qfield(
+        ..., "kg", "Empty mass of the complete combination ready to drive (tractor, trailer, "
+        "battery or full tank, driver)"
+    )
+    gross_mass_limit: Qty("kg", gt=0) = qfield(
+        40000.0, "kg", "Legal gross combination weight limit for this operation; set it to "
+        "your local law", ASSUMPTION + "; weight limits vary by jurisdiction"
+    )
+    zero_emission_allowance: Qty("kg", ge=0) = qfield(
+        0.0, "kg", "Extra gross weight allowed for a zero-emission truck, where the local law "
+        "grants one (electric trucks only)", ASSUMPTION + "; varies by jurisdiction"
+    )
+    frontal_area: Qty("m^2", gt=0) = qfield(
+        10.0, "m^2", "Frontal area", "common practice: 9–10.5 m² for a tractor with a box trailer"
+    )
+    drag_coefficient: Qty("", gt=0, le=2) = qfield(
+        0.6, "", "Aerodynamic drag coefficient Cd",
+        "common practice: 0.55–0.65 for a tractor-trailer with a roof deflector"
+    )
+    rolling_resistance: Qty("", ge=0, le=0.05) = qfield(
+        0.0055, "", "Rolling-resistance coefficient at low speed (kg/t ÷ 1000)", EU_TYRE_LABEL
+    )
+    rolling_resistance_speed: Qty("s/m", ge=0) = qfield(
+        0.0, "s/m", "Speed dependence of the rolling-resistance coefficient: "
+        "Crr(v) = Crr + k·v", ASSUMPTION + " (no speed dependence)"
+    )
+    rotating_mass_factor: Qty("", ge=1, le=1.5) = qfield(
+        1.05, "", "Equivalent-mass factor for rotating parts (wheels, driveline) in acceleration",
+        "common practice: 1.03–1.10 for a loaded heavy truck"
+    )
+
+
+class Diesel(Section):
+    """Diesel powertrain: engine, driveline and fuel model."""
+
+    engine_power: Qty("kW", gt=0) = qfield(..., "kW", "Rated engine power")
+    driveline_efficiency: Qty("", gt=0, le=1) = qfield(
+        0.88, "", "Engine-output-to-wheel efficiency (gearbox, axle)", COMMON_DRIVELINE
+    )
+    accessory_power: Qty("kW", ge=0) = qfield(
+        3.0, "kW", "Engine-driven accessory load (air compressor, alternator, fan, steering)",
+        ASSUMPTION
+    )
+    fuel_model: Literal["willans", "constant_bsfc"] = qfield(
+        "willans", "", "Fuel model: the Willans line (part-load) or a constant BSFC",
+        "Willans line: fuel power linear in engine power (published part-load model)"
+    )
+    bsfc: Qty("g/kWh", gt=100, lt=400) = qfield(
+        200.0, "g/kWh", "Brake-specific fuel consumption for the constant-BSFC model",
+        "from memory: typical heavy-duty cycle average 200–215 g/kWh"
+    )
+    willans_efficiency: Qty("", gt=0, le=0.7) = qfield(
+        0.48, "", "Willans line marginal efficiency (slope of brake power over fuel power)",
+        ASSUMPTION + "; gives about 44 % brake efficiency at rated power with the default loss"
+    )
+    willans_loss_share: Qty("", ge=0, le=0.5) = qfield(
+        0.08, "", "Willans line friction and pumping loss at zero load, as a share of rated "
+        "power", ASSUMPTION
+    )
+    idle_fuel_rate: Qty("L/h", ge=0) = qfield(
+        2.42, "L/h", "Fuel burned while idling when stopped",
+        "US DOE Vehicle Technologies Office, Fact of the Week #861 (2015): 0.64 US gal/h "
+        "for a loaded tractor-semitrailer"
+    )
+    fuel_density: Qty("kg/L", gt=0.7, lt=1.0) = qfield(0.832, "kg/L", "Diesel density", JEC_FUELS)
+    fuel_lhv: Qty("MJ/kg", gt=30, lt=50) = qfield(
+        43.1, "MJ/kg", "Diesel lower heating value", JEC_FUELS
+    )
+    def_ratio: Qty("", ge=0, le=0.1) = qfield(
+        0.02, "", "Diesel exhaust fluid used per litre of diesel",
+        "common practice: about 2 % of diesel volume (trade range 2–4 %)"
+    )
+
+
+class EnRoute(Section):
+    """Optional en-route (public or opportunity) charging during the day."""
+
+    power: Qty("kW", ge=0) = qfield(
+        0.0, "kW", "Charger power available en route; 0 means no en-route charging", ASSUMPTION
+    )
+    efficiency: Qty("", gt=0, le=1) = qfield(
+        0.92, "", "Grid-to-battery efficiency at the en-route (DC) charger",
+        "from memory: about 90 % (85–95 %) typical for DC charging"
+    )
+    overhead: Qty("min", ge=0) = qfield(
+        10.0, "min", "Time lost per en-route charging stop besides charging (detour, plugging)",
+        ASSUMPTION
+    )
+
+
+class Electric(Section):
+    """Battery-electric powertrain: battery, motor, regeneration, auxiliaries, charging."""
+
+    battery_capacity: Qty("kWh", gt=0) = qfield(..., "kWh", "Nominal battery capacity")
+    usable_share: Qty("", gt=0, le=1) = qfield(
+        0.9, "", "Share of the nominal capacity the battery management lets you use", ASSUMPTION
+    )
+    battery_mass: Qty("kg", ge=0) = qfield(
+        0.0, "kg", "Battery mass (already inside curb mass; shown for the payload analysis)",
+        ASSUMPTION
+    )
+    motor_power: Qty("kW", gt=0) = qfield(..., "kW", "Rated (continuous) motor power")
+    regen_power: Qty("kW", ge=0) = qfield(
+        300.0, "kW", "Maximum regenerative charging power into the battery", ASSUMPTION
+    )
+    drivetrain_efficiency: Qty("", gt=0, le=1) = qfield(
+        0.90, "", "Battery-to-wheel efficiency in traction", COMMON_DRIVETRAIN
+    )
+    regen_efficiency: Qty("", ge=0, le=1) = qfield(
+        0.85, "", "Wheel-to-battery efficiency when regenerating", ASSUMPTION
+    )
+    aux_power: Qty("kW", ge=0) = qfield(
+        2.5, "kW", "Auxiliary load (compressor, steering, electronics) besides cabin climate",
+        ASSUMPTION
+    )
+    heating_per_kelvin: Qty("kW/K", ge=0) = qfield(
+        0.15, "kW/K", "Cabin and battery heating load per kelvin below the comfort band",
+        ASSUMPTION
+    )
+    cooling_per_kelvin: Qty("kW/K", ge=0) = qfield(
+        0.12, "kW/K", "Cabin and battery cooling load per kelvin above the comfort band",
+        ASSUMPTION
+    )
+    comfort_low: Qty("degC") = qfield(15.0, "degC", "Lower edge of the comfort band", ASSUMPTION)
+    comfort_high: Qty("degC") = qfield(24.0, "degC", "Upper edge of the comfort band", ASSUMPTION)
+    charging_efficiency: Qty("", gt=0, le=1) = qfield(
+        0.90, "", "Grid-to-battery efficiency at the depot charger (meter to cells)",
+        "from memory: about 90 % (85–95 %) typical for depot or DC charging"
+    )
+    reserve: Qty("", ge=0, lt=1) = qfield(
+        0.10, "", "State of charge that must remain at the end of the day", ASSUMPTION
+    )
+    start_soc: Qty("", gt=0, le=1) = qfield(
+        1.0, "", "State of charge when the day starts (after overnight charging)", ASSUMPTION
+    )
+    eol_state_of_health: Qty("", gt=0, le=1) = qfield(
+        0.80, "", "State of health (usable capacity share) at the battery's end of life",
+        "common practice: 70–80 % for traction batteries"
+    )
+    cycle_life: Qty("", gt=0) = qfield(
+        3000.0, "", "Full equivalent cycles until the end-of-life state of health", ASSUMPTION
+    )
+    enroute: EnRoute = Field(default_factory=EnRoute, description="En-route charging")
+
+    @model_validator(mode="after")
+    def _band(self):
+        if self.comfort_low > self.comfort_high:
+            raise ValueError("comfort_low is above comfort_high")
+        return self

@@ -1,0 +1,197 @@
+"""Units at the edges: parsing quantity inputs with pint and converting for display.
+
+Everything inside the models is SI (m, s, kg, W, J, m³, K, m/s). Users write either a
+plain number in a field's documented default unit or a string with units (``"36 t"``,
+``"73000 lb"``, ``"62 mph"``, ``"1.3 kWh/km"``); :func:`to_si` turns either into a float
+in SI. :func:`display` converts back to metric or US customary units for reports.
+
+Money is never a pint quantity: pint silently drops a ``$`` sign, so amounts are plain
+numbers in the scenario's declared ISO 4217 currency, and a currency symbol in a
+quantity string is rejected with a clear message.
+"""
+from __future__ import annotations
+
+import re
+from functools import lru_cache
+
+import numpy as np
+import pint
+
+ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+ureg.define("percent_grade = 0.01 = pct_grade")
+Q_ = ureg.Quantity
+
+#: Standard acceleration of gravity [m/s²] (CGPM 1901; equals ``scipy.constants.g``).
+G = 9.80665
+
+_CURRENCY_SIGNS = re.compile(r"[$€£¥₹]")
+
+
+class UnitError(ValueError):
+    """A quantity string that cannot be read in the expected unit."""
+
+
+@lru_cache(maxsize=512)
+def _si_factor(unit: str) -> tuple[float, float, str]:
+    """Scale and offset taking ``unit`` to its SI base unit, and the base unit's name."""
+    try:
+        q = Q_(1.0, unit).to_base_units()
+        zero = Q_(0.0, unit).to_base_units().magnitude
+    except ValueError:  # a scaled unit such as "L/(100 km)"
+        q = ureg.parse_expression(unit).to_base_units()
+        zero = 0.0
+    return q.magnitude - zero, zero, str(q.units)
+
+
+def _parse_string(text: str) -> pint.Quantity:
+    if _CURRENCY_SIGNS.search(text):
+        raise UnitError(
+            f"'{text}' has a currency sign; write money as a plain number in the "
+            "scenario's currency"
+        )
+    cleaned = text.strip().replace("%", " percent").replace("²", "^2").replace("³", "^3")
+    try:
+        q = ureg.parse_expression(cleaned)
+    except Exception as exc:  # pint raises several unrelated types
+        raise UnitError(f"cannot read '{text}' as a quantity ({type(exc).__name__})") from None
+    if not isinstance(q, pint.Quantity):
+        q = Q_(float(q), "")
+    return q
+
+
+def to_si(value: float | int | str, unit: str) -> float:
+    """Convert a user's value to SI.
+
+    Parameters
+    ----------
+    value : float, int or str
+        A number in ``unit``, or a string with its own unit (``"62 mph"``).
+    unit : str
+        The field's documented default unit, as pint writes it (``"km/h"``, ``"t"``).
+
+    Returns
+    -------
+    float
+        The value in the SI base unit of ``unit``'s dimension.
+
+    Raises
+    ------
+    UnitError
+        When the string cannot be parsed or has the wrong dimension.
+
+    Examples
+    --------
+    >>> round(to_si("62 mph", "km/h"), 4)
+    27.7165
+    >>> to_si(36, "t")
+    36000.0
+    """
+    if isinstance(value, bool):
+        raise UnitError("expected a number or a quantity string, got true/false")
+    if isinstance(value, (int, float, np.integer, np.floating)):
+        scale, offset, _ = _si_factor(unit)
+        out = float(value) * scale + offset
+    elif isinstance(value, str):
+        q = _parse_string(value)
+        target = ureg.parse_expression(unit) if "(" in unit else Q_(1.0, unit)
+        if q.dimensionality != target.dimensionality:
+            if q.dimensionless:
+                # a bare number inside a string: read it in the default unit
+                return to_si(float(q.to("").magnitude), unit)
+            raise UnitError(
+                f"'{value}' is not a {_dimension_name(unit)} (expected units like '{unit}')"
+            )
+        out = float(q.to_base_units().magnitude)
+    else:
+        raise UnitError(f"expected a number or a quantity string, got {type(value).__name__}")
+    if not np.isfinite(out):
+        raise UnitError(f"'{value}' is not a finite number")
+    return out
+
+
+def from_si(value, unit: str):
+    """Convert an SI value (scalar or array) to ``unit``."""
+    scale, offset, _ = _si_factor(unit)
+    return (np.asarray(value, dtype=float) - offset) / scale if not np.isscalar(value) \
+        else (float(value) - offset) / scale
+
+
+def si_unit_of(unit: str) -> str:
+    """Name of the SI base unit for ``unit``'s dimension (``"km/h"`` -> ``"meter / second"``)."""
+    return _si_factor(unit)[2]
+
+
+_DIMENSION_NAMES = {
+    "[length]": "length",
+    "[mass]": "mass",
+    "[time]": "time",
+    "[length] / [time]": "speed",
+    "[length] ** 2": "area",
+    "[length] ** 3": "volume",
+    "[mass] * [length] ** 2 / [time] ** 3": "power",
+    "[mass] * [length] ** 2 / [time] ** 2": "energy",
+    "[temperature]": "temperature",
+    "[mass] / [length] ** 3": "density",
+    "[mass] * [length] / [time] ** 2": "force",
+    "[mass] * [length] / [time] ** 2 / [length]": "energy per distance",
+}
+
+
+def _dimension_name(unit: str) -> str:
+    dim = str(ureg.parse_expression(unit).dimensionality) if "(" in unit \
+        else str(Q_(1.0, unit).dimensionality)
+    return _DIMENSION_NAMES.get(dim, f"quantity of dimension {dim}")
+
+
+# --------------------------------------------------------------------------- display
+#: Display units per quantity kind for each unit system: (unit for pint, label).
+DISPLAY_UNITS: dict[str, dict[str, tuple[str, str]]] = {
+    "metric": {
+        "distance": ("km", "km"),
+        "speed": ("km/h", "km/h"),
+        "mass": ("t", "t"),
+        "volume": ("L", "L"),
+        "energy": ("kWh", "kWh"),
+        "power": ("kW", "kW"),
+        "energy_per_distance": ("kWh/km", "kWh/km"),
+        "volume_per_distance": ("L/(100 km)", "L/100 km"),
+        "elevation": ("m", "m"),
+        "temperature": ("degC", "°C"),
+        "area": ("m^2", "m²"),
+        "mass_transport": ("t*km", "t·km"),
+        "emissions_per_distance": ("g/km", "g CO2e/km"),
+        "emissions_per_transport": ("g/(t*km)", "g CO2e/t·km"),
+    },
+    "us": {
+        "distance": ("mi", "mi"),
+        "speed": ("mph", "mph"),
+        "mass": ("lb", "lb"),
+        "volume": ("gal", "US gal"),
+        "energy": ("kWh", "kWh"),
+        "power": ("hp", "hp"),
+        "energy_per_distance": ("kWh/mi", "kWh/mi"),
+        "volume_per_distance": ("gal/(100 mi)", "gal/100 mi"),
+        "elevation": ("ft", "ft"),
+        "temperature": ("degF", "°F"),
+        "area": ("ft^2", "ft²"),
+        "mass_transport": ("ton*mi", "ton-mi"),
+        "emissions_per_distance": ("g/mi", "g CO2e/mi"),
+        "emissions_per_transport": ("g/(ton*mi)", "g CO2e/ton-mi"),
+    },
+}
+
+
+def display(value_si, kind: str, system: str = "metric") -> tuple[float, str]:
+    """Convert an SI value to the display unit of ``kind`` in ``system``.
+
+    Returns the converted value and the unit's label.
+    """
+    unit, label = DISPLAY_UNITS[system][kind]
+    return from_si(value_si, unit), label
+
+
+def mpg_us(volume_per_distance_si: float) -> float:
+    """Miles per US gallon from fuel use [m³/m]; ``inf`` for zero use."""
+    if volume_per_distance_si <= 0:
+        return float("inf")
+    return 1.0 / from_si(volume_per_distance_si, "gal/mi")
