@@ -83,3 +83,88 @@ class AnnualOperation:
     def grid_energy(self) -> float:
         """All electricity bought per year, depot and public. [J/yr]"""
         return self.grid_energy_depot + self.grid_energy_public
+
+
+def payload_capacity(curb_mass, gross_mass_limit, allowance=0.0):
+    """Payload a truck may legally carry.
+
+    ``capacity = gross_mass_limit + allowance − curb_mass`` (never below zero).
+
+    Parameters
+    ----------
+    curb_mass : float or array
+        Empty mass of the combination ready to drive. [kg]
+    gross_mass_limit : float or array
+        Legal gross combination weight. [kg]
+    allowance : float or array
+        Extra gross weight granted to zero-emission trucks where the law allows it. [kg]
+
+    Returns
+    -------
+    float or array
+        Payload capacity. [kg]
+    """
+    return np.maximum(np.asarray(gross_mass_limit) + allowance - curb_mass, 0.0)
+
+
+def extra_trips(trips, requested_payload_distance, carried_payload_distance):
+    """Extra trips needed to move the requested tonnage when less fits per trip.
+
+    ``extra = trips · (requested / carried − 1)``, zero when everything fits.
+
+    Parameters
+    ----------
+    trips : float
+        Trips per year with full payload. [1/yr]
+    requested_payload_distance, carried_payload_distance : float
+        Payload × distance of one trip as requested and as legally carried. [kg·m]
+
+    Returns
+    -------
+    float
+        Extra trips per year; ``inf`` when nothing can be carried but something must be.
+        [1/yr]
+    """
+    if requested_payload_distance <= 0:
+        return 0.0
+    if carried_payload_distance <= 0:
+        return float("inf")
+    return max(trips * (requested_payload_distance / carried_payload_distance - 1.0), 0.0)
+
+
+def charging_profile(energy, power, window_start_h, window_end_h):
+    """Hour-of-day shares of depot charging that starts when the window opens.
+
+    The truck charges at ``power`` from ``window_start_h`` until ``energy`` is delivered
+    (wrapping past midnight). If the window is too short the remainder is spread over the
+    window's last hour, and the shortfall is for the caller to report.
+
+    Parameters
+    ----------
+    energy : float
+        Energy to draw from the grid per day. [J]
+    power : float
+        Charging power at the meter. [W]
+    window_start_h, window_end_h : int
+        Hours of day (0–23) when the window opens and closes (end exclusive; a window
+        from 20 to 6 spans the night).
+
+    Returns
+    -------
+    numpy.ndarray
+        24 shares summing to 1 (all zeros if ``energy`` is 0). [-]
+    """
+    shares = np.zeros(24)
+    if energy <= 0:
+        return shares
+    hours = (window_end_h - window_start_h) % 24 or 24
+    left = energy
+    per_hour = power * 3600.0
+    for k in range(hours):
+        h = (window_start_h + k) % 24
+        take = min(left, per_hour) if k < hours - 1 else left
+        shares[h] += take
+        left -= take
+        if left <= 0:
+            break
+    return shares / energy
