@@ -1,0 +1,1418 @@
+"""Greenhouse-gas emissions of each truck per year: factor sets, scopes, grid, hour matching.
+
+The model turns the yearly physical quantities of :class:`tco.operation.AnnualOperation`
+(diesel and DEF volumes, electricity at the meter, distance, payload-distance) into
+kilograms of CO2e, in the frames a sustainability officer reports: GHG Protocol Scope 1,
+Scope 2 (location- and market-based side by side), Scope 3 category 3, and the transport
+view of ISO 14083 (tank-to-wheel, well-to-wheel, grams CO2e per tonne-km and per km).
+An optional life-cycle add-on (manufacturing of vehicle and battery) is kept apart from
+all operational totals.
+
+Method
+------
+Line items per truck and year ``y`` (all in kg CO2e; volumes in m³, energy in J)::
+
+    diesel_co2            = V_diesel · f_CO2                          Scope 1 (TTW)
+    diesel_ch4_n2o        = V_diesel · Σ_g f_g · GWP_g + d · Σ_g f'_g · GWP_g
+                                                                      Scope 1 (TTW)
+    def_urea_co2          = V_DEF · ρ_DEF · w_urea · 12/60 · 44/12    Scope 1 (TTW)
+    electricity_location  = (E_depot · m + E_public) · I(y)           Scope 2, location
+    electricity_market    = (1 − r) · E_depot · (I_supplier  or  m · I(y))
+                            + E_public · I(y)                         Scope 2, market
+    diesel_upstream       = V_diesel · f_WTT                          Scope 3 cat. 3
+    electricity_upstream  = E · u                                     Scope 3 cat. 3
+    electricity_td_losses = electricity_location · L / (1 − L)        Scope 3 cat. 3
+
+with ``E = E_depot + E_public`` the electricity at the meter (charging losses included),
+``d`` the distance (per-distance CH4/N2O factors), ``r`` the contracted renewable share,
+``u`` the electricity upstream factor and ``L`` the transmission-and-distribution loss
+share of the grid. The supplier contract and the renewable share cover depot electricity
+only; public charging is bought from others and counted at the grid intensity in both
+Scope 2 figures. The Scope 3 category 3 lines are the same in the location- and the
+market-based totals. The grid intensity follows either a compound trajectory
+
+    I(y) = max(I0 · (1 + c)^(y − y0), min(I_floor, I0))
+
+or a year table (linear between listed years, held flat outside them). The hour-matching
+multiplier of depot charging is ``m = Σ_h p_h · s_h / mean(s)`` with ``p`` the 24 hour-of-day
+shares of the charging schedule and ``s`` the hour-of-day intensity profile; a flat profile
+gives ``m = 1``.
+
+Frames: Scope 1 = the three diesel/DEF lines = tank-to-wheel (TTW); well-to-tank (WTT) =
+Scope 2 + Scope 3 cat. 3; well-to-wheel (WTW) = TTW + WTT = Scope 1 + 2 + 3 cat. 3, on the
+location basis (``wtw``) and the market basis (``wtw_market``). Intensities are
+WTW (or TTW) divided by payload-distance or distance.
+
+Comparison: avoided emissions of truck ``k`` in year ``y`` are
+``WTW_ref(y) − WTW_k(y)``; the abatement cost is ``ΔPV / Σ_y avoided(y) · w_y`` with
+``ΔPV = PV cost_k − PV cost_ref`` from the cash-flow model and ``w_y = 1`` (default,
+undiscounted tonnes) or ``(1 + i)^-(y − y0 + 1)``.
+
+References
+----------
+.. [1] IPCC (2006), 2006 IPCC Guidelines for National Greenhouse Gas Inventories, Vol. 2
+   Energy, Ch. 1 (Tables 1.2, 1.4) and Ch. 3 Mobile Combustion (Table 3.2.2; urea-based
+   catalytic converters, Eq. 3.2.2).
+.. [2] US EPA (2025), GHG Emission Factors Hub, Tables 2 and 4.
+.. [3] CEN (2012), EN 16258:2012 Methodology for calculation and declaration of energy
+   consumption and GHG emissions of transport services, Annex A.
+.. [4] WRI/WBCSD (2015), GHG Protocol Scope 2 Guidance; (2011) Corporate Value Chain
+   (Scope 3) Standard, category 3.
+.. [5] ISO 14083:2023, Greenhouse gases — Quantification and reporting of greenhouse gas
+   emissions arising from transport chain operations.
+"""
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import TYPE_CHECKING, Any, Mapping, Sequence
+
+import numpy as np
+import pandas as pd
+
+from tco.errors import InputError
+from tco.units import Q_
+
+if TYPE_CHECKING:  # pragma: no cover
+    from tco.operation import AnnualOperation
+    from tco.scenario.emissions import EmissionsSettings
+
+#: Folder of the shipped factor tables (package data).
+DATA_DIR = Path(__file__).with_name("data")
+#: The shipped emission factor tables (other models keep their own tables in the folder).
+SHIPPED_TABLES = ("us_epa_ghg_hub_2025.csv", "ipcc_2006_guidelines.csv", "en_16258_2012.csv",
+                  "ipcc_gwp.csv")
+
+#: Molar-mass ratios of the IPCC 2006 urea equation (Vol. 2 Ch. 3): C in urea, CO2 per C.
+UREA_CARBON_RATIO = 12.0 / 60.0
+CO2_PER_CARBON = 44.0 / 12.0
+
+#: The set whose well-to-tank figure is used when the chosen diesel set has none.
+UPSTREAM_FALLBACK_SET = "en_16258_2012"
+
+#: Line items: (name, scope, basis). Basis "both" lines belong to the location- and the
+#: market-based totals; the two Scope 2 lines are alternatives, never added together.
+LINES: tuple[tuple[str, str, str], ...] = (
+    ("diesel_co2", "scope_1", "both"),
+    ("diesel_ch4_n2o", "scope_1", "both"),
+    ("def_urea_co2", "scope_1", "both"),
+    ("electricity_location", "scope_2", "location"),
+    ("electricity_market", "scope_2", "market"),
+    ("diesel_upstream", "scope_3_cat3", "both"),
+    ("electricity_upstream", "scope_3_cat3", "both"),
+    ("electricity_td_losses", "scope_3_cat3", "both"),
+)
+LINE_NAMES = tuple(n for n, _, _ in LINES)
+TTW_LINES = ("diesel_co2", "diesel_ch4_n2o", "def_urea_co2")
+
+#: Reporting frames built from the lines (kg CO2e per year).
+FRAMES = (
+    "scope_1", "scope_2_location", "scope_2_market", "scope_3_cat3",
+    "total_location", "total_market", "ttw", "wtt", "wtt_market", "wtw", "wtw_market",
+)
+
+# --------------------------------------------------------------------------- factor tables
+REQUIRED_COLUMNS = ("set", "quantity", "value", "unit", "source", "year")
+OPTIONAL_COLUMNS = ("status", "note")
+
+# bases by pint dimensionality of the SI unit
+_BASES = {
+    "[mass] / [length] ** 3": "volume",
+    "[time] ** 2 / [length] ** 2": "energy",
+    "dimensionless": "mass",
+    "[mass] / [length]": "distance",
+    "[length] ** 2 / [time] ** 2": "specific_energy",
+}
+_FUEL_BASES = {"volume", "energy", "mass"}
+#: Known quantities and the bases each accepts.
+QUANTITIES: dict[str, set[str]] = {
+    "diesel.co2": _FUEL_BASES,
+    "diesel.ch4": _FUEL_BASES | {"distance"},
+    "diesel.n2o": _FUEL_BASES | {"distance"},
+    "diesel.co2e_ttw": _FUEL_BASES,
+    "diesel.co2e_wtw": _FUEL_BASES,
+    "diesel.co2e_wtt": _FUEL_BASES,
+    "diesel.net_calorific_value": {"specific_energy"},
+    "diesel.density": {"volume"},
+    "gwp.co2": {"mass"},
+    "gwp.ch4": {"mass"},
+    "gwp.n2o": {"mass"},
+}
+_SET_NAME = re.compile(r"^[A-Za-z0-9_.\-]+$")
+_GAS_WORDS = re.compile(r"\b(CO2e|CO2|CH4|N2O)\b", re.IGNORECASE)
+
+
+def _unit_si(unit: str) -> tuple[float, str]:
+    """Scale to SI and basis name of a factor unit; raises ValueError when unreadable."""
+    cleaned = _GAS_WORDS.sub("", unit).strip()
+    cleaned = re.sub(r"\s+/", "/", re.sub(r"/\s+", "/", cleaned))
+    q = Q_(1.0, cleaned if cleaned else "").to_base_units()
+    dim = str(q.dimensionality) if str(q.dimensionality) != "dimensionless" else "dimensionless"
+    if dim not in _BASES:
+        raise ValueError(f"unit '{unit}' is not a factor unit (dimension {dim})")
+    return float(q.magnitude), _BASES[dim]
+
+
+_CACHE: dict[tuple[str, int, int], pd.DataFrame] = {}
+
+
+def load_factor_table(path: str | Path) -> pd.DataFrame:
+    """Read and check one factor table.
+
+    Parameters
+    ----------
+    path : str or Path
+        A CSV file in the format of ``tco/data/README.md``.
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per factor with the file's columns plus ``value_si`` (value in SI units),
+        ``basis`` (``volume``, ``energy``, ``mass``, ``distance``, ``specific_energy``),
+        ``file`` and ``row`` (line number in the file, header = 1).
+
+    Raises
+    ------
+    InputError
+        Naming the file and the row (or the set) for any problem.
+
+    Examples
+    --------
+    >>> t = load_factor_table(DATA_DIR / "ipcc_gwp.csv")
+    >>> float(t.query("set == 'ipcc_ar5' and quantity == 'gwp.ch4'").value.iloc[0])
+    28.0
+    """
+    path = Path(path)
+    if not path.is_file():
+        raise InputError("factor table not found", file=path)
+    stat = path.stat()
+    key = (str(path.resolve()), stat.st_mtime_ns, stat.st_size)
+    if key not in _CACHE:  # settings validation and flat_params read the same files
+        _CACHE[key] = _read_factor_table(path)
+    return _CACHE[key].copy()
+
+
+def _read_factor_table(path: Path) -> pd.DataFrame:
+    try:
+        raw = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True)
+    except Exception as exc:  # pandas raises several parser errors
+        raise InputError(f"cannot read as CSV ({type(exc).__name__}: {exc})", file=path) \
+            from None
+    raw.columns = [str(c).strip() for c in raw.columns]
+    missing = [c for c in REQUIRED_COLUMNS if c not in raw.columns]
+    if missing:
+        raise InputError(f"missing column(s) {', '.join(missing)}; a factor table needs "
+                         f"{', '.join(REQUIRED_COLUMNS)}", file=path, where="header")
+    rows = []
+    seen: dict[tuple[str, str], int] = {}
+    for i, rec in enumerate(raw.to_dict("records")):
+        line = i + 2
+        where = f"row {line}"
+        rec = {k: str(v).strip() for k, v in rec.items()}
+        name, quantity = rec["set"], rec["quantity"]
+        if not _SET_NAME.match(name):
+            raise InputError(f"set name '{name}' must be letters, digits, '_', '-' or '.'",
+                             file=path, where=where)
+        if quantity not in QUANTITIES:
+            raise InputError(f"unknown quantity '{quantity}' (known: "
+                             f"{', '.join(QUANTITIES)})", file=path, where=where)
+        try:
+            value = float(rec["value"])
+        except ValueError:
+            raise InputError(f"value '{rec['value']}' is not a number", file=path,
+                             where=where) from None
+        if not math.isfinite(value) or value < 0:
+            raise InputError(f"value {rec['value']} must be a finite number, zero or more",
+                             file=path, where=where)
+        try:
+            scale, basis = _unit_si(rec["unit"])
+        except Exception as exc:
+            msg = str(exc) if isinstance(exc, ValueError) and "factor unit" in str(exc) \
+                else f"cannot read unit '{rec['unit']}'"
+            raise InputError(msg, file=path, where=where) from None
+        if basis not in QUANTITIES[quantity]:
+            raise InputError(f"unit '{rec['unit']}' gives a {basis} basis; {quantity} accepts "
+                             f"{', '.join(sorted(QUANTITIES[quantity]))}", file=path,
+                             where=where)
+        if not rec["source"]:
+            raise InputError("source is empty; every factor needs a citation", file=path,
+                             where=where)
+        try:
+            year = int(float(rec["year"]))
+        except ValueError:
+            raise InputError(f"year '{rec['year']}' is not a year", file=path,
+                             where=where) from None
+        if not 1800 <= year <= 2200:
+            raise InputError(f"year {year} is out of range", file=path, where=where)
+        key = (name, quantity)
+        if key in seen:
+            raise InputError(f"{quantity} of set '{name}' is given twice (also row "
+                             f"{seen[key]})", file=path, where=where)
+        seen[key] = line
+        rows.append({
+            "set": name, "quantity": quantity, "value": value, "unit": rec["unit"],
+            "source": rec["source"], "year": year, "status": rec.get("status", ""),
+            "note": rec.get("note", ""), "value_si": value * scale, "basis": basis,
+            "file": str(path), "row": line,
+        })
+    table = pd.DataFrame(rows, columns=[
+        "set", "quantity", "value", "unit", "source", "year", "status", "note",
+        "value_si", "basis", "file", "row"])
+    _check_sets(table, path)
+    return table
+
+
+def _check_sets(table: pd.DataFrame, path: Path) -> None:
+    for name, rows in table.groupby("set", sort=False):
+        q = dict(zip(rows.quantity, rows.basis))
+        where = f"set '{name}'"
+        if "diesel.co2" in q and "diesel.co2e_ttw" in q:
+            raise InputError("gives both diesel.co2 and diesel.co2e_ttw; keep one",
+                             file=path, where=where)
+        if "diesel.co2e_wtw" in q and "diesel.co2e_wtt" in q:
+            raise InputError("gives both diesel.co2e_wtw and diesel.co2e_wtt; keep one",
+                             file=path, where=where)
+        diesel = [k for k in q if k.startswith("diesel.")]
+        if diesel and not ({"diesel.co2", "diesel.co2e_ttw"} & set(q)) and (
+                {"diesel.ch4", "diesel.n2o", "diesel.co2e_wtw"} & set(q)):
+            raise InputError("has no tank-to-wheel CO2 (diesel.co2 or diesel.co2e_ttw)",
+                             file=path, where=where)
+        bases = {q[k] for k in diesel}
+        if "energy" in bases:
+            for need in ("diesel.net_calorific_value", "diesel.density"):
+                if need not in q:
+                    raise InputError(f"has per-energy factors but no {need} row",
+                                     file=path, where=where)
+        if "mass" in bases and "diesel.density" not in q:
+            raise InputError("has per-mass factors but no diesel.density row",
+                             file=path, where=where)
+        gwp = [k for k in q if k.startswith("gwp.")]
+        if gwp and not {"gwp.ch4", "gwp.n2o"} <= set(q):
+            raise InputError("a GWP set needs gwp.ch4 and gwp.n2o", file=path, where=where)
+
+
+def factor_table(extra_file: str | Path | None = None) -> pd.DataFrame:
+    """All shipped factor tables, plus a user's file when given.
+
+    Parameters
+    ----------
+    extra_file : str or Path, optional
+        A user's CSV in the same format; its set names must not clash with shipped ones.
+
+    Returns
+    -------
+    pandas.DataFrame
+        The rows of every table (see :func:`load_factor_table`).
+    """
+    tables = [load_factor_table(DATA_DIR / name) for name in SHIPPED_TABLES]
+    if extra_file is not None:
+        tables.append(load_factor_table(extra_file))
+    owner: dict[str, str] = {}
+    for t in tables:
+        for name in t["set"].unique():
+            f = t.loc[t["set"] == name, "file"].iloc[0]
+            if name in owner and owner[name] != f:
+                raise InputError(f"factor set '{name}' is also defined in {owner[name]}; "
+                                 "use another set name", file=f, where=f"set '{name}'")
+            owner[name] = f
+    return pd.concat(tables, ignore_index=True)
+
+
+def diesel_sets(table: pd.DataFrame) -> list[str]:
+    """Names of the sets that give diesel tank-to-wheel factors."""
+    m = table.quantity.isin(["diesel.co2", "diesel.co2e_ttw"])
+    return list(dict.fromkeys(table.loc[m, "set"]))
+
+
+def gwp_sets(table: pd.DataFrame) -> list[str]:
+    """Names of the sets that give global warming potentials."""
+    return list(dict.fromkeys(table.loc[table.quantity == "gwp.ch4", "set"]))
+
+
+# --------------------------------------------------------------------------- diesel
+@dataclass(frozen=True)
+class DieselFactors:
+    """Diesel factors of one set and GWP set, per volume of fuel (SI).
+
+    Attributes
+    ----------
+    co2 : float
+        Tank-to-wheel CO2 (all-gas CO2e when the set gives one figure). [kg/m³]
+    ch4_n2o : float
+        CH4 and N2O as CO2e, per volume. [kg/m³]
+    ch4_n2o_distance : float
+        CH4 and N2O as CO2e, per distance driven. [kg/m]
+    upstream : float or None
+        Well-to-tank CO2e, or None when the set has none. [kg/m³]
+    all_gas : bool
+        True when ``co2`` already holds all gases (CH4 and N2O inside it).
+    rows : pandas.DataFrame
+        The table rows used.
+    """
+
+    co2: float
+    ch4_n2o: float
+    ch4_n2o_distance: float
+    upstream: float | None
+    all_gas: bool
+    rows: pd.DataFrame = field(repr=False)
+
+
+def _per_volume(row: pd.Series, rows: pd.DataFrame) -> float:
+    """A fuel factor on a per-volume basis [kg/m³]."""
+    v = float(row.value_si)
+    if row.basis == "volume":
+        return v
+    density = float(rows.loc[rows.quantity == "diesel.density", "value_si"].iloc[0])
+    if row.basis == "mass":
+        return v * density
+    ncv = float(rows.loc[rows.quantity == "diesel.net_calorific_value", "value_si"].iloc[0])
+    return v * ncv * density  # energy basis: [kg/J]·[J/kg]·[kg/m³]
+
+
+def diesel_factors(table: pd.DataFrame, set_name: str, gwp_set: str) -> DieselFactors:
+    """Resolve a diesel factor set to per-volume figures with a GWP set.
+
+    ``co2 = f_CO2`` (or ``f_CO2e,TTW``); ``ch4_n2o = f_CH4·GWP_CH4 + f_N2O·GWP_N2O``;
+    ``upstream = f_WTT`` or ``f_WTW − TTW`` (per volume).
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        From :func:`factor_table`.
+    set_name : str
+        Diesel factor set name.
+    gwp_set : str
+        GWP set name.
+
+    Returns
+    -------
+    DieselFactors
+
+    Raises
+    ------
+    InputError
+        Unknown set names, or a well-to-wheel figure below the tank-to-wheel one.
+
+    Examples
+    --------
+    >>> f = diesel_factors(factor_table(), "en_16258_2012", "ipcc_ar5")
+    >>> round(f.co2 / 1000, 2), round(f.upstream / 1000, 2)   # kg CO2e per litre
+    (2.67, 0.57)
+    """
+    if set_name not in diesel_sets(table):
+        raise InputError(f"unknown diesel factor set '{set_name}' (known: "
+                         f"{', '.join(diesel_sets(table))})", where="emissions.diesel_factors")
+    gwp = gwp_values(table, gwp_set)
+    rows = table[table["set"] == set_name]
+    by_q = {r.quantity: r for r in rows.itertuples(index=False)}
+    all_gas = "diesel.co2e_ttw" in by_q
+    co2 = _per_volume(by_q["diesel.co2e_ttw" if all_gas else "diesel.co2"], rows)
+    vol = dist = 0.0
+    for gas in ("ch4", "n2o"):
+        r = by_q.get(f"diesel.{gas}")
+        if r is None:
+            continue
+        if r.basis == "distance":
+            dist += r.value_si * gwp[gas]
+        else:
+            vol += _per_volume(r, rows) * gwp[gas]
+    upstream = None
+    if "diesel.co2e_wtt" in by_q:
+        upstream = _per_volume(by_q["diesel.co2e_wtt"], rows)
+    elif "diesel.co2e_wtw" in by_q:
+        upstream = _per_volume(by_q["diesel.co2e_wtw"], rows) - co2 - vol
+        if upstream < 0:
+            r = by_q["diesel.co2e_wtw"]
+            raise InputError("well-to-wheel figure is below the tank-to-wheel one",
+                             file=r.file, where=f"row {r.row}")
+    return DieselFactors(co2, vol, dist, upstream, all_gas, rows)
+
+
+def gwp_values(table: pd.DataFrame, gwp_set: str) -> dict[str, float]:
+    """GWP100 of CO2, CH4 and N2O of a named set, e.g. ``{"co2": 1, "ch4": 28, "n2o": 265}``."""
+    if gwp_set not in gwp_sets(table):
+        raise InputError(f"unknown GWP set '{gwp_set}' (known: {', '.join(gwp_sets(table))})",
+                         where="emissions.gwp")
+    rows = table[(table["set"] == gwp_set) & table.quantity.str.startswith("gwp.")]
+    out = {"co2": 1.0}
+    out.update({q.split(".")[1]: float(v) for q, v in zip(rows.quantity, rows.value_si)})
+    return out
+
+
+def urea_co2(def_mass, urea_share=0.325):
+    """CO2 released from the urea in diesel exhaust fluid (IPCC 2006 equation).
+
+    ``CO2 = m_DEF · w_urea · 12/60 · 44/12``
+
+    Parameters
+    ----------
+    def_mass : float or array_like
+        Mass of diesel exhaust fluid used. [kg]
+    urea_share : float or array_like
+        Urea mass fraction of the fluid (0.325 for the standard fluid). [-]
+
+    Returns
+    -------
+    float, numpy.ndarray or pandas.Series
+        CO2 released (same type as ``def_mass``). [kg]
+
+    Notes
+    -----
+    All carbon in the urea is taken to leave as CO2 (the IPCC default).
+
+    Examples
+    --------
+    >>> round(urea_co2(1.0), 4)
+    0.2383
+
+    References
+    ----------
+    .. [1] IPCC (2006), 2006 IPCC Guidelines, Vol. 2, Ch. 3, Eq. 3.2.2 (urea-based
+       catalytic converters).
+    """
+    if isinstance(def_mass, (list, tuple)):
+        def_mass = np.asarray(def_mass, dtype=float)
+    if isinstance(urea_share, (list, tuple)):
+        urea_share = np.asarray(urea_share, dtype=float)
+    return def_mass * urea_share * UREA_CARBON_RATIO * CO2_PER_CARBON
+
+
+# --------------------------------------------------------------------------- electricity
+def _col(x) -> np.ndarray:
+    """A scalar or (n,) array as a column broadcasting against years: (1,) or (n, 1)."""
+    return np.asarray(x, dtype=float)[..., None]
+
+
+def grid_intensity_path(years, start, change=0.0, floor=0.0, table=None):
+    """Location-based grid intensity in each year.
+
+    Trajectory: ``I(y) = max(I0 · (1 + c)^(y − y0), min(I_floor, I0))``.
+    Table: linear interpolation between listed years, flat outside, scaled by
+    ``I0 / I(first listed year)``.
+
+    Parameters
+    ----------
+    years : array_like of int
+        The years, first = ``y0``. [yr]
+    start : float or array_like
+        Intensity in the first year (trajectory), or in the table's first listed year
+        (table). [kg/J]
+    change : float or array_like
+        Compound change per year (−0.03 for 3 % lower each year). [-/yr]
+    floor : float or array_like
+        The decline stops at this intensity; it never raises the start value. [kg/J]
+    table : mapping of int to float or array_like, optional
+        Intensity by year. [kg/J]
+
+    Returns
+    -------
+    numpy.ndarray
+        Shape ``(n_years,)`` for scalar inputs, ``(n_draws, n_years)`` for arrays. [kg/J]
+
+    Examples
+    --------
+    >>> grid_intensity_path([2030, 2031, 2032], 100.0, -0.5, 30.0).tolist()
+    [100.0, 50.0, 30.0]
+    """
+    y = np.asarray(years, dtype=float)
+    start = _col(start)
+    if table is None:
+        path = start * (1.0 + _col(change)) ** (y - y[0])
+        return np.maximum(path, np.minimum(_col(floor), start))
+    ty = np.array(sorted(table), dtype=float)
+    values = np.stack(np.broadcast_arrays(
+        *[np.asarray(table[k], dtype=float) for k in sorted(table)]))  # (k,) or (k, n)
+    eye = np.eye(len(ty))
+    weights = np.stack([np.interp(y, ty, eye[j]) for j in range(len(ty))], axis=1)  # (ny,k)
+    path = np.tensordot(weights, values, axes=(1, 0))  # (ny,) or (ny, n)
+    path = np.moveaxis(path, 0, -1)
+    first = values[0][..., None]
+    scale = np.divide(start, first, out=np.ones(np.broadcast_shapes(start.shape, first.shape)),
+                      where=first > 0)
+    return path * scale
+
+
+def hourly_profile_24(values) -> np.ndarray:
+    """Reduce an hourly intensity profile to 24 hour-of-day values.
+
+    24 values are used as they are; 8760 (or 8784, a leap year) values, starting at 00:00
+    on 1 January in local clock time, are averaged by hour of day over all days.
+
+    Parameters
+    ----------
+    values : array_like
+        24, 8760 or 8784 values, zero or more. [kg/J or any scale for a shape]
+
+    Returns
+    -------
+    numpy.ndarray
+        24 values. [same unit as ``values``]
+
+    Raises
+    ------
+    ValueError
+        Wrong number of values, negative or non-finite values, or all zero.
+    """
+    v = np.asarray(values, dtype=float).ravel()
+    if v.size not in (24, 8760, 8784):
+        raise ValueError(f"an hourly profile needs 24, 8760 or 8784 (leap year) values, got "
+                         f"{v.size}")
+    bad = np.flatnonzero(~np.isfinite(v) | (v < 0))
+    if bad.size:
+        raise ValueError(f"hourly profile value {v[bad[0]]:g} at hour {bad[0]} must be a "
+                         "finite number, zero or more")
+    if not np.any(v > 0):
+        raise ValueError("hourly profile is all zero")
+    return v.reshape(-1, 24).mean(axis=0)
+
+
+def hour_matching_factor(charging_profile, shape) -> np.ndarray | float:
+    """Multiplier on the annual intensity for a charging schedule and an hourly profile.
+
+    ``m = Σ_h p_h · s_h / mean(s)``, with ``p`` normalised to sum 1.
+
+    Parameters
+    ----------
+    charging_profile : array_like, shape (24,)
+        Share of depot grid energy drawn in each hour of the day. [-]
+    shape : array_like, shape (24,) or (24, n_draws)
+        Hour-of-day intensity profile (any scale). [-]
+
+    Returns
+    -------
+    float or numpy.ndarray
+        The multiplier; 1 for a flat profile or a flat schedule. [-]
+
+    Examples
+    --------
+    >>> hour_matching_factor([1/24] * 24, range(1, 25))
+    1.0
+    """
+    p = np.asarray(charging_profile, dtype=float)
+    total = p.sum()
+    p = p / total if total > 0 else np.full(24, 1 / 24)
+    s = np.asarray(shape, dtype=float)
+    m = np.tensordot(p, s, axes=(0, 0)) / s.mean(axis=0)
+    return float(m) if np.ndim(m) == 0 else m
+
+
+# --------------------------------------------------------------------------- parameters
+_P = "emissions."
+
+
+def _resolve(settings: "EmissionsSettings") -> tuple[dict[str, float], list[dict], list[str]]:
+    """Flat parameters, the provenance rows and notes of a validated settings section."""
+    table = factor_table(settings.factor_file)
+    d = diesel_factors(table, settings.diesel_factors, settings.gwp)
+    fields = type(settings).model_fields
+    src = lambda name: "user" if name in settings.model_fields_set \
+        else fields[name].json_schema_extra.get("source", "")  # noqa: E731
+    prov: list[dict] = []
+    notes: list[str] = []
+
+    def add(parameter, value, unit, source, status=""):
+        prov.append({"parameter": parameter, "value": value, "unit": unit,
+                     "source": source, "status": status})
+
+    for r in d.rows.itertuples(index=False):
+        add(f"{settings.diesel_factors}:{r.quantity}", r.value, r.unit, r.source, r.status)
+    grows = table[table["set"] == settings.gwp]
+    for r in grows.itertuples(index=False):
+        add(f"{settings.gwp}:{r.quantity}", r.value, r.unit, r.source, r.status)
+    if d.all_gas:
+        notes.append(f"{settings.diesel_factors} gives one all-gas tank-to-wheel CO2e figure: "
+                     "diesel_co2 holds CO2, CH4 and N2O together (diesel_ch4_n2o is zero).")
+
+    upstream = d.upstream
+    if settings.diesel_upstream is not None:
+        upstream = settings.diesel_upstream
+        add("diesel_upstream", upstream / 1000, "kg/L", "user")
+    elif upstream is None:
+        fb = diesel_factors(table, UPSTREAM_FALLBACK_SET, settings.gwp)
+        upstream = fb.upstream
+        for r in fb.rows.itertuples(index=False):
+            add(f"{UPSTREAM_FALLBACK_SET}:{r.quantity}", r.value, r.unit, r.source, r.status)
+        notes.append(f"{settings.diesel_factors} gives no well-to-tank figure: diesel upstream "
+                     f"uses {UPSTREAM_FALLBACK_SET} (well-to-wheel − tank-to-wheel).")
+
+    p: dict[str, float] = {
+        _P + "diesel_co2": d.co2,
+        _P + "diesel_ch4_n2o": d.ch4_n2o,
+        _P + "diesel_ch4_n2o_distance": d.ch4_n2o_distance,
+        _P + "diesel_upstream": float(upstream),
+        _P + "def_density": settings.def_density,
+        _P + "def_urea_share": settings.def_urea_share,
+        _P + "renewable_share": settings.renewable_share,
+        _P + "td_loss": settings.td_loss,
+        _P + "electricity_upstream": settings.electricity_upstream,
+    }
+    add("def_density", settings.def_density / 1000, "kg/L", src("def_density"))
+    add("def_urea_share", settings.def_urea_share * 100, "%", src("def_urea_share"))
+
+    profile = settings.hourly_values()
+    shape24 = np.ones(24)
+    start = settings.grid_intensity
+    if profile is not None:
+        prof24 = hourly_profile_24(profile)
+        shape24 = prof24 / prof24.mean()
+        if settings.hourly_profile_kind == "absolute":
+            start = to_si_intensity(prof24.mean())
+            notes.append("Grid intensity in the first year is the mean of the absolute hourly "
+                         "profile.")
+    if settings.grid_table:
+        for year, value in sorted(settings.grid_table.items()):
+            p[f"{_P}grid_table.{int(year)}"] = float(value)
+            add(f"grid_table.{int(year)}", value * 3.6e9, "g/kWh", src("grid_table"))
+        start = float(settings.grid_table[min(settings.grid_table)])
+        p[_P + "grid_intensity"] = start
+    else:
+        p[_P + "grid_intensity"] = float(start)
+        p[_P + "grid_change"] = settings.grid_change
+        p[_P + "grid_floor"] = settings.grid_floor
+        source = "mean of the absolute hourly profile" if (
+            profile is not None and settings.hourly_profile_kind == "absolute") \
+            else src("grid_intensity")
+        add("grid_intensity", float(start) * 3.6e9, "g/kWh", source)
+        add("grid_change", settings.grid_change * 100, "%/yr", src("grid_change"))
+        add("grid_floor", settings.grid_floor * 3.6e9, "g/kWh", src("grid_floor"))
+    for h in range(24):
+        p[f"{_P}hourly_shape.{h:02d}"] = float(shape24[h])
+    if settings.supplier_intensity is not None:
+        p[_P + "supplier_intensity"] = settings.supplier_intensity
+        add("supplier_intensity", settings.supplier_intensity * 3.6e9, "g/kWh", "user")
+    add("renewable_share", settings.renewable_share * 100, "%", src("renewable_share"))
+    add("td_loss", settings.td_loss * 100, "%", src("td_loss"))
+    add("electricity_upstream", settings.electricity_upstream * 3.6e9, "g/kWh",
+        src("electricity_upstream"))
+    lc = settings.lifecycle
+    if lc.include:
+        p[_P + "lifecycle.vehicle_diesel"] = lc.vehicle_diesel
+        p[_P + "lifecycle.vehicle_electric"] = lc.vehicle_electric
+        p[_P + "lifecycle.battery"] = lc.battery
+        add("lifecycle.vehicle_diesel", lc.vehicle_diesel, "kg CO2e", "user")
+        add("lifecycle.vehicle_electric", lc.vehicle_electric, "kg CO2e", "user")
+        add("lifecycle.battery", lc.battery * 3.6e6, "kg CO2e/kWh", "user")
+    return p, prov, notes
+
+
+def to_si_intensity(g_per_kwh: float) -> float:
+    """Grid intensity from g/kWh to SI. [kg/J]"""
+    return float(g_per_kwh) / 3.6e9
+
+
+def flat_params(settings: "EmissionsSettings") -> dict[str, float]:
+    """The emissions inputs as flat numbers under dotted paths, all SI.
+
+    Factor-set names are resolved to numbers here, so the Monte Carlo can override any of
+    them with an array of draws (see :func:`compute`).
+
+    Parameters
+    ----------
+    settings : EmissionsSettings
+        The validated ``emissions`` section.
+
+    Returns
+    -------
+    dict of str to float
+        Keys (always): ``emissions.diesel_co2`` [kg/m³], ``emissions.diesel_ch4_n2o``
+        [kg/m³], ``emissions.diesel_ch4_n2o_distance`` [kg/m], ``emissions.diesel_upstream``
+        [kg/m³], ``emissions.def_density`` [kg/m³], ``emissions.def_urea_share`` [-],
+        ``emissions.grid_intensity`` [kg/J], ``emissions.hourly_shape.00`` …
+        ``emissions.hourly_shape.23`` [-], ``emissions.renewable_share`` [-],
+        ``emissions.td_loss`` [-], ``emissions.electricity_upstream`` [kg/J].
+        Trajectory mode adds ``emissions.grid_change`` [-/yr] and ``emissions.grid_floor``
+        [kg/J]; table mode adds ``emissions.grid_table.<year>`` [kg/J] (and then
+        ``emissions.grid_intensity`` is the first listed year's value and scales the whole
+        table). Optional: ``emissions.supplier_intensity`` [kg/J];
+        ``emissions.lifecycle.vehicle_diesel``, ``.vehicle_electric`` [kg],
+        ``.battery`` [kg/J] when the life-cycle add-on is on.
+    """
+    return _resolve(settings)[0]
+
+
+def factor_provenance(settings: "EmissionsSettings") -> pd.DataFrame:
+    """Every factor the settings use, in display units, with its source and status."""
+    return pd.DataFrame(_resolve(settings)[1],
+                        columns=["parameter", "value", "unit", "source", "status"])
+
+
+# --------------------------------------------------------------------------- core
+_OP_FIELDS = ("diesel_volume", "def_volume", "grid_energy_depot", "grid_energy_public",
+              "distance", "payload_distance")
+
+
+def _used(key: str) -> bool:
+    """Keys of the flat parameters this model reads."""
+    return key.startswith(_P) or key == "route.days_per_year"
+
+
+def _merge(params: Mapping[str, Any], overrides: Mapping[str, Any] | None) -> dict[str, Any]:
+    p = dict(params)
+    for key, value in (overrides or {}).items():
+        if key.startswith(_P) and key not in params:
+            raise InputError(f"unknown parameter '{key}' (not in flat_params of these "
+                             "settings)", where=key)
+        p[key] = value
+    for key, value in p.items():
+        if _used(key) and np.ndim(value) > 1:
+            raise InputError("a parameter must be a number or a 1-D array of draws", where=key)
+    for key, lo, hi in (("renewable_share", 0, 1), ("td_loss", 0, 0.999999),
+                        ("def_urea_share", 0, 1)):
+        v = np.asarray(p.get(_P + key, 0.0), dtype=float)
+        if np.any((v < lo) | (v > hi)):
+            raise InputError(f"must be within {lo * 100:g}–{hi * 100:g} %", where=_P + key)
+    return p
+
+
+def compute(params: Mapping[str, Any], operations: Sequence["AnnualOperation"], years,
+            overrides: Mapping[str, Any] | None = None) -> dict[str, dict[str, np.ndarray]]:
+    """Yearly emissions lines and frames of each truck, vectorised over draws.
+
+    See the module docstring for the equations.
+
+    Parameters
+    ----------
+    params : mapping of str to float
+        From :func:`flat_params` (other sections' keys may be present; they are ignored
+        except ``route.days_per_year``).
+    operations : sequence of AnnualOperation
+        One per truck (year-1 quantities, the same every year). Its quantities may be
+        floats or arrays of shape (n_draws,).
+    years : array_like of int
+        The years of service, e.g. calendar years 2026 … 2040. [yr]
+    overrides : mapping of str to float or array_like, optional
+        Replacement values (arrays of shape (n_draws,)) for keys of ``params``; the key
+        ``route.days_per_year`` [1/yr] scales every yearly quantity by
+        ``days_per_year / operation.operating_days``.
+
+    Returns
+    -------
+    dict
+        ``{truck: {name: array}}`` with the line items of :data:`LINES` and the frames of
+        :data:`FRAMES` [kg CO2e/yr], and ``distance`` [m/yr] and ``payload_distance``
+        [kg·m/yr]. Each array has shape ``(n_years,)`` when every input is scalar, else
+        ``(n_draws, n_years)``. Arrays are read-only broadcast views where a quantity does
+        not change over years or draws (no memory is spent on repeats): copy one before
+        writing into it.
+
+    Raises
+    ------
+    InputError
+        Unknown override keys, shares out of range, mismatched draw counts, empty years,
+        grid table years that miss the years of service.
+    """
+    p = _merge(params, overrides)
+    years = np.asarray(years)
+    if years.ndim != 1 or years.size == 0:
+        raise InputError("years must be a non-empty 1-D sequence", where="years")
+    arrays = [np.asarray(v) for k, v in p.items() if _used(k)]
+    arrays += [np.asarray(getattr(op, f)) for op in operations for f in _OP_FIELDS]
+    try:
+        lead = np.broadcast_shapes(*[a.shape for a in arrays if a.ndim == 1])
+    except ValueError:
+        raise InputError("arrays of draws have different lengths", where="overrides") from None
+    shape = (*lead, years.size)
+    full = lambda a: np.broadcast_to(a, shape)  # noqa: E731  (read-only view, no copy)
+
+    table = {int(k[len(_P) + 11:]): v for k, v in p.items() if k.startswith(_P + "grid_table.")}
+    if table:
+        lo, hi = min(table), max(table)
+        if hi < years.min() or lo > years.max():
+            raise InputError(f"grid table years {lo}–{hi} do not overlap the years of service "
+                             f"{int(years.min())}–{int(years.max())}",
+                             where="emissions.grid_table")
+        grid = grid_intensity_path(years, p[_P + "grid_intensity"], table=table)
+    else:
+        grid = grid_intensity_path(years, p[_P + "grid_intensity"], p[_P + "grid_change"],
+                                   p[_P + "grid_floor"])
+    shape24 = np.stack(np.broadcast_arrays(
+        *[np.asarray(p[f"{_P}hourly_shape.{h:02d}"], dtype=float) for h in range(24)]))
+    supplier = p.get(_P + "supplier_intensity")
+    share = _col(p[_P + "renewable_share"])
+    loss = _col(p[_P + "td_loss"])
+    days = p.get("route.days_per_year")
+
+    out: dict[str, dict[str, np.ndarray]] = {}
+    for op in operations:
+        if days is not None:
+            if not op.operating_days > 0:
+                raise InputError("operating_days must be positive to scale by days per year",
+                                 where=f"operation[{op.truck}]")
+            scale = _col(days) / op.operating_days
+        else:
+            scale = 1.0
+        q = {f: _col(getattr(op, f)) * scale for f in _OP_FIELDS}
+        e_total = q["grid_energy_depot"] + q["grid_energy_public"]
+        match = _col(hour_matching_factor(op.charging_profile, shape24))
+        lines: dict[str, np.ndarray] = {}
+        lines["diesel_co2"] = q["diesel_volume"] * _col(p[_P + "diesel_co2"])
+        ch4 = q["diesel_volume"] * _col(p[_P + "diesel_ch4_n2o"])
+        if op.powertrain == "diesel":
+            ch4 = ch4 + q["distance"] * _col(p[_P + "diesel_ch4_n2o_distance"])
+        lines["diesel_ch4_n2o"] = ch4
+        lines["def_urea_co2"] = urea_co2(q["def_volume"] * _col(p[_P + "def_density"]),
+                                         _col(p[_P + "def_urea_share"]))
+        loc = (q["grid_energy_depot"] * match + q["grid_energy_public"]) * grid
+        lines["electricity_location"] = loc
+        depot = q["grid_energy_depot"] * (_col(supplier) if supplier is not None
+                                          else match * grid)
+        lines["electricity_market"] = (1.0 - share) * depot + q["grid_energy_public"] * grid
+        lines["diesel_upstream"] = q["diesel_volume"] * _col(p[_P + "diesel_upstream"])
+        lines["electricity_upstream"] = e_total * _col(p[_P + "electricity_upstream"])
+        lines["electricity_td_losses"] = loc * loss / (1.0 - loss)
+        res = {k: full(v) for k, v in lines.items()}
+        res.update({k: full(v) for k, v in _frames(lines).items()})
+        res["distance"] = full(q["distance"])
+        res["payload_distance"] = full(q["payload_distance"])
+        out[op.truck] = res
+    return out
+
+
+def _frames(lines: Mapping[str, np.ndarray]) -> dict[str, np.ndarray]:
+    s1 = lines["diesel_co2"] + lines["diesel_ch4_n2o"] + lines["def_urea_co2"]
+    s3 = lines["diesel_upstream"] + lines["electricity_upstream"] \
+        + lines["electricity_td_losses"]
+    s2l, s2m = lines["electricity_location"], lines["electricity_market"]
+    wtt, wtt_m = s2l + s3, s2m + s3
+    total, total_m = s1 + wtt, s1 + wtt_m
+    # the transport frames are the same sums as the scope frames: share the arrays
+    return {
+        "scope_1": s1, "scope_2_location": s2l, "scope_2_market": s2m, "scope_3_cat3": s3,
+        "total_location": total, "total_market": total_m,
+        "ttw": s1, "wtt": wtt, "wtt_market": wtt_m, "wtw": total, "wtw_market": total_m,
+    }
+
+
+# --------------------------------------------------------------------------- comparison
+def tonne_weights(n_years: int, discount_rate=None):
+    """Weights of each year's tonnes: 1, or ``(1 + i)^-k`` for service year k = 1 … n.
+
+    Parameters
+    ----------
+    n_years : int
+        Number of years.
+    discount_rate : float or array_like, optional
+        Discount rate; None for undiscounted tonnes. [-/yr]
+
+    Returns
+    -------
+    numpy.ndarray
+        Shape ``(n_years,)`` or ``(n_draws, n_years)``. [-]
+    """
+    k = np.arange(1, n_years + 1, dtype=float)
+    if discount_rate is None:
+        return np.ones(n_years)
+    return (1.0 + _col(discount_rate)) ** -k
+
+
+def abatement_cost(cost_difference, avoided, discount_rate=None):
+    """Cost per tonne of CO2e avoided.
+
+    ``A = ΔPV / (Σ_k avoided_k · w_k / 1000)``, ``w_k = 1`` or ``(1 + i)^-k``.
+
+    Parameters
+    ----------
+    cost_difference : float or array_like
+        Present-value cost of the truck minus that of the reference truck. [currency]
+    avoided : array_like, shape (..., n_years)
+        Emissions avoided each year (reference minus truck). [kg CO2e/yr]
+    discount_rate : float or array_like, optional
+        Discount the tonnes at this rate (None: undiscounted, the default). [-/yr]
+
+    Returns
+    -------
+    float or numpy.ndarray
+        Abatement cost; NaN where no tonnes are avoided. Negative: the truck saves money
+        and emissions. [currency/t CO2e]
+
+    Examples
+    --------
+    >>> abatement_cost(5000.0, [10_000.0, 10_000.0])
+    250.0
+    """
+    avoided = np.asarray(avoided, dtype=float)
+    tonnes = (avoided * tonne_weights(avoided.shape[-1], discount_rate)).sum(axis=-1) / 1000
+    cost = np.asarray(cost_difference, dtype=float)
+    out = np.divide(cost, tonnes, out=np.full(np.broadcast_shapes(cost.shape, tonnes.shape),
+                                               np.nan), where=tonnes > 0)
+    return float(out) if out.ndim == 0 else out
+
+
+def manufacturing_emissions(powertrain: str, battery_capacity, vehicle_diesel, vehicle_electric,
+                            battery):
+    """Manufacturing emissions of one truck (life-cycle add-on).
+
+    ``M = M_vehicle`` (diesel) or ``M_vehicle + b · C_battery`` (electric).
+
+    Parameters
+    ----------
+    powertrain : {"diesel", "electric"}
+    battery_capacity : float or array_like
+        Nominal battery capacity. [J]
+    vehicle_diesel, vehicle_electric : float or array_like
+        Manufacturing of the vehicle without battery. [kg CO2e]
+    battery : float or array_like
+        Battery manufacturing per unit capacity. [kg/J]
+
+    Returns
+    -------
+    float or numpy.ndarray
+        [kg CO2e]
+    """
+    if powertrain == "electric":
+        return np.asarray(vehicle_electric, float) + np.asarray(battery, float) \
+            * np.asarray(battery_capacity, float)
+    return np.asarray(vehicle_diesel, float) + 0.0 * np.asarray(battery, float)
+
+
+def payback(extra, avoided, distance):
+    """Distance and time after which avoided emissions repay extra manufacturing emissions.
+
+    The crossing of the cumulative avoided emissions with ``extra`` is interpolated
+    linearly inside the year (emissions are avoided evenly over a year).
+
+    Parameters
+    ----------
+    extra : float or array_like
+        Manufacturing emissions of the truck minus those of the reference. [kg CO2e]
+    avoided : array_like, shape (..., n_years)
+        Emissions avoided each year. [kg CO2e/yr]
+    distance : array_like, shape (..., n_years)
+        Distance the truck drives each year. [m/yr]
+
+    Returns
+    -------
+    (numpy.ndarray, numpy.ndarray)
+        Payback distance [m] and payback time [yr]; 0 when ``extra <= 0``; NaN when not
+        repaid within the years given.
+
+    Examples
+    --------
+    >>> d, t = payback(15.0, [10.0, 10.0], [100.0, 100.0])
+    >>> float(d), float(t)
+    (150.0, 1.5)
+    """
+    avoided = np.asarray(avoided, dtype=float)
+    distance = np.broadcast_to(np.asarray(distance, dtype=float), avoided.shape)
+    e = _col(extra)
+    cum = np.cumsum(avoided, axis=-1)
+    prev = cum - avoided
+    dprev = np.cumsum(distance, axis=-1) - distance
+    hit = cum >= e
+    found = hit.any(axis=-1)
+    k = np.argmax(hit, axis=-1)
+    take = lambda a: np.take_along_axis(np.broadcast_to(a, np.broadcast_shapes(  # noqa: E731
+        a.shape, hit.shape)), k[..., None], axis=-1)[..., 0]
+    gain = take(avoided)
+    frac = np.divide(take(e - prev), gain, out=np.zeros_like(gain), where=gain > 0)
+    frac = np.clip(frac, 0.0, 1.0)
+    dist = np.where(found, take(dprev) + frac * take(distance), np.nan)
+    time = np.where(found, k + frac, np.nan)
+    nonpos = np.broadcast_to(e[..., 0] <= 0, dist.shape)
+    dist = np.where(nonpos, 0.0, dist)
+    time = np.where(nonpos, 0.0, time)
+    return dist, time
+
+
+# --------------------------------------------------------------------------- result
+@dataclass
+class EmissionsResult:
+    """Emissions of every truck, ready for the writers (plain data and pandas objects).
+
+    Attributes
+    ----------
+    years : list of int
+        The years of service.
+    powertrains : dict of str to str
+        Truck name to ``"diesel"`` or ``"electric"``.
+    yearly : pandas.DataFrame
+        Tidy line items: ``truck, year, quantity, scope, basis, kg_co2e, cumulative_kg_co2e``
+        (``basis`` ``both``/``location``/``market``; the two Scope 2 lines are alternatives).
+    totals : pandas.DataFrame
+        Tidy frames: ``truck, year, frame, kg_co2e, cumulative_kg_co2e`` with the frames of
+        :data:`FRAMES`.
+    intensity : pandas.DataFrame
+        ``truck, year, frame, kg_per_kg_m, kg_per_m`` for frames ``ttw``, ``wtw``,
+        ``wtw_market``: per payload-distance [kg CO2e/(kg·m)] and per distance
+        [kg CO2e/m] in each year.
+    intensity_total : pandas.DataFrame
+        ``truck, frame, kg_per_kg_m, kg_per_m``: the same over all years together.
+    comparison : pandas.DataFrame
+        ``truck, reference, year, basis, avoided_kg, cumulative_avoided_kg``.
+    abatement : dict
+        Truck to ``{"cost_difference", "tonnes_location", "tonnes_market",
+        "cost_per_tonne_location", "cost_per_tonne_market"}`` [currency, t, currency/t].
+    lifecycle : pandas.DataFrame or None
+        Life-cycle add-on (outside all scopes): ``truck, manufacturing_kg, extra_kg,
+        payback_distance_m, payback_years``.
+    factors : pandas.DataFrame
+        Factors used with their sources (:func:`factor_provenance`).
+    settings : dict
+        Choices that shape the figures (factor sets, grid mode, hour matching, discounting).
+    cautions : list of str
+        Plain-language cautions for the report.
+    reference : str
+        The reference truck of the comparison.
+    """
+
+    years: list[int]
+    powertrains: dict[str, str]
+    yearly: pd.DataFrame
+    totals: pd.DataFrame
+    intensity: pd.DataFrame
+    intensity_total: pd.DataFrame
+    comparison: pd.DataFrame
+    abatement: dict[str, dict[str, float]]
+    lifecycle: pd.DataFrame | None
+    factors: pd.DataFrame
+    settings: dict[str, Any]
+    cautions: list[str]
+    reference: str
+
+
+#: The first caution of every result.
+VERIFY_CAUTION = (
+    "These emission figures are estimates from a model; before they are reported they must "
+    "be checked against the GHG Protocol (Corporate Standard, Scope 2 Guidance, Scope 3 "
+    "Standard), ISO 14083 and the rules of the regulator or programme they are reported to, "
+    "using measured fuel and electricity data and the factors those rules prescribe."
+)
+
+
+def pick_reference(operations: Sequence["AnnualOperation"], reference: str | None) -> str:
+    """The reference truck: the named one, else the first diesel truck, else the first."""
+    names = [op.truck for op in operations]
+    if reference is not None:
+        if reference not in names:
+            raise InputError(f"reference truck '{reference}' is not among the trucks "
+                             f"({', '.join(names)})", where="reference")
+        return reference
+    for op in operations:
+        if op.powertrain == "diesel":
+            return op.truck
+    return names[0]
+
+
+def evaluate(settings: "EmissionsSettings", operations: Sequence["AnnualOperation"], years,
+             *, reference: str | None = None,
+             cost_difference: Mapping[str, float] | float | None = None,
+             discount_rate: float | None = None) -> EmissionsResult:
+    """Emissions of every truck for the report (scalar inputs).
+
+    Parameters
+    ----------
+    settings : EmissionsSettings
+        The validated ``emissions`` section.
+    operations : sequence of AnnualOperation
+        One per truck.
+    years : array_like of int
+        The years of service. [yr]
+    reference : str, optional
+        The baseline truck; default the first diesel truck.
+    cost_difference : mapping or float, optional
+        Present-value cost of each truck minus that of the reference, from the cash-flow
+        model [currency]; a float when there is one truck besides the reference.
+    discount_rate : float, optional
+        Needed when ``settings.discount_tonnes`` is true. [-/yr]
+
+    Returns
+    -------
+    EmissionsResult
+    """
+    if not operations:
+        raise InputError("no trucks to evaluate", where="trucks")
+    names = [op.truck for op in operations]
+    if len(set(names)) != len(names):
+        raise InputError("truck names must be unique", where="trucks")
+    if settings.discount_tonnes and discount_rate is None:
+        raise InputError("discount_tonnes is true but no discount rate was given",
+                         where="emissions.discount_tonnes")
+    params, prov, notes = _resolve(settings)
+    arrays = compute(params, operations, years)
+    years_l = [int(y) for y in np.asarray(years)]
+    ref = pick_reference(operations, reference)
+    rate = discount_rate if settings.discount_tonnes else None
+    comparison, abatement = _compare(arrays, years_l, ref, cost_difference, rate)
+    lifecycle = _lifecycle(settings.lifecycle, operations, arrays, ref)
+    intensity, intensity_total = _intensities(arrays, years_l)
+    settings_out = {
+        "diesel_factors": settings.diesel_factors,
+        "gwp": settings.gwp,
+        "factor_file": str(settings.factor_file) if settings.factor_file else None,
+        "grid_mode": "table" if settings.grid_table else "trajectory",
+        "hourly_profile": None if settings.hourly_values() is None
+        else settings.hourly_profile_kind,
+        "market_basis": "supplier" if settings.supplier_intensity is not None
+        else "renewable_share" if settings.renewable_share > 0 else "none",
+        "tonnes_discounted": rate is not None,
+        "discount_rate": rate,
+        "lifecycle": lifecycle is not None,
+    }
+    return EmissionsResult(
+        years=years_l, powertrains={op.truck: op.powertrain for op in operations},
+        yearly=_tidy(arrays, years_l, LINE_NAMES), totals=_tidy(arrays, years_l, FRAMES),
+        intensity=intensity, intensity_total=intensity_total, comparison=comparison,
+        abatement=abatement, lifecycle=lifecycle,
+        factors=pd.DataFrame(prov, columns=["parameter", "value", "unit", "source", "status"]),
+        settings=settings_out, cautions=_cautions(settings, rate, lifecycle is not None) + notes,
+        reference=ref)
+
+
+def _tidy(arrays, years: list[int], names: Sequence[str]) -> pd.DataFrame:
+    """Long table of yearly values and running totals (line items or frames)."""
+    lines = names is LINE_NAMES
+    scope_of = {n: (s, b) for n, s, b in LINES}
+    rows = []
+    for truck, res in arrays.items():
+        for name in names:
+            cum = np.cumsum(res[name])
+            for i, y in enumerate(years):
+                extra = scope_of[name] if lines else ()
+                rows.append((truck, y, name, *extra, float(res[name][i]), float(cum[i])))
+    cols = ["truck", "year", "quantity", "scope", "basis"] if lines \
+        else ["truck", "year", "frame"]
+    return pd.DataFrame(rows, columns=[*cols, "kg_co2e", "cumulative_kg_co2e"])
+
+
+def _intensities(arrays, years: list[int]) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """Per-year and whole-period intensities per payload-distance and per distance."""
+    cols = ["frame", "kg_per_kg_m", "kg_per_m"]
+    per_year, whole = [], []
+    for truck, res in arrays.items():
+        for name in ("ttw", "wtw", "wtw_market"):
+            kg, pdist, dist = res[name], res["payload_distance"], res["distance"]
+            with np.errstate(divide="ignore", invalid="ignore"):
+                a = np.where(pdist > 0, kg / pdist, np.nan)
+                b = np.where(dist > 0, kg / dist, np.nan)
+            per_year += [(truck, y, name, float(a[i]), float(b[i])) for i, y in enumerate(years)]
+            whole.append((truck, name,
+                          float(kg.sum() / pdist.sum()) if pdist.sum() > 0 else math.nan,
+                          float(kg.sum() / dist.sum()) if dist.sum() > 0 else math.nan))
+    return (pd.DataFrame(per_year, columns=["truck", "year", *cols]),
+            pd.DataFrame(whole, columns=["truck", *cols]))
+
+
+def _compare(arrays, years: list[int], ref: str, cost_difference, rate):
+    """Avoided emissions per year and abatement cost of each truck against the reference."""
+    others = [n for n in arrays if n != ref]
+    if cost_difference is not None and not isinstance(cost_difference, Mapping):
+        if len(others) != 1:
+            raise InputError("give the cost difference per truck (a mapping) when more than "
+                             "one truck is compared", where="cost_difference")
+        cost_difference = {others[0]: float(cost_difference)}
+    rows = []
+    abatement: dict[str, dict[str, float]] = {}
+    w = tonne_weights(len(years), rate)
+    for truck in others:
+        dc = None if cost_difference is None else cost_difference.get(truck)
+        entry = {"cost_difference": math.nan if dc is None else float(dc)}
+        for basis, frame in (("location", "wtw"), ("market", "wtw_market")):
+            av = arrays[ref][frame] - arrays[truck][frame]
+            cum = np.cumsum(av)
+            rows += [(truck, ref, y, basis, float(av[i]), float(cum[i]))
+                     for i, y in enumerate(years)]
+            entry[f"tonnes_{basis}"] = float((av * w).sum() / 1000)
+            entry[f"cost_per_tonne_{basis}"] = math.nan if dc is None \
+                else abatement_cost(dc, av, rate)
+        abatement[truck] = entry
+    comparison = pd.DataFrame(rows, columns=["truck", "reference", "year", "basis",
+                                             "avoided_kg", "cumulative_avoided_kg"])
+    return comparison, abatement
+
+
+def _lifecycle(lc, operations, arrays, ref: str) -> pd.DataFrame | None:
+    """Manufacturing emissions and payback against the reference (None when off)."""
+    if not lc.include:
+        return None
+    made = {op.truck: float(manufacturing_emissions(
+        op.powertrain, op.battery_capacity, lc.vehicle_diesel, lc.vehicle_electric,
+        lc.battery)) for op in operations}
+    rows = []
+    for op in operations:
+        if op.truck == ref:
+            rows.append((op.truck, made[op.truck], 0.0, math.nan, math.nan))
+            continue
+        extra = made[op.truck] - made[ref]
+        avoided = arrays[ref]["wtw"] - arrays[op.truck]["wtw"]
+        d, t = payback(extra, avoided, arrays[op.truck]["distance"])
+        rows.append((op.truck, made[op.truck], extra, float(d), float(t)))
+    return pd.DataFrame(rows, columns=["truck", "manufacturing_kg", "extra_kg",
+                                       "payback_distance_m", "payback_years"])
+
+
+def _cautions(settings: "EmissionsSettings", rate, lifecycle: bool) -> list[str]:
+    """Plain-language cautions for the report, the verification caution first."""
+    out = [VERIFY_CAUTION]
+    if rate is None:
+        out.append("Avoided tonnes are not discounted in the abatement cost: a tonne counts "
+                   "the same in every year.")
+    else:
+        out.append(f"Avoided tonnes are discounted at {rate:.4g} per year in the abatement "
+                   "cost: later tonnes count less.")
+    if settings.supplier_intensity is None and settings.renewable_share == 0:
+        out.append("The market-based Scope 2 figure equals the location-based one: no "
+                   "supplier-specific factor or contracted renewable share was given (the GHG "
+                   "Protocol Scope 2 Guidance asks for a residual-mix factor where one "
+                   "exists).")
+    elif settings.supplier_intensity is None:
+        out.append("The market-based figure applies the renewable share to the grid average; "
+                   "a residual-mix factor for the rest would be more correct.")
+    absolute = settings.hourly_values() is not None and settings.hourly_profile_kind == \
+        "absolute"
+    if "grid_intensity" not in settings.model_fields_set and not settings.grid_table \
+            and not absolute:
+        out.append("The grid intensity is the shipped default (US EPA eGRID2022 national "
+                   "average, CO2 only, at generation); use your grid's figure.")
+    if settings.electricity_upstream == 0:
+        out.append("Upstream emissions of electricity (fuel supply of power plants) are not "
+                   "counted (factor 0) while diesel upstream is: this favours the electric "
+                   "truck.")
+    if "td_loss" not in settings.model_fields_set:
+        out.append("The grid loss share is an assumption; use your grid operator's published "
+                   "figure, or 0 if the intensity already includes losses.")
+    if settings.hourly_values() is not None:
+        out.append("Depot charging is matched hour by hour to the hourly intensity profile; "
+                   "public charging uses the annual intensity.")
+    if lifecycle:
+        out.append("The life-cycle add-on (vehicle and battery manufacturing) is outside "
+                   "Scopes 1–3 of the operator and is not included in any total above.")
+    return out
+
+
+# --------------------------------------------------------------------------- summary
+#: Version of the summary's key layout; raised when a key is renamed or removed.
+SUMMARY_SCHEMA = "tco.emissions.summary/1"
+
+_G_PER_TKM = 1e9   # kg/(kg·m) -> g/(t·km)
+_G_PER_KM = 1e6    # kg/m -> g/km
+
+
+def _num(x) -> float | None:
+    x = float(x)
+    return x if math.isfinite(x) else None
+
+
+def emissions_summary(result) -> dict:
+    """The emissions results as plain JSON-able data with stable key names.
+
+    Parameters
+    ----------
+    result : EmissionsResult or an object whose ``emissions`` attribute is one
+
+    Returns
+    -------
+    dict
+        Keys (stable; ``schema`` changes if any is renamed or removed). Masses in kg CO2e,
+        intensities in g CO2e per tonne-km and per km; NaN and infinity become null.
+
+        - ``schema`` : ``"tco.emissions.summary/1"``
+        - ``years`` : list of int
+        - ``reference`` : name of the reference truck
+        - ``settings`` : ``diesel_factors``, ``gwp``, ``factor_file``, ``grid_mode``
+          (``trajectory``/``table``), ``hourly_profile`` (null/``shape``/``absolute``),
+          ``market_basis`` (``none``/``supplier``/``renewable_share``),
+          ``tonnes_discounted`` (bool), ``discount_rate``, ``lifecycle`` (bool)
+        - ``trucks`` : ``{name: {...}}`` with
+
+          - ``powertrain``
+          - ``total_kg`` : ``{scope_1, scope_2_location, scope_2_market, scope_3_cat3,
+            total_location, total_market, ttw, wtt, wtw, wtw_market}`` over all years
+          - ``lines_kg`` : ``{<line item>: kg}`` over all years (the items of
+            :data:`LINES`)
+          - ``g_co2e_per_tkm`` and ``g_co2e_per_km`` : ``{ttw, wtw, wtw_market}`` over all
+            years
+          - ``yearly`` : ``{year, scope_1, scope_2_location, scope_2_market, scope_3_cat3,
+            total_location, total_market, cumulative_total_location,
+            cumulative_total_market}``, lists in year order [kg]
+
+        - ``comparison`` : ``{name: {...}}`` for each truck other than the reference:
+          ``avoided_kg_total`` ``{location, market}``, ``avoided_kg_yearly``
+          ``{location, market}`` (lists), ``cost_difference`` [currency],
+          ``tonnes_avoided`` ``{location, market}`` (discounted if ``tonnes_discounted``),
+          ``abatement_cost_per_tonne`` ``{location, market}`` [currency/t CO2e],
+          ``tonnes_discounted`` (bool)
+        - ``lifecycle`` : null, or ``{name: {manufacturing_kg, extra_kg,
+          payback_distance_km, payback_years}}`` — outside all operational totals
+        - ``factors`` : list of ``{parameter, value, unit, source, status}``
+        - ``cautions`` : list of str (the first says the figures must be verified)
+    """
+    r = result.emissions if hasattr(result, "emissions") else result
+    out: dict[str, Any] = {"schema": SUMMARY_SCHEMA, "years": list(r.years),
+                           "reference": r.reference, "settings": dict(r.settings)}
+    out["settings"]["discount_rate"] = None if r.settings["discount_rate"] is None \
+        else _num(r.settings["discount_rate"])
+    trucks: dict[str, Any] = {}
+    for truck, pt in r.powertrains.items():
+        tt = r.totals[r.totals.truck == truck]
+        by = {f: tt[tt.frame == f].sort_values("year") for f in FRAMES}
+        yl = r.yearly[r.yearly.truck == truck]
+        inten = r.intensity_total[r.intensity_total.truck == truck]
+        ii = {row.frame: row for row in inten.itertuples(index=False)}
+        yearly = {"year": [int(y) for y in by["scope_1"].year]}
+        for f in ("scope_1", "scope_2_location", "scope_2_market", "scope_3_cat3",
+                  "total_location", "total_market"):
+            yearly[f] = [_num(v) for v in by[f].kg_co2e]
+        yearly["cumulative_total_location"] = [_num(v) for v in by["total_location"]
+                                               .cumulative_kg_co2e]
+        yearly["cumulative_total_market"] = [_num(v) for v in by["total_market"]
+                                             .cumulative_kg_co2e]
+        trucks[truck] = {
+            "powertrain": pt,
+            "total_kg": {f: _num(by[f].kg_co2e.sum()) for f in (
+                "scope_1", "scope_2_location", "scope_2_market", "scope_3_cat3",
+                "total_location", "total_market", "ttw", "wtt", "wtw", "wtw_market")},
+            "lines_kg": {n: _num(yl[yl.quantity == n].kg_co2e.sum()) for n in LINE_NAMES},
+            "g_co2e_per_tkm": {f: _num(ii[f].kg_per_kg_m * _G_PER_TKM)
+                               for f in ("ttw", "wtw", "wtw_market")},
+            "g_co2e_per_km": {f: _num(ii[f].kg_per_m * _G_PER_KM)
+                              for f in ("ttw", "wtw", "wtw_market")},
+            "yearly": yearly,
+        }
+    out["trucks"] = trucks
+    comp: dict[str, Any] = {}
+    for truck, ab in r.abatement.items():
+        c = r.comparison[r.comparison.truck == truck]
+        entry: dict[str, Any] = {"avoided_kg_total": {}, "avoided_kg_yearly": {}}
+        for basis in ("location", "market"):
+            cb = c[c.basis == basis].sort_values("year")
+            entry["avoided_kg_total"][basis] = _num(cb.avoided_kg.sum())
+            entry["avoided_kg_yearly"][basis] = [_num(v) for v in cb.avoided_kg]
+        entry["cost_difference"] = _num(ab["cost_difference"])
+        entry["tonnes_avoided"] = {"location": _num(ab["tonnes_location"]),
+                                   "market": _num(ab["tonnes_market"])}
+        entry["abatement_cost_per_tonne"] = {
+            "location": _num(ab["cost_per_tonne_location"]),
+            "market": _num(ab["cost_per_tonne_market"])}
+        entry["tonnes_discounted"] = bool(r.settings["tonnes_discounted"])
+        comp[truck] = entry
+    out["comparison"] = comp
+    if r.lifecycle is None:
+        out["lifecycle"] = None
+    else:
+        out["lifecycle"] = {
+            row.truck: {"manufacturing_kg": _num(row.manufacturing_kg),
+                        "extra_kg": _num(row.extra_kg),
+                        "payback_distance_km": _num(row.payback_distance_m / 1000),
+                        "payback_years": _num(row.payback_years)}
+            for row in r.lifecycle.itertuples(index=False)}
+    out["factors"] = [
+        {"parameter": str(f.parameter),
+         "value": _num(f.value),
+         "unit": str(f.unit), "source": str(f.source), "status": str(f.status)}
+        for f in r.factors.itertuples(index=False)]
+    out["cautions"] = list(r.cautions)
+    return out
+
+
+__all__ = [
+    "DATA_DIR", "SHIPPED_TABLES", "LINES", "LINE_NAMES", "FRAMES", "DieselFactors",
+    "EmissionsResult",
+    "load_factor_table", "factor_table", "diesel_sets", "gwp_sets", "diesel_factors",
+    "gwp_values", "urea_co2", "grid_intensity_path", "hourly_profile_24",
+    "hour_matching_factor", "flat_params", "factor_provenance", "compute", "tonne_weights",
+    "abatement_cost", "manufacturing_emissions", "payback", "pick_reference", "evaluate",
+    "emissions_summary", "SUMMARY_SCHEMA",
+]

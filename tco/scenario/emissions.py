@@ -1,0 +1,246 @@
+"""The ``emissions`` section of a scenario: factor sets, grid intensity, market basis.
+
+Every field states its unit, its default and the default's source. Quantities accept a
+plain number in the documented unit or a string with units (``"0.37 kg/kWh"``); after
+validation they hold SI values (intensities in kg/J, shares as fractions 0–1, masses in kg,
+densities in kg/m³).
+
+Relative file paths (``factor_file``, ``hourly_profile_file``) are read relative to
+``base_dir`` in the validation context (the scenario file's folder) when the loader gives
+one, otherwise relative to the working directory.
+"""
+from __future__ import annotations
+
+import csv
+import math
+from pathlib import Path
+from typing import Literal
+
+import numpy as np
+from pydantic import Field, PrivateAttr, ValidationInfo, field_validator, model_validator
+
+from tco.emissions import (
+    UPSTREAM_FALLBACK_SET,
+    diesel_sets,
+    factor_table,
+    gwp_sets,
+    hourly_profile_24,
+)
+from tco.errors import InputError
+from tco.scenario.base import ASSUMPTION, Qty, Section, mfield, qfield
+
+GRID_DEFAULT_SOURCE = (
+    "US EPA eGRID2022 (published January 2024), US total output emission rate 823.1 lb "
+    "CO2/MWh; CO2 only, at generation"
+)
+
+
+def _resolve_path(value, info: ValidationInfo) -> Path | None:
+    if value is None:
+        return None
+    path = Path(value).expanduser()
+    base = (info.context or {}).get("base_dir") if info.context else None
+    if not path.is_absolute() and base is not None:
+        path = Path(base) / path
+    if not path.is_file():
+        raise ValueError(f"file not found: {path}")
+    return path.resolve()
+
+
+def read_hourly_profile(path: str | Path) -> np.ndarray:
+    """Read an hourly intensity profile: one number per line (the last column is used).
+
+    A first line that is not a number is taken as a header.
+
+    Raises
+    ------
+    InputError
+        Naming the file and the row of a value that is not a number.
+    """
+    path = Path(path)
+    values: list[float] = []
+    with path.open(newline="", encoding="utf-8-sig") as fh:
+        for i, row in enumerate(csv.reader(fh)):
+            cells = [c.strip() for c in row if c.strip()]
+            if not cells:
+                continue
+            try:
+                v = float(cells[-1])
+            except ValueError:
+                if i == 0:
+                    continue  # header
+                raise InputError(f"'{cells[-1]}' is not a number", file=path,
+                                 where=f"row {i + 1}") from None
+            if not math.isfinite(v) or v < 0:
+                raise InputError(f"value {cells[-1]} must be a finite number, zero or more",
+                                 file=path, where=f"row {i + 1}")
+            values.append(v)
+    try:
+        hourly_profile_24(values)
+    except ValueError as exc:
+        raise InputError(str(exc), file=path) from None
+    return np.asarray(values)
+
+
+class LifecycleAddon(Section):
+    """Optional manufacturing emissions, reported apart from operational emissions."""
+
+    include: bool = mfield(
+        False, "", "Report manufacturing emissions and the electric truck's payback distance",
+        "tool default: off (no published default figures are shipped)")
+    vehicle_diesel: Qty("kg", ge=0) | None = qfield(
+        None, "kg", "Manufacturing emissions of the diesel truck, CO2e",
+        "none: you give it when include is true")
+    vehicle_electric: Qty("kg", ge=0) | None = qfield(
+        None, "kg", "Manufacturing emissions of the electric truck without its battery, CO2e",
+        "none: you give it when include is true")
+    battery: Qty("kg/kWh", ge=0) | None = qfield(
+        None, "kg/kWh", "Battery manufacturing emissions per kWh of nominal capacity, CO2e",
+        "none: you give it when include is true")
+
+    @model_validator(mode="after")
+    def _complete(self):
+        if self.include:
+            missing = [n for n in ("vehicle_diesel", "vehicle_electric", "battery")
+                       if getattr(self, n) is None]
+            if missing:
+                raise ValueError(f"include is true but {', '.join(missing)} "
+                                 f"{'is' if len(missing) == 1 else 'are'} not given")
+        return self
+
+
+class EmissionsSettings(Section):
+    """How emissions are counted: factor sets, grid intensity and market basis."""
+
+    factor_file: Path | None = mfield(
+        None, "", "Your own factor table (CSV in the format of tco/data/README.md); its sets "
+        "can then be named in diesel_factors and gwp", "none: only the shipped tables")
+    diesel_factors: str = mfield(
+        "us_epa_ghg_hub_2025", "",
+        "Diesel factor set: us_epa_ghg_hub_2025, ipcc_2006_guidelines, en_16258_2012, or a "
+        "set of your factor_file",
+        "US EPA GHG Emission Factors Hub (2025), Tables 2 and 4 (tco/data)")
+    gwp: str = mfield(
+        "ipcc_ar5", "", "Global warming potential set for CH4 and N2O: ipcc_ar5, ipcc_ar6, or "
+        "a set of your factor_file",
+        "IPCC AR5 WG1 Ch. 8 Table 8.7 (GWP100), values from memory (tco/data/ipcc_gwp.csv)")
+    diesel_upstream: Qty("kg/L", ge=0) | None = qfield(
+        None, "kg/L", "Well-to-tank emissions of diesel per litre, CO2e; empty: the diesel "
+        "set's own figure, or EN 16258 when the set has none",
+        f"the diesel set; otherwise {UPSTREAM_FALLBACK_SET}: EN 16258:2012 Annex A Table A.1 "
+        "WTW 3.24 - TTW 2.67 kg CO2e/L (from memory)")
+    def_density: Qty("kg/L", gt=0) = qfield(
+        1.09, "kg/L", "Density of diesel exhaust fluid", "ISO 22241-1 (from memory)")
+    def_urea_share: Qty("percent", ge=0, le=100) = qfield(
+        32.5, "percent", "Urea mass share of diesel exhaust fluid",
+        "ISO 22241-1, nominal urea content (from memory)")
+    grid_intensity: Qty("g/kWh", ge=0) = qfield(
+        "823.1 lb/MWh", "g/kWh", "Location-based grid intensity in the first year of service, "
+        "CO2e per kWh at the meter (373.4 g/kWh)", GRID_DEFAULT_SOURCE)
+    grid_change: Qty("percent", ge=-100) = qfield(
+        0.0, "percent", "Compound change of the grid intensity per year (-3 means 3 % lower "
+        "each year)", ASSUMPTION + ": no change")
+    grid_floor: Qty("g/kWh", ge=0) = qfield(
+        0.0, "g/kWh", "A declining grid intensity stops at this value",
+        ASSUMPTION + ": no floor")
+    grid_table: dict[int, Qty("g/kWh", ge=0)] | None = qfield(
+        None, "g/kWh", "Grid intensity by calendar year, instead of grid_intensity with "
+        "grid_change (linear between listed years, flat outside them)",
+        "none: the trajectory is used")
+    hourly_profile: list[float] | None = mfield(
+        None, "", "Grid intensity by hour: 24 hour-of-day values, or 8760 (8784) hourly "
+        "values from 00:00 on 1 January, averaged by hour of day; read as a shape or in "
+        "g/kWh (see hourly_profile_kind)", "none: no hour matching")
+    hourly_profile_file: Path | None = mfield(
+        None, "", "The same profile from a CSV file, one value per line (last column)",
+        "none")
+    hourly_profile_kind: Literal["shape", "absolute"] = mfield(
+        "shape", "", "'shape': only the profile's ratios to its mean count (the annual "
+        "intensity stays); 'absolute': values in g/kWh, their mean is the first-year "
+        "intensity", ASSUMPTION)
+    supplier_intensity: Qty("g/kWh", ge=0) | None = qfield(
+        None, "g/kWh", "Market-based: your depot supplier's contractual emission factor "
+        "(held constant over the years; public charging stays at the grid intensity)",
+        "none: the market-based figure uses the grid intensity")
+    renewable_share: Qty("percent", ge=0, le=100) = qfield(
+        0.0, "percent", "Market-based: share of depot electricity covered by contracted "
+        "renewable supply with certificates (counted at zero)",
+        ASSUMPTION + ": none contracted")
+    td_loss: Qty("percent", ge=0, lt=100) = qfield(
+        5.0, "percent", "Transmission-and-distribution loss share of the grid, for Scope 3 "
+        "category 3; 0 when the grid intensity already includes losses",
+        ASSUMPTION + ": a typical order of magnitude for national grids")
+    electricity_upstream: Qty("g/kWh", ge=0) = qfield(
+        0.0, "g/kWh", "Upstream (fuel supply of power plants) emissions per kWh at the meter, "
+        "Scope 3 category 3", ASSUMPTION + ": not counted unless you give a figure")
+    discount_tonnes: bool = mfield(
+        False, "", "Discount avoided tonnes at the finance discount rate in the abatement "
+        "cost", "common practice: tonnes undiscounted")
+    lifecycle: LifecycleAddon = Field(
+        default_factory=LifecycleAddon,
+        description="Optional life-cycle add-on (manufacturing), apart from operational "
+        "reporting [-]", json_schema_extra={"unit": "", "source": "tool default: off"})
+
+    _profile: np.ndarray | None = PrivateAttr(default=None)
+
+    @field_validator("factor_file", "hourly_profile_file", mode="before")
+    @classmethod
+    def _path(cls, value, info: ValidationInfo):
+        return _resolve_path(value, info)
+
+    @field_validator("diesel_factors")
+    @classmethod
+    def _diesel_set(cls, value: str, info: ValidationInfo) -> str:
+        known = diesel_sets(factor_table(info.data.get("factor_file")))
+        if value not in known:
+            raise ValueError(f"unknown diesel factor set '{value}' (known: {', '.join(known)})")
+        return value
+
+    @field_validator("gwp")
+    @classmethod
+    def _gwp_set(cls, value: str, info: ValidationInfo) -> str:
+        known = gwp_sets(factor_table(info.data.get("factor_file")))
+        if value not in known:
+            raise ValueError(f"unknown GWP set '{value}' (known: {', '.join(known)})")
+        return value
+
+    @field_validator("hourly_profile")
+    @classmethod
+    def _profile_values(cls, value):
+        if value is not None:
+            hourly_profile_24(value)
+        return value
+
+    @field_validator("grid_table")
+    @classmethod
+    def _table(cls, value):
+        if value is not None and not value:
+            raise ValueError("grid_table needs at least one year")
+        return value
+
+    @model_validator(mode="after")
+    def _consistent(self):
+        given = self.model_fields_set
+        if self.hourly_profile is not None and self.hourly_profile_file is not None:
+            raise ValueError("give hourly_profile or hourly_profile_file, not both")
+        if self.hourly_profile_file is not None:
+            self._profile = read_hourly_profile(self.hourly_profile_file)
+        elif self.hourly_profile is not None:
+            self._profile = np.asarray(self.hourly_profile, dtype=float)
+        if self.grid_table is not None:
+            clash = [n for n in ("grid_intensity", "grid_change", "grid_floor") if n in given]
+            if clash:
+                raise ValueError(f"give either grid_table or {', '.join(clash)}, not both")
+        if self._profile is not None and self.hourly_profile_kind == "absolute":
+            if self.grid_table is not None:
+                raise ValueError("an absolute hourly profile sets the first-year intensity; "
+                                 "with grid_table use hourly_profile_kind = 'shape'")
+            if "grid_intensity" in given:
+                raise ValueError("an absolute hourly profile sets the first-year intensity; "
+                                 "leave out grid_intensity or use hourly_profile_kind = "
+                                 "'shape'")
+        return self
+
+    def hourly_values(self) -> np.ndarray | None:
+        """The hourly profile as given (inline or from its file), or None."""
+        return self._profile
