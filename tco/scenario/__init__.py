@@ -133,7 +133,8 @@ def _loc(loc: tuple) -> str:
 def parse_scenario(data: dict, path: Path | None = None) -> Scenario:
     """Validate a scenario given as a dict (e.g. parsed TOML); errors as InputError."""
     try:
-        return Scenario.model_validate(data)
+        context = {"base_dir": path.parent} if path is not None else None
+        return Scenario.model_validate(data, context=context)
     except ValidationError as exc:
         err = exc.errors()[0]
         where = _loc(err["loc"]) or None

@@ -1,0 +1,340 @@
+"""Energy of each truck on the operating day, its feasibility, and its year of operation.
+
+Glue between the scenario and the physics: it maps a truck's validated parameters onto the
+kernel's parameter sets (:class:`tco.roadload.Vehicle`,
+:class:`tco.diesel.DieselPowertrain`, :class:`tco.electric.ElectricPowertrain`), drives
+one operating day (the trip repeated ``ceil(trips_per_day)`` times, so the battery is
+tracked across the whole day), and turns the result into per-trip figures, plain-language
+feasibility findings and an :class:`tco.operation.AnnualOperation`.
+
+Simplifications (stated in the report's method notes):
+
+* Air density is taken once per route, at the trip's mean elevation and the ambient
+  temperature (1976 standard atmosphere pressure).
+* Each leg's payload is capped at the truck's legal payload capacity; the payload left
+  behind is moved by extra trips, whose energy scales with the trip's.
+* The depot charges each night from the charging window's start at the charger's power.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pandas as pd
+
+from tco import dutycycle, electric, kernel, operation, roadload
+from tco.diesel import DieselPowertrain
+from tco.electric import ElectricPowertrain
+from tco.operation import AnnualOperation
+from tco.result import TruckResult
+
+J_PER_KWH = 3.6e6
+
+
+def vehicle_parameters(truck, ambient, mean_elevation: float) -> roadload.Vehicle:
+    """Road-load parameters of a truck in the scenario's air. [SI]"""
+    b = truck.body
+    rho = float(roadload.air_density(mean_elevation, ambient.temperature))
+    return roadload.Vehicle(
+        drag_coefficient=b.drag_coefficient, frontal_area=b.frontal_area,
+        crr=b.rolling_resistance, crr_speed=b.rolling_resistance_speed,
+        rotating_mass_factor=b.rotating_mass_factor, air_density=rho,
+        headwind=ambient.headwind,
+    ).checked()
+
+
+def diesel_parameters(d) -> DieselPowertrain:
+    """Kernel parameters of a scenario diesel section. [SI]"""
+    common = dict(accessory_power=d.accessory_power, lhv=d.fuel_lhv,
+                  density=d.fuel_density * 1.0, idle_fuel_rate=d.idle_fuel_rate,
+                  def_ratio=d.def_ratio)
+    if d.fuel_model == "constant_bsfc":
+        return DieselPowertrain.from_bsfc(d.engine_power, d.driveline_efficiency, d.bsfc,
+                                          **common)
+    return DieselPowertrain(d.engine_power, d.driveline_efficiency, d.willans_efficiency,
+                            d.willans_loss_share, **common)
+
+
+def electric_parameters(e, temperature: float, state_of_health: float = 1.0
+                        ) -> ElectricPowertrain:
+    """Kernel parameters of a scenario electric section at a battery state of health. [SI]"""
+    aux = float(electric.auxiliary_power(temperature, e.aux_power, e.heating_per_kelvin,
+                                         e.cooling_per_kelvin, e.comfort_low,
+                                         e.comfort_high))
+    return ElectricPowertrain(
+        usable_capacity=e.battery_capacity * e.usable_share * state_of_health,
+        motor_power=e.motor_power, drivetrain_efficiency=e.drivetrain_efficiency,
+        regen_efficiency=e.regen_efficiency, regen_power_max=e.regen_power,
+        aux_power=aux, initial_soc=e.start_soc,
+    ).checked()
+
+
+# Neutral parameters for the powertrain a truck does not have (the fused kernel computes
+# both; the unused one is ignored).
+_NO_DIESEL = DieselPowertrain(1e9, 1.0, 0.5)
+_NO_ELECTRIC = ElectricPowertrain(1e12, 1e9, 1.0, 1.0, 0.0)
+
+
+def operating_day(trip: pd.DataFrame, trips_per_day: float) -> tuple[pd.DataFrame, int]:
+    """The trip repeated ``ceil(trips_per_day)`` times: the heaviest operating day."""
+    n = max(1, math.ceil(trips_per_day - 1e-9))
+    if n == 1:
+        return trip, 1
+    return dutycycle.concatenate_legs([trip] * n), n
+
+
+def leg_payloads(scenario, truck) -> tuple[np.ndarray, np.ndarray, float]:
+    """Requested and carried payload per leg, and the truck's payload capacity. [kg]"""
+    b = truck.body
+    allowance = b.zero_emission_allowance if truck.powertrain == "electric" else 0.0
+    capacity = float(operation.payload_capacity(b.curb_mass, b.gross_mass_limit, allowance))
+    requested = np.array([leg.payload for leg in scenario.route.legs], dtype=float)
+    return requested, np.minimum(requested, capacity), capacity
+
+
+def simulate(truck, scenario, trip: pd.DataFrame) -> TruckResult:
+    """Drive one operating day with one truck and report energy and feasibility.
+
+    Parameters
+    ----------
+    truck : tco.scenario.Truck
+        The truck.
+    scenario : tco.scenario.Scenario
+        The whole scenario (route, ambient, depot).
+    trip : pandas.DataFrame
+        One trip's trace (see :mod:`tco.dutycycle`).
+
+    Returns
+    -------
+    TruckResult
+    """
+    route, ambient = scenario.route, scenario.ambient
+    day, n_trips = operating_day(trip, route.trips_per_day)
+    n_legs = len(route.legs)
+    requested, carried, capacity = leg_payloads(scenario, truck)
+    starts = dutycycle.leg_starts(day)
+    leg_mass = truck.body.curb_mass + np.tile(carried, n_trips)[: len(starts)]
+    veh = vehicle_parameters(truck, ambient, float(day["elevation"].mean()))
+    is_e = truck.powertrain == "electric"
+    die = diesel_parameters(truck.diesel) if not is_e else _NO_DIESEL
+    ele = electric_parameters(truck.electric, ambient.temperature) if is_e else _NO_ELECTRIC
+    speed = day["speed"].to_numpy(dtype=float)
+    grade = day["grade"].to_numpy(dtype=float)
+    run = kernel.run_trace(speed, grade, route.time_step, starts, leg_mass, veh, die, ele,
+                           series=True)
+    tot = run.totals
+    ser = run.series
+
+    out = day[["time", "speed", "grade", "elevation", "distance", "leg"]].copy()
+    out["leg"] = out["leg"] % n_legs
+    out["trip"] = np.repeat(np.arange(n_trips), len(trip))[: len(out)] if n_trips > 1 else 0
+    out["wheel_power"] = _pad(ser.wheel_power)
+    if is_e:
+        out["battery_power"] = _pad(ser.battery_power)
+        out["soc"] = run.soc
+    else:
+        out["fuel_rate"] = _pad(ser.fuel_rate)
+
+    # per-trip payload-distance (requested and carried) from leg distances of one trip
+    trip_leg_dist = _leg_distances(trip, n_legs)
+    req_pd = float(np.dot(requested, trip_leg_dist))
+    car_pd = float(np.dot(carried, trip_leg_dist))
+    trip_distance = float(trip_leg_dist.sum())
+    trip_duration = float(trip["time"].iloc[-1] - trip["time"].iloc[0]) + route.time_step
+
+    summary = {
+        "trips_simulated": n_trips,
+        "trip_distance": trip_distance,
+        "trip_duration": trip_duration,
+        "day_distance": tot["distance"],
+        "day_duration": tot["duration"],
+        "payload_capacity": capacity,
+        "payload_requested": requested.tolist(),
+        "payload_carried": carried.tolist(),
+        "air_density": veh.air_density,
+        "wheel_energy": {k.removesuffix("_energy"): tot[k] / n_trips for k in (
+            "aerodynamic_energy", "rolling_energy", "climbing_energy", "descending_energy",
+            "acceleration_energy", "deceleration_energy", "traction_energy",
+            "braking_energy")},
+    }
+    warnings: list[str] = []
+    feas: dict = {}
+    annual_days = route.days_per_year
+    base_trips = route.trips_per_day * annual_days
+    x_trips = operation.extra_trips(base_trips, req_pd, car_pd)
+    trips = base_trips + x_trips
+    if car_pd < req_pd:
+        lost = float(np.max(requested - carried))
+        feas["payload"] = {
+            "ok": False, "lost_per_trip": lost, "extra_trips_per_year": x_trips,
+            "text": f"{truck.name} can legally carry {capacity / 1000:.1f} t; up to "
+                    f"{lost / 1000:.1f} t per trip is left behind, needing "
+                    f"{x_trips:.0f} extra trips a year to move the same tonnage."}
+        warnings.append(feas["payload"]["text"])
+    else:
+        feas["payload"] = {"ok": True, "lost_per_trip": 0.0, "extra_trips_per_year": 0.0,
+                           "text": f"Payload fits: capacity {capacity / 1000:.1f} t."}
+
+    if is_e:
+        op_fields = _electric_day(truck, scenario, tot, n_trips, summary, feas, warnings, ele)
+        per_trip = {k: v / n_trips for k, v in op_fields["day"].items()}
+        op = AnnualOperation(
+            truck=truck.name, powertrain="electric", operating_days=annual_days,
+            trips=trips, extra_trips=x_trips, distance=trips * trip_distance,
+            payload_distance=trips * car_pd,
+            battery_energy=trips * per_trip["battery"],
+            grid_energy_depot=trips * per_trip["grid_depot"],
+            grid_energy_public=trips * per_trip["grid_public"],
+            charging_time_lost=trips * per_trip["time_lost"],
+            depot_charging_power=op_fields["depot_power"],
+            charging_profile=op_fields["profile"], trip_duration=trip_duration,
+            battery_capacity=truck.electric.battery_capacity,
+            battery_cycle_life=truck.electric.cycle_life,
+            payload_per_trip=car_pd / trip_distance if trip_distance > 0 else 0.0,
+        )
+    else:
+        fuel_trip = tot["diesel_fuel_volume"] / n_trips
+        def_trip = tot["diesel_def_volume"] / n_trips
+        summary.update({
+            "fuel_volume": fuel_trip, "def_volume": def_trip,
+            "idle_fuel_volume": tot["diesel_idle_fuel_volume"] / n_trips,
+            "engine_energy": tot["diesel_engine_energy"] / n_trips,
+            "fuel_per_distance": fuel_trip / trip_distance,
+        })
+        feas["power"] = _power_limit(tot, "diesel", "engine", truck.name, warnings)
+        op = AnnualOperation(
+            truck=truck.name, powertrain="diesel", operating_days=annual_days, trips=trips,
+            extra_trips=x_trips, distance=trips * trip_distance,
+            payload_distance=trips * car_pd, diesel_volume=trips * fuel_trip,
+            def_volume=trips * def_trip, trip_duration=trip_duration,
+            payload_per_trip=car_pd / trip_distance if trip_distance > 0 else 0.0,
+        )
+    summary["wheel_energy_per_distance"] = {
+        k: v / trip_distance for k, v in summary["wheel_energy"].items()}
+    return TruckResult(truck.name, truck.powertrain, out, summary, feas, warnings, op)
+
+
+def _pad(per_interval: np.ndarray) -> np.ndarray:
+    """Per-interval values on samples (the last sample repeats the last interval)."""
+    return np.append(per_interval, per_interval[-1] if per_interval.size else 0.0)
+
+
+def _leg_distances(trip: pd.DataFrame, n_legs: int) -> np.ndarray:
+    d = trip["distance"].to_numpy()
+    legs = trip["leg"].to_numpy()
+    out = np.zeros(n_legs)
+    starts = dutycycle.leg_starts(trip)
+    ends = np.append(starts[1:], len(d))
+    for k, (a, b) in enumerate(zip(starts, ends)):
+        # the junction interval into the next leg belongs to this leg
+        last = d[b] if b < len(d) else d[-1]
+        out[int(legs[a]) % n_legs] += last - d[a]
+    return out
+
+
+def _power_limit(tot, prefix: str, what: str, name: str, warnings: list[str]) -> dict:
+    t = tot[f"{prefix}_limited_time"]
+    info = {"ok": t <= 0, "limited_time": t, "limited_distance": tot[f"{prefix}_limited_distance"],
+            "speed_deficit_max": tot[f"{prefix}_speed_deficit_max"],
+            "speed_deficit_mean": tot[f"{prefix}_speed_deficit_mean"]}
+    if t > 0 and info["speed_deficit_max"] * 3.6 >= 1.0:
+        info["text"] = (
+            f"{name}: the cycle asks for more than the rated {what} power for {t:.0f} s "
+            f"over {info['limited_distance'] / 1000:.2f} km; on those grades it can hold "
+            f"up to {info['speed_deficit_max'] * 3.6:.0f} km/h less than the trace asks.")
+        warnings.append(info["text"])
+    elif t > 0:
+        info["text"] = (
+            f"{name}: the cycle asks for more than the rated {what} power for {t:.0f} s "
+            f"while accelerating; the truck takes a little longer to reach speed but holds "
+            f"the trace's speeds on every grade.")
+    else:
+        info["text"] = f"{name} holds the trace within its rated {what} power."
+    return info
+
+
+def _electric_day(truck, scenario, tot, n_trips, summary, feas, warnings, ele) -> dict:
+    e = truck.electric
+    depot = scenario.depot
+    cap_new = ele.usable_capacity
+    cap_eol = cap_new * e.eol_state_of_health
+    start = e.start_soc
+    drawdown = (start - tot["electric_soc_min"]) * cap_new  # deepest point of the day [J]
+    net_day = tot["electric_battery_energy_net"]
+    summary.update({
+        "battery_energy_out": tot["electric_battery_energy_out"] / n_trips,
+        "battery_energy_regenerated": tot["electric_battery_energy_regenerated"] / n_trips,
+        "battery_energy_net": net_day / n_trips,
+        "regen_refused_by_limits": tot["electric_regen_refused_by_limits"] / n_trips,
+        "regen_refused_full_battery": tot["electric_regen_refused_full_battery"] / n_trips,
+        "friction_brake_energy": tot["electric_friction_brake_energy"] / n_trips,
+        "soc_start": tot["electric_soc_start"], "soc_end": tot["electric_soc_end"],
+        "soc_min": tot["electric_soc_min"], "usable_capacity": cap_new,
+        "usable_capacity_eol": cap_eol, "aux_power": ele.aux_power,
+        "battery_per_distance": net_day / tot["distance"] if tot["distance"] else 0.0,
+    })
+    feas["power"] = _power_limit(tot, "electric", "motor", truck.name, warnings)
+
+    verdicts = {}
+    for label, cap in (("new", cap_new), ("end_of_life", cap_eol)):
+        available = cap * (start - e.reserve)
+        deficit = max(drawdown - available, 0.0)
+        v = {"ok": deficit <= 0, "usable_capacity": cap, "available": available,
+             "needed": drawdown, "deficit": deficit, "enroute_energy": 0.0,
+             "enroute_time": 0.0}
+        if deficit > 0 and e.enroute.power > 0:
+            v["enroute_energy"] = deficit
+            v["enroute_time"] = float(electric.enroute_charging_time(
+                deficit, e.enroute.power, e.enroute.efficiency)) + e.enroute.overhead
+            v["text"] = (f"With the {label.replace('_', '-')} battery the day needs "
+                         f"{deficit / J_PER_KWH:.0f} kWh of en-route charging: "
+                         f"{v['enroute_time'] / 60:.0f} min a day at "
+                         f"{e.enroute.power / 1000:.0f} kW, stop overhead included.")
+            v["ok_with_enroute"] = True
+        elif deficit > 0:
+            v["text"] = (f"With the {label.replace('_', '-')} battery the day is not "
+                         f"feasible: it is {deficit / J_PER_KWH:.0f} kWh short of the "
+                         f"{e.reserve:.0%} reserve and no en-route charging is given.")
+            v["ok_with_enroute"] = False
+        else:
+            v["text"] = (f"With the {label.replace('_', '-')} battery the day ends with "
+                         f"{(available - drawdown) / J_PER_KWH:.0f} kWh above the "
+                         f"{e.reserve:.0%} reserve.")
+            v["ok_with_enroute"] = True
+        if not v["ok"]:
+            warnings.append(f"{truck.name}: {v['text']}")
+        verdicts[label] = v
+    feas["battery"] = verdicts
+
+    # Energy bought: the new-battery case (the cash-flow years run mostly before end of life)
+    enroute_batt = verdicts["new"]["enroute_energy"]
+    grid_public = enroute_batt / e.enroute.efficiency if enroute_batt > 0 else 0.0
+    depot_batt = max(net_day - enroute_batt, 0.0)
+    grid_depot = float(electric.grid_energy(depot_batt, e.charging_efficiency))
+    window_h = (depot.charging_end_hour - depot.charging_start_hour) % 24 or 24
+    required = float(electric.depot_charger_power(grid_depot, window_h * 3600.0))
+    charger = depot.charger_power if depot.chargers > 0 and depot.charger_power > 0 else 0.0
+    power = charger if charger > 0 else required
+    if charger > 0 and required > charger * (1 + 1e-9):
+        text = (f"{truck.name}: the depot charger ({charger / 1000:.0f} kW) cannot refill "
+                f"the battery in the {window_h} h window; it needs {required / 1000:.0f} kW.")
+        ok = False
+        warnings.append(text)
+    else:
+        text = (f"{truck.name} needs at least {required / 1000:.0f} kW at the depot to "
+                f"refill {grid_depot / J_PER_KWH:.0f} kWh in the {window_h} h window"
+                + (f"; the {charger / 1000:.0f} kW charger suffices." if charger else "."))
+        ok = True
+    feas["depot_charger"] = {"ok": ok, "required_power": required, "charger_power": charger,
+                             "window_hours": window_h, "grid_energy": grid_depot, "text": text}
+    profile = operation.charging_profile(grid_depot, power, depot.charging_start_hour,
+                                         depot.charging_end_hour)
+    summary.update({"grid_energy_depot": grid_depot / n_trips,
+                    "grid_energy_public": grid_public / n_trips,
+                    "grid_per_distance": (grid_depot + grid_public) / tot["distance"]})
+    return {
+        "day": {"battery": net_day, "grid_depot": grid_depot, "grid_public": grid_public,
+                "time_lost": verdicts["new"]["enroute_time"]},
+        "depot_power": power,
+        "profile": profile if profile.sum() > 0 else np.full(24, 1 / 24),
+    }

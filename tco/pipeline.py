@@ -1,0 +1,172 @@
+"""Evaluate a scenario: duty cycle → energy per truck → a year of operation → cash flows,
+emissions and uncertainty → :class:`tco.result.Result`.
+
+The data flows one way; writers in :mod:`tco.report` only render the Result.
+"""
+from __future__ import annotations
+
+import time
+from datetime import datetime, timezone
+
+import numpy as np
+import pandas as pd
+
+from tco import dutycycle
+from tco.errors import InputError
+from tco.progress import Silent, Steps
+from tco.result import Result
+from tco.scenario import LoadedScenario, Scenario, field_sources
+
+
+def _leg_trace(loaded: LoadedScenario, i: int) -> pd.DataFrame:
+    s = loaded.scenario
+    leg = s.route.legs[i]
+    route = s.route
+    where = f"route.legs[{i}]"
+    if leg.file:
+        path = loaded.resolve(leg.file)
+        window = route.smoothing_window or None
+        try:
+            if path.suffix.lower() == ".gpx":
+                trace = dutycycle.read_gpx_trace(path, dt=route.time_step,
+                                                 smoothing_window=window)
+            else:
+                trace = dutycycle.read_csv_trace(
+                    path, dt=route.time_step, cruise_speed=leg.cruise_speed,
+                    smoothing_window=window, max_accel=route.max_accel,
+                    max_decel=route.max_decel)
+        except InputError as exc:
+            raise exc.located(file=path, where=f"{where}.file") from None
+    else:
+        segs = [dict(length=g.length, speed=g.speed, grade=g.grade, stops=g.stops,
+                     dwell=g.dwell) for g in leg.segments]
+        try:
+            trace = dutycycle.from_segments(
+                segs, dt=route.time_step, max_accel=route.max_accel,
+                max_decel=route.max_decel, start_elevation=s.ambient.altitude)
+        except InputError as exc:
+            raise exc.located(file=loaded.path, where=f"{where}.segments") from None
+    if leg.dwell_end > 0:
+        trace = _append_dwell(trace, leg.dwell_end, route.time_step)
+    return trace
+
+
+def _append_dwell(trace: pd.DataFrame, dwell: float, dt: float) -> pd.DataFrame:
+    """Stand still for ``dwell`` seconds at the end of a trace (loading, unloading)."""
+    n = int(round(dwell / dt))
+    if n <= 0:
+        return trace
+    last = trace.iloc[-1]
+    if last["speed"] > 0:  # a trace that ends moving cannot stand still at once
+        return trace
+    extra = pd.DataFrame({
+        "time": last["time"] + dt * np.arange(1, n + 1),
+        "speed": 0.0, "grade": 0.0, "elevation": last["elevation"],
+        "distance": last["distance"], "leg": last["leg"],
+    })
+    out = pd.concat([trace, extra], ignore_index=True)
+    out["leg"] = out["leg"].astype(trace["leg"].dtype)
+    out.attrs = dict(trace.attrs)
+    return out
+
+
+def build_traces(loaded: LoadedScenario) -> list[pd.DataFrame]:
+    """The trace of each leg of one trip (validated, resampled to the time step)."""
+    return [_leg_trace(loaded, i) for i in range(len(loaded.scenario.route.legs))]
+
+
+def build_trip(loaded: LoadedScenario) -> pd.DataFrame:
+    """One trip: the legs joined into a continuous trace."""
+    legs = build_traces(loaded)
+    return dutycycle.concatenate_legs(legs) if len(legs) > 1 else legs[0]
+
+
+def cost_inputs(scenario: Scenario, operations):
+    """The cash-flow model's inputs from a scenario and its yearly operation."""
+    from tco.cashflow import CostInputs, TruckSpec
+
+    return CostInputs(
+        finance=scenario.finance, prices=scenario.prices, depot=scenario.depot,
+        trucks=[TruckSpec(t.name, t.powertrain, t.costs) for t in scenario.trucks],
+        operations=operations, days_per_year=scenario.route.days_per_year,
+        trips_per_day=scenario.route.trips_per_day,
+    )
+
+
+def service_years(scenario: Scenario) -> np.ndarray:
+    """Calendar years of service 1..N. [yr]"""
+    return scenario.study.start_year + np.arange(scenario.finance.analysis_years)
+
+
+def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
+    """Evaluate a loaded scenario end to end.
+
+    Parameters
+    ----------
+    loaded : LoadedScenario
+        From :func:`tco.scenario.load_scenario`.
+    progress : Steps, optional
+        Progress display (the CLI passes one; silent by default).
+
+    Returns
+    -------
+    Result
+
+    Raises
+    ------
+    InputError
+        Bad input found while evaluating (a trace file, a missing price...).
+    """
+    from tco import cashflow, emissions, energy
+
+    steps = progress or Silent()
+    s = loaded.scenario
+    timings: dict[str, float] = {}
+
+    def timed(name, fn, *a, **k):
+        steps.start(name)
+        t0 = time.perf_counter()
+        out = fn(*a, **k)
+        timings[name] = time.perf_counter() - t0
+        return out
+
+    trip = timed("building the duty cycle", build_trip, loaded)
+    trucks = {}
+    for t in s.trucks:
+        trucks[t.name] = timed(f"energy of {t.name}", energy.simulate, t, s, trip)
+    ops = [trucks[t.name].operation for t in s.trucks]
+
+    inputs = cost_inputs(s, ops)
+    cf = timed("cash flows and metrics", cashflow.evaluate, inputs)
+    pv = {m.name: m.present_value for m in cf.trucks}
+    ref = cf.baseline
+    diff = {name: v - pv[ref] for name, v in pv.items() if name != ref}
+    em = timed("emissions", _emissions, emissions, s, ops, ref, diff, cf.discount_rate)
+
+    unc = None
+    if getattr(s.uncertainty, "enabled", False):
+        from tco import uncertainty
+
+        steps.start("uncertainty")
+        t0 = time.perf_counter()
+        unc = uncertainty.evaluate(s.uncertainty, inputs, s.emissions, ops,
+                                   service_years(s), progress=steps)
+        timings["uncertainty"] = time.perf_counter() - t0
+
+    warnings = [w for tr in trucks.values() for w in tr.warnings]
+    warnings += list(getattr(cf, "assumptions", []))
+    return Result(
+        loaded=loaded, route=trip, route_summary=dutycycle.trace_summary(trip),
+        trucks=trucks, cashflow=cf, emissions=em, uncertainty=unc,
+        assumptions=field_sources(s), warnings=warnings,
+        created=datetime.now(timezone.utc).replace(microsecond=0).isoformat(),
+        timings=timings,
+    )
+
+
+def _emissions(emissions, s: Scenario, ops, ref, diff, rate):
+    try:
+        return emissions.evaluate(s.emissions, ops, service_years(s), reference=ref,
+                                  cost_difference=diff, discount_rate=rate)
+    except InputError as exc:
+        raise exc.located(file=None) from None
