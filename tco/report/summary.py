@@ -1,0 +1,206 @@
+"""``summary.json``: the machine-readable result, with stable key names.
+
+The schema is documented in ``docs/summary-schema.md``; its version is
+:data:`SCHEMA_VERSION`. Units are in the key names (``_km``, ``_kWh``, ``_L``…); money is
+in the scenario's currency (``scenario.currency``). NaN and infinity are written as null.
+"""
+from __future__ import annotations
+
+import json
+import math
+from typing import Any
+
+import numpy as np
+
+from tco import __version__
+from tco.units import from_si, mpg_us
+
+SCHEMA_VERSION = "1.0"
+KWH = 3.6e6
+_L = 1e-3
+
+
+def _clean(x: Any) -> Any:
+    """JSON-safe: numpy scalars to Python, NaN/inf to None, recursively."""
+    if isinstance(x, dict):
+        return {str(k): _clean(v) for k, v in x.items()}
+    if isinstance(x, (list, tuple)):
+        return [_clean(v) for v in x]
+    if isinstance(x, np.ndarray):
+        return [_clean(v) for v in x.tolist()]
+    if isinstance(x, (np.bool_, bool)):
+        return bool(x)
+    if isinstance(x, (np.integer,)):
+        return int(x)
+    if isinstance(x, (float, np.floating)):
+        x = float(x)
+        return x if math.isfinite(x) else None
+    return x
+
+
+def _per_distance(tr) -> dict:
+    s = tr.summary
+    d = s["trip_distance"]
+    wheel = s["wheel_energy"]
+    metric = {"wheel_kWh_per_km": {k: v / KWH * 1000 / d for k, v in wheel.items()}}
+    us = {"wheel_kWh_per_mi": {k: v / KWH * 1609.344 / d for k, v in wheel.items()}}
+    if tr.powertrain == "diesel":
+        per_m = s["fuel_per_distance"]
+        metric["fuel_L_per_100km"] = from_si(per_m, "L/(100 km)")
+        us["fuel_mpg"] = mpg_us(per_m)
+        us["fuel_gal_per_100mi"] = from_si(per_m, "gal/(100 mi)")
+    else:
+        for key, si in (("battery", s["battery_energy_net"] / d),
+                        ("grid", (s["grid_energy_depot"] + s["grid_energy_public"]) / d)):
+            metric[f"{key}_kWh_per_km"] = si / KWH * 1000
+            us[f"{key}_kWh_per_mi"] = si / KWH * 1609.344
+    return {"metric": metric, "us": us}
+
+
+def _per_trip(tr) -> dict:
+    s = tr.summary
+    out = {
+        "distance_km": s["trip_distance"] / 1000,
+        "duration_h": s["trip_duration"] / 3600,
+        "wheel_energy_kWh": {k: v / KWH for k, v in s["wheel_energy"].items()},
+        "payload_requested_t": [p / 1000 for p in s["payload_requested"]],
+        "payload_carried_t": [p / 1000 for p in s["payload_carried"]],
+    }
+    if tr.powertrain == "diesel":
+        out.update(diesel_L=s["fuel_volume"] / _L, def_L=s["def_volume"] / _L,
+                   idle_diesel_L=s["idle_fuel_volume"] / _L,
+                   engine_energy_kWh=s["engine_energy"] / KWH)
+    else:
+        out.update(
+            battery_out_kWh=s["battery_energy_out"] / KWH,
+            battery_regenerated_kWh=s["battery_energy_regenerated"] / KWH,
+            battery_net_kWh=s["battery_energy_net"] / KWH,
+            friction_brake_kWh=s["friction_brake_energy"] / KWH,
+            grid_depot_kWh=s["grid_energy_depot"] / KWH,
+            grid_public_kWh=s["grid_energy_public"] / KWH,
+            grid_kWh=(s["grid_energy_depot"] + s["grid_energy_public"]) / KWH,
+            auxiliary_power_kW=s["aux_power"] / 1000,
+        )
+    return out
+
+
+def _per_year(tr) -> dict:
+    op = tr.operation
+    return {
+        "operating_days": op.operating_days, "trips": op.trips, "extra_trips": op.extra_trips,
+        "distance_km": op.distance / 1000, "distance_mi": op.distance / 1609.344,
+        "tonne_km": op.payload_distance / 1e6,
+        "diesel_L": op.diesel_volume / _L, "def_L": op.def_volume / _L,
+        "battery_kWh": op.battery_energy / KWH,
+        "grid_depot_kWh": op.grid_energy_depot / KWH,
+        "grid_public_kWh": op.grid_energy_public / KWH,
+        "charging_time_lost_h": op.charging_time_lost / 3600,
+        "depot_charging_power_kW": op.depot_charging_power / 1000,
+    }
+
+
+def _feasibility(tr) -> dict:
+    f = tr.feasibility
+    out: dict[str, Any] = {
+        "payload": {"ok": f["payload"]["ok"],
+                    "capacity_t": tr.summary["payload_capacity"] / 1000,
+                    "lost_per_trip_t": f["payload"]["lost_per_trip"] / 1000,
+                    "extra_trips_per_year": f["payload"]["extra_trips_per_year"],
+                    "text": f["payload"]["text"]},
+        "power": {"ok": f["power"]["ok"], "limited_time_s": f["power"]["limited_time"],
+                  "limited_distance_km": f["power"]["limited_distance"] / 1000,
+                  "speed_deficit_max_kmh": f["power"]["speed_deficit_max"] * 3.6,
+                  "text": f["power"]["text"]},
+    }
+    if tr.powertrain == "electric":
+        out["battery"] = {
+            label: {"ok": v["ok"], "ok_with_enroute": v["ok_with_enroute"],
+                    "usable_kWh": v["usable_capacity"] / KWH,
+                    "available_kWh": v["available"] / KWH, "needed_kWh": v["needed"] / KWH,
+                    "deficit_kWh": v["deficit"] / KWH,
+                    "enroute_kWh": v["enroute_energy"] / KWH,
+                    "enroute_minutes": v["enroute_time"] / 60, "text": v["text"]}
+            for label, v in f["battery"].items()}
+        d = f["depot_charger"]
+        out["depot_charger"] = {"ok": d["ok"], "required_kW": d["required_power"] / 1000,
+                                "charger_kW": d["charger_power"] / 1000,
+                                "window_hours": d["window_hours"], "text": d["text"]}
+        out["soc_min"] = tr.summary["soc_min"]
+        out["soc_end"] = tr.summary["soc_end"]
+    out["feasible"] = all(
+        v.get("ok_with_enroute", v.get("ok", True)) if isinstance(v, dict) else True
+        for k, v in out.items() if k in ("payload",)) and _battery_ok(out)
+    return out
+
+
+def _battery_ok(out: dict) -> bool:
+    b = out.get("battery")
+    if not b:
+        return True
+    return bool(b["new"]["ok_with_enroute"]) and out.get("depot_charger", {}).get("ok", True)
+
+
+def _assumptions(result) -> list[dict]:
+    rows = []
+    for r in result.assumptions:
+        v = r["value"]
+        if isinstance(v, float) and r["unit"] and r["unit"] not in ("", "-"):
+            try:
+                v = from_si(v, r["unit"])
+            except Exception:  # noqa: BLE001 - units such as "currency/yr" are labels only
+                pass
+        rows.append({"field": r["field"], "value": v if not hasattr(v, "__fspath__")
+                     else str(v), "unit": r["unit"], "source": r["source"]})
+    return rows
+
+
+def build_summary(result) -> dict:
+    """The summary.json content of a Result (JSON-safe)."""
+    from tco.cashflow import cashflow_summary
+    from tco.emissions import emissions_summary
+
+    s = result.scenario
+    loaded = result.loaded
+    rs = result.route_summary
+    out = {
+        "schema_version": SCHEMA_VERSION,
+        "tool": {"name": "tco", "version": __version__},
+        "generated": result.created,
+        "scenario": {
+            "name": s.study.name, "slug": loaded.slug,
+            "file": loaded.path.name if loaded.path else None,
+            "fingerprint_sha256": loaded.fingerprint, "currency": s.study.currency,
+            "units": s.study.units, "start_year": s.study.start_year,
+            "analysis_years": s.finance.analysis_years,
+        },
+        "route": {
+            "trips_per_day": s.route.trips_per_day, "days_per_year": s.route.days_per_year,
+            "trip_distance_km": rs["distance"] / 1000, "trip_distance_mi": rs["distance"] / 1609.344,
+            "trip_duration_h": rs["duration"] / 3600,
+            "climb_m": rs.get("climb"), "descent_m": rs.get("descent"),
+            "stops": rs.get("stops"),
+            "legs": [{"name": leg.name, "payload_t": leg.payload / 1000}
+                     for leg in s.route.legs],
+        },
+        "trucks": {
+            name: {"powertrain": tr.powertrain, "per_trip": _per_trip(tr),
+                   "per_distance": _per_distance(tr), "per_year": _per_year(tr),
+                   "feasibility": _feasibility(tr), "warnings": tr.warnings}
+            for name, tr in result.trucks.items()
+        },
+        "cashflow": cashflow_summary(result.cashflow),
+        "emissions": emissions_summary(result.emissions),
+        "uncertainty": None,
+        "warnings": result.warnings,
+        "assumptions": _assumptions(result),
+    }
+    if result.uncertainty is not None:
+        from tco.uncertainty import uncertainty_summary
+
+        out["uncertainty"] = uncertainty_summary(result.uncertainty)
+    return _clean(out)
+
+
+def dumps(summary: dict) -> str:
+    """Serialise with NaN forbidden (strict JSON)."""
+    return json.dumps(summary, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
