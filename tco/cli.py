@@ -72,6 +72,9 @@ def _cmd_run(args) -> int:
             if args.draws < 0:
                 raise InputError("must be zero or more", where="--draws")
             loaded.scenario.uncertainty.draws = args.draws
+        from tco.report.atomic import check_writable
+
+        check_writable(Path(args.out) / loaded.slug)
         result = evaluate(loaded, progress=steps)
         steps.start("writing outputs")
         written = write_outputs(result, Path(args.out), json_only=args.json_only,

@@ -126,7 +126,10 @@ def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
     def timed(name, fn, *a, **k):
         steps.start(name)
         t0 = time.perf_counter()
-        out = fn(*a, **k)
+        try:
+            out = fn(*a, **k)
+        except InputError as exc:  # name the scenario file when the model did not
+            raise exc.located(file=loaded.path) from None
         timings[name] = time.perf_counter() - t0
         return out
 
@@ -141,7 +144,8 @@ def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
     pv = {m.name: m.present_value for m in cf.trucks}
     ref = cf.baseline
     diff = {name: v - pv[ref] for name, v in pv.items() if name != ref}
-    em = timed("emissions", _emissions, emissions, s, ops, ref, diff, cf.discount_rate)
+    em = timed("emissions", emissions.evaluate, s.emissions, ops, service_years(s),
+               reference=ref, cost_difference=diff, discount_rate=cf.discount_rate)
 
     unc = None
     if getattr(s.uncertainty, "enabled", False):
@@ -149,8 +153,11 @@ def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
 
         steps.start("uncertainty")
         t0 = time.perf_counter()
-        unc = uncertainty.evaluate(s.uncertainty, inputs, s.emissions, ops,
-                                   service_years(s), progress=steps)
+        try:
+            unc = uncertainty.evaluate(s.uncertainty, inputs, s.emissions, ops,
+                                       service_years(s), progress=steps)
+        except InputError as exc:
+            raise exc.located(file=loaded.path) from None
         timings["uncertainty"] = time.perf_counter() - t0
 
     warnings = [w for tr in trucks.values() for w in tr.warnings]
@@ -163,10 +170,3 @@ def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
         timings=timings,
     )
 
-
-def _emissions(emissions, s: Scenario, ops, ref, diff, rate):
-    try:
-        return emissions.evaluate(s.emissions, ops, service_years(s), reference=ref,
-                                  cost_difference=diff, discount_rate=rate)
-    except InputError as exc:
-        raise exc.located(file=None) from None

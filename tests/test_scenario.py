@@ -13,9 +13,9 @@ def minimal(**over) -> dict:
         "route": {"legs": [{"name": "out", "payload": 20, "segments": [
             {"length": 10, "speed": 80}]}]},
         "trucks": [
-            {"name": "D", "powertrain": "diesel", "body": {"curb_mass": 15000},
+            {"name": "D", "powertrain": "diesel", "body": {"curb_mass": 15},
              "diesel": {"engine_power": 330}},
-            {"name": "E", "powertrain": "electric", "body": {"curb_mass": 18000},
+            {"name": "E", "powertrain": "electric", "body": {"curb_mass": 18},
              "electric": {"battery_capacity": 600, "motor_power": 400}},
         ],
     }

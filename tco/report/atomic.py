@@ -28,8 +28,9 @@ def write_text_atomic(path: Path, text: str) -> None:
         raise
 
 
-def _check_writable(folder: Path) -> None:
-    probe = folder
+def check_writable(folder: Path) -> None:
+    """Fail early, with one line, when ``folder`` could not be created or written."""
+    probe = Path(folder)
     while not probe.exists():
         probe = probe.parent
     if not probe.is_dir():
@@ -52,7 +53,7 @@ def staged_output(target: Path):
         The staging folder to write into.
     """
     target = Path(target)
-    _check_writable(target.parent if not target.exists() else target)
+    check_writable(target)
     try:
         target.parent.mkdir(parents=True, exist_ok=True)
         stage = Path(tempfile.mkdtemp(prefix=f".{target.name}.", suffix=".part",

@@ -11,6 +11,7 @@ Every problem is raised as :class:`tco.errors.InputError` naming the file and th
 """
 from __future__ import annotations
 
+import difflib
 import hashlib
 import tomllib
 from pathlib import Path
@@ -136,13 +137,22 @@ def parse_scenario(data: dict, path: Path | None = None) -> Scenario:
         context = {"base_dir": path.parent} if path is not None else None
         return Scenario.model_validate(data, context=context)
     except ValidationError as exc:
-        err = exc.errors()[0]
+        errors = exc.errors()
+        # A misspelt field shows up as "unknown" plus "missing": report the unknown one.
+        errors.sort(key=lambda e: e.get("type") != "extra_forbidden")
+        err = errors[0]
         where = _loc(err["loc"]) or None
         kind = err.get("type", "")
         msg = err.get("msg", "invalid value")
         msg = msg.removeprefix("Value error, ")
         if kind == "extra_forbidden":
-            msg = "unknown field (check its spelling against `tco init`)"
+            msg = "unknown field"
+            parent = err["loc"][:-1]
+            missing = [str(e["loc"][-1]) for e in errors
+                       if e.get("type") == "missing" and e["loc"][:-1] == parent]
+            close = difflib.get_close_matches(str(err["loc"][-1]), missing, n=1)
+            msg += f" (did you mean '{close[0]}'?)" if close else \
+                " (check its spelling against `tco init`)"
         elif kind == "missing":
             msg = "required field is missing"
         raise InputError(msg, file=path, where=where) from None

@@ -19,16 +19,16 @@ JEC_FUELS = "JEC Well-to-Tank report v5 (JRC, 2020), standard properties of fuel
 class Body(Section):
     """The vehicle as the road sees it: masses, aerodynamics, tyres."""
 
-    curb_mass: Qty("kg", gt=0) = qfield(
-        ..., "kg", "Empty mass of the complete combination ready to drive (tractor, trailer, "
+    curb_mass: Qty("t", gt=0) = qfield(
+        ..., "t", "Empty mass of the complete combination ready to drive (tractor, trailer, "
         "battery or full tank, driver)"
     )
-    gross_mass_limit: Qty("kg", gt=0) = qfield(
-        40000.0, "kg", "Legal gross combination weight limit for this operation; set it to "
+    gross_mass_limit: Qty("t", gt=0) = qfield(
+        40.0, "t", "Legal gross combination weight limit for this operation; set it to "
         "your local law", ASSUMPTION + "; weight limits vary by jurisdiction"
     )
-    zero_emission_allowance: Qty("kg", ge=0) = qfield(
-        0.0, "kg", "Extra gross weight allowed for a zero-emission truck, where the local law "
+    zero_emission_allowance: Qty("t", ge=0) = qfield(
+        0.0, "t", "Extra gross weight allowed for a zero-emission truck, where the local law "
         "grants one (electric trucks only)", ASSUMPTION + "; varies by jurisdiction"
     )
     frontal_area: Qty("m^2", gt=0) = qfield(
@@ -116,8 +116,8 @@ class Electric(Section):
     usable_share: Qty("", gt=0, le=1) = qfield(
         0.9, "", "Share of the nominal capacity the battery management lets you use", ASSUMPTION
     )
-    battery_mass: Qty("kg", ge=0) = qfield(
-        0.0, "kg", "Battery mass (already inside curb mass; shown for the payload analysis)",
+    battery_mass: Qty("t", ge=0) = qfield(
+        0.0, "t", "Battery mass (already inside curb mass; shown for the payload analysis)",
         ASSUMPTION
     )
     motor_power: Qty("kW", gt=0) = qfield(..., "kW", "Rated (continuous) motor power")

@@ -1,0 +1,123 @@
+"""The command line: exit codes, one-line errors, nothing half-written."""
+import json
+import subprocess
+import sys
+
+import pytest
+
+from tco import __version__
+from tco.cli import main
+from tco.resources import demo_path
+
+
+def run(capsys, *argv):
+    code = main(list(argv))
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def test_version_and_help(capsys):
+    with pytest.raises(SystemExit) as info:
+        main(["--version"])
+    assert info.value.code == 0
+    assert __version__ in capsys.readouterr().out
+    for cmd in ("run", "check", "init"):
+        with pytest.raises(SystemExit) as info:
+            main([cmd, "--help"])
+        assert info.value.code == 0
+        assert "usage: tco " + cmd in capsys.readouterr().out
+
+
+def test_python_dash_m(tmp_path):
+    proc = subprocess.run([sys.executable, "-m", "tco", "--version"], capture_output=True,
+                          text=True, cwd=tmp_path, env={"PYTHONPATH": str(demo_path().parents[1])})
+    assert proc.returncode == 0 and proc.stdout.startswith("tco ")
+
+
+def test_run_demo_json_only(capsys, tmp_path):
+    code, out, err = run(capsys, "run", "--out", str(tmp_path), "--json-only", "--quiet")
+    assert code == 0, err
+    summary = json.loads((tmp_path / "demo" / "summary.json").read_text())
+    assert summary["schema_version"] == "1.0"
+    assert set(summary["trucks"]) == {"Diesel tractor", "Electric tractor"}
+    assert summary["cashflow"]["comparisons"][0]["truck"] == "Electric tractor"
+    assert not [p for p in tmp_path.rglob("*.part")]
+
+
+def test_init_then_check(capsys, tmp_path):
+    path = tmp_path / "mine.toml"
+    assert run(capsys, "init", str(path))[0] == 0
+    code, out, err = run(capsys, "check", str(path))
+    assert code == 0, err
+    assert "valid" in out
+    code, out, err = run(capsys, "init", str(path))
+    assert code == 2 and "already exists" in err
+
+
+BAD = [
+    ('curb_mass = "15.2 t"', 'curb_mass = -3', "trucks[0].body.curb_mass"),
+    ('speed = "55 km/h"', 'speed = "55 kg"', "segments[2].speed"),
+    ('grade = "5 %"', 'grade = "35 %"', "segments[2].grade"),
+    ('engine_power = "330 kW"', 'engine_powr = "330 kW"', "trucks[0].diesel.engine_powr"),
+    ('diesel = 1.48 ', 'diesel = -1.48 ', "prices.diesel"),
+    ('currency = "EUR"', 'currency = "Euro"', "study.currency"),
+]
+
+
+@pytest.mark.parametrize("old, new, where", BAD)
+def test_bad_input_is_one_line_exit_2_nothing_written(capsys, tmp_path, old, new, where):
+    text = demo_path().read_text()
+    assert old in text
+    bad = tmp_path / "bad.toml"
+    bad.write_text(text.replace(old, new, 1))
+    out_dir = tmp_path / "out"
+    code, out, err = run(capsys, "run", str(bad), "--out", str(out_dir), "--json-only")
+    assert code == 2
+    lines = err.strip().splitlines()
+    assert len(lines) == 1, err
+    assert str(bad) in lines[0] and where in lines[0]
+    assert "Traceback" not in err
+    assert not out_dir.exists() or not any(out_dir.rglob("*"))
+
+
+def test_missing_files(capsys, tmp_path):
+    code, _, err = run(capsys, "run", str(tmp_path / "nope.toml"))
+    assert code == 2 and "file not found" in err
+    text = demo_path().read_text().replace(
+        '[[route.legs]]\nname = "loaded out"', '[[route.legs]]\nname = "loaded out"\nfile = "x.csv"', 1)
+    (tmp_path / "s.toml").write_text(text)
+    code, _, err = run(capsys, "check", str(tmp_path / "s.toml"))
+    assert code == 2 and "route.legs[0]" in err
+
+
+def test_bad_trace_rows_name_file_and_row(capsys, tmp_path):
+    (tmp_path / "t.csv").write_text("time [s],speed [km/h],grade [%]\n0,0,0\n1,10,0\n0.5,12,0\n")
+    text = demo_path().read_text().replace('slug = "demo"\n', "")
+    start = text.index("[[route.legs]]")
+    end = text.index("# ----", start)
+    legs = '[[route.legs]]\npayload = 10\nfile = "t.csv"\n\n'
+    (tmp_path / "s.toml").write_text(text[:start] + legs + text[end:])
+    code, _, err = run(capsys, "check", str(tmp_path / "s.toml"))
+    assert code == 2
+    assert "t.csv" in err and "line 4" in err
+
+
+def test_failed_run_keeps_previous_outputs(capsys, tmp_path):
+    assert run(capsys, "run", "--out", str(tmp_path), "--json-only", "--quiet")[0] == 0
+    summary = tmp_path / "demo" / "summary.json"
+    before = summary.read_bytes()
+    mine = tmp_path / "demo" / "my-notes.txt"
+    mine.write_text("keep me")
+    bad = tmp_path / "bad.toml"
+    bad.write_text(demo_path().read_text().replace("diesel = 1.48 ", "diesel = -1 ", 1))
+    assert run(capsys, "run", str(bad), "--out", str(tmp_path), "--json-only")[0] == 2
+    assert summary.read_bytes() == before
+    assert run(capsys, "run", "--out", str(tmp_path), "--json-only", "--quiet")[0] == 0
+    assert mine.read_text() == "keep me"   # never deletes files it did not write
+
+
+def test_unwritable_output_folder(capsys, tmp_path):
+    blocker = tmp_path / "file"
+    blocker.write_text("x")
+    code, _, err = run(capsys, "run", "--out", str(blocker / "sub"), "--json-only")
+    assert code == 2 and "--out" in err

@@ -1,0 +1,174 @@
+"""Whole-pipeline energy checks: scenario file → trace → kernel → per-trip figures.
+
+Constant-speed cases are derivable by hand: on the flat the wheel force is
+F = A + C·v² with A = Crr·m·g and C = ½·ρ·Cd·A_f (SAE J1263 road-load form,
+F = A + B·v + C·v² with B = 0); on a grade m·g·sin θ is added. Air density comes from the
+1976 standard atmosphere, checked here against the independent `fluids` library.
+"""
+import math
+
+import numpy as np
+import pytest
+from fluids.atmosphere import ATMOSPHERE_1976
+
+from tco.pipeline import build_trip, evaluate
+from tco.scenario import load_scenario
+from tco.units import G
+
+V = 22.0          # m/s
+N = 1801          # samples, 1 s step -> 1800 s of driving
+M_CURB = 15000.0  # kg
+PAYLOAD = 20000.0
+CD, AREA, CRR = 0.6, 10.0, 0.006
+
+
+def write_case(tmp_path, grade_percent=0.0, temperature=15.0, extra="") -> object:
+    csv = tmp_path / "trace.csv"
+    rows = ["time [s],speed [m/s],grade [%]"]
+    rows += [f"{i},{V},{grade_percent}" for i in range(N)]
+    csv.write_text("\n".join(rows) + "\n")
+    body = (f'curb_mass = {M_CURB / 1000}\ndrag_coefficient = {CD}\nfrontal_area = {AREA}\n'
+            f'rolling_resistance = {CRR}\nrotating_mass_factor = 1.0\n')
+    (tmp_path / "s.toml").write_text(f"""
+[study]
+name = "constant speed"
+[ambient]
+temperature = {temperature}
+altitude = 0
+[route]
+trips_per_day = 1
+[[route.legs]]
+payload = {PAYLOAD / 1000}
+file = "trace.csv"
+[[trucks]]
+name = "D"
+powertrain = "diesel"
+  [trucks.body]
+  {body}
+  [trucks.diesel]
+  engine_power = 2000
+  fuel_model = "constant_bsfc"
+  bsfc = 200
+  driveline_efficiency = 0.9
+  accessory_power = 2
+  idle_fuel_rate = 0
+[[trucks]]
+name = "E"
+powertrain = "electric"
+  [trucks.body]
+  {body}
+  [trucks.electric]
+  battery_capacity = 5000
+  motor_power = 2000
+  regen_power = 2000
+  drivetrain_efficiency = 0.9
+  aux_power = 3
+  heating_per_kelvin = 0
+  cooling_per_kelvin = 0
+  charging_efficiency = 0.8
+[prices]
+diesel = 1.5
+diesel_exhaust_fluid = 0.5
+public_charging = 0.5
+  [prices.electricity]
+  energy_price = 0.2
+{extra}
+""")
+    return load_scenario(tmp_path / "s.toml")
+
+
+def hand_force(grade: float, rho: float) -> float:
+    m = M_CURB + PAYLOAD
+    cos, sin = 1 / math.sqrt(1 + grade**2), grade / math.sqrt(1 + grade**2)
+    return CRR * m * G * cos + 0.5 * rho * CD * AREA * V**2 + m * G * sin
+
+
+@pytest.mark.parametrize("grade_percent", [0.0, 3.0])
+def test_constant_speed_through_the_pipeline(tmp_path, grade_percent):
+    loaded = write_case(tmp_path, grade_percent)
+    # 1976 standard atmosphere at 0 m and 15 °C (its own sea-level temperature):
+    # fluids.atmosphere.ATMOSPHERE_1976(0).rho = 1.2250 kg/m³.
+    result = evaluate(loaded)
+    # the model takes the air at the trip's mean elevation and the ambient temperature:
+    # pressure from the 1976 standard atmosphere (fluids), ideal gas R_air = 287.053
+    z = float(result.trucks["D"].trace["elevation"].mean())
+    rho = ATMOSPHERE_1976(z).P / (287.053 * 288.15)
+    if grade_percent == 0:
+        assert rho == pytest.approx(ATMOSPHERE_1976(0.0).rho, rel=1e-6)
+    d_true = V * (N - 1)
+    force = hand_force(grade_percent / 100, rho)
+    duration = N - 1.0
+
+    diesel = result.trucks["D"].summary
+    assert diesel["trip_distance"] == pytest.approx(d_true, rel=1e-9)
+    assert diesel["air_density"] == pytest.approx(rho, rel=1e-6)
+    # wheel traction energy = F · d (no acceleration, no braking)
+    assert diesel["wheel_energy"]["traction"] == pytest.approx(force * d_true, rel=1e-6)
+    assert diesel["wheel_energy"]["braking"] == pytest.approx(0.0, abs=1e-6)
+    # constant BSFC: fuel mass = bsfc · (P_wheel/η + P_acc) · t; BSFC 200 g/kWh in kg/J
+    engine_energy = force * d_true / 0.9 + 2000.0 * duration
+    fuel_mass = 200e-3 / 3.6e6 * engine_energy
+    assert diesel["fuel_volume"] == pytest.approx(fuel_mass / 832.0, rel=1e-6)
+
+    ev = result.trucks["E"].summary
+    battery = force * d_true / 0.9 + 3000.0 * duration
+    assert ev["battery_energy_net"] == pytest.approx(battery, rel=1e-6)
+    assert ev["grid_energy_depot"] == pytest.approx(battery / 0.8, rel=1e-6)
+    op = result.trucks["E"].operation
+    assert op.grid_energy_depot == pytest.approx(battery / 0.8 * 250, rel=1e-6)
+    assert op.distance == pytest.approx(d_true * 250, rel=1e-9)
+
+
+def test_air_density_follows_temperature(tmp_path):
+    cold = evaluate(write_case(tmp_path, temperature=-10.0)).trucks["D"].summary
+    # ideal gas at the standard sea-level pressure 101325 Pa (1976 standard atmosphere),
+    # R_air = 287.053 J/(kg·K): rho = p / (R·T)
+    assert cold["air_density"] == pytest.approx(101325 / (287.053 * 263.15), rel=1e-4)
+
+
+def test_payload_beyond_the_limit_costs_extra_trips(tmp_path):
+    loaded = write_case(tmp_path)
+    s = loaded.scenario
+    s.trucks[1].body.curb_mass = 25000.0       # electric: capacity 40 - 25 = 15 t < 20 t
+    result = evaluate(loaded)
+    ev = result.trucks["E"]
+    assert ev.summary["payload_capacity"] == pytest.approx(15000.0)
+    # to move 20 t with 15 t per trip: 20/15 - 1 = 1/3 more trips
+    assert ev.operation.extra_trips == pytest.approx(250 / 3, rel=1e-9)
+    assert not ev.feasibility["payload"]["ok"]
+    assert any("left behind" in w for w in ev.warnings)
+
+
+def test_infeasible_day_is_a_finding_not_an_error(tmp_path):
+    loaded = write_case(tmp_path)
+    loaded.scenario.trucks[1].electric.battery_capacity = 30 * 3.6e6  # 30 kWh
+    ev = evaluate(loaded).trucks["E"]
+    new = ev.feasibility["battery"]["new"]
+    assert not new["ok"] and not new["ok_with_enroute"]
+    assert "not feasible" in new["text"]
+    assert ev.trace["soc"].min() < 0.1  # SOC is tracked below the reserve, not hidden
+
+
+def test_enroute_charging_time(tmp_path):
+    loaded = write_case(tmp_path)
+    e = loaded.scenario.trucks[1].electric
+    e.battery_capacity = 40 * 3.6e6
+    e.enroute.power = 300e3
+    e.enroute.overhead = 600.0
+    ev = evaluate(loaded).trucks["E"]
+    new = ev.feasibility["battery"]["new"]
+    assert new["ok_with_enroute"]
+    # time = deficit / (P · η) + overhead
+    assert new["enroute_time"] == pytest.approx(
+        new["deficit"] / (300e3 * e.enroute.efficiency) + 600.0, rel=1e-12)
+    assert ev.operation.grid_energy_public == pytest.approx(
+        new["deficit"] / e.enroute.efficiency * 250, rel=1e-9)
+
+
+def test_demo_trip_builds_and_is_plausible():
+    from tco.resources import demo_path
+
+    loaded = load_scenario(demo_path())
+    trip = build_trip(loaded)
+    assert trip["distance"].iloc[-1] == pytest.approx(170_000, rel=1e-3)
+    assert set(np.unique(trip["leg"])) == {0, 1}
