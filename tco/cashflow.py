@@ -1,0 +1,1374 @@
+"""Yearly cash flows of buying (or leasing) and running each truck, and the finance metrics.
+
+The purchase case: for every truck, one cost line per item — purchase, incentives,
+financing, depot charging, energy, running costs, battery replacement, end-of-life value
+and, optionally, taxes — by year 0..N (year 0 = purchase, year y = end of year y), then
+the present value, the levelized cost per km and per mile, each truck's difference from
+the baseline truck, the payback, the IRR of the extra investment and break-even values.
+
+How to call it
+--------------
+The model does not need the whole scenario, only its money sections and the yearly
+physical quantities per truck::
+
+    inputs = CostInputs(
+        finance=scenario.finance, prices=scenario.prices, depot=scenario.depot,
+        trucks=[TruckSpec(t.name, t.powertrain, t.costs) for t in scenario.trucks],
+        operations=annual_operations,            # list[AnnualOperation], same order
+        days_per_year=scenario.route.days_per_year,
+        trips_per_day=scenario.route.trips_per_day,
+    )
+    result = evaluate(inputs)                    # scalar case: table, metrics, break-evens
+    summary["cashflow"] = cashflow_summary(result)
+
+    # uncertainty: every float input may be an array of draws
+    params = flat_params(inputs)                 # {"prices.diesel": 1650.0, ...}  (SI)
+    flows = compute(inputs, overrides={"prices.diesel": draws_a, "route.days_per_year": d},
+                    params=params, totals_only=True)
+    pv = flows.present_value(0)                  # shape (n_draws,)
+    yearly = flows.total(0)                      # shape (n_draws, N + 1)
+
+Conventions
+-----------
+* Amounts are costs: positive = money out, negative = money in (grant, loan received,
+  residual value, tax savings). Each year's total is the net cash out.
+* Every price is today's (year 0) price. A running cost of year y is priced at
+  ``price × (1 + e)^(y-1)`` (the first year at today's price); a one-off bought at the end
+  of year t (a battery, a charger) at ``price × (1 + e)^t``.
+* Physical quantities are those of :class:`~tco.operation.AnnualOperation`, scaled by
+  ``days_per_year / operating_days`` and by ``trips_per_day`` over the operation's own
+  ``(trips - extra_trips) / operating_days``, so that the annual distance can be varied
+  through ``route.days_per_year`` (linearly: the day's duty and charging are assumed to
+  still fit). Peak charging power, trip duration and battery data are not scaled.
+* Money basis ``"real"``: the escalations and the discount rate given are real; they are
+  turned nominal with the inflation rate, all flows are worked out in nominal money (loan
+  and lease payments, tax credit, depreciation and residual shares of the price paid are
+  fixed in money terms), and then every flow of year y is divided by (1 + inflation)^y. So
+  a real case and the nominal case with the Fisher-converted rates give the same present
+  value.
+
+After-tax view (``finance.after_tax.enabled``): tax effects fall in the year of the flow
+(the business is assumed to have enough taxable profit). Deductible: energy, running
+costs, lease payments, depot maintenance and battery replacements (expensed). Loan
+interest gives its own shield. The truck's basis (price + taxes and fees − grant, or a
+lease buy-out) is depreciated by the chosen method from the year after purchase; depot
+equipment (with the grid connection) straight-line over its life. At the end of the
+period, and when charger hardware ends its life, assets are treated as sold at their
+residual value: the gain over the remaining tax book value is taxed (a loss saves tax).
+The tax credit and the grant are not taxed.
+
+Payload effect, without double counting: the extra trips an electric truck needs because
+it carries less per trip are already in ``AnnualOperation.distance`` and in its energy, so
+their energy, maintenance, tyres and tolls are in those lines. The only cost they add
+beyond distance is the driver's time, shown alone as ``extra_trips_driver_time`` =
+extra_trips × trip_duration × driver cost. The driver's regular hours are not a cost line
+for any truck (the same job needs them either way); time lost at en-route chargers is
+(``charging_driver_time``).
+
+References
+----------
+.. [1] numpy-financial documentation (``npv``, ``irr``, ``pmt``), the reference the
+   metrics are checked against.
+.. [2] Internal Revenue Service, *Publication 946, How To Depreciate Property*, Table A-1.
+"""
+from __future__ import annotations
+
+import math
+import types
+import typing
+from dataclasses import dataclass, field
+from typing import Annotated
+
+import numpy as np
+import pandas as pd
+from pydantic import BaseModel
+
+from tco import finance as fin
+from tco.errors import InputError
+from tco.operation import AnnualOperation
+from tco.scenario.costs import Depot, Finance, Prices, TruckCosts
+
+__all__ = [
+    "LINES", "BREAK_EVEN_QUANTITIES", "CashFlows", "CashflowResult", "Comparison",
+    "CostInputs", "LineSpec", "TruckMetrics", "TruckSpec", "break_even", "cashflow_summary",
+    "check_inputs", "compute", "evaluate", "flat_params",
+]
+
+_M_PER_KM = 1000.0
+_M_PER_MILE = 1609.344  # international mile, exact
+_J_PER_KWH = 3.6e6
+_M3_PER_L = 1e-3
+
+
+# --------------------------------------------------------------------------- lines
+@dataclass(frozen=True)
+class LineSpec:
+    """A cost line: its stable name, what it holds, its group and tax treatment.
+
+    Attributes
+    ----------
+    name : str
+        Stable key used in the table, the summary and the workbook.
+    description : str
+        What the line holds (sign: positive = cost).
+    group : str
+        purchase, financing, depot, energy, running, battery, end or tax.
+    deductible : bool
+        Deducted from taxable profit in the year paid (after-tax view).
+    """
+
+    name: str
+    description: str
+    group: str
+    deductible: bool = False
+
+
+#: All cost lines in table order. A line that is zero in every year for a truck is left
+#: out of that truck's table rows.
+LINES: tuple[LineSpec, ...] = (
+    LineSpec("purchase_price", "Purchase price (cash or loan)", "purchase"),
+    LineSpec("purchase_taxes_fees", "Purchase taxes and fees", "purchase"),
+    LineSpec("grant", "Grant received at purchase (negative)", "purchase"),
+    LineSpec("tax_credit", "Tax credit received (negative)", "purchase"),
+    LineSpec("loan_drawdown", "Loan received at purchase (negative)", "financing"),
+    LineSpec("loan_interest", "Loan interest", "financing"),
+    LineSpec("loan_principal", "Loan principal repaid (remaining balance settled in the "
+             "last year when the loan runs past the period)", "financing"),
+    LineSpec("lease_upfront", "Lease payment at signing", "financing", True),
+    LineSpec("lease_payment", "Lease payments", "financing", True),
+    LineSpec("lease_buyout", "Lease buy-out", "financing"),
+    LineSpec("depot_chargers", "Depot charger hardware and installation, this truck's "
+             "share", "depot"),
+    LineSpec("depot_grid_connection", "Depot grid connection, this truck's share", "depot"),
+    LineSpec("depot_maintenance", "Depot charger maintenance, this truck's share", "depot",
+             True),
+    LineSpec("diesel", "Diesel", "energy", True),
+    LineSpec("diesel_exhaust_fluid", "Diesel exhaust fluid", "energy", True),
+    LineSpec("electricity_energy", "Depot electricity, energy charge by time-of-use band",
+             "energy", True),
+    LineSpec("electricity_demand", "Depot electricity, demand charge (this truck's share "
+             "of the depot peak)", "energy", True),
+    LineSpec("electricity_fixed", "Depot electricity, fixed fees (this truck's share)",
+             "energy", True),
+    LineSpec("public_charging", "Electricity bought at public chargers", "energy", True),
+    LineSpec("maintenance", "Maintenance and repair", "running", True),
+    LineSpec("tyres", "Tyres", "running", True),
+    LineSpec("insurance", "Insurance", "running", True),
+    LineSpec("registration", "Registration and road taxes", "running", True),
+    LineSpec("tolls", "Road tolls", "running", True),
+    LineSpec("charging_driver_time", "Driver time lost at en-route chargers", "running", True),
+    LineSpec("extra_trips_driver_time", "Driver time of the extra trips caused by lower "
+             "payload", "running", True),
+    LineSpec("battery_replacement", "Traction battery replacement", "battery", True),
+    LineSpec("battery_remaining_life", "Unused life of a replacement battery at the end "
+             "(negative)", "end"),
+    LineSpec("residual_value", "Residual value of the truck at the end (negative)", "end"),
+    LineSpec("depot_residual", "Value of depot charger hardware at the end of each life and "
+             "of the period (negative)", "end"),
+    LineSpec("tax_shield_operating", "Tax saved on deductible costs (negative)", "tax"),
+    LineSpec("tax_shield_interest", "Tax saved on loan interest (negative)", "tax"),
+    LineSpec("tax_shield_depreciation", "Tax saved on depreciation (negative)", "tax"),
+    LineSpec("tax_on_sale", "Tax on the gain (saving on the loss) of assets sold or "
+             "valued at the end", "tax"),
+)
+_LINE_NAMES = tuple(s.name for s in LINES)
+_DEDUCTIBLE = tuple(s.name for s in LINES if s.deductible)
+
+#: AnnualOperation fields exposed as parameters ``operations[i].<field>``; the first group
+#: is yearly and scales with days and trips per day.
+_OP_SCALED = ("distance", "diesel_volume", "def_volume", "battery_energy",
+              "grid_energy_depot", "grid_energy_public", "charging_time_lost", "extra_trips")
+_OP_FIXED = ("depot_charging_power", "trip_duration", "battery_capacity", "battery_cycle_life")
+
+
+# --------------------------------------------------------------------------- inputs
+@dataclass(frozen=True)
+class TruckSpec:
+    """A truck as the cost model sees it.
+
+    Attributes
+    ----------
+    name : str
+        Truck name (unique).
+    powertrain : str
+        ``"diesel"`` or ``"electric"``.
+    costs : TruckCosts
+        Its cost section.
+    """
+
+    name: str
+    powertrain: str
+    costs: TruckCosts
+
+
+@dataclass
+class CostInputs:
+    """Everything the cash-flow model reads.
+
+    Attributes
+    ----------
+    finance, prices, depot : Finance, Prices, Depot
+        Scenario sections.
+    trucks : list of TruckSpec
+        Candidate trucks, in scenario order (parameter paths ``trucks[i]`` follow it).
+    operations : list of AnnualOperation
+        One per truck, same order.
+    days_per_year : float, optional
+        Operating days per year of the route (default: the operations' own). [1/yr]
+    trips_per_day : float, optional
+        Trips per operating day, extra trips not counted (default: the operations' own).
+    """
+
+    finance: Finance
+    prices: Prices
+    depot: Depot
+    trucks: list[TruckSpec]
+    operations: list[AnnualOperation]
+    days_per_year: float | None = None
+    trips_per_day: float | None = None
+
+
+def _base_trips_per_day(op: AnnualOperation) -> float:
+    return (op.trips - op.extra_trips) / op.operating_days if op.operating_days > 0 else 0.0
+
+
+def _baseline_index(inputs: CostInputs) -> int:
+    name = inputs.finance.baseline
+    names = [t.name for t in inputs.trucks]
+    if name is not None:
+        if name not in names:
+            raise InputError(f"baseline '{name}' is not one of the trucks ({', '.join(names)})",
+                             where="finance.baseline")
+        return names.index(name)
+    for k, t in enumerate(inputs.trucks):
+        if t.powertrain == "diesel":
+            return k
+    return 0
+
+
+def check_inputs(inputs: CostInputs) -> None:
+    """Cross-section checks the section models cannot make alone.
+
+    Raises
+    ------
+    InputError
+        A loan or lease longer than the period without ``beyond_period``; a returned lease
+        that ends before the period; an unknown baseline truck; operations that do not
+        match the trucks.
+    """
+    n = inputs.finance.analysis_years
+    if len(inputs.trucks) != len(inputs.operations):
+        raise ValueError("one AnnualOperation per truck is needed, in the same order")
+    for i, (t, op) in enumerate(zip(inputs.trucks, inputs.operations)):
+        if op.truck != t.name:
+            raise ValueError(f"operations[{i}] is for '{op.truck}', not '{t.name}'")
+        if t.powertrain not in ("diesel", "electric"):
+            raise InputError("powertrain must be diesel or electric", where=f"trucks[{i}]")
+        if op.operating_days <= 0:
+            raise InputError("no operating days", where=f"trucks[{i}]")
+        f = t.costs.financing
+        where = f"trucks[{i}].costs.financing"
+        if f.method == "loan" and f.loan_years > n and f.beyond_period == "error":
+            raise InputError(
+                f"the {f.loan_years}-year loan runs past the {n}-year analysis period; set "
+                "beyond_period = 'settle' to pay the remaining balance in the last year",
+                where=f"{where}.beyond_period")
+        if f.method == "lease":
+            if f.lease_years > n and f.beyond_period == "error":
+                raise InputError(
+                    f"the {f.lease_years}-year lease runs past the {n}-year analysis period; "
+                    "set beyond_period = 'settle' (pay the rest in the last year) or 'drop' "
+                    "(leave the later payments out)", where=f"{where}.beyond_period")
+            if f.lease_years < n and f.lease_end == "return":
+                raise InputError(
+                    f"the lease ends in year {f.lease_years} and the truck is returned, "
+                    f"before the {n}-year period ends; use lease_end = 'buy_out' or a lease "
+                    "of at least the period", where=f"{where}.lease_years")
+    _baseline_index(inputs)
+    users = sum(1 for t, op in zip(inputs.trucks, inputs.operations)
+                if _Context._uses_depot(t, op))
+    served = inputs.depot.trucks_served
+    if served is not None and served < users:
+        raise InputError(f"{users} trucks of the scenario charge at the depot, more than the "
+                         f"{served} it serves", where="depot.trucks_served")
+    if inputs.days_per_year is None:
+        days = {op.operating_days for op in inputs.operations}
+        if max(days) - min(days) > 1e-9 * max(days):
+            raise ValueError("operations differ in operating_days; pass days_per_year")
+
+
+# --------------------------------------------------------------------------- parameters
+def _is_float_annotation(ann) -> bool:
+    if ann is float:
+        return True
+    origin = typing.get_origin(ann)
+    if origin is Annotated:
+        return _is_float_annotation(typing.get_args(ann)[0])
+    if origin in (typing.Union, types.UnionType):
+        return any(_is_float_annotation(a) for a in typing.get_args(ann))
+    return False
+
+
+def _walk(model: BaseModel, prefix: str, out: dict[str, float]) -> None:
+    for name, info in type(model).model_fields.items():
+        value = getattr(model, name)
+        path = f"{prefix}{name}"
+        if isinstance(value, BaseModel):
+            _walk(value, path + ".", out)
+        elif isinstance(value, list):
+            for k, item in enumerate(value):
+                if isinstance(item, BaseModel):
+                    _walk(item, f"{path}[{k}].", out)
+                elif isinstance(item, float):
+                    out[f"{path}[{k}]"] = item
+        elif isinstance(value, float):
+            out[path] = value
+        elif value is None and _is_float_annotation(info.annotation):
+            out[path] = math.nan  # an optional price left out: an error only if needed
+
+
+def flat_params(inputs: CostInputs) -> dict[str, float]:
+    """Every numeric input of the cost model by dotted path, in SI.
+
+    Only ``float`` fields are parameters (prices, rates, amounts, quantities); ``int``,
+    ``bool`` and choice fields fix the structure (years, terms, methods) and are read from
+    the models. An optional price left out is NaN (an error only if a truck needs it).
+
+    Paths: ``finance.<field>``, ``finance.after_tax.<field>``, ``prices.<field>``,
+    ``prices.electricity.bands[j].price``, ``prices.escalation.<line>``, ``depot.<field>``,
+    ``trucks[i].costs.<field>`` (nested: ``.financing.loan_rate``,
+    ``.residual.shares[k]``, ``.escalation.maintenance`` ...), ``route.days_per_year``,
+    ``route.trips_per_day``, ``operations[i].<field>`` for the AnnualOperation quantities
+    (distance, diesel_volume, def_volume, battery_energy, grid_energy_depot,
+    grid_energy_public, charging_time_lost, extra_trips, depot_charging_power,
+    trip_duration, battery_capacity, battery_cycle_life).
+
+    Parameters
+    ----------
+    inputs : CostInputs
+
+    Returns
+    -------
+    dict of str to float
+        Path -> value in SI (money per SI unit for prices: currency/m³, currency/J,
+        currency/m, currency/W, currency/s).
+    """
+    out: dict[str, float] = {}
+    _walk(inputs.finance, "finance.", out)
+    _walk(inputs.prices, "prices.", out)
+    _walk(inputs.depot, "depot.", out)
+    for i, t in enumerate(inputs.trucks):
+        _walk(t.costs, f"trucks[{i}].costs.", out)
+    ops = inputs.operations
+    out["route.days_per_year"] = float(
+        inputs.days_per_year if inputs.days_per_year is not None else ops[0].operating_days)
+    out["route.trips_per_day"] = float(
+        inputs.trips_per_day if inputs.trips_per_day is not None else _base_trips_per_day(ops[0]))
+    for i, op in enumerate(ops):
+        for name in _OP_SCALED + _OP_FIXED:
+            out[f"operations[{i}].{name}"] = float(getattr(op, name))
+    return out
+
+
+def _may_be_negative(path: str) -> bool:
+    return "escalation" in path or path.endswith(("discount_rate", ".inflation"))
+
+
+#: Parameters that are shares, at most 1 (as their section models say).
+_SHARES = ("purchase_tax_rate", "down_payment_share", "residual_share", "insurance_rate",
+           "tax_rate", "residual.rate", "loan_rate")
+
+
+def _is_share(path: str) -> bool:
+    return path.endswith(_SHARES) or ".residual.shares[" in path
+
+
+class _Params:
+    """Read parameters: a float, or an (n,) row of draws when an override is an array."""
+
+    def __init__(self, base: dict[str, float], overrides: dict | None):
+        self.base = base
+        self.values: dict[str, float | np.ndarray] = {}
+        self.n: int | None = None
+        for path, v in (overrides or {}).items():
+            if path not in base:
+                raise InputError(f"unknown parameter '{path}'", where=path)
+            a = np.asarray(v, dtype=float)
+            if a.ndim > 1:
+                raise InputError("an override must be a number or a 1-D array", where=path)
+            if a.ndim == 1:
+                if self.n is not None and a.shape[0] != self.n:
+                    raise InputError(f"override has {a.shape[0]} draws, others {self.n}",
+                                     where=path)
+                self.n = a.shape[0]
+            if np.any(np.isnan(a)):
+                raise InputError("override has NaN values", where=path)
+            if _may_be_negative(path):
+                if np.any(a <= -1.0):
+                    raise InputError("a rate or escalation must be above -100 % per year",
+                                     where=path)
+            elif np.any(a < 0):
+                raise InputError("must not be negative", where=path)
+            if _is_share(path) and np.any(a > 1):
+                raise InputError("a share must be at most 1", where=path)
+            self.values[path] = float(a) if a.ndim == 0 else a
+
+    def __call__(self, path: str):
+        if path in self.values:
+            return self.values[path]
+        return self.base[path]
+
+    def needed(self, path: str, why: str):
+        v = self(path)
+        if np.any(np.isnan(v)):
+            raise InputError(f"this price is needed: {why}", where=path)
+        return v
+
+    def varies(self, path: str) -> bool:
+        return isinstance(self.values.get(path), np.ndarray)
+
+
+# --------------------------------------------------------------------------- results
+@dataclass
+class CashFlows:
+    """Cost lines by truck and year, from :func:`compute`.
+
+    Arrays are ``(N + 1,)`` for a case without array overrides and ``(n_draws, N + 1)``
+    with them (years on the last axis). They are read-only views: lines that do not vary
+    across draws are broadcast, and the data are stored years-first (``(N + 1, n_draws)``,
+    see :attr:`by_year`) because numpy's inner loop then runs over the draws, which is
+    several times faster than over 16 years.
+
+    Attributes
+    ----------
+    years : ndarray of int
+        0..N.
+    trucks, powertrains : list of str
+    by_year : list of dict of str to ndarray
+        Per truck, line name -> amount, shape ``(N + 1, n_draws)`` or ``(N + 1, 1)``
+        (years first). [currency]
+    distance_by_year : list of ndarray
+        Per truck, distance driven by year (0 in year 0), years first. [m]
+    discount_rate : float or ndarray of shape (n_draws,)
+        Rate in the case's money basis (real rate when the basis is real). [-]
+    money_basis : str
+    baseline : int
+        Index of the reference truck.
+    n_draws : int or None
+        None for a case without array overrides.
+    assumptions : list of str
+        Statements about how the case was read (things left out, held constant).
+    """
+
+    years: np.ndarray
+    trucks: list[str]
+    powertrains: list[str]
+    by_year: list[dict[str, np.ndarray]]
+    distance_by_year: list[np.ndarray]
+    discount_rate: float | np.ndarray
+    money_basis: str
+    baseline: int
+    n_draws: int | None
+    assumptions: list[str] = field(default_factory=list)
+
+    def _out(self, a: np.ndarray) -> np.ndarray:
+        """Years-first (N+1, k) -> the public years-last shape."""
+        if self.n_draws is None:
+            return np.asarray(a)[:, 0]
+        return np.broadcast_to(a, (len(self.years), self.n_draws)).T
+
+    @property
+    def lines(self) -> list[dict[str, np.ndarray]]:
+        """Per truck, line name -> amount by year, years last. [currency]"""
+        return [{k: self._out(v) for k, v in d.items()} for d in self.by_year]
+
+    @property
+    def distance(self) -> list[np.ndarray]:
+        """Per truck, distance by year, years last. [m]"""
+        return [self._out(d) for d in self.distance_by_year]
+
+    def _total_first(self, i: int) -> np.ndarray:
+        out = np.zeros((len(self.years), 1))
+        for v in self.by_year[i].values():
+            out = out + v
+        return out
+
+    def _pv_first(self, a: np.ndarray):
+        df = (1.0 + np.asarray(self.discount_rate, dtype=float)) ** -self.years[:, None]
+        pv = np.sum(a * df, axis=0)
+        return float(pv[0]) if self.n_draws is None else np.broadcast_to(pv, (self.n_draws,))
+
+    def total(self, i: int) -> np.ndarray:
+        """Net cost by year of truck i, years last. [currency]"""
+        return self._out(self._total_first(i))
+
+    def present_value(self, i: int):
+        """Present value of truck i's costs at year 0. [currency]"""
+        return self._pv_first(self._total_first(i))
+
+    def discounted_distance(self, i: int):
+        """Discounted distance of truck i. [m]"""
+        return self._pv_first(self.distance_by_year[i])
+
+    def levelized_cost(self, i: int):
+        """Discounted cost over discounted distance. [currency/m]"""
+        return self.present_value(i) / self.discounted_distance(i)
+
+
+def compute(inputs: CostInputs, overrides: dict | None = None,
+            params: dict[str, float] | None = None, totals_only: bool = False) -> CashFlows:
+    """Yearly cost lines of every truck, vectorized over draws.
+
+    .. math:: PV_k = \\sum_{y=0}^{N} \\sum_{l} C_{k,l,y} (1 + r)^{-y}
+
+    Parameters
+    ----------
+    inputs : CostInputs
+        Sections, trucks and yearly operation.
+    overrides : dict of str to float or ndarray of shape (n,), optional
+        Replacement values by parameter path (see :func:`flat_params`), SI units. Arrays
+        give ``n`` draws; all arrays must have the same length.
+    params : dict, optional
+        The output of :func:`flat_params` when already made (saves the walk).
+    totals_only : bool
+        Sum the lines as they are made and keep only each truck's total, under the single
+        line name ``"total"``. For Monte Carlo: with 100,000 draws a line is 13 MB, and
+        touching fresh memory for some 50 of them costs more than the arithmetic.
+
+    Returns
+    -------
+    CashFlows
+
+    Raises
+    ------
+    InputError
+        Inconsistent inputs (see :func:`check_inputs`), a price a truck needs is missing,
+        an override is unknown or out of range.
+
+    Notes
+    -----
+    Cost lines and their formulas are listed in :data:`LINES` and the module docstring.
+    The depot's costs are split equally among ``depot.trucks_served`` trucks (default: the
+    electric trucks that charge at the depot). The depot's peak is taken as all served
+    trucks charging at once at this truck's peak power, capped by the chargers' rating.
+    """
+    check_inputs(inputs)
+    p = _Params(params if params is not None else flat_params(inputs), overrides)
+    ctx = _Context(inputs, p)
+    made = []
+    depot_lines, depot_assets = ctx.depot()
+    for i in range(len(inputs.trucks)):
+        made.append(ctx.truck(i, depot_lines, depot_assets, keep=not totals_only))
+    if totals_only:
+        lines = [{"total": m.total} for m in made]
+    else:
+        lines = [{k: m[k] for k in _LINE_NAMES if k in m} for m in made]
+    if ctx.real:
+        deflator = (1.0 + p("finance.inflation")) ** -ctx.y
+        lines = [{k: v * deflator for k, v in d.items()} for d in lines]
+    lines = [{k: _as_first(v, ctx.N) for k, v in d.items()} for d in lines]
+    rate = p("finance.discount_rate")
+    return CashFlows(
+        years=np.arange(ctx.N + 1), trucks=[t.name for t in inputs.trucks],
+        powertrains=[t.powertrain for t in inputs.trucks], by_year=lines,
+        distance_by_year=[_as_first(ctx.distance(i), ctx.N) for i in range(len(inputs.trucks))],
+        discount_rate=rate, money_basis=inputs.finance.money_basis,
+        baseline=_baseline_index(inputs), n_draws=p.n, assumptions=ctx.assumptions,
+    )
+
+
+def _as_first(v, n_years: int) -> np.ndarray:
+    """A line as a 2-D years-first array: (N+1, 1) or (N+1, n)."""
+    v = np.asarray(v, dtype=float)
+    if v.ndim < 2:
+        v = np.broadcast_to(v.reshape(-1, 1) if v.ndim == 1 else v, (n_years + 1, 1))
+    return v
+
+
+_PROCEEDS = ("residual_value", "battery_remaining_life", "depot_residual")
+
+
+class _Lines(dict):
+    """A truck's lines as they are made, with running sums of the total and, for the
+    after-tax view, of the deductible lines and the end-of-life credits; with
+    ``keep=False`` only the sums are kept.
+
+    Lines that do not vary across draws ((N+1, 1)) are summed apart and added to the
+    varying ones once, at the end: one pass over the draws instead of one per line.
+    """
+
+    def __init__(self, n_years: int, keep: bool, tax: bool):
+        super().__init__()
+        self.keep, self.tax = keep, tax
+        self.sums = {k: [np.zeros((n_years + 1, 1)), None] for k in ("total", "ded", "cred")}
+
+    def _add(self, key: str, v) -> None:
+        v = np.asarray(v, dtype=float)
+        acc = self.sums[key]
+        if v.ndim < 2 or v.shape[1] == 1:
+            acc[0] = acc[0] + (v.reshape(-1, 1) if v.ndim == 1 else v)
+        elif acc[1] is None:
+            acc[1] = v.copy()  # our own array, never a stored line
+        else:
+            acc[1] += v
+
+    def _sum(self, key: str) -> np.ndarray:
+        const, full = self.sums[key]
+        return const if full is None else full + const
+
+    @property
+    def total(self) -> np.ndarray:
+        return self._sum("total")
+
+    @property
+    def deductible(self) -> np.ndarray:
+        return self._sum("ded")
+
+    @property
+    def credits(self) -> np.ndarray:
+        return self._sum("cred")
+
+    def __setitem__(self, name: str, v) -> None:
+        self._add("total", v)
+        if self.tax and name in _DEDUCTIBLE:
+            self._add("ded", v)
+        if self.tax and name in _PROCEEDS:
+            self._add("cred", v)
+        if self.keep:
+            super().__setitem__(name, v)
+
+    def update(self, other: dict) -> None:  # type: ignore[override]
+        for k, v in other.items():
+            self[k] = v
+
+
+def _first(a) -> np.ndarray:
+    """A years-last result of :mod:`tco.finance` ((N+1,) or (n, N+1)) as years-first."""
+    a = np.asarray(a, dtype=float)
+    return a[:, None] if a.ndim == 1 else a.T
+
+
+class _Context:
+    """The arithmetic of :func:`compute`; one instance per call.
+
+    Layout: years first. Year vectors are (N+1, 1) columns; a parameter is a float or an
+    (n,) row of draws; a line is (N+1, 1) or (N+1, n). :meth:`at` takes year t of a line
+    as a (1,) or (n,) row.
+    """
+
+    def __init__(self, inputs: CostInputs, p: _Params):
+        self.inputs, self.p = inputs, p
+        self.N = inputs.finance.analysis_years
+        self.y = np.arange(self.N + 1, dtype=float)[:, None]
+        self.e0 = self.unit(0)
+        self.eN = self.unit(self.N)
+        self.op_mask = (self.y >= 1).astype(float)
+        self.real = inputs.finance.money_basis == "real"
+        self.assumptions: list[str] = []
+        ops = inputs.operations
+        self.served = inputs.depot.trucks_served or max(1, sum(
+            1 for t, op in zip(inputs.trucks, ops) if self._uses_depot(t, op)))
+
+    # helpers -------------------------------------------------------------------------
+    @staticmethod
+    def at(line, t: int) -> np.ndarray:
+        """Year t of a line as a (1,) or (n,) row."""
+        return np.asarray(line, dtype=float)[t]
+
+    def unit(self, t: int) -> np.ndarray:
+        e = np.zeros((self.N + 1, 1))
+        e[t] = 1.0
+        return e
+
+    def esc(self, path: str):
+        """Nominal escalation rate of a line (real ones are turned nominal)."""
+        e = self.p(path)
+        return (1.0 + e) * (1.0 + self.p("finance.inflation")) - 1.0 if self.real else e
+
+    def running(self, path: str) -> np.ndarray:
+        """(1 + e)^(y-1) in years 1..N, 0 in year 0."""
+        return self.op_mask * (1.0 + self.esc(path)) ** np.maximum(self.y - 1.0, 0.0)
+
+    def one_off(self, path: str) -> np.ndarray:
+        """(1 + e)^t for a one-off bought at the end of year t."""
+        return (1.0 + self.esc(path)) ** self.y
+
+    @staticmethod
+    def _uses_depot(truck: TruckSpec, op: AnnualOperation) -> bool:
+        return truck.powertrain == "electric" and op.grid_energy_depot > 0
+
+    def scale(self, i: int):
+        op = self.inputs.operations[i]
+        s = self.p("route.days_per_year") / op.operating_days
+        base_tpd = _base_trips_per_day(op)
+        if base_tpd > 0:
+            s = s * (self.p("route.trips_per_day") / base_tpd)
+        return s
+
+    def q(self, i: int, name: str):
+        """Quantity of truck i's operation; yearly ones scaled to the route's days/trips."""
+        v = self.p(f"operations[{i}].{name}")
+        return v * self.scale(i) if name in _OP_SCALED else v
+
+    def distance(self, i: int) -> np.ndarray:
+        return self.q(i, "distance") * self.op_mask
+
+    # depot ---------------------------------------------------------------------------
+    def depot(self):
+        """Per-truck share of the depot's lines, and its assets for tax depreciation."""
+        d, p, N = self.inputs.depot, self.p, self.N
+        share = 1.0 / self.served
+        n = d.chargers
+        hw = n * p("depot.hardware_cost")
+        inst = n * p("depot.installation_cost")
+        grid = p("depot.grid_connection_cost")
+        rs = p("depot.residual_share")
+        grow = self.one_off("prices.escalation.equipment")
+        installs = list(range(0, N, d.life))  # bought at 0, L, 2L ... before the end
+        capex = np.zeros((N + 1, 1))
+        residual = np.zeros((N + 1, 1))
+        assets = []  # (basis, year bought, fractions): straight line over the life
+        sl = fin.depreciation_fractions("straight_line", d.life)
+        for t in installs:
+            cost_t = (hw + inst) * self.at(grow, t)
+            capex = capex + self.unit(t) * cost_t
+            assets.append((cost_t + (grid if t == 0 else 0.0), t, sl))
+            if t > 0:  # the previous hardware ends its life now
+                residual = residual - self.unit(t) * (rs * hw * self.at(grow, t - d.life))
+        t_last = installs[-1]
+        age = N - t_last
+        residual = residual - self.eN * (
+            hw * self.at(grow, t_last) * (1.0 - (1.0 - rs) * age / d.life))
+        lines = {
+            "depot_chargers": capex * share,
+            "depot_grid_connection": self.e0 * (grid * share),
+            "depot_maintenance": self.running("prices.escalation.equipment")
+            * (n * p("depot.maintenance_per_year") * share),
+            "depot_residual": residual * share,
+        }
+        assets = [(b * share, t, f) for b, t, f in assets]
+        return lines, assets
+
+    # one truck -----------------------------------------------------------------------
+    def truck(self, i: int, depot_lines: dict, depot_assets: list, keep: bool = True) -> _Lines:
+        inputs, p, N, y = self.inputs, self.p, self.N, self.y
+        t = inputs.trucks[i]
+        op = inputs.operations[i]
+        c = t.costs
+        f = c.financing
+        tp = f"trucks[{i}].costs"
+        L = _Lines(N, keep, tax=inputs.finance.after_tax.enabled)
+        assets: list = []  # (basis, year bought, fractions) for tax depreciation
+
+        # purchase and incentives ---------------------------------------------------------
+        price = p(f"{tp}.purchase_price")
+        taxes = price * p(f"{tp}.purchase_tax_rate") + p(f"{tp}.purchase_fees")
+        grant = p(f"{tp}.grant")
+        credit = p(f"{tp}.tax_credit")
+        owned_at_end = f.method != "lease"
+        interest = 0.0
+        if f.method != "lease":
+            L["purchase_price"] = self.e0 * price
+            L["purchase_taxes_fees"] = self.e0 * taxes
+            L["grant"] = self.e0 * -grant
+            if c.tax_credit_year <= N:
+                L["tax_credit"] = self.unit(c.tax_credit_year) * -credit
+            elif c.tax_credit > 0:
+                self.assumptions.append(
+                    f"{t.name}: the tax credit of year {c.tax_credit_year} falls after the "
+                    f"{N}-year period and is not counted")
+            assets.append((price + taxes - grant, 0, self._tax_fractions()))
+        elif c.purchase_tax_rate or c.purchase_fees or c.grant or c.tax_credit:
+            self.assumptions.append(
+                f"{t.name}: leased, so purchase taxes, fees, grant and tax credit belong to "
+                "the lessor (reflected in the lease payment) and are not counted")
+
+        # financing -----------------------------------------------------------------------
+        if f.method == "loan":
+            due = np.maximum(price + taxes - grant, 0.0)
+            principal = due * (1.0 - p(f"{tp}.financing.down_payment_share"))
+            s = fin.loan_schedule(principal, p(f"{tp}.financing.loan_rate"), f.loan_years,
+                                  f.payments_per_year, N)
+            L["loan_drawdown"] = self.e0 * -principal
+            interest = _first(s.interest)
+            L["loan_interest"] = interest
+            repaid = _first(s.principal)
+            if f.loan_years > N:  # beyond_period == "settle" (checked)
+                repaid = repaid + self.eN * self.at(_first(s.balance), N)
+                self.assumptions.append(
+                    f"{t.name}: the loan's balance left after year {N} is paid off in year {N}")
+            L["loan_principal"] = repaid
+        elif f.method == "lease":
+            T = f.lease_years
+            yearly = 12.0 * p(f"{tp}.financing.lease_payment")
+            L["lease_upfront"] = self.e0 * p(f"{tp}.financing.lease_upfront")
+            pay = ((y >= 1) & (y <= min(T, N))) * yearly
+            buyout_year = T if T <= N else None
+            if T > N and f.beyond_period == "settle":
+                pay = pay + self.eN * (yearly * (T - N))
+                buyout_year = N
+                self.assumptions.append(
+                    f"{t.name}: the lease payments after year {N} are paid in year {N}")
+            elif T > N:
+                self.assumptions.append(
+                    f"{t.name}: the lease payments after year {N} are left out, with the use "
+                    "of the truck after the period")
+            L["lease_payment"] = pay
+            if f.lease_end == "buy_out" and buyout_year is not None:
+                buyout = p(f"{tp}.financing.lease_buyout_price")
+                L["lease_buyout"] = self.unit(buyout_year) * buyout
+                owned_at_end = True
+                assets.append((buyout, buyout_year, self._tax_fractions()))
+
+        # value by age, insurance and residual value -------------------------------------
+        share_age = self._residual_shares(i, t, c)
+        start_value = np.concatenate([np.zeros((1, share_age.shape[1])), share_age[:-1]])
+        L["insurance"] = self.running(f"{tp}.escalation.insurance") * (
+            start_value * (p(f"{tp}.insurance_rate") * price) + p(f"{tp}.insurance_fixed"))
+        if owned_at_end:
+            L["residual_value"] = self.eN * (-price * self.at(share_age, N))
+
+        # depot ---------------------------------------------------------------------------
+        if self._uses_depot(t, op):
+            L.update(depot_lines)
+            assets += depot_assets
+
+        # energy --------------------------------------------------------------------------
+        esc = "prices.escalation."
+        if op.diesel_volume > 0 or p.varies(f"operations[{i}].diesel_volume"):
+            price_d = p.needed("prices.diesel", f"{t.name} burns diesel")
+            L["diesel"] = self.running(esc + "diesel") * (self.q(i, "diesel_volume") * price_d)
+        if op.def_volume > 0 or p.varies(f"operations[{i}].def_volume"):
+            price_f = p.needed("prices.diesel_exhaust_fluid",
+                               f"{t.name} uses diesel exhaust fluid")
+            L["diesel_exhaust_fluid"] = self.running(esc + "diesel_exhaust_fluid") \
+                * (self.q(i, "def_volume") * price_f)
+        if op.grid_energy_depot > 0 or p.varies(f"operations[{i}].grid_energy_depot"):
+            L["electricity_energy"] = self.running(esc + "electricity") \
+                * (self.q(i, "grid_energy_depot") * self.depot_price(i))
+        if self._uses_depot(t, op):
+            peak = self.q(i, "depot_charging_power")
+            cap = inputs.depot.chargers * p("depot.charger_power")
+            capped = np.minimum(peak * self.served, np.where(cap > 0, cap, np.inf))
+            elec = self.running(esc + "electricity")
+            L["electricity_demand"] = elec * (
+                12.0 * p("prices.electricity.demand_charge") * capped / self.served)
+            L["electricity_fixed"] = elec * (
+                12.0 * p("prices.electricity.fixed_fee") / self.served)
+        if op.grid_energy_public > 0 or p.varies(f"operations[{i}].grid_energy_public"):
+            price_pub = p.needed("prices.public_charging", f"{t.name} charges en route")
+            L["public_charging"] = self.running(esc + "public_charging") \
+                * (self.q(i, "grid_energy_public") * price_pub)
+
+        # running costs -------------------------------------------------------------------
+        dist = self.q(i, "distance")
+        for name in ("maintenance", "tyres", "tolls"):
+            L[name] = self.running(f"{tp}.escalation.{name}") * (dist * p(f"{tp}.{name}"))
+        L["registration"] = self.running(f"{tp}.escalation.registration") \
+            * p(f"{tp}.registration")
+        wage = p("finance.driver_cost_per_hour")  # [currency/s]
+        driver = self.running("finance.driver_cost_escalation")
+        L["charging_driver_time"] = driver * (self.q(i, "charging_time_lost") * wage)
+        L["extra_trips_driver_time"] = driver * (
+            self.q(i, "extra_trips") * self.q(i, "trip_duration") * wage)
+
+        # battery -------------------------------------------------------------------------
+        L.update(self._battery(i, t, c, op))
+
+        # taxes ---------------------------------------------------------------------------
+        if inputs.finance.after_tax.enabled:
+            L.update(self._taxes(L, interest, assets))
+        return L
+
+    def _tax_fractions(self):
+        a = self.inputs.finance.after_tax
+        return fin.depreciation_fractions(a.depreciation, a.depreciation_years,
+                                          a.declining_balance_percent, a.macrs_class)
+
+    def depot_price(self, i: int):
+        """Charging-profile-weighted depot energy price of truck i. [currency/J]"""
+        tariff = self.inputs.prices.electricity
+        profile = np.asarray(self.inputs.operations[i].charging_profile, dtype=float)
+        covered = np.zeros(24, dtype=bool)
+        price = 0.0
+        for j, band in enumerate(tariff.bands):
+            w = float(profile[band.hours].sum())
+            covered[band.hours] = True
+            if w > 0:
+                price = price + w * self.p(f"prices.electricity.bands[{j}].price")
+        rest = float(profile[~covered].sum())
+        if rest > 1e-12:
+            hours = [h for h in range(24) if not covered[h] and profile[h] > 0]
+            flat = self.p.needed(
+                "prices.electricity.energy_price",
+                f"{self.inputs.trucks[i].name} charges at the depot in hours {hours}, which "
+                "no time-of-use band covers")
+            price = price + rest * flat
+        return price
+
+    def _residual_shares(self, i: int, t: TruckSpec, c: TruckCosts) -> np.ndarray:
+        """Value as a share of the purchase price at ages 0..N, years first. [-]"""
+        N, p = self.N, self.p
+        tp = f"trucks[{i}].costs.residual"
+        if c.residual.method == "declining_balance":
+            return _as_first((1.0 - p(f"{tp}.rate")) ** self.y, N)
+        k = len(c.residual.shares)
+        if k < N:
+            self.assumptions.append(
+                f"{t.name}: the residual value table stops at age {k}; later ages keep its "
+                "last share")
+        rows = [1.0] + [p(f"{tp}.shares[{min(a, k) - 1}]") for a in range(1, N + 1)]
+        rows = np.broadcast_arrays(*[np.atleast_1d(np.asarray(v, dtype=float)) for v in rows])
+        return np.stack(rows, axis=0)
+
+    def _battery(self, i: int, t: TruckSpec, c: TruckCosts, op: AnnualOperation) -> dict:
+        b = c.battery_replacement
+        if b.when == "never" or op.battery_capacity <= 0:
+            return {}
+        N, p, y = self.N, self.p, self.y
+        tp = f"trucks[{i}].costs"
+        cap = self.q(i, "battery_capacity")
+        unit_price = self.one_off(f"{tp}.escalation.battery") * (
+            p(f"{tp}.battery_replacement.cost")
+            + p(f"{tp}.battery_replacement.cost_per_kwh") * cap)
+        credit_on = b.credit_remaining_life
+        if b.when == "year":
+            Y = b.year
+            if Y > N:
+                self.assumptions.append(
+                    f"{t.name}: the battery replacement of year {Y} falls after the {N}-year "
+                    "period and is not counted")
+                return {}
+            out = {"battery_replacement": self.unit(Y) * self.at(unit_price, Y)}
+            if credit_on:
+                left = max(0.0, 1.0 - (N - Y) / Y)  # the new battery lasts as long as the first
+                out["battery_remaining_life"] = self.eN * (-left * self.at(unit_price, Y))
+            return out
+        # cycles: full equivalent cycles = throughput / capacity, summed over the years;
+        # a replacement whenever they pass a multiple of the cycle life. A loop over the
+        # years on (n,) rows: cheaper than (N+1, n) temporaries for floor/diff/argmax.
+        life = self.q(i, "battery_cycle_life")
+        per_year = self.q(i, "battery_energy") / cap
+        with np.errstate(invalid="ignore", divide="ignore"):
+            lives_per_year = np.where(np.isfinite(life), per_year / life, 0.0)
+        k = np.broadcast_shapes(np.shape(lives_per_year), unit_price.shape[1:])
+        repl = np.zeros((N + 1,) + k)
+        done = np.zeros(k)  # replacements so far
+        price_last = np.zeros(k)  # price of the battery in the truck, if replaced
+        for yr in range(1, N + 1):
+            now = np.floor(yr * lives_per_year + 1e-9)
+            count = now - done
+            repl[yr] = count * unit_price[yr]
+            price_last = np.where(count > 0, unit_price[yr], price_last)
+            done = now
+        out = {"battery_replacement": repl}
+        if np.all(done == 0) and np.isfinite(op.battery_cycle_life) and op.battery_energy > 0:
+            years = op.battery_cycle_life * op.battery_capacity / float(
+                np.max(self.q(i, "battery_energy")))
+            self.assumptions.append(
+                f"{t.name}: the battery reaches its cycle life after about {years:.1f} years, "
+                f"after the {N}-year period: no replacement counted")
+        if credit_on:
+            left = np.clip(1.0 - (N * lives_per_year - done), 0.0, 1.0)  # of the one in use
+            out["battery_remaining_life"] = self.eN * -np.where(done > 0, left * price_last,
+                                                                 0.0)
+        return out
+
+    def _taxes(self, L: _Lines, interest, assets: list) -> dict:
+        p, N = self.p, self.N
+        a = self.inputs.finance.after_tax
+        tau = p("finance.after_tax.tax_rate")
+        zero = np.zeros((N + 1, 1))
+        out = {}
+        if a.deduct_operating_costs:
+            out["tax_shield_operating"] = -tau * L.deductible
+        out["tax_shield_interest"] = -tau * (interest * self.op_mask)
+        dep = zero
+        book_left = 0.0
+        for basis, start, fractions in assets:  # bases are floats or (1,)/(n,) rows
+            d, left = fin.depreciation_flows(basis, start, fractions, N)
+            dep = dep + _first(d)
+            book_left = book_left + left
+        out["tax_shield_depreciation"] = -tau * dep
+        # Sold or valued at the end: proceeds (the credits, negative lines) less book value.
+        # Hardware sold at the end of a life before the period ends is fully depreciated.
+        out["tax_on_sale"] = tau * (-L.credits - self.eN * book_left)
+        return out
+
+
+# --------------------------------------------------------------------------- break-even
+#: Break-even quantities, the parameter they move, and the searched range as multiples of
+#: the case's own value (a tool assumption of what is sensible).
+BREAK_EVEN_QUANTITIES = {
+    "diesel_price": ("prices.diesel", (0.0, 10.0)),
+    "electricity_price": ("depot energy prices (all bands together)", (0.0, 10.0)),
+    "purchase_price": ("trucks[i].costs.purchase_price", (0.0, 10.0)),
+    "annual_distance": ("route.days_per_year", (0.02, 5.0)),
+}
+
+
+def _electricity_paths(inputs: CostInputs, base: dict) -> list[str]:
+    paths = [f"prices.electricity.bands[{j}].price"
+             for j in range(len(inputs.prices.electricity.bands))]
+    if not math.isnan(base["prices.electricity.energy_price"]):
+        paths.append("prices.electricity.energy_price")
+    return paths
+
+
+def break_even(inputs: CostInputs, quantity: str, truck: int,
+               params: dict[str, float] | None = None) -> fin.BreakEven:
+    """The value of one input at which truck ``truck`` costs the same as the baseline.
+
+    The difference PV(truck) − PV(baseline) is evaluated on a grid over a sensible range
+    in one vectorized call, and the sign change nearest the case's own value is refined
+    with ``scipy.optimize.brentq`` (:func:`tco.finance.find_break_even`).
+
+    Parameters
+    ----------
+    inputs : CostInputs
+    quantity : {"diesel_price", "electricity_price", "purchase_price", "annual_distance"}
+        ``diesel_price``: ``prices.diesel`` [currency/m³], searched over 0..10× the case.
+        ``electricity_price``: all depot energy prices scaled together, reported as the
+        truck's charging-profile-weighted depot price [currency/J], 0..10×.
+        ``purchase_price``: this truck's purchase price [currency], 0..10×.
+        ``annual_distance``: ``route.days_per_year`` varied over 0.02..5×, reported as
+        the baseline truck's distance per year [m/yr].
+    truck : int
+        Index of the compared truck (not the baseline).
+    params : dict, optional
+        Output of :func:`flat_params`.
+
+    Returns
+    -------
+    BreakEven
+        Value in the units above, or None with the reason.
+    """
+    base = params if params is not None else flat_params(inputs)
+    ref = _baseline_index(inputs)
+    lo_k, hi_k = BREAK_EVEN_QUANTITIES[quantity][1]
+
+    def diff_for(make_overrides):
+        def many(x):
+            cf = compute(inputs, make_overrides(np.asarray(x, dtype=float)), base)
+            return cf.present_value(truck) - cf.present_value(ref)
+
+        def one(x):
+            return float(many(np.array([x]))[0])
+        return many, one
+
+    if quantity == "electricity_price":
+        paths = _electricity_paths(inputs, base)
+        if not paths:
+            return fin.BreakEven(None, "the scenario has no depot electricity price")
+        many, one = diff_for(lambda k: {q: base[q] * k for q in paths})
+        r = fin.find_break_even(many, one, lo_k, hi_k, 1.0,
+                                range_text=f"{lo_k:g} and {hi_k:g} times the scenario's "
+                                           "depot energy prices")
+        if r.value is None:
+            return r
+        who = truck if inputs.operations[truck].grid_energy_depot > 0 else ref
+        weighted = _Context(inputs, _Params(base, None)).depot_price(who)
+        return fin.BreakEven(r.value * float(weighted), r.note)
+    if quantity == "diesel_price":
+        path = "prices.diesel"
+    elif quantity == "purchase_price":
+        path = f"trucks[{truck}].costs.purchase_price"
+    elif quantity == "annual_distance":
+        path = "route.days_per_year"
+    else:
+        raise ValueError(f"unknown break-even quantity '{quantity}'")
+    x0 = base[path]
+    if math.isnan(x0):
+        return fin.BreakEven(None, f"the scenario has no {path}")
+    if x0 <= 0:
+        return fin.BreakEven(None, f"{path} is zero in the scenario; no range to search")
+    many, one = diff_for(lambda x: {path: x})
+    r = fin.find_break_even(many, one, lo_k * x0, hi_k * x0, x0,
+                            range_text=f"{lo_k:g} and {hi_k:g} times the scenario's value")
+    if quantity == "annual_distance" and r.value is not None:
+        ctx = _Context(inputs, _Params(base, {path: r.value}))
+        return fin.BreakEven(float(ctx.q(ref, "distance")), r.note)
+    return r
+
+
+# --------------------------------------------------------------------------- evaluate
+@dataclass
+class TruckMetrics:
+    """Money metrics of one truck (money basis of the case).
+
+    Attributes
+    ----------
+    name, powertrain : str
+    present_value : float
+        Present value of all costs at year 0. [currency]
+    undiscounted_total : float
+        Sum of the yearly net costs. [currency]
+    levelized_cost : float
+        Discounted cost over discounted distance. [currency/m]
+    annual_distance : float
+        Distance in the first year. [m/yr]
+    present_value_by_line : dict of str to float
+        Present value of each line. [currency]
+    """
+
+    name: str
+    powertrain: str
+    present_value: float
+    undiscounted_total: float
+    levelized_cost: float
+    annual_distance: float
+    present_value_by_line: dict[str, float]
+
+
+@dataclass
+class Comparison:
+    """One truck against the baseline (differences are truck − baseline).
+
+    Attributes
+    ----------
+    truck, baseline : str
+    present_value_difference : float
+        Positive: the truck costs more. [currency]
+    levelized_cost_difference : float
+        [currency/m]
+    extra_upfront_cost : float
+        Year-0 net cost difference. [currency]
+    simple_payback_year, discounted_payback_year : int or None
+        First year from which the cumulative saving over the baseline stays ≥ 0; None:
+        not within the period. [yr]
+    payback_note : str
+    irr : float or None
+        IRR of the savings flows (baseline cost − truck cost by year). [-/yr]
+    irr_note : str
+    break_even : dict of str to BreakEven
+        See :func:`break_even` for the units.
+    """
+
+    truck: str
+    baseline: str
+    present_value_difference: float
+    levelized_cost_difference: float
+    extra_upfront_cost: float
+    simple_payback_year: int | None
+    discounted_payback_year: int | None
+    payback_note: str
+    irr: float | None
+    irr_note: str
+    break_even: dict[str, fin.BreakEven]
+
+
+@dataclass
+class CashflowResult:
+    """The purchase case of a scenario.
+
+    Attributes
+    ----------
+    table : pandas.DataFrame
+        Tidy: columns ``truck``, ``year`` (0 = purchase), ``line``, ``amount``
+        [currency, money basis of the case]; lines zero in every year are left out.
+    trucks : list of TruckMetrics
+    comparisons : list of Comparison
+        Every truck other than the baseline.
+    baseline : str
+    money_basis : str
+    discount_rate : float
+    analysis_years : int
+    assumptions : list of str
+    flows : CashFlows
+    """
+
+    table: pd.DataFrame
+    trucks: list[TruckMetrics]
+    comparisons: list[Comparison]
+    baseline: str
+    money_basis: str
+    discount_rate: float
+    analysis_years: int
+    assumptions: list[str]
+    flows: CashFlows
+
+    def yearly_totals(self) -> pd.DataFrame:
+        """Net cost by year (rows) and truck (columns). [currency]"""
+        return self.table.pivot_table(index="year", columns="truck", values="amount",
+                                      aggfunc="sum", fill_value=0.0).reindex(
+            index=range(self.analysis_years + 1), fill_value=0.0)
+
+
+def evaluate(inputs: CostInputs, break_evens: bool = True) -> CashflowResult:
+    """Cash flows, metrics, comparisons and break-even values of the scalar case.
+
+    Parameters
+    ----------
+    inputs : CostInputs
+    break_evens : bool
+        Search the break-even values (four root searches per compared truck).
+
+    Returns
+    -------
+    CashflowResult
+    """
+    params = flat_params(inputs)
+    cf = compute(inputs, params=params)
+    rate = float(cf.discount_rate)
+    rows = []
+    metrics = []
+    for i, name in enumerate(cf.trucks):
+        shown = {k: v for k, v in cf.lines[i].items() if np.any(v != 0)}  # table order
+        by_line = {k: float(fin.present_value(v, rate)) for k, v in shown.items()}
+        rows += [(name, int(yr), k, float(v[yr]) + 0.0)  # + 0.0: no "-0.0" in the table
+                 for yr in cf.years for k, v in shown.items()]
+        total = cf.total(i)
+        metrics.append(TruckMetrics(
+            name=name, powertrain=cf.powertrains[i], present_value=float(cf.present_value(i)),
+            undiscounted_total=float(total.sum()), levelized_cost=float(cf.levelized_cost(i)),
+            annual_distance=float(cf.distance[i][1]), present_value_by_line=by_line))
+    table = pd.DataFrame(rows, columns=["truck", "year", "line", "amount"])
+
+    ref = cf.baseline
+    comparisons = []
+    for i, name in enumerate(cf.trucks):
+        if i == ref:
+            continue
+        savings = cf.total(ref) - cf.total(i)
+        simple = fin.payback_year(savings)
+        disc = fin.payback_year(savings, rate)
+        extra = float(-savings[0])
+        if np.isnan(simple) and np.isnan(disc):
+            note = "not within the period"
+        elif extra <= 0 and simple == 0:
+            note = "no extra up-front cost"
+        else:
+            note = "" if not np.isnan(disc) else "discounted payback not within the period"
+        r, status = fin.irr(savings)
+        irr_note = "" if status == 0 else fin.IRR_STATUS[status]
+        if status == 2:
+            roots = fin.irr_roots(savings)
+            irr_note += ": " + ", ".join(f"{x:.2%}" for x in roots)
+        be = {}
+        if break_evens:
+            for qname in BREAK_EVEN_QUANTITIES:
+                be[qname] = break_even(inputs, qname, i, params)
+        comparisons.append(Comparison(
+            truck=name, baseline=cf.trucks[ref],
+            present_value_difference=metrics[i].present_value - metrics[ref].present_value,
+            levelized_cost_difference=metrics[i].levelized_cost - metrics[ref].levelized_cost,
+            extra_upfront_cost=extra,
+            simple_payback_year=None if np.isnan(simple) else int(simple),
+            discounted_payback_year=None if np.isnan(disc) else int(disc),
+            payback_note=note, irr=None if status else float(r), irr_note=irr_note,
+            break_even=be))
+    return CashflowResult(
+        table=table, trucks=metrics, comparisons=comparisons, baseline=cf.trucks[ref],
+        money_basis=cf.money_basis, discount_rate=rate,
+        analysis_years=inputs.finance.analysis_years, assumptions=list(cf.assumptions),
+        flows=cf)
+
+
+def _num(x) -> float | None:
+    return None if x is None or not np.isfinite(x) else float(x)
+
+
+#: Break-even keys in the summary and the factor from SI to the unit in the key's name.
+_BE_KEYS = {
+    "diesel_price": ("diesel_price_per_litre", _M3_PER_L),
+    "electricity_price": ("electricity_price_per_kwh", _J_PER_KWH),
+    "purchase_price": ("purchase_price", 1.0),
+    "annual_distance": ("annual_distance_km", 1.0 / _M_PER_KM),
+}
+
+
+def cashflow_summary(result: CashflowResult) -> dict:
+    """The purchase case as a JSON-able dict (for summary.json); stable key names.
+
+    Money is in the scenario currency, in the money basis given by ``money_basis``.
+    Missing values are ``null`` (never NaN).
+
+    Keys
+    ----
+    ``money_basis`` (str) "nominal" or "real" · ``discount_rate`` (float, per year) ·
+    ``analysis_years`` (int) · ``baseline`` (str, the reference truck's name) ·
+    ``lines`` (list of str, all line names in table order) ·
+    ``trucks`` (dict by truck name) of:
+
+    - ``powertrain`` (str)
+    - ``present_value`` (float) present value of all costs at year 0 [currency]
+    - ``undiscounted_total`` (float) sum of yearly net costs [currency]
+    - ``levelized_cost_per_km`` / ``levelized_cost_per_mile`` (float) [currency/km, /mi]
+    - ``annual_distance_km`` (float) distance in year 1 [km]
+    - ``yearly_totals`` (list of float, years 0..N) net cost by year [currency]
+    - ``present_value_by_line`` (dict line -> float) [currency]
+
+    ``comparisons`` (list, one per non-baseline truck) of:
+
+    - ``truck``, ``baseline`` (str)
+    - ``present_value_difference`` (float) truck − baseline; positive: the truck costs
+      more [currency]
+    - ``levelized_cost_difference_per_km`` / ``_per_mile`` (float)
+    - ``extra_upfront_cost`` (float) year-0 difference [currency]
+    - ``simple_payback_year`` / ``discounted_payback_year`` (int or null: not within the
+      period) first year from which the cumulative saving stays ≥ 0
+    - ``payback_note`` (str, "" when nothing to say)
+    - ``irr`` (float or null) IRR of the savings flows per year · ``irr_note`` (str)
+    - ``break_even`` (dict) with ``diesel_price_per_litre``, ``electricity_price_per_kwh``
+      (charging-profile-weighted depot price), ``purchase_price`` (of this truck),
+      ``annual_distance_km`` (of the baseline truck), each ``{"value": float or null,
+      "note": str}``
+
+    ``assumptions`` (list of str) statements on how the case was read.
+
+    Parameters
+    ----------
+    result : CashflowResult
+
+    Returns
+    -------
+    dict
+    """
+    totals = result.yearly_totals()
+    trucks = {}
+    for m in result.trucks:
+        trucks[m.name] = {
+            "powertrain": m.powertrain,
+            "present_value": _num(m.present_value),
+            "undiscounted_total": _num(m.undiscounted_total),
+            "levelized_cost_per_km": _num(m.levelized_cost * _M_PER_KM),
+            "levelized_cost_per_mile": _num(m.levelized_cost * _M_PER_MILE),
+            "annual_distance_km": _num(m.annual_distance / _M_PER_KM),
+            "yearly_totals": [float(v) for v in totals[m.name]] if m.name in totals
+            else [0.0] * (result.analysis_years + 1),
+            "present_value_by_line": {k: float(v) for k, v in m.present_value_by_line.items()},
+        }
+    comps = []
+    for c in result.comparisons:
+        be = {}
+        for q, (key, factor) in _BE_KEYS.items():
+            b = c.break_even.get(q)
+            if b is None:
+                continue
+            be[key] = {"value": None if b.value is None else _num(b.value * factor),
+                       "note": b.note}
+        comps.append({
+            "truck": c.truck,
+            "baseline": c.baseline,
+            "present_value_difference": _num(c.present_value_difference),
+            "levelized_cost_difference_per_km": _num(c.levelized_cost_difference * _M_PER_KM),
+            "levelized_cost_difference_per_mile": _num(c.levelized_cost_difference
+                                                        * _M_PER_MILE),
+            "extra_upfront_cost": _num(c.extra_upfront_cost),
+            "simple_payback_year": c.simple_payback_year,
+            "discounted_payback_year": c.discounted_payback_year,
+            "payback_note": c.payback_note,
+            "irr": _num(c.irr),
+            "irr_note": c.irr_note,
+            "break_even": be,
+        })
+    return {
+        "money_basis": result.money_basis,
+        "discount_rate": float(result.discount_rate),
+        "analysis_years": int(result.analysis_years),
+        "baseline": result.baseline,
+        "lines": list(_LINE_NAMES),
+        "trucks": trucks,
+        "comparisons": comps,
+        "assumptions": list(result.assumptions),
+    }

@@ -1,0 +1,613 @@
+"""Finance metrics over yearly cash flows: discounting, loans, depreciation, payback, IRR.
+
+Every function works on the last axis of an array of yearly flows, year 0 first
+(``flows[..., 0]`` is the purchase moment, ``flows[..., y]`` the end of year y), and
+broadcasts over any leading axes, so one call handles one case or 100,000 Monte Carlo
+draws. Rates are fractions per year; a rate may be a float or an array of shape
+``(n_draws,)`` that lines up with the leading axis of the flows.
+
+numpy-financial is the reference these functions are checked against
+(``tests/test_finance.py``); it is not called on the hot path because its ``irr`` and
+``npv`` handle one series at a time.
+
+References
+----------
+.. [1] numpy-financial documentation, functions ``npv``, ``irr``, ``pmt``, ``ipmt``,
+   ``ppmt`` (numpy-financial 1.0).
+.. [2] Internal Revenue Service, *Publication 946, How To Depreciate Property*,
+   Appendix A, Table A-1 "3-, 5-, 7-, 10-, 15-, and 20-Year Property, Half-Year Convention".
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.optimize import brentq
+
+__all__ = [
+    "MACRS_GDS_HALF_YEAR", "BreakEven", "LoanSchedule", "annuity_payment",
+    "depreciation_flows", "depreciation_fractions", "discount_factors", "find_break_even",
+    "irr", "irr_roots", "IRR_STATUS", "levelized_cost", "loan_schedule", "nominal_rate",
+    "payback_year", "present_value", "real_rate",
+]
+
+#: US MACRS General Depreciation System, half-year convention: percent of the basis
+#: deducted in recovery years 1, 2, ... Copied from IRS Publication 946 (How To Depreciate
+#: Property), Appendix A, Table A-1 (200 % declining balance switching to straight line).
+#: The table's own rounding differs from a generator (3-year, year 2: 44.45, not 44.44),
+#: so it is hard-coded, not computed. Over-the-road tractor units are 3-year property
+#: (Publication 946, Table B-1, asset class 00.26).
+MACRS_GDS_HALF_YEAR: dict[int, tuple[float, ...]] = {
+    3: (33.33, 44.45, 14.81, 7.41),
+    5: (20.00, 32.00, 19.20, 11.52, 11.52, 5.76),
+    7: (14.29, 24.49, 17.49, 12.49, 8.93, 8.92, 8.93, 4.46),
+}
+
+
+def _col(x):
+    """A float stays a float; an (n,) array becomes an (n, 1) column; a column stays."""
+    a = np.asarray(x, dtype=float)
+    if a.ndim == 0:
+        return float(a)
+    return a[:, None] if a.ndim == 1 else a
+
+
+def real_rate(nominal, inflation):
+    """Real rate from a nominal rate and inflation (Fisher relation).
+
+    .. math:: 1 + r_{real} = (1 + r_{nom}) / (1 + i)
+
+    Parameters
+    ----------
+    nominal : float or array
+        Nominal rate per year. [-]
+    inflation : float or array
+        Inflation per year. [-]
+
+    Returns
+    -------
+    float or array
+        Real rate per year. [-]
+
+    Examples
+    --------
+    >>> round(float(real_rate(0.071, 0.02)), 6)
+    0.05
+    """
+    return (1.0 + np.asarray(nominal)) / (1.0 + np.asarray(inflation)) - 1.0
+
+
+def nominal_rate(real, inflation):
+    """Nominal rate from a real rate and inflation: (1 + r)(1 + i) − 1. [-]
+
+    Examples
+    --------
+    >>> round(float(nominal_rate(0.05, 0.02)), 6)
+    0.071
+    """
+    return (1.0 + np.asarray(real)) * (1.0 + np.asarray(inflation)) - 1.0
+
+
+def discount_factors(rate, n_years: int):
+    """End-of-year discount factors for years 0..n_years.
+
+    .. math:: d_y = (1 + r)^{-y}
+
+    Parameters
+    ----------
+    rate : float or array of shape (n,)
+        Discount rate per year, above -1. [-]
+    n_years : int
+        Last year. [yr]
+
+    Returns
+    -------
+    ndarray, shape (n_years + 1,) or (n, n_years + 1)
+        Discount factors. [-]
+
+    Examples
+    --------
+    >>> discount_factors(0.1, 2).round(4).tolist()
+    [1.0, 0.9091, 0.8264]
+    """
+    y = np.arange(n_years + 1, dtype=float)
+    return (1.0 + _col(rate)) ** -y
+
+
+def present_value(flows, rate):
+    """Present value at year 0 of yearly flows (year 0 not discounted).
+
+    .. math:: PV = \\sum_{y=0}^{N} F_y (1 + r)^{-y}
+
+    Same convention as ``numpy_financial.npv`` [1]_ (a spreadsheet ``NPV`` discounts its
+    first value one period).
+
+    Parameters
+    ----------
+    flows : array, shape (..., N + 1)
+        Flows by year, year 0 first. [currency]
+    rate : float or array of shape (n,)
+        Discount rate per year. [-]
+
+    Returns
+    -------
+    float or ndarray of shape (...)
+        Present value. [currency]
+
+    Examples
+    --------
+    >>> round(float(present_value([-100, 60, 60], 0.10)), 6)
+    4.132231
+    """
+    f = np.asarray(flows, dtype=float)
+    out = np.sum(f * discount_factors(rate, f.shape[-1] - 1), axis=-1)
+    return float(out) if np.ndim(out) == 0 else out
+
+
+def levelized_cost(flows, quantity, rate):
+    """Levelized cost: discounted cost over discounted quantity (e.g. distance).
+
+    .. math:: LC = \\frac{\\sum_y C_y (1+r)^{-y}}{\\sum_y Q_y (1+r)^{-y}}
+
+    Parameters
+    ----------
+    flows : array, shape (..., N + 1)
+        Costs by year. [currency]
+    quantity : array, shape (..., N + 1)
+        Quantity delivered by year (distance [m]). [unit]
+    rate : float or array
+        Discount rate per year. [-]
+
+    Returns
+    -------
+    float or ndarray
+        Cost per unit of quantity (per metre for distance). [currency/unit]
+
+    Examples
+    --------
+    >>> levelized_cost([100.0, 10.0, 10.0], [0.0, 1.0, 1.0], 0.0)
+    60.0
+    """
+    return present_value(flows, rate) / present_value(quantity, rate)
+
+
+# --------------------------------------------------------------------------- loans
+def annuity_payment(principal, rate_per_period, n_periods: int):
+    """Level payment that repays ``principal`` in ``n_periods`` instalments in arrears.
+
+    .. math:: A = P \\frac{i}{1 - (1 + i)^{-n}}, \\qquad A = P / n \\text{ when } i = 0
+
+    Equals ``-numpy_financial.pmt(i, n, P)`` [1]_.
+
+    Parameters
+    ----------
+    principal : float or array
+        Amount borrowed. [currency]
+    rate_per_period : float or array
+        Interest rate per instalment period, at least 0. [-]
+    n_periods : int
+        Number of instalments. [-]
+
+    Returns
+    -------
+    float or ndarray
+        Payment per period. [currency]
+
+    Examples
+    --------
+    >>> round(float(annuity_payment(200000, 0.075 / 12, 180)), 4)
+    1854.0247
+    """
+    p = np.asarray(principal, dtype=float)
+    i = np.asarray(rate_per_period, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        a = np.where(i > 0, p * i / -np.expm1(-n_periods * np.log1p(np.maximum(i, 0.0))),
+                     p / n_periods)
+    return float(a) if a.ndim == 0 else a
+
+
+@dataclass(frozen=True)
+class LoanSchedule:
+    """A loan's flows by year 0..n_years (arrays broadcast like the inputs).
+
+    Attributes
+    ----------
+    interest : ndarray, shape (..., n_years + 1)
+        Interest paid in each year. [currency]
+    principal : ndarray, shape (..., n_years + 1)
+        Principal repaid in each year. [currency]
+    balance : ndarray, shape (..., n_years + 1)
+        Balance owed at the end of each year (year 0: the amount borrowed). [currency]
+    """
+
+    interest: np.ndarray
+    principal: np.ndarray
+    balance: np.ndarray
+
+
+def loan_schedule(principal, annual_rate, term_years: int, payments_per_year: int,
+                  n_years: int) -> LoanSchedule:
+    """Yearly interest and principal of a level-payment loan, instalments in arrears.
+
+    With :math:`m` instalments a year at :math:`i = r/m`, payment :math:`A`
+    (:func:`annuity_payment`) and the balance after :math:`k` instalments
+
+    .. math:: B_k = P (1 + i)^k - A \\frac{(1 + i)^k - 1}{i},
+
+    year y repays :math:`B_{m(y-1)} - B_{my}` of principal and pays
+    :math:`mA - (B_{m(y-1)} - B_{my})` of interest. Summed per year this equals
+    ``numpy_financial.ppmt`` and ``ipmt`` [1]_.
+
+    Parameters
+    ----------
+    principal : float or array of shape (n,)
+        Amount borrowed at year 0. [currency]
+    annual_rate : float or array of shape (n,)
+        Nominal interest rate per year, at least 0. [-]
+    term_years : int
+        Term. [yr]
+    payments_per_year : int
+        Instalments per year (12: monthly). [1/yr]
+    n_years : int
+        Years to report (the schedule stops at the term). [yr]
+
+    Returns
+    -------
+    LoanSchedule
+
+    Examples
+    --------
+    >>> s = loan_schedule(1000.0, 0.10, 2, 1, 2)
+    >>> s.interest.round(2).tolist(), s.principal.round(2).tolist()
+    ([0.0, 100.0, 52.38], [0.0, 476.19, 523.81])
+    """
+    m = int(payments_per_year)
+    n = int(term_years) * m
+    p = _col(principal)
+    i = _col(annual_rate) / m
+    a = annuity_payment(p, i, n)
+    k = np.minimum(np.arange(n_years + 1), term_years) * m  # instalments paid by end of year
+    with np.errstate(divide="ignore", invalid="ignore"):
+        growth = (1.0 + i) ** k
+        bal = np.where(np.asarray(i) > 0, p * growth - a * (growth - 1.0) / i, p - a * k)
+    bal = np.where(k >= n, 0.0, bal)  # exactly zero after the last instalment
+    bal = np.broadcast_to(bal, np.broadcast_shapes(np.shape(bal), np.shape(p)))
+    principal_paid = np.zeros_like(bal)
+    principal_paid[..., 1:] = bal[..., :-1] - bal[..., 1:]
+    paid = np.diff(k, prepend=0) * a  # total instalments in each year
+    interest = np.where(paid > 0, paid - principal_paid, 0.0)
+    return LoanSchedule(interest=interest, principal=principal_paid, balance=bal)
+
+
+# --------------------------------------------------------------------------- depreciation
+def depreciation_fractions(method: str, years: int = 5, db_percent: int = 200,
+                           macrs_class: int = 3) -> np.ndarray:
+    """Share of the depreciable basis deducted in tax years 1, 2, ... (sums to 1).
+
+    ``straight_line``: 1/L each year. ``declining_balance``: rate d/L on the remaining
+    basis (d = db_percent/100), switching to straight line over the remaining years when
+    that gives more (full-year convention). ``macrs``: IRS Publication 946 Table A-1 [2]_
+    (half-year convention: class + 1 years).
+
+    Parameters
+    ----------
+    method : {"straight_line", "declining_balance", "macrs"}
+    years : int
+        Tax life L for the first two methods. [yr]
+    db_percent : int
+        Declining-balance percent of the straight-line rate (200 or 150). [%]
+    macrs_class : {3, 5, 7}
+        MACRS GDS property class. [yr]
+
+    Returns
+    -------
+    ndarray
+        Fractions by tax year. [-]
+
+    Examples
+    --------
+    >>> depreciation_fractions("macrs", macrs_class=3).tolist()
+    [0.3333, 0.4445, 0.1481, 0.0741]
+    >>> depreciation_fractions("declining_balance", 4).round(4).tolist()
+    [0.5, 0.25, 0.125, 0.125]
+    """
+    if method == "straight_line":
+        return np.full(years, 1.0 / years)
+    if method == "declining_balance":
+        # Written out because no maintained library gives a plain switching schedule.
+        rate = db_percent / 100.0 / years
+        left, out = 1.0, []
+        for k in range(years):
+            d = max(left * rate, left / (years - k))
+            out.append(d)
+            left -= d
+        return np.array(out)
+    if method == "macrs":
+        return np.array(MACRS_GDS_HALF_YEAR[int(macrs_class)]) / 100.0
+    raise ValueError(f"unknown depreciation method '{method}'")
+
+
+def depreciation_flows(basis, start_year: int, fractions, n_years: int):
+    """Depreciation of one asset by year, and its tax book value left at the end.
+
+    Parameters
+    ----------
+    basis : float or array of shape (n,) or (n, 1)
+        Depreciable basis, placed in service at ``start_year``. [currency]
+    start_year : int
+        Year the asset is bought; its first deduction is in the next year. [yr]
+    fractions : array
+        From :func:`depreciation_fractions`. [-]
+    n_years : int
+        Last year of the analysis. [yr]
+
+    Returns
+    -------
+    depreciation : ndarray, shape (..., n_years + 1)
+        Deduction in each year. [currency]
+    book_left : float or ndarray (shape of ``basis``)
+        Basis not yet deducted at the end of year ``n_years``. [currency]
+    """
+    f = np.zeros(n_years + 1)
+    last = min(n_years, start_year + len(fractions))
+    if last > start_year:
+        f[start_year + 1:last + 1] = fractions[: last - start_year]
+    b = np.asarray(basis, dtype=float)
+    dep = _col(b) * f
+    left = b * (1.0 - f.sum())
+    return dep, (float(left) if left.ndim == 0 else left)
+
+
+# --------------------------------------------------------------------------- metrics
+def payback_year(flows, rate=None):
+    """First year from which the cumulative (discounted) flow stays at or above zero.
+
+    A payback that is undone later (a battery replacement, say) does not count: the year
+    returned is the one after the last year the cumulative flow is negative.
+
+    Parameters
+    ----------
+    flows : array, shape (..., N + 1)
+        Net gains by year, year 0 first (an extra up-front cost is negative). [currency]
+    rate : float or array, optional
+        Discount rate per year for the discounted payback; None for the simple one. [-]
+
+    Returns
+    -------
+    float or ndarray
+        Payback year (0 when the flows never go below zero), NaN when the cumulative flow
+        is still negative at the end of the period. [yr]
+
+    Examples
+    --------
+    >>> payback_year([-100.0, 30.0, 30.0, 50.0, 10.0])
+    3.0
+    >>> float(payback_year([-100.0, 30.0, 30.0]))
+    nan
+    """
+    f = np.asarray(flows, dtype=float)
+    if rate is not None:
+        f = f * discount_factors(rate, f.shape[-1] - 1)
+    cum = np.cumsum(f, axis=-1)
+    scale = np.max(np.abs(f), axis=-1, keepdims=True)
+    neg = cum < -1e-9 * np.maximum(scale, 1.0)  # rounding dust is not a loss
+    n = f.shape[-1]
+    last_neg = n - 1 - np.argmax(neg[..., ::-1], axis=-1)
+    out = np.where(neg.any(axis=-1), last_neg + 1.0, 0.0)
+    out = np.where(out > n - 1, np.nan, out)
+    return float(out) if out.ndim == 0 else out
+
+
+#: Status codes of :func:`irr`.
+IRR_STATUS = {
+    0: "ok",
+    1: "no IRR: the flows never change sign",
+    2: "no single IRR: the flows change sign more than once and have several IRRs",
+    3: "no IRR between -99 % and 100,000 % per year",
+}
+_IRR_LO, _IRR_HI = -0.99, 1000.0
+_IRR_GRID = 241  # scan points in ln(1 + r) for flows with several sign changes
+
+
+def _npv_at_log(ct, x):
+    """NPV of each series at rates r = e^x - 1, by Horner's rule in v = e^-x.
+
+    ``ct`` is years-first, shape (N + 1, rows), so each step runs over contiguous rows.
+    """
+    v = np.exp(-x)
+    acc = ct[-1].copy()
+    for k in range(ct.shape[0] - 2, -1, -1):
+        acc *= v
+        acc += ct[k]
+    return acc
+
+
+def _bisect(ct, lo, hi):
+    """Root of the NPV of each series in [lo, hi] (ln(1 + r)), given a sign change."""
+    f_lo = _npv_at_log(ct, lo)
+    for _ in range(200):  # bisection halves the bracket past double precision
+        mid = 0.5 * (lo + hi)
+        f_mid = _npv_at_log(ct, mid)
+        same = np.sign(f_mid) == np.sign(f_lo)
+        lo = np.where(same, mid, lo)
+        f_lo = np.where(same, f_mid, f_lo)
+        hi = np.where(same, hi, mid)
+        if np.all(hi - lo <= 4e-16 * np.maximum(1.0, np.abs(lo))):
+            break
+    return np.expm1(0.5 * (lo + hi))
+
+
+def _sign_changes(c) -> np.ndarray:
+    """Changes of sign along each row, zeros skipped."""
+    scale = np.max(np.abs(c), axis=1, keepdims=True)
+    s = np.where(np.abs(c) > 1e-12 * np.maximum(scale, 1e-300), np.sign(c), 0.0)
+    idx = np.where(s != 0, np.arange(s.shape[1]), 0)
+    np.maximum.accumulate(idx, axis=1, out=idx)  # carry the last non-zero sign forward
+    filled = np.take_along_axis(s, idx, axis=1)
+    return np.count_nonzero(filled[:, 1:] * filled[:, :-1] < 0, axis=1)
+
+
+def irr(flows):
+    """Internal rate of return of yearly flows, with a status when there is none.
+
+    The IRR solves :math:`\\sum_y F_y (1 + r)^{-y} = 0`. With one change of sign in the
+    flows (ignoring zeros) Descartes' rule of signs gives exactly one root with
+    :math:`r > -1`, found by vectorized bisection on :math:`\\ln(1 + r)` (written out here
+    because ``numpy_financial.irr`` [1]_ solves one series at a time, which is too slow for
+    Monte Carlo draws; the result is checked against it). For rows with several sign
+    changes the NPV is scanned on 241 points of :math:`\\ln(1 + r)` between -99 % and
+    100,000 %: one bracket is refined the same way, several give status 2 (two roots
+    closer than the grid spacing, about 3 % in 1 + r, can be missed).
+
+    Parameters
+    ----------
+    flows : array, shape (..., N + 1)
+        Flows by year, year 0 first. [currency]
+
+    Returns
+    -------
+    rate : float or ndarray
+        IRR per year, NaN where there is none. [-]
+    status : int or ndarray of int
+        Code in :data:`IRR_STATUS` (0: ok).
+
+    Examples
+    --------
+    >>> r, s = irr([-100, 39, 59, 55, 20])
+    >>> round(float(r), 10), int(s)
+    (0.2809484212, 0)
+    >>> irr([100.0, 50.0])[1]
+    1
+    """
+    f = np.asarray(flows, dtype=float)
+    shape = f.shape[:-1]
+    c = f.reshape(-1, f.shape[-1])
+    changes = _sign_changes(c)
+    rate = np.full(len(c), np.nan)
+    status = np.where(changes == 0, 1, 0)
+
+    x_lo, x_hi = np.log1p(_IRR_LO), np.log1p(_IRR_HI)
+    one = np.flatnonzero(changes == 1)
+    if one.size:  # exactly one root with r > -1 (Descartes); is it in range?
+        ct = np.ascontiguousarray(c[one].T)
+        lo, hi = np.full(one.size, x_lo), np.full(one.size, x_hi)
+        inside = np.sign(_npv_at_log(ct, lo)) != np.sign(_npv_at_log(ct, hi))
+        rate[one] = np.where(inside, _bisect(ct, lo, hi), np.nan)
+        status[one] = np.where(inside, 0, 3)
+
+    many = np.flatnonzero(changes > 1)
+    if many.size:  # scan a grid in ln(1 + r) for brackets, then bisect the single ones
+        ct = np.ascontiguousarray(c[many].T)
+        grid = np.linspace(x_lo, x_hi, _IRR_GRID)
+        powers = np.exp(-np.outer(grid, np.arange(ct.shape[0])))  # (grid, N + 1)
+        signs = np.sign(powers @ ct)  # NPV at every grid rate, one matrix product
+        flips = signs[1:] * signs[:-1] < 0  # (grid - 1, rows)
+        exact = (signs == 0).any(axis=0)
+        n_roots = flips.sum(axis=0)
+        single = (n_roots == 1) & ~exact
+        k = np.argmax(flips, axis=0)
+        if single.any():
+            sel = np.flatnonzero(single)
+            rate[many[sel]] = _bisect(ct[:, sel], grid[k[sel]], grid[k[sel] + 1])
+        status[many] = np.where(single, 0, np.where((n_roots > 1) | exact, 2, 3))
+    if not shape:
+        return float(rate[0]), int(status[0])
+    return rate.reshape(shape), status.reshape(shape)
+
+
+def irr_roots(c) -> list[float]:
+    """All IRRs of one series between -99 % and 100,000 %, from the polynomial's roots.
+
+    Parameters
+    ----------
+    c : array, shape (N + 1,)
+        Flows by year, year 0 first. [currency]
+
+    Returns
+    -------
+    list of float
+        Rates per year, ascending. [-]
+    """
+    c = np.asarray(c, dtype=float)
+    nz = np.flatnonzero(c)
+    if nz.size == 0:
+        return []
+    c = c[nz[0]: nz[-1] + 1]
+    v = np.roots(c[::-1])  # sum c_t v^t, highest power first
+    v = v[(np.abs(v.imag) < 1e-9 * np.maximum(1.0, np.abs(v.real))) & (v.real > 0)].real
+    r = 1.0 / v - 1.0
+    return sorted(float(x) for x in r if _IRR_LO <= x <= _IRR_HI)
+
+
+# --------------------------------------------------------------------------- break-even
+@dataclass(frozen=True)
+class BreakEven:
+    """A break-even value, or None with the reason.
+
+    Attributes
+    ----------
+    value : float or None
+        The input value at which the difference is zero. [unit of the input]
+    note : str
+        "" when found; otherwise why not.
+    """
+
+    value: float | None
+    note: str = ""
+
+
+def find_break_even(diff_many, diff_one, lo: float, hi: float, base: float | None = None,
+                    n_grid: int = 129, tol: float = 1e-6,
+                    range_text: str | None = None) -> BreakEven:
+    """Root of a cost difference in [lo, hi]: grid bracket search, then Brent's method.
+
+    The difference is evaluated on ``n_grid`` points in one vectorized call
+    (``diff_many``); of the brackets where it changes sign, the one nearest ``base`` is
+    refined with ``scipy.optimize.brentq`` on ``diff_one``. A root where the difference
+    *jumps* across zero (a step, e.g. one battery replacement more) is not a break-even
+    and is reported as such.
+
+    Parameters
+    ----------
+    diff_many : callable
+        ``diff_many(x: ndarray (k,)) -> ndarray (k,)``. [currency]
+    diff_one : callable
+        ``diff_one(x: float) -> float``. [currency]
+    lo, hi : float
+        Search range. [unit of x]
+    base : float, optional
+        The case's own value, to choose among several roots. [unit of x]
+    n_grid : int
+        Grid points for the bracket search.
+    tol : float
+        Largest accepted |difference| at the root, relative to the difference's size over
+        the range. [-]
+    range_text : str, optional
+        How to name the range in the "no break-even" note (default: "lo and hi").
+
+    Returns
+    -------
+    BreakEven
+    """
+    x = np.linspace(lo, hi, n_grid)
+    if base is not None and lo < base < hi:
+        x = np.unique(np.append(x, base))
+    d = np.asarray(diff_many(x), dtype=float)
+    size = max(float(np.max(np.abs(d))), 1e-300)
+    zero = np.flatnonzero(np.abs(d) <= 1e-12 * size)
+    brackets = np.flatnonzero(np.sign(d[:-1]) * np.sign(d[1:]) < 0)
+    if np.all(np.abs(d) <= 1e-12 * size):
+        return BreakEven(None, "the costs are equal over the whole range")
+    candidates = [(float(x[k]), float(x[k])) for k in zero]
+    candidates += [(float(x[k]), float(x[k + 1])) for k in brackets]
+    if not candidates:
+        return BreakEven(None, f"no break-even between {range_text or f'{lo:.6g} and {hi:.6g}'}")
+    ref = base if base is not None else 0.5 * (lo + hi)
+    candidates.sort(key=lambda ab: min(abs(ab[0] - ref), abs(ab[1] - ref)))
+    for a, b in candidates:
+        root = a if a == b else brentq(diff_one, a, b, xtol=1e-12 * max(1.0, abs(b)),
+                                       rtol=4 * np.finfo(float).eps, maxiter=200)
+        if abs(diff_one(root)) <= tol * size:
+            return BreakEven(float(root))
+    return BreakEven(None, "the difference jumps across zero (a step such as one more "
+                           f"replacement) near {candidates[0][1]:.6g}; no exact break-even")

@@ -1,0 +1,674 @@
+"""Tests of tco.cashflow: the yearly cost lines per truck and the finance metrics.
+
+Cases are built from the section models and hand-made AnnualOperation objects (no full
+scenario). Figures in the cases are test inputs, not data; the checks are against hand
+calculations written in the docstrings, against numpy-financial (reference library), and
+against invariants (hypothesis).
+"""
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import numpy_financial as npf
+import pandas as pd
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from pydantic import ValidationError
+
+from tco import finance as fin
+from tco.cashflow import (
+    LINES, CostInputs, TruckSpec, break_even, cashflow_summary, compute, evaluate,
+    flat_params,
+)
+from tco.errors import InputError
+from tco.operation import AnnualOperation
+from tco.scenario.costs import Depot, Finance, Prices, TruckCosts
+from tco.units import to_si
+
+KM = 1000.0  # [m]
+KWH = 3.6e6  # [J]
+L = 1e-3  # [m³]
+
+
+# --------------------------------------------------------------------------- builders
+def diesel_op(name="D", distance_km=100_000.0, litres=30_000.0, days=250.0, trips=500.0,
+              **kw):
+    return AnnualOperation(name, "diesel", days, trips, 0.0, distance_km * KM, 0.0,
+                           diesel_volume=litres * L, **kw)
+
+
+def electric_op(name="E", distance_km=100_000.0, depot_kwh=120_000.0, days=250.0,
+                trips=500.0, **kw):
+    kw.setdefault("battery_energy", depot_kwh * 0.9 * KWH)
+    kw.setdefault("battery_capacity", 500 * KWH)
+    kw.setdefault("battery_cycle_life", 4000.0)
+    return AnnualOperation(name, "electric", days, trips, kw.pop("extra_trips", 0.0),
+                           distance_km * KM, 0.0, grid_energy_depot=depot_kwh * KWH, **kw)
+
+
+def two_trucks(finance=None, prices=None, depot=None, d_costs=None, e_costs=None,
+               d_op=None, e_op=None, **kw):
+    """A diesel and an electric truck with plain, round inputs."""
+    finance = finance or Finance(analysis_years=10, discount_rate=0.07)
+    prices = prices or Prices(diesel=1.6, electricity=dict(energy_price=0.15))
+    depot = depot or Depot()
+    d_costs = d_costs or TruckCosts(purchase_price=120_000, maintenance=0.12)
+    e_costs = e_costs or TruckCosts(purchase_price=250_000, maintenance=0.08)
+    return CostInputs(finance, prices, depot,
+                      [TruckSpec("D", "diesel", d_costs), TruckSpec("E", "electric", e_costs)],
+                      [d_op or diesel_op(), e_op or electric_op()], **kw)
+
+
+def rich_case(n_years=12):
+    """Every kind of line at once: loan, depot, TOU tariff, public charging, battery by
+    cycles, table residual, driver time, tolls, insurance by value."""
+    prof = np.zeros(24)
+    prof[[22, 23, 0, 1, 2, 3]] = 1 / 6
+    finance = Finance(analysis_years=n_years, discount_rate=0.06, driver_cost_per_hour=35,
+                      driver_cost_escalation=0.02)
+    prices = Prices(diesel=1.55, diesel_exhaust_fluid=0.5, public_charging=0.5,
+                    electricity=dict(energy_price=0.22, demand_charge=12, fixed_fee=80,
+                                     bands=[dict(name="night", hours=[22, 23, 0, 1, 2],
+                                                 price=0.11)]),
+                    escalation=dict(diesel=0.025, electricity=0.01, equipment=0.01))
+    depot = Depot(chargers=2, charger_power=150, hardware_cost=50_000, installation_cost=15_000,
+                  grid_connection_cost=40_000, life=7, residual_share=0.1,
+                  maintenance_per_year=1_000, trucks_served=2)
+    d = TruckCosts(purchase_price=130_000, purchase_tax_rate=0.05, maintenance=0.11,
+                   tyres=0.03, tolls=0.12, insurance_rate=0.02, registration=1_500,
+                   financing=dict(method="loan", loan_rate=0.05, loan_years=5,
+                                  down_payment_share=0.1))
+    e = TruckCosts(purchase_price=280_000, grant=40_000, tax_credit=15_000, tax_credit_year=1,
+                   maintenance=0.08, tyres=0.035, tolls=0.06, insurance_rate=0.02,
+                   insurance_fixed=400, registration=200,
+                   battery_replacement=dict(when="cycles", cost_per_kwh=140),
+                   residual=dict(method="table", shares=[0.8, 0.68, 0.58, 0.5, 0.44]),
+                   escalation=dict(battery=-0.03, maintenance=0.01))
+    e_op = electric_op(distance_km=104_000, depot_kwh=125_000, extra_trips=20, trips=520,
+                       grid_energy_public=15_000 * KWH, charging_time_lost=90 * 3600,
+                       depot_charging_power=110e3, charging_profile=prof,
+                       trip_duration=4 * 3600, battery_energy=135_000 * KWH,
+                       battery_cycle_life=1_800)
+    d_op = diesel_op(litres=31_000, def_volume=620 * L, trip_duration=4 * 3600)
+    return two_trucks(finance, prices, depot, d, e, d_op, e_op, days_per_year=250,
+                      trips_per_day=2)
+
+
+# --------------------------------------------------------------------------- units of prices
+def test_price_per_volume_reads_gallons():
+    """A diesel price "4.10 / gal" is 4.10 currency per US gallon; the US gallon is
+    exactly 3.785411784 L (NIST Handbook 44, Appendix C), so the SI value is
+    4.10 / 0.003785411784 currency per m³."""
+    assert to_si("4.10 / gal", "1/L") == pytest.approx(4.10 / 0.003785411784, rel=1e-12)
+    assert Prices(diesel="4.10 / gal").diesel == pytest.approx(4.10 / 0.003785411784,
+                                                               rel=1e-12)
+    assert Prices(diesel=1.65).diesel == pytest.approx(1650.0)
+
+
+def test_cost_per_distance_reads_miles():
+    """"0.2 / mi" is 0.2 currency per international mile (1609.344 m exactly)."""
+    assert TruckCosts(maintenance="0.2 / mi").maintenance == pytest.approx(0.2 / 1609.344)
+    assert TruckCosts(tolls=0.2).tolls == pytest.approx(0.2 / 1000)
+
+
+# --------------------------------------------------------------------------- hand-worked case
+def hand_case():
+    finance = Finance(analysis_years=3, discount_rate=0.10)
+    prices = Prices(diesel=1.50, escalation=dict(diesel=0.04))
+    costs = TruckCosts(
+        purchase_price=100_000, purchase_fees=2_000, maintenance=0.10, insurance_fixed=1_000,
+        financing=dict(method="loan", loan_rate=0.06, loan_years=3, payments_per_year=1,
+                       down_payment_share=0.2),
+        residual=dict(method="declining_balance", rate=0.2))
+    op = diesel_op(distance_km=50_000, litres=20_000)
+    return CostInputs(finance, prices, Depot(), [TruckSpec("D", "diesel", costs)], [op])
+
+
+def test_three_year_loan_case_worked_by_hand():
+    """Three years, one loan, worked by hand to the cent.
+
+    Amount due 100,000 + 2,000 fees = 102,000; down payment 20 % = 20,400; loan
+    P = 81,600 at 6 % a year, three yearly instalments:
+    A = P·i / (1 − 1.06⁻³) = 4,896 / 0.160380717 = 30,527.36.
+
+    ====  =========  =========  =========
+    year  interest   principal  balance
+    ====  =========  =========  =========
+    1     4,896.00   25,631.36  55,968.64
+    2     3,358.12   27,169.24  28,799.40
+    3     1,727.96   28,799.40  0
+    ====  =========  =========  =========
+
+    Diesel 20,000 L × 1.50 = 30,000.00, rising 4 %: 31,200.00, 32,448.00.
+    Maintenance 50,000 km × 0.10 = 5,000.00 a year; insurance 1,000.00 a year.
+    Residual value after 3 years, declining balance 20 %: 100,000 × 0.8³ = 51,200.00.
+
+    Net cost: year 0 = 100,000 + 2,000 − 81,600 = 20,400.00;
+    year 1 = 30,527.36 + 30,000 + 5,000 + 1,000 = 66,527.36;
+    year 2 = 30,527.36 + 31,200 + 6,000 = 67,727.36;
+    year 3 = 30,527.36 + 32,448 + 6,000 − 51,200 = 17,775.36.
+    PV at 10 % with the unrounded instalment A = 30,527.3607:
+    20,400 + 66,527.3607/1.1 + 67,727.3607/1.21 + 17,775.3607/1.331 = 150,207.34
+    (the instalment rounded to 30,527.36 first would give 150,207.33).
+    """
+    cf = compute(hand_case())
+    lines = cf.lines[0]
+    cents = lambda a: np.round(a, 2).tolist()  # noqa: E731
+    assert cents(lines["loan_interest"]) == [0.0, 4896.00, 3358.12, 1727.96]
+    assert cents(lines["loan_principal"]) == [0.0, 25631.36, 27169.24, 28799.40]
+    assert cents(lines["loan_drawdown"]) == [-81600.0, 0.0, 0.0, 0.0]
+    assert cents(lines["diesel"]) == [0.0, 30000.00, 31200.00, 32448.00]
+    assert cents(lines["maintenance"]) == [0.0, 5000.0, 5000.0, 5000.0]
+    assert cents(lines["insurance"]) == [0.0, 1000.0, 1000.0, 1000.0]
+    assert cents(lines["residual_value"]) == [0.0, 0.0, 0.0, -51200.00]
+    assert cents(cf.total(0)) == [20400.00, 66527.36, 67727.36, 17775.36]
+    assert round(cf.present_value(0), 2) == 150207.34
+
+
+def test_model_flows_through_numpy_financial():
+    """The model's own yearly totals give the same PV through npf.npv, the same loan
+    instalments through npf.pmt, and the same IRR of the savings through npf.irr."""
+    inputs = rich_case()
+    cf = compute(inputs)
+    for i in range(2):
+        assert cf.present_value(i) == pytest.approx(npf.npv(0.06, cf.total(i)), rel=1e-12)
+    # loan of truck D: principal = 0.9 × 130,000 × 1.05, monthly over 5 years
+    principal = 0.9 * 130_000 * 1.05
+    pay = -npf.pmt(0.05 / 12, 60, principal)
+    d = cf.lines[0]
+    yearly = d["loan_interest"] + d["loan_principal"]
+    np.testing.assert_allclose(yearly[1:6], 12 * pay, rtol=1e-12)
+    assert np.all(yearly[6:] == 0)
+    savings = cf.total(0) - cf.total(1)
+    r, status = fin.irr(savings)
+    assert status == 0
+    assert r == pytest.approx(npf.irr(savings), abs=1e-10)
+
+
+# --------------------------------------------------------------------------- lines by hand
+def test_time_of_use_energy_demand_and_fixed_charges():
+    """Charging profile 5/6 in the night band (0.11) and 1/6 at the flat price (0.22):
+    weighted 0.1283.. per kWh; 125,000 kWh → 16,041.67 in year 1, +1 % a year.
+    Demand: 12 per kW·month × 12 months × 110 kW (two trucks × 110 kW = 220 kW, under the
+    2 × 150 kW chargers) / 2 trucks × 2 = 15,840. Fixed: 80 × 12 / 2 = 480 (hand)."""
+    cf = compute(rich_case())
+    e = cf.lines[1]
+    price = 5 / 6 * 0.11 + 1 / 6 * 0.22
+    assert e["electricity_energy"][1] == pytest.approx(125_000 * price, rel=1e-12)
+    assert e["electricity_energy"][2] == pytest.approx(125_000 * price * 1.01, rel=1e-12)
+    assert e["electricity_demand"][1] == pytest.approx(12 * 12 * 110, rel=1e-12)
+    assert e["electricity_fixed"][1] == pytest.approx(480.0, rel=1e-12)
+    assert "electricity_energy" not in cf.lines[0]
+
+
+def test_depot_cost_is_shared_and_replaced_at_end_of_life():
+    """Depot shared by 2 trucks: chargers 2 × (50,000 + 15,000) = 130,000 → 65,000 each
+    in year 0; replaced in year 7 at 130,000 × 1.01⁷ / 2; the old hardware is worth
+    10 % × 100,000 / 2 = 5,000 then. At year 12 the new hardware is 5 of 7 years old:
+    worth 100,000 × 1.01⁷ × (1 − 0.9 × 5/7) / 2 (hand)."""
+    cf = compute(rich_case())
+    e = cf.lines[1]
+    assert e["depot_chargers"][0] == pytest.approx(65_000)
+    assert e["depot_chargers"][7] == pytest.approx(65_000 * 1.01 ** 7)
+    assert e["depot_grid_connection"][0] == pytest.approx(20_000)
+    assert e["depot_residual"][7] == pytest.approx(-5_000)
+    assert e["depot_residual"][12] == pytest.approx(-50_000 * 1.01 ** 7 * (1 - 0.9 * 5 / 7))
+    assert e["depot_maintenance"][1] == pytest.approx(1_000)
+    assert "depot_chargers" not in cf.lines[0]
+
+
+def test_battery_replaced_when_cycles_reach_the_cycle_life():
+    """135,000 kWh a year / 500 kWh = 270 full cycles a year; 1,800 cycles are reached in
+    year 7 (6.67 years). Price 140 × 500 = 70,000, falling 3 % a year: 70,000 × 0.97⁷.
+    At year 12 the new battery has used (3,240 − 1,800)/1,800 = 80 % of its life, so 20 %
+    of its price is credited (hand)."""
+    cf = compute(rich_case())
+    e = cf.lines[1]
+    repl = e["battery_replacement"]
+    assert np.flatnonzero(repl).tolist() == [7]
+    assert repl[7] == pytest.approx(70_000 * 0.97 ** 7)
+    assert e["battery_remaining_life"][12] == pytest.approx(-0.2 * 70_000 * 0.97 ** 7)
+
+
+def test_battery_replacement_after_the_period_is_a_stated_assumption():
+    e = TruckCosts(purchase_price=250_000,
+                   battery_replacement=dict(when="year", year=12, cost=60_000))
+    res = evaluate(two_trucks(e_costs=e), break_evens=False)
+    assert any("year 12 falls after the 10-year period" in a for a in res.assumptions)
+    assert "battery_replacement" not in set(res.table.line)
+
+
+def test_battery_replacement_in_a_given_year():
+    """Replaced in year 6 of 10 at 60,000; it would last 6 years, so 2/6 of its life is
+    left at year 10: credit 20,000 (hand)."""
+    e = TruckCosts(purchase_price=250_000,
+                   battery_replacement=dict(when="year", year=6, cost=60_000))
+    lines = compute(two_trucks(e_costs=e)).lines[1]
+    assert lines["battery_replacement"][6] == pytest.approx(60_000)
+    assert lines["battery_remaining_life"][10] == pytest.approx(-20_000)
+
+
+def test_payload_and_charging_driver_time():
+    """Extra trips: 20 a year × 4 h × 35 per hour = 2,800; charging: 90 h × 35 = 3,150;
+    both +2 % a year (hand). Diesel truck: no such lines."""
+    cf = compute(rich_case())
+    e = cf.lines[1]
+    assert e["extra_trips_driver_time"][1] == pytest.approx(2_800)
+    assert e["extra_trips_driver_time"][2] == pytest.approx(2_800 * 1.02)
+    assert e["charging_driver_time"][1] == pytest.approx(3_150)
+    assert np.all(cf.lines[0]["extra_trips_driver_time"] == 0)
+
+
+def test_incentives_insurance_and_residual_table():
+    """Grant −40,000 in year 0, tax credit −15,000 in year 1; insurance 2 % of the value
+    at the start of the year + 400 (year 1: 0.02 × 280,000 + 400 = 6,000; year 2:
+    0.02 × 0.8 × 280,000 + 400 = 4,880); the residual table stops at age 5, so age 12
+    keeps 0.44 → −123,200 (hand)."""
+    res = evaluate(rich_case(), break_evens=False)
+    e = res.flows.lines[1]
+    assert e["grant"][0] == -40_000 and e["tax_credit"][1] == -15_000
+    assert e["insurance"][1] == pytest.approx(6_000)
+    assert e["insurance"][2] == pytest.approx(4_880)
+    assert e["residual_value"][12] == pytest.approx(-0.44 * 280_000)
+    assert any("residual value table stops at age 5" in a for a in res.assumptions)
+
+
+def test_days_per_year_scales_distance_lines_but_not_peak_power():
+    inputs = rich_case()
+    base = compute(inputs)
+    more = compute(inputs, {"route.days_per_year": 300.0})
+    for line in ("diesel", "maintenance", "tolls"):
+        np.testing.assert_allclose(more.lines[0][line], base.lines[0][line] * 1.2, rtol=1e-12)
+    np.testing.assert_allclose(more.lines[1]["electricity_demand"],
+                               base.lines[1]["electricity_demand"])
+    np.testing.assert_allclose(more.distance[1], base.distance[1] * 1.2)
+
+
+# --------------------------------------------------------------------------- leases and loans
+def test_lease_with_buy_out():
+    """Lease 3,000 a month for 4 of 6 years, 1,000 at signing, buy-out 50,000 in year 4;
+    then owned: residual value at year 6 counted; purchase price line absent (hand)."""
+    fin6 = Finance(analysis_years=6, discount_rate=0.05)
+    e = TruckCosts(purchase_price=250_000, residual=dict(rate=0.1),
+                   financing=dict(method="lease", lease_payment=3_000, lease_upfront=1_000,
+                                  lease_years=4, lease_end="buy_out",
+                                  lease_buyout_price=50_000))
+    lines = compute(two_trucks(finance=fin6, e_costs=e)).lines[1]
+    assert lines["lease_payment"].tolist() == [0, 36_000, 36_000, 36_000, 36_000, 0, 0]
+    assert lines["lease_upfront"][0] == 1_000 and lines["lease_buyout"][4] == 50_000
+    assert lines["residual_value"][6] == pytest.approx(-250_000 * 0.9 ** 6)
+    assert "purchase_price" not in lines
+
+
+def test_lease_past_the_period_settled_or_dropped():
+    fin3 = Finance(analysis_years=3)
+    base = dict(method="lease", lease_payment=1_000, lease_years=5)
+    settle = TruckCosts(purchase_price=1, financing={**base, "beyond_period": "settle"})
+    drop = TruckCosts(purchase_price=1, financing={**base, "beyond_period": "drop"})
+    s = compute(two_trucks(finance=fin3, e_costs=settle)).lines[1]["lease_payment"]
+    d = compute(two_trucks(finance=fin3, e_costs=drop)).lines[1]["lease_payment"]
+    assert s.tolist() == [0, 12_000, 12_000, 12_000 + 24_000]
+    assert d.tolist() == [0, 12_000, 12_000, 12_000]
+
+
+def test_loan_past_the_period_settled():
+    """A 5-year loan in a 3-year study, settled: repaid principal sums to the loan."""
+    fin3 = Finance(analysis_years=3)
+    e = TruckCosts(purchase_price=200_000, financing=dict(
+        method="loan", loan_rate=0.07, loan_years=5, beyond_period="settle"))
+    res = evaluate(two_trucks(finance=fin3, e_costs=e), break_evens=False)
+    lines = res.flows.lines[1]
+    assert lines["loan_principal"].sum() == pytest.approx(200_000)
+    assert any("balance left after year 3" in a for a in res.assumptions)
+
+
+# --------------------------------------------------------------------------- after tax
+def test_after_tax_straight_line_shield_by_hand():
+    """Tax 25 %, straight line over 5 years on 120,000: shield 6,000 a year in years 1..5;
+    at year 10 the truck (book value 0) sells for 120,000 × 0.85¹⁰, taxed at 25 %. The
+    operating shield is 25 % of the deductible lines (diesel, maintenance) (hand)."""
+    f = Finance(analysis_years=10, discount_rate=0.07,
+                after_tax=dict(enabled=True, tax_rate=0.25, depreciation="straight_line",
+                               depreciation_years=5))
+    lines = compute(two_trucks(finance=f)).lines[0]
+    np.testing.assert_allclose(lines["tax_shield_depreciation"],
+                               [0] + [-6_000] * 5 + [0] * 5)
+    assert lines["tax_on_sale"][10] == pytest.approx(0.25 * 120_000 * 0.85 ** 10)
+    np.testing.assert_allclose(lines["tax_shield_operating"],
+                               -0.25 * (lines["diesel"] + lines["maintenance"]))
+
+
+def test_after_tax_macrs_uses_the_table():
+    """MACRS 3-year (IRS Pub. 946 Table A-1): deductions 33.33, 44.45, 14.81, 7.41 % of the
+    basis in years 1-4."""
+    f = Finance(analysis_years=6, after_tax=dict(enabled=True, tax_rate=0.2,
+                                                 depreciation="macrs", macrs_class=3))
+    lines = compute(two_trucks(finance=f)).lines[0]
+    expected = -0.2 * 120_000 * np.array([0, 0.3333, 0.4445, 0.1481, 0.0741, 0, 0])
+    np.testing.assert_allclose(lines["tax_shield_depreciation"], expected, atol=1e-9)
+
+
+def test_after_tax_interest_shield():
+    f = Finance(analysis_years=5, after_tax=dict(enabled=True, tax_rate=0.3))
+    d = TruckCosts(purchase_price=100_000, financing=dict(method="loan", loan_rate=0.08,
+                                                          loan_years=5))
+    lines = compute(two_trucks(finance=f, d_costs=d)).lines[0]
+    np.testing.assert_allclose(lines["tax_shield_interest"], -0.3 * lines["loan_interest"])
+
+
+# --------------------------------------------------------------------------- money basis
+def test_real_basis_equals_nominal_with_fisher_rates():
+    """Real escalations e and real discount rate r with inflation i are the nominal case
+    with (1+e)(1+i)−1 and (1+r)(1+i)−1: same present value, and the real flows are the
+    nominal ones divided by (1+i)^y (Fisher relation)."""
+    i = 0.03
+
+    def case(basis, conv):
+        inputs = rich_case()
+        inputs.finance = inputs.finance.model_copy(update=dict(
+            money_basis=basis, inflation=i, discount_rate=conv(0.04),
+            driver_cost_escalation=conv(0.01)))
+        esc = inputs.prices.escalation.model_copy(update=dict(
+            diesel=conv(0.02), electricity=conv(-0.01), equipment=conv(0.0),
+            diesel_exhaust_fluid=conv(0.0), public_charging=conv(0.005)))
+        inputs.prices = inputs.prices.model_copy(update=dict(escalation=esc))
+        for k, t in enumerate(inputs.trucks):
+            e = t.costs.escalation.model_copy(update=dict(
+                maintenance=conv(0.01), battery=conv(-0.04), insurance=conv(0.0),
+                tyres=conv(0.0), tolls=conv(0.0), registration=conv(0.0)))
+            inputs.trucks[k] = TruckSpec(t.name, t.powertrain,
+                                         t.costs.model_copy(update=dict(escalation=e)))
+        return compute(inputs)
+
+    real = case("real", lambda e: e)
+    nominal = case("nominal", lambda e: (1 + e) * (1 + i) - 1)
+    years = np.arange(13)
+    for k in range(2):
+        assert real.present_value(k) == pytest.approx(nominal.present_value(k), rel=1e-12)
+        np.testing.assert_allclose(real.total(k), nominal.total(k) / (1 + i) ** years,
+                                   rtol=1e-12, atol=1e-6)
+
+
+# --------------------------------------------------------------------------- vectorization
+def test_vectorized_call_equals_scalar_calls_draw_by_draw():
+    inputs = rich_case()
+    params = flat_params(inputs)
+    rng = np.random.default_rng(11)
+    n = 12
+    over = {
+        "prices.diesel": rng.uniform(1000, 2500, n),
+        "prices.electricity.bands[0].price": rng.uniform(0.05, 0.3, n) / KWH,
+        "route.days_per_year": rng.uniform(150, 320, n),  # moves the battery replacement
+        "finance.discount_rate": rng.uniform(0.0, 0.12, n),
+        "trucks[1].costs.purchase_price": rng.uniform(150_000, 350_000, n),
+        "trucks[1].costs.residual.shares[4]": rng.uniform(0.2, 0.6, n),
+        "trucks[0].costs.financing.loan_rate": rng.uniform(0.0, 0.1, n),
+        "prices.escalation.diesel": rng.uniform(-0.05, 0.08, n),
+        "depot.hardware_cost": rng.uniform(20_000, 80_000, n),
+        "trucks[1].costs.escalation.battery": rng.uniform(-0.08, 0.02, n),
+    }
+    many = compute(inputs, over, params)
+    totals = compute(inputs, over, params, totals_only=True)
+    for i in range(2):
+        assert many.total(i).shape == (n, 13)
+        np.testing.assert_allclose(totals.total(i), many.total(i), rtol=1e-12, atol=1e-6)
+    for k in range(n):
+        one = compute(inputs, {p: v[k] for p, v in over.items()}, params)
+        for i in range(2):
+            assert set(one.lines[i]) == set(many.lines[i])
+            for line, v in one.lines[i].items():
+                np.testing.assert_allclose(many.lines[i][line][k], v, rtol=1e-12, atol=1e-6,
+                                           err_msg=line)
+            assert many.present_value(i)[k] == pytest.approx(one.present_value(i), rel=1e-12)
+
+
+def test_after_tax_and_lease_vectorized_equals_scalar():
+    f = Finance(analysis_years=8, after_tax=dict(enabled=True, depreciation="macrs",
+                                                 macrs_class=5))
+    e = TruckCosts(purchase_price=250_000, financing=dict(
+        method="lease", lease_payment=4_000, lease_years=5, lease_end="buy_out",
+        lease_buyout_price=60_000))
+    inputs = two_trucks(finance=f, e_costs=e)
+    over = {"finance.after_tax.tax_rate": np.array([0.1, 0.3]),
+            "trucks[1].costs.financing.lease_buyout_price": np.array([10_000.0, 90_000.0])}
+    many = compute(inputs, over)
+    for k in range(2):
+        one = compute(inputs, {p: v[k] for p, v in over.items()})
+        for i in range(2):
+            np.testing.assert_allclose(many.total(i)[k], one.total(i), rtol=1e-12)
+
+
+# --------------------------------------------------------------------------- properties
+diesel_prices = st.floats(0.0, 5.0)
+
+
+@settings(max_examples=50, deadline=None)
+@given(a=diesel_prices, b=diesel_prices)
+def test_higher_diesel_price_never_lowers_the_diesel_trucks_cost(a, b):
+    lo, hi = sorted((a, b))
+    inputs = rich_case(8)
+    cf = compute(inputs, {"prices.diesel": np.array([lo, hi]) / L})
+    pv = cf.present_value(0)
+    assert pv[1] >= pv[0] - 1e-9 * abs(pv[0])
+
+
+@settings(max_examples=50, deadline=None)
+@given(r1=st.floats(-0.5, 1.0), r2=st.floats(-0.5, 1.0),
+       flows=st.lists(st.floats(0.0, 1e6), min_size=2, max_size=15))
+def test_higher_discount_rate_never_raises_pv_of_costs(r1, r2, flows):
+    lo, hi = sorted((r1, r2))
+    assert fin.present_value(flows, hi) <= fin.present_value(flows, lo) * (1 + 1e-12) + 1e-9
+
+
+@settings(max_examples=30, deadline=None)
+@given(rate=st.floats(0.0, 0.3), diesel=st.floats(0.5, 3.0),
+       e_price=st.floats(100_000, 600_000))
+def test_higher_discount_rate_lowers_the_model_pv_of_a_cash_truck(rate, diesel, e_price):
+    """All-cost stream (cash purchase, no residual value): PV falls as the rate rises."""
+    e = TruckCosts(purchase_price=e_price, maintenance=0.1, residual=dict(rate=1.0))
+    inputs = two_trucks(e_costs=e, prices=Prices(diesel=diesel,
+                                                 electricity=dict(energy_price=0.2)))
+    cf = compute(inputs, {"finance.discount_rate": np.array([rate, rate + 0.05])})
+    pv = cf.present_value(1)
+    assert pv[1] <= pv[0]
+
+
+@settings(max_examples=25, deadline=None)
+@given(e_price=st.floats(150_000, 450_000), diesel=st.floats(0.8, 2.5),
+       electricity=st.floats(0.05, 0.4), days=st.floats(150, 330))
+def test_a_break_even_found_makes_the_difference_zero(e_price, diesel, electricity, days):
+    inputs = two_trucks(e_costs=TruckCosts(purchase_price=e_price, maintenance=0.08),
+                        prices=Prices(diesel=diesel, electricity=dict(energy_price=electricity)),
+                        days_per_year=days)
+    params = flat_params(inputs)
+    scale = compute(inputs).present_value(0)
+    checks = {"diesel_price": "prices.diesel",
+              "purchase_price": "trucks[1].costs.purchase_price",
+              "annual_distance": "route.days_per_year"}
+    for q, path in checks.items():
+        be = break_even(inputs, q, 1, params)
+        if be.value is None:
+            assert be.note
+            continue
+        x = be.value
+        if q == "annual_distance":  # reported as the diesel truck's distance per year
+            x = be.value / (100_000 * KM) * 250.0
+        cf = compute(inputs, {path: x}, params)
+        assert abs(cf.present_value(1) - cf.present_value(0)) <= 1e-6 * scale
+
+
+def test_electricity_break_even_is_the_weighted_depot_price():
+    inputs = two_trucks(prices=Prices(diesel=1.8, electricity=dict(energy_price=0.15)))
+    be = break_even(inputs, "electricity_price", 1)
+    assert be.value is not None
+    cf = compute(inputs, {"prices.electricity.energy_price": be.value})
+    assert cf.present_value(1) == pytest.approx(cf.present_value(0), rel=1e-9)
+
+
+# --------------------------------------------------------------------------- result and summary
+def test_evaluate_table_metrics_and_summary():
+    res = evaluate(rich_case())
+    t = res.table
+    assert list(t.columns) == ["truck", "year", "line", "amount"]
+    assert set(t.line) <= {s.name for s in LINES}
+    assert t[(t.year == 0) & (t.line == "purchase_price")].amount.tolist() == [130_000,
+                                                                               280_000]
+    totals = res.yearly_totals()
+    for m in res.trucks:
+        assert m.present_value == pytest.approx(npf.npv(0.06, totals[m.name]), rel=1e-12)
+        assert m.levelized_cost == pytest.approx(
+            m.present_value / npf.npv(0.06, [0] + [m.annual_distance] * 12), rel=1e-12)
+    c = res.comparisons[0]
+    assert (c.truck, c.baseline) == ("E", "D")
+    assert c.present_value_difference == pytest.approx(
+        res.trucks[1].present_value - res.trucks[0].present_value)
+    s = cashflow_summary(res)
+    text = json.dumps(s, allow_nan=False)  # JSON-able, no NaN
+    assert json.loads(text)["baseline"] == "D"
+    assert set(s) == {"money_basis", "discount_rate", "analysis_years", "baseline", "lines",
+                      "trucks", "comparisons", "assumptions"}
+    assert set(s["trucks"]["E"]) == {
+        "powertrain", "present_value", "undiscounted_total", "levelized_cost_per_km",
+        "levelized_cost_per_mile", "annual_distance_km", "yearly_totals",
+        "present_value_by_line"}
+    assert set(s["comparisons"][0]["break_even"]) == {
+        "diesel_price_per_litre", "electricity_price_per_kwh", "purchase_price",
+        "annual_distance_km"}
+    # a mile is 1.609344 km
+    e = s["trucks"]["E"]
+    assert e["levelized_cost_per_mile"] == pytest.approx(e["levelized_cost_per_km"] * 1.609344)
+    assert len(e["yearly_totals"]) == 13
+
+
+def test_payback_and_irr_in_the_comparison():
+    """An electric truck that costs 100,000 more and saves diesel: payback and IRR agree
+    with the finance functions applied to the savings flows."""
+    inputs = two_trucks(prices=Prices(diesel=2.0, electricity=dict(energy_price=0.10)))
+    res = evaluate(inputs, break_evens=False)
+    c = res.comparisons[0]
+    savings = res.flows.total(0) - res.flows.total(1)
+    assert c.extra_upfront_cost == pytest.approx(130_000)
+    assert c.simple_payback_year == int(fin.payback_year(savings))
+    assert c.irr == pytest.approx(npf.irr(savings), abs=1e-10)
+
+
+def test_no_irr_when_the_flows_never_change_sign():
+    """An electric truck cheaper to buy and to run: savings never negative, no IRR."""
+    e = TruckCosts(purchase_price=100_000, maintenance=0.05)
+    res = evaluate(two_trucks(e_costs=e), break_evens=False)
+    c = res.comparisons[0]
+    assert c.irr is None and "never change sign" in c.irr_note
+    assert c.simple_payback_year == 0 and c.payback_note == "no extra up-front cost"
+
+
+def test_baseline_can_be_named():
+    f = Finance(baseline="E")
+    res = evaluate(two_trucks(finance=f), break_evens=False)
+    assert res.baseline == "E" and res.comparisons[0].truck == "D"
+
+
+# --------------------------------------------------------------------------- errors
+def test_discount_rate_of_minus_100_percent_is_refused():
+    with pytest.raises(ValidationError, match="above -100 %"):
+        Finance(discount_rate=-1.0)
+    with pytest.raises(InputError, match="above -100 %"):
+        compute(two_trucks(), {"finance.discount_rate": np.array([0.05, -1.2])})
+
+
+def test_loan_longer_than_the_period_needs_an_end_treatment():
+    e = TruckCosts(purchase_price=200_000, financing=dict(method="loan", loan_years=12))
+    with pytest.raises(InputError, match="runs past the 10-year analysis period") as exc:
+        compute(two_trucks(e_costs=e))
+    assert exc.value.where == "trucks[1].costs.financing.beyond_period"
+    with pytest.raises(ValidationError, match="cannot be dropped"):
+        TruckCosts(financing=dict(method="loan", beyond_period="drop"))
+
+
+def test_lease_longer_than_the_period_needs_an_end_treatment():
+    e = TruckCosts(financing=dict(method="lease", lease_years=12, lease_payment=1))
+    with pytest.raises(InputError, match="lease runs past"):
+        compute(two_trucks(e_costs=e))
+
+
+def test_returned_lease_ending_before_the_period_is_refused():
+    e = TruckCosts(financing=dict(method="lease", lease_years=4, lease_payment=1))
+    with pytest.raises(InputError, match="returned, before the 10-year period ends"):
+        compute(two_trucks(e_costs=e))
+
+
+def test_negative_prices_are_refused():
+    with pytest.raises(ValidationError, match="at least 0"):
+        Prices(diesel=-1.0)
+    with pytest.raises(ValidationError):
+        TruckCosts(purchase_price=-5)
+    with pytest.raises(InputError, match="must not be negative"):
+        compute(two_trucks(), {"prices.diesel": np.array([1.0, -0.5])})
+
+
+def test_escalation_that_would_turn_a_price_negative_is_refused():
+    """Compound escalation keeps a price positive exactly when the rate is above −100 %."""
+    with pytest.raises(ValidationError, match="zero or negative"):
+        Prices(escalation=dict(diesel=-1.0))
+    with pytest.raises(ValidationError, match="zero or negative"):
+        TruckCosts(escalation=dict(maintenance="-150 %"))
+
+
+def test_missing_price_for_a_truck_that_needs_it():
+    with pytest.raises(InputError, match="D burns diesel") as exc:
+        compute(two_trucks(prices=Prices(electricity=dict(energy_price=0.1))))
+    assert exc.value.where == "prices.diesel"
+
+
+def test_unknown_baseline_and_unknown_override():
+    with pytest.raises(InputError, match="not one of the trucks"):
+        compute(two_trucks(finance=Finance(baseline="X")))
+    with pytest.raises(InputError, match="unknown parameter"):
+        compute(two_trucks(), {"prices.kerosene": 1.0})
+
+
+def test_overlapping_time_of_use_bands_are_refused():
+    with pytest.raises(ValidationError, match="hour 3 is in both bands"):
+        Prices(electricity=dict(bands=[dict(name="a", hours=[1, 2, 3], price=0.1),
+                                       dict(name="b", hours=[3, 4], price=0.2)]))
+
+
+def test_tidy_table_is_a_dataframe_with_numbers():
+    res = evaluate(hand_case(), break_evens=False)
+    assert isinstance(res.table, pd.DataFrame)
+    assert res.table.amount.dtype == float
+    assert res.table.year.min() == 0 and res.table.year.max() == 3
+    assert res.comparisons == []
+
+
+def test_share_overrides_above_one_and_too_few_served_trucks_are_refused():
+    with pytest.raises(InputError, match="at most 1"):
+        compute(two_trucks(), {"trucks[1].costs.residual.rate": np.array([0.1, 1.5])})
+    depot = Depot(chargers=1, trucks_served=1)
+    inputs = two_trucks(depot=depot)
+    inputs.trucks.append(TruckSpec("E2", "electric", TruckCosts(purchase_price=1)))
+    inputs.operations.append(electric_op("E2"))
+    with pytest.raises(InputError, match="2 trucks of the scenario charge at the depot") as e:
+        compute(inputs)
+    assert e.value.where == "depot.trucks_served"
+
+
+def test_every_input_field_is_documented_with_unit_and_source():
+    """Style rule of the project: each field says its unit, default and the default's
+    source (nested sections are checked through their own fields)."""
+    from pydantic import BaseModel
+
+    from tco.scenario import costs
+
+    for model in (costs.Finance, costs.AfterTax, costs.Prices, costs.Tariff, costs.TouBand,
+                  costs.PriceEscalation, costs.Depot, costs.TruckCosts, costs.Financing,
+                  costs.BatteryReplacement, costs.Residual, costs.TruckEscalation):
+        for name, info in model.model_fields.items():
+            assert info.description, f"{model.__name__}.{name}"
+            ann = info.annotation
+            nested = isinstance(ann, type) and issubclass(ann, BaseModel)
+            if nested or name == "bands":
+                continue
+            extra = info.json_schema_extra or {}
+            assert "unit" in extra and extra.get("source"), f"{model.__name__}.{name}"
