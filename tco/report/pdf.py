@@ -1,0 +1,120 @@
+"""The report as PDF: the print HTML rendered by weasyprint, with nothing fetched.
+
+weasyprint would by default read ``file://`` URLs, follow relative paths, try the
+network and embed ``<link rel="attachment">`` targets in the PDF. The report needs none of
+that: charts are ``data:`` URIs and the stylesheet is inline. So the fetcher here allows
+the ``data`` scheme only, and ``base_url`` is ``None`` (relative references resolve to
+nothing). A blocked fetch is not silent: it is collected and returned as a warning, so the
+caller can show it (a blocked fetch means some markup that should not be there).
+"""
+from __future__ import annotations
+
+import logging
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import weasyprint
+from weasyprint.urls import URLFetcher
+
+__all__ = ["render_pdf", "PdfResult", "DataOnlyFetcher"]
+
+
+class DataOnlyFetcher(URLFetcher):
+    """A weasyprint URL fetcher that serves ``data:`` URIs and refuses everything else.
+
+    Every refused URL is recorded in :attr:`blocked`. (A plain function as
+    ``url_fetcher`` crashes in weasyprint 70; a ``URLFetcher`` subclass is the supported
+    way.)
+    """
+
+    def __init__(self):
+        super().__init__(allowed_protocols={"data"}, allow_redirects=False, timeout=1)
+        self.blocked: list[str] = []
+
+    def fetch(self, url, headers=None):
+        if not str(url).lower().startswith("data:"):
+            self.blocked.append(str(url))
+        # The parent refuses every other scheme with ValueError before opening anything.
+        return super().fetch(url, headers)
+
+
+#: weasyprint messages that describe the installation, not the document: left out.
+_NOT_ABOUT_THE_DOCUMENT = ("Using fontTools instead of HarfBuzz-Subset",)
+
+
+class _Collect(logging.Handler):
+    def __init__(self):
+        super().__init__(level=logging.WARNING)
+        self.messages: list[str] = []
+
+    def emit(self, record):
+        message = record.getMessage()
+        if not message.startswith(_NOT_ABOUT_THE_DOCUMENT):
+            self.messages.append(message)
+
+
+@dataclass
+class PdfResult:
+    """What :func:`render_pdf` wrote.
+
+    Attributes
+    ----------
+    path : Path
+        The PDF file.
+    pages : int
+        Number of pages. [-]
+    blocked : list of str
+        URLs the document tried to fetch and was refused (empty for a clean report).
+    warnings : list of str
+        Plain-word warnings: one per blocked URL, then weasyprint's own warnings
+        (unsupported CSS, unreadable images ...).
+    """
+
+    path: Path
+    pages: int
+    blocked: list[str] = field(default_factory=list)
+    warnings: list[str] = field(default_factory=list)
+
+
+def render_pdf(html: str, path) -> PdfResult:
+    """Render report HTML to a PDF file, fetching nothing but ``data:`` URIs.
+
+    Parameters
+    ----------
+    html : str
+        The print HTML from :func:`tco.report.html.render_html` (``for_print=True``).
+    path : str or Path
+        Where to write the PDF (the caller stages it for atomic output).
+
+    Returns
+    -------
+    PdfResult
+        Path, page count, blocked URLs and warnings.
+
+    Examples
+    --------
+    >>> from tco.report.pdf import render_pdf
+    >>> r = render_pdf("<p>Hello</p>", "/tmp/hello.pdf")  # doctest: +SKIP
+    >>> r.pages, r.warnings                                # doctest: +SKIP
+    (1, [])
+    """
+    path = Path(path)
+    fetcher = DataOnlyFetcher()
+    collect = _Collect()
+    logger = logging.getLogger("weasyprint")
+    old_level = logger.level
+    logger.addHandler(collect)
+    if logger.getEffectiveLevel() > logging.WARNING:
+        logger.setLevel(logging.WARNING)  # collect warnings even if logging is quietened
+    try:
+        doc = weasyprint.HTML(string=html, base_url=None, url_fetcher=fetcher).render()
+        doc.write_pdf(target=str(path))
+    finally:
+        logger.removeHandler(collect)
+        logger.setLevel(old_level)
+    warnings = [f"blocked a reference to {url!r}: the report fetches no files or network "
+                "resources" for url in fetcher.blocked]
+    warnings += [m for m in collect.messages
+                 if not any(url in m for url in fetcher.blocked)]
+    return PdfResult(path=path, pages=len(doc.pages), blocked=list(fetcher.blocked),
+                     warnings=warnings)
