@@ -151,11 +151,11 @@ def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
     if getattr(s.uncertainty, "enabled", False):
         from tco import uncertainty
 
-        steps.start("uncertainty")
         t0 = time.perf_counter()
+        advance = steps.bar(s.uncertainty.draws, "uncertainty (Monte Carlo)")
         try:
-            unc = uncertainty.evaluate(s.uncertainty, inputs, s.emissions, ops,
-                                       service_years(s), progress=steps)
+            unc = uncertainty.evaluate(s.uncertainty, inputs, s.emissions, service_years(s),
+                                       progress=advance)
         except InputError as exc:
             raise exc.located(file=loaded.path) from None
         timings["uncertainty"] = time.perf_counter() - t0

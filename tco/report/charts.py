@@ -384,7 +384,7 @@ def energy_components(per_km_by_truck: pd.DataFrame, *, xlabel: str,
         ax.set_xlabel(_plain(xlabel))
         ax.grid(axis="y", visible=False)
         ax.tick_params(axis="y", length=0)
-        _legend_below(fig, ax, ncol=4, last=_plain(net_label))
+        _legend_below(fig, ax, ncol=3, last=_plain(net_label))
         return svg_data_uri(fig)
 
 

@@ -1,0 +1,504 @@
+"""The report context: every figure of a Result formatted for reading.
+
+This is where numbers become text (the templates compute nothing). The structure is the
+one documented in :mod:`tco.report.html`. Display units follow ``study.units``.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pandas as pd
+
+from tco import __version__
+from tco.report import charts
+from tco.units import from_si
+
+KWH = 3.6e6
+MILE = 1609.344
+
+CAUTIONS = [
+    "This report is a decision aid built on the inputs listed in the assumptions table. It "
+    "is not financial, tax or legal advice; have the purchase case checked by qualified "
+    "advisers before you commit money.",
+    "Emissions figures are estimates. Verify them under the GHG Protocol (Corporate "
+    "Standard, Scope 2 Guidance, Scope 3 Standard), ISO 14083 and your regulator's or "
+    "programme's rules, with metered fuel and electricity records, before any disclosure.",
+    "Depot chargers and grid connections must be designed and installed by licensed "
+    "electricians under local electrical codes and the utility's connection rules.",
+    "Gross-weight limits and any allowance for zero-emission trucks are set by local law; "
+    "check them for every road the truck uses before relying on the payload figures.",
+    "Energy use comes from a physics model of the duty cycle described, not from "
+    "measurements; driver behaviour, traffic, weather and vehicle condition change it.",
+]
+
+
+def _n(x: float | None, digits: int = 0) -> str:
+    """A number with thousands separators, or an en dash when missing."""
+    if x is None or (isinstance(x, float) and not math.isfinite(x)):
+        return "–"
+    return f"{x:,.{digits}f}"
+
+
+def _money(x, cur: str, digits: int = 0) -> str:
+    return "–" if x is None else f"{_n(x, digits)} {cur}"
+
+
+class _Units:
+    """Display units for the scenario's unit system."""
+
+    def __init__(self, system: str):
+        self.us = system == "us"
+        self.dist = "mi" if self.us else "km"
+        self.per_dist = MILE if self.us else 1000.0   # metres per display distance unit
+        self.speed = "mph" if self.us else "km/h"
+        self.elev = "ft" if self.us else "m"
+        self.label = "US customary" if self.us else "metric"
+
+    def distance(self, m: float) -> float:
+        return m / self.per_dist
+
+    def per_distance(self, si_per_m: float) -> float:
+        return si_per_m * self.per_dist
+
+
+def _verdict(result, u: _Units) -> str:
+    cf = result.cashflow
+    cur = result.scenario.study.currency
+    if not cf.comparisons:
+        return "Only one truck was compared."
+    parts = []
+    for c in cf.comparisons:
+        diff = c.present_value_difference
+        word = "more" if diff > 0 else "less"
+        em = result.emissions.comparison
+        avoided = _avoided_total(result, c.truck)
+        tr = result.trucks[c.truck]
+        feas = _feasible_text(tr)
+        parts.append(
+            f"Over {cf.analysis_years} years the {c.truck} costs "
+            f"{_money(abs(diff), cur)} {word} than the {c.baseline} in present value"
+            + (f" and avoids {_n(avoided / 1000, 0)} t CO2e (well-to-wheel, location-based)"
+               if avoided is not None else "")
+            + f"; {feas}.")
+        del em
+    return " ".join(parts)
+
+
+def _avoided_total(result, truck: str) -> float | None:
+    comp = result.emissions.comparison
+    rows = comp[(comp["truck"] == truck)] if isinstance(comp, pd.DataFrame) else None
+    if rows is None or rows.empty:
+        return None
+    return float(rows["avoided_kg"].sum())
+
+
+def _feasible_text(tr) -> str:
+    if tr.powertrain != "electric":
+        return "it can do the job"
+    b = tr.feasibility["battery"]
+    depot_ok = tr.feasibility["depot_charger"]["ok"]
+    if b["new"]["ok"] and b["end_of_life"]["ok"] and depot_ok:
+        return "it can do the day on its battery, new and at end of life"
+    if b["new"]["ok"] and depot_ok:
+        return ("it can do the day on its new battery, but at end of life it needs "
+                + ("en-route charging" if b["end_of_life"]["ok_with_enroute"]
+                   else "a change of plan"))
+    if b["new"]["ok_with_enroute"] and depot_ok:
+        return "it can do the day only with en-route charging"
+    return "it cannot do the day as planned (see the feasibility findings)"
+
+
+def _key_figures(result, u: _Units, summary: dict) -> list[dict]:
+    cf = result.cashflow
+    cur = result.scenario.study.currency
+    out = []
+    for m in cf.trucks:
+        out.append({"label": f"Cost per {u.dist}, {m.name}",
+                    "value": f"{m.levelized_cost * u.per_dist:,.3f} {cur}/{u.dist}",
+                    "note": f"levelized over {cf.analysis_years} years"})
+    em = summary["emissions"]["comparison"]
+    for c in cf.comparisons:
+        out.append({"label": f"Present value difference, {c.truck} − {c.baseline}",
+                    "value": _money(c.present_value_difference, cur),
+                    "note": "positive: costs more"})
+        out.append({"label": "Payback of the extra purchase cost",
+                    "value": (f"year {c.simple_payback_year}" if c.simple_payback_year
+                              else "not within the period"),
+                    "note": ("discounted: " + (f"year {c.discounted_payback_year}"
+                                               if c.discounted_payback_year
+                                               else "not within the period"))})
+        out.append({"label": "IRR of the extra investment",
+                    "value": f"{c.irr:.1%}" if c.irr is not None and math.isfinite(c.irr)
+                    else "no IRR", "note": c.irr_note or ""})
+        e = em.get(c.truck, {})
+        avoided = (e.get("avoided_kg_total") or {}).get("location")
+        out.append({"label": f"Emissions avoided by the {c.truck}",
+                    "value": f"{_n(avoided / 1000 if avoided is not None else None)} t CO2e",
+                    "note": f"well-to-wheel, location-based, {cf.analysis_years} years"})
+        ab = (e.get("abatement_cost_per_tonne") or {}).get("location")
+        out.append({"label": "Abatement cost",
+                    "value": f"{_n(ab)} {cur}/t CO2e" if ab is not None else "–",
+                    "note": "PV cost difference ÷ tonnes avoided (tonnes "
+                    + ("discounted)" if e.get("tonnes_discounted") else "not discounted)")})
+    for name, tr in result.trucks.items():
+        if tr.powertrain == "electric":
+            out.append({"label": f"Feasibility, {name}", "value": _feasible_text(tr),
+                        "note": ""})
+    if result.uncertainty is not None:
+        pr = result.uncertainty.probabilities
+        for r in pr[pr["event"] == "cheaper"].itertuples():
+            out.append({"label": f"Probability the {r.truck} is cheaper",
+                        "value": f"{r.probability:.0%}",
+                        "note": f"Monte Carlo, {result.uncertainty.draws:,} draws"})
+    return out
+
+
+def _feasibility(result) -> list[dict]:
+    rows = []
+    for name, tr in result.trucks.items():
+        f = tr.feasibility
+        texts = [f["payload"]["text"], f["power"]["text"]]
+        if tr.powertrain == "electric":
+            texts += [f["battery"]["new"]["text"], f["battery"]["end_of_life"]["text"],
+                      f["depot_charger"]["text"]]
+        rows.append({"truck": name, "verdict": _feasible_text(tr).capitalize(),
+                     "detail": " ".join(texts)})
+    return rows
+
+
+def _breakeven_year(cum: pd.DataFrame) -> float | None:
+    if cum.shape[1] < 2:
+        return None
+    d = (cum.iloc[:, 1] - cum.iloc[:, 0]).to_numpy()
+    for k in range(1, len(d)):
+        if d[k - 1] > 0 >= d[k]:
+            return float(k - 1 + d[k - 1] / (d[k - 1] - d[k]))
+    return None
+
+
+def _charts(result, u: _Units) -> dict:
+    cf = result.cashflow
+    cur = result.scenario.study.currency
+    names = [m.name for m in cf.trucks]
+    totals = cf.yearly_totals()[names]
+    cum = totals.cumsum()
+    be = _breakeven_year(cum)
+    table = cf.table.rename(columns={"amount": "value"})
+    cost = [
+        {"title": "Cumulative cost of ownership",
+         "caption": f"Net cash out, cumulative by year ({cf.money_basis} money, not "
+                    "discounted)." + (f" The lines cross in year {be:.1f}." if be else
+                                      " The lines do not cross within the period."),
+         "uri": charts.cumulative_cost(cum, be, ylabel=f"Cumulative cost [{cur}]")},
+        {"title": "Yearly cost by line",
+         "caption": "Costs stack upward, income (grant, loan received, residual value) "
+                    "downward; the black bar is the net of each year.",
+         "uri": charts.stacked_yearly_cost(table, names, ylabel=f"Cost per year [{cur}]")},
+    ]
+    energy = [
+        {"title": f"Energy per {u.dist} by road-load component",
+         "caption": "Where the energy goes at the wheel, and the powertrain and charging "
+                    "losses on top, up to the energy drawn at the source (fuel energy "
+                    "at its lower heating value; electricity at the meter). Negative: "
+                    "energy given back on descents and when slowing.",
+         "uri": charts.energy_components(_energy_frame(result, u),
+                                         xlabel=f"Energy per distance [kWh/{u.dist}]")},
+    ]
+    trace_truck = next((t for t in result.trucks.values() if t.powertrain == "electric"),
+                       next(iter(result.trucks.values())))
+    energy.append({
+        "title": f"Duty cycle of one operating day, {trace_truck.name}",
+        "caption": "Speed, elevation, battery state of charge and battery power (positive: "
+                   "discharging) over the day, trips and dwell times included.",
+        "uri": charts.duty_cycle(_trace_frame(trace_truck, u), xlabel="Time [h]",
+                                 labels={"speed": f"Speed [{u.speed}]",
+                                         "elevation": f"Elevation [{u.elev}]",
+                                         "soc": "State of charge [%]",
+                                         "power": "Power [kW]"})})
+    em = result.emissions.totals
+    frames = {"scope_1": "Scope 1", "scope_2_location": "Scope 2 (location-based)",
+              "scope_3_cat3": "Scope 3 cat. 3"}
+    tidy = em[em["frame"].isin(frames)].assign(
+        scope=lambda d: d["frame"].map(frames), value=lambda d: d["kg_co2e"] / 1000)
+    emissions = [{"title": "Emissions per year by scope",
+                  "caption": "Location-based Scope 2; Scope 3 category 3 is the upstream of "
+                             "fuel and electricity and grid losses.",
+                  "uri": charts.emissions_by_scope(
+                      tidy[["truck", "year", "scope", "value"]],
+                      ylabel="Emissions [t CO2e per year]")}]
+    unc = []
+    if result.uncertainty is not None:
+        unc = _uncertainty_charts(result, cur)
+    return {"cost": cost, "energy": energy, "emissions": emissions, "uncertainty": unc}
+
+
+def _uncertainty_charts(result, cur: str) -> list[dict]:
+    unc = result.uncertainty
+    out = []
+    for truck in unc.trucks:
+        t = unc.tornado[unc.tornado["truck"] == truck]
+        if not t.empty:
+            rows = t[["input", "low", "high"]]
+            out.append({"title": f"What drives the answer: {truck} against {unc.baseline}",
+                        "caption": "Present value difference with one input at a time at its "
+                                   "low and high value (ranges in the sensitivity table); "
+                                   "widest swing on top.",
+                        "uri": charts.tornado(rows, float(t["base"].iloc[0]),
+                                              xlabel=f"Present value difference [{cur}]")})
+        draws = unc.samples[unc.samples["truck"] == truck]["present_value_difference"]
+        if len(draws):
+            out.append({"title": f"How sure is the answer: {truck}",
+                        "caption": f"{unc.draws:,} Monte Carlo draws (seed {unc.seed}) of the "
+                                   "present value difference; below zero the "
+                                   f"{truck} is cheaper.",
+                        "uri": charts.distribution(draws.to_numpy(),
+                                                   f"Present value difference [{cur}]")})
+    return out
+
+
+def _uncertainty_tables(result, cur: str) -> list[dict]:
+    unc = result.uncertainty
+    tables = []
+    t = unc.tornado
+    if not t.empty:
+        rows = [[r.input, f"{r.low_value:.4g} – {r.high_value:.4g} {r.unit}".strip(),
+                 _n(r.low), _n(r.high), _n(r.swing)] for r in t.itertuples()]
+        tables.append({"title": "Sensitivity, one input at a time",
+                       "columns": ["Input", "Low – high", f"ΔPV low [{cur}]",
+                                   f"ΔPV high [{cur}]", f"Swing [{cur}]"],
+                       "rows": rows, "note": "ΔPV: present value of the compared truck minus "
+                       f"the {unc.baseline}; negative means the compared truck is cheaper."})
+    b = unc.break_even
+    if not b.empty:
+        rows = [[r.input, (f"{r.value:.4g} {r.unit}" if math.isfinite(r.value) else "none"),
+                 f"{r.base_value:.4g} {r.unit}", r.note or ""] for r in b.itertuples()]
+        tables.append({"title": "Break-even by input", "columns": [
+            "Input", "Break-even", "Scenario value", "Note"], "rows": rows,
+            "note": "Value at which the trucks cost the same, all other inputs unchanged."})
+    st = unc.statistics
+    labels = {"present_value_difference": (f"ΔPV [{cur}]", 1.0, 0),
+              "levelized_cost_difference": (f"Δ cost per km [{cur}/km]", 1000.0, 3),
+              "simple_payback_year": ("Payback year", 1.0, 1),
+              "avoided_kg_location": ("Emissions avoided [t CO2e]", 1e-3, 0)}
+    rows = []
+    for r in st.itertuples():
+        if r.quantity in labels:
+            name, k, d = labels[r.quantity]
+            rows.append([f"{r.truck}: {name}"] + [_n(v * k if math.isfinite(v) else v, d)
+                                                  for v in (r.p10, r.p50, r.p90)])
+    for r in unc.probabilities.itertuples():
+        rows.append([f"{r.truck}: P({r.event.replace('_', ' ')})",
+                     f"{r.probability:.1%}", f"± {r.standard_error:.1%}", ""])
+    tables.append({"title": "Monte Carlo statistics", "columns": ["Quantity", "P10", "P50",
+                                                                  "P90"], "rows": rows,
+                   "note": f"{unc.draws:,} draws, seed {unc.seed}; probabilities with their "
+                           "standard error. " + " ".join(unc.notes[:3])})
+    return tables
+
+
+def _energy_frame(result, u: _Units) -> pd.DataFrame:
+    names = {"aerodynamic": "Aerodynamic drag", "rolling": "Rolling resistance",
+             "climbing": "Climbing", "descending": "Descending (given back)",
+             "acceleration": "Acceleration", "deceleration": "Slowing (given back)"}
+    cols = {}
+    for name, tr in result.trucks.items():
+        s = tr.summary
+        d = s["trip_distance"]
+        w = s["wheel_energy"]
+        col = {label: w[k] / d for k, label in names.items()}
+        wheel_net = w["traction"] - w["braking"]
+        if tr.powertrain == "diesel":
+            source = s["fuel_volume"] * _diesel_lhv_per_m3(result, name)
+            col["Engine and driveline losses"] = (source - wheel_net) / d
+        else:
+            source = s["grid_energy_depot"] + s["grid_energy_public"]
+            col["Drivetrain, aux. and charging losses"] = (source - wheel_net) / d
+        cols[name] = col
+    df = pd.DataFrame(cols).fillna(0.0)
+    return df * u.per_dist / KWH
+
+
+def _diesel_lhv_per_m3(result, truck: str) -> float:
+    t = next(t for t in result.scenario.trucks if t.name == truck)
+    return t.diesel.fuel_lhv * t.diesel.fuel_density
+
+
+def _trace_frame(tr, u: _Units) -> pd.DataFrame:
+    t = tr.trace
+    out = pd.DataFrame({
+        "time": t["time"] / 3600.0,
+        "speed": from_si(t["speed"].to_numpy(), u.speed),
+        "elevation": from_si(t["elevation"].to_numpy(), u.elev),
+    })
+    if "soc" in t:
+        out["soc"] = t["soc"] * 100.0
+        out["power"] = t["battery_power"] / 1000.0
+    else:
+        out["power"] = t["wheel_power"] / 1000.0
+    return out
+
+
+def _tables(result, u: _Units, summary: dict) -> list[dict]:
+    cf = result.cashflow
+    cur = result.scenario.study.currency
+    names = list(result.trucks)
+    tables = []
+    # energy and operation per truck
+    rows = []
+    s = summary["trucks"]
+    sysk = "us" if u.us else "metric"
+    rows.append(["Distance per trip [" + u.dist + "]"]
+                + [_n(u.distance(result.trucks[n].summary["trip_distance"]), 1) for n in names])
+    rows.append(["Wheel energy, traction per trip [kWh]"]
+                + [_n(s[n]["per_trip"]["wheel_energy_kWh"]["traction"], 1) for n in names])
+    for n in names:
+        pass
+    rows.append(["Diesel per trip [" + ("US gal" if u.us else "L") + "]"]
+                + [_n(from_si(result.trucks[n].summary.get("fuel_volume", 0.0),
+                              "gal" if u.us else "L"), 1) for n in names])
+    rows.append(["Fuel use [" + ("mpg" if u.us else "L/100 km") + "]"]
+                + [_n(s[n]["per_distance"][sysk].get("fuel_mpg" if u.us else
+                                                     "fuel_L_per_100km"), 1) for n in names])
+    rows.append(["Battery energy per trip, net [kWh]"]
+                + [_n(s[n]["per_trip"].get("battery_net_kWh"), 1) for n in names])
+    rows.append([f"Electricity at the meter [kWh/{u.dist}]"]
+                + [_n(s[n]["per_distance"][sysk].get(f"grid_kWh_per_{u.dist}"), 3)
+                   for n in names])
+    rows.append(["Lowest state of charge in the day [%]"]
+                + [_n(100 * s[n]["feasibility"]["soc_min"], 0)
+                   if "soc_min" in s[n]["feasibility"] else "–" for n in names])
+    rows.append(["Payload capacity [" + ("lb" if u.us else "t") + "]"]
+                + [_n(from_si(result.trucks[n].summary["payload_capacity"],
+                              "lb" if u.us else "t"), 1) for n in names])
+    rows.append([f"Distance per year [{u.dist}]"]
+                + [_n(u.distance(result.trucks[n].operation.distance)) for n in names])
+    rows.append(["Extra trips per year (payload)"]
+                + [_n(result.trucks[n].operation.extra_trips, 0) for n in names])
+    tables.append({"title": "Energy and operation", "columns": ["Figure"] + names,
+                   "rows": rows, "note": "Per trip unless stated; one operating day = "
+                   f"{_n(result.scenario.route.trips_per_day, 1)} trips."})
+    # yearly net cost
+    totals = cf.yearly_totals()[[m.name for m in cf.trucks]]
+    cols = ["Year"] + [f"{n} [{cur}]" for n in totals.columns]
+    rows = [[str(y)] + [_n(v) for v in totals.loc[y]] for y in totals.index]
+    rows.append(["Present value"] + [_n(m.present_value) for m in cf.trucks])
+    tables.append({"title": "Net cost by year", "columns": cols, "rows": rows,
+                   "note": f"{cf.money_basis.capitalize()} money; year 0 is the purchase; "
+                           f"discount rate {cf.discount_rate:.1%}."})
+    # present value by line
+    lines = []
+    for m in cf.trucks:
+        for k in m.present_value_by_line:
+            if k not in lines:
+                lines.append(k)
+    rows = [[k.replace("_", " ")] + [_n(m.present_value_by_line.get(k, 0.0))
+                                     for m in cf.trucks] for k in lines]
+    tables.append({"title": "Present value by cost line", "columns": ["Line"] + [
+        f"{m.name} [{cur}]" for m in cf.trucks], "rows": rows,
+        "note": "Negative: money in (grant, loan received, residual value)."})
+    # break-evens
+    rows = []
+    for c in summary["cashflow"]["comparisons"]:
+        for key, label in (("diesel_price_per_litre", f"Diesel price [{cur}/L]"),
+                           ("electricity_price_per_kwh", f"Depot electricity price [{cur}/kWh]"),
+                           ("purchase_price", f"Purchase price of the {c['truck']} [{cur}]"),
+                           ("annual_distance_km", "Annual distance [km]")):
+            b = c["break_even"][key]
+            rows.append([label, _n(b["value"], 3 if "price_per" in key else 0),
+                         b["note"] or ""])
+    tables.append({"title": "Break-even values", "columns": ["Input", "Value", "Note"],
+                   "rows": rows, "note": "The value at which the trucks cost the same in "
+                   "present value, all else unchanged."})
+    # emissions
+    e = summary["emissions"]["trucks"]
+    keys = [("scope_1", "Scope 1"), ("scope_2_location", "Scope 2, location-based"),
+            ("scope_2_market", "Scope 2, market-based"), ("scope_3_cat3", "Scope 3 cat. 3"),
+            ("ttw", "Tank-to-wheel"), ("wtw", "Well-to-wheel (location)"),
+            ("wtw_market", "Well-to-wheel (market)")]
+    rows = [[label + " [t CO2e]"] + [_n(e[n]["total_kg"][k] / 1000, 1) for n in names]
+            for k, label in keys]
+    unit_t = "t·km"
+    rows.append([f"Well-to-wheel intensity [g CO2e/{unit_t}]"]
+                + [_n(e[n]["g_co2e_per_tkm"]["wtw"], 1) for n in names])
+    rows.append(["Well-to-wheel intensity [g CO2e/km]"]
+                + [_n(e[n]["g_co2e_per_km"]["wtw"], 0) for n in names])
+    tables.append({"title": f"Emissions over {cf.analysis_years} years",
+                   "columns": ["Frame"] + names, "rows": rows,
+                   "note": "GHG Protocol scopes and ISO 14083 tank-to-wheel / well-to-wheel."})
+    if result.uncertainty is not None:
+        tables += _uncertainty_tables(result, cur)
+    return tables
+
+
+def _assumptions(summary: dict) -> list[dict]:
+    out = []
+    for r in summary["assumptions"]:
+        v = r["value"]
+        if isinstance(v, float):
+            v = f"{v:.6g}"
+        elif isinstance(v, list):
+            v = ", ".join(str(x) for x in v) if len(v) < 30 else f"{len(v)} values"
+        elif v is None:
+            v = "–"
+        src = r["source"]
+        out.append({"field": r["field"], "value": str(v), "unit": r["unit"] or "",
+                    "source": "user" if src == "user" else f"default: {src}"})
+    return out
+
+
+METHOD_NOTES = [
+    ("Road load", "Wheel force on each time step from aerodynamic drag (air density from "
+     "the 1976 standard atmosphere at the trip's mean elevation and the ambient "
+     "temperature), rolling resistance, grade with the exact slope angle, and inertia with "
+     "an equivalent rotating-mass factor. Speeds are averaged over each step, so kinetic "
+     "and potential energy balance exactly.",
+     "F = ½ρC_dA(v+v_w)|v+v_w| + C_rr m g cosθ + m g sinθ + f_r m a",
+     r"F = \frac{1}{2}\rho C_d A (v+v_w)|v+v_w| + C_{rr} m g \cos\theta + m g \sin\theta"
+     r" + f_r m a"),
+    ("Diesel fuel", "Engine power is wheel power through the driveline plus accessories; "
+     "fuel follows the Willans line (or a constant BSFC). Fuel is cut on overrun; idling "
+     "burns the idle rate. Demand above rated power is capped and reported.",
+     "ṁ_f = (P_e + P_0) / (η_m · LHV)",
+     r"\dot m_f = \frac{P_e + P_0}{\eta_m \, LHV}"),
+    ("Battery and charging", "Battery power is wheel power through the drivetrain plus "
+     "auxiliaries (heating and cooling grow with the distance from the comfort band); "
+     "braking energy is regenerated within the motor and battery limits and never above a "
+     "full battery. Grid energy is battery energy divided by the charging efficiency.",
+     "E_{k+1} = min(E_max, E_k − P_b Δt);  E_grid = E_b / η_ch",
+     r"E_{k+1} = \min(E_{max}, E_k - P_b \Delta t), \quad E_{grid} = E_b/\eta_{ch}"),
+    ("Cost of ownership", "Yearly cash flows per cost line, escalated per line, discounted "
+     "at the discount rate; the levelized cost is discounted cost over discounted distance.",
+     "PV = Σ_y C_y (1+r)^−y;  LCC = PV / Σ_y d_y (1+r)^−y",
+     r"PV = \sum_y C_y (1+r)^{-y}, \quad LCC = PV \,/\, \sum_y d_y (1+r)^{-y}"),
+    ("Emissions", "Diesel litres times the selected factor set (CO2, CH4 and N2O with the "
+     "chosen GWP set, upstream), DEF urea CO2 by the IPCC 2006 equation; electricity at "
+     "the meter times the grid intensity of each year (matched hour by hour when a profile "
+     "is given), plus upstream and grid losses.",
+     "E = V_d f_d + m_DEF·w·(12/60)(44/12) + E_grid·I(y)·(1 + L/(1−L))",
+     r"E = V_d f_d + m_{DEF}\, w \,\frac{12}{60}\frac{44}{12} + E_{grid} I(y)"),
+]
+
+
+def build_context(result, summary: dict) -> dict:
+    """The report context of a Result (see :mod:`tco.report.html` for the structure)."""
+    s = result.scenario
+    u = _Units(s.study.units)
+    notes = [{"title": t, "text": x, "equation": eq, "equation_uri": charts.equation(tex)}
+             for t, x, eq, tex in METHOD_NOTES]
+    cautions = list(CAUTIONS) + [c for c in summary["emissions"].get("cautions", [])[1:]]
+    return {
+        "meta": {"title": s.study.name, "date": result.created[:10], "version": __version__,
+                 "fingerprint": "sha256:" + result.loaded.fingerprint[:16],
+                 "currency": s.study.currency, "units": u.label,
+                 "page_size": s.study.page_size},
+        "verdict": _verdict(result, u),
+        "key_figures": _key_figures(result, u, summary),
+        "charts": _charts(result, u),
+        "feasibility": _feasibility(result),
+        "warnings": list(result.warnings) + ([s.study.notes] if False else []),
+        "tables": _tables(result, u, summary),
+        "assumptions": _assumptions(summary),
+        "method_notes": notes,
+        "cautions": cautions,
+    }
