@@ -1,0 +1,107 @@
+"""End to end: `tco run` writes summary.json, the PDF, the HTML and the workbook, and the
+figures the PDF shows equal those of summary.json (text extracted with pypdf)."""
+import json
+import re
+import zipfile
+
+import pytest
+from pypdf import PdfReader
+
+from tco.cli import main
+from tco.resources import demo_path
+
+pytestmark = pytest.mark.slow
+
+
+@pytest.fixture(scope="module")
+def demo_run(tmp_path_factory):
+    out = tmp_path_factory.mktemp("out")
+    assert main(["run", "--out", str(out), "--quiet", "--draws", "2000"]) == 0
+    folder = out / "demo"
+    summary = json.loads((folder / "summary.json").read_text())
+    text = "\n".join(p.extract_text() for p in PdfReader(folder / "report.pdf").pages)
+    return folder, summary, re.sub(r"\s+", " ", text)
+
+
+def test_all_outputs_written(demo_run):
+    folder, _, _ = demo_run
+    for name in ("summary.json", "report.pdf", "report.html", "workbook.xlsx"):
+        assert (folder / name).stat().st_size > 1000, name
+    assert zipfile.is_zipfile(folder / "workbook.xlsx")
+
+
+def test_pdf_key_figures_equal_summary(demo_run):
+    _, s, text = demo_run
+    cur = s["scenario"]["currency"]
+    for name, t in s["cashflow"]["trucks"].items():
+        # levelized cost per km, as shown (3 decimals)
+        assert f"{t['levelized_cost_per_km']:,.3f} {cur}/km" in text, name
+        assert f"{t['present_value']:,.0f}" in text, name
+    comp = s["cashflow"]["comparisons"][0]
+    assert f"{comp['present_value_difference']:,.0f} {cur}" in text
+    em = s["emissions"]["comparison"][comp["truck"]]
+    assert f"{em['avoided_kg_total']['location'] / 1000:,.0f} t CO2e" in text
+    assert f"{em['abatement_cost_per_tonne']['location']:,.0f} {cur}/t CO2e" in text
+    assert s["scenario"]["fingerprint_sha256"][:16] in text
+    assert "Page 2 of" in text
+    for caution in ("not financial, tax or legal advice", "GHG Protocol",
+                    "licensed electricians", "local law"):
+        assert caution in text
+
+
+def test_html_is_standalone(demo_run):
+    folder, _, _ = demo_run
+    html = (folder / "report.html").read_text()
+    assert "http:" not in html.replace("http://www.w3.org", "")
+    assert "file:" not in html
+    assert "<script" not in html
+
+
+def test_letter_page_size(tmp_path):
+    assert main(["run", "--out", str(tmp_path), "--quiet", "--draws", "200",
+                 "--page-size", "Letter"]) == 0
+    box = PdfReader(tmp_path / "demo" / "report.pdf").pages[0].mediabox
+    # US Letter is 8.5 × 11 in = 612 × 792 pt (ANSI/ASME Y14.1)
+    assert (round(float(box.width)), round(float(box.height))) == (612, 792)
+
+
+def test_unknown_page_size_is_bad_input(tmp_path, capsys):
+    assert main(["run", "--out", str(tmp_path), "--page-size", "A5"]) == 2
+    assert "--page-size" in capsys.readouterr().err
+    assert not any(tmp_path.iterdir())
+
+
+HOSTILE_NAME = '<img src=file:///etc/passwd> =HYPERLINK("http://x","y")'
+HOSTILE_NOTE = '<link rel=attachment href=file:///etc/hostname> +1+1 @SUM(A1) -2+3'
+
+
+def test_hostile_scenario_text_does_not_leak(tmp_path):
+    from openpyxl import load_workbook
+
+    text = demo_path().read_text()
+    text = re.sub(r'^name = "Maravell[^"]*"', f"name = '{HOSTILE_NAME}'", text, count=1,
+                  flags=re.M)
+    text = re.sub(r'^notes = "[^"]*"', f"notes = '{HOSTILE_NOTE}'", text, count=1, flags=re.M)
+    text = text.replace('"Diesel tractor"', "'=1+1 diesel'")
+    scenario = tmp_path / "hostile.toml"
+    scenario.write_text(text)
+    assert main(["run", str(scenario), "--out", str(tmp_path / "out"), "--quiet",
+                 "--draws", "100"]) == 0
+    folder = tmp_path / "out" / "demo"
+    reader = PdfReader(folder / "report.pdf")
+    pdf_text = " ".join(p.extract_text() for p in reader.pages)
+    assert "<img src=file:///etc/passwd>" in re.sub(r"\s+", " ", pdf_text)
+    assert "/EmbeddedFiles" not in str(reader.trailer["/Root"])
+    assert "root:x:0:0" not in pdf_text
+    html = (folder / "report.html").read_text()
+    assert "<img src=file" not in html and "&lt;img src=file:///etc/passwd&gt;" in html
+    wb = load_workbook(folder / "workbook.xlsx")
+    found = 0
+    for ws in wb.worksheets:
+        for row in ws.iter_rows():
+            for cell in row:
+                v = cell.value
+                if isinstance(v, str) and ("HYPERLINK" in v or "+1+1" in v or "=1+1" in v):
+                    assert cell.data_type == "s", (ws.title, cell.coordinate, v)
+                    found += 1
+    assert found >= 2
