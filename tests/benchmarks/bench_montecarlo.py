@@ -1,0 +1,168 @@
+"""Benchmark of the Monte Carlo pass (tco.uncertainty) against the random-number floor.
+
+A script, not a test (speed is never asserted in the test suite). Run from the repository
+root:
+
+    python tests/benchmarks/bench_montecarlo.py [--draws 100000] [--repeats 5]
+
+Case: two trucks (diesel baseline, electric), 15 years, eight uncertain inputs (diesel
+price, depot electricity prices, demand charge, operating days, the electric truck's
+purchase price and energy use, the discount rate, the grid intensity), two of them
+rank-correlated. Its numbers are invented for the benchmark.
+
+It prints, each the best of ``--repeats`` runs in the same process:
+
+* the floor: ``rng.standard_normal((8, draws))``, NumPy drawing the same number of
+  random variates;
+* the sampling (copula and inverse CDFs: :func:`tco.uncertainty.sample`);
+* the model pass (:func:`tco.uncertainty.run_draws`: one cash-flow call and one emissions
+  call over all draws, present values, levelized costs, payback years, avoided emissions)
+  and its ratio to the floor (target ≤ 3);
+* the whole Monte Carlo step (:func:`tco.uncertainty.monte_carlo`: sampling + model pass);
+* a breakdown of the model pass by piece, to show where the time goes.
+"""
+from __future__ import annotations
+
+import argparse
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
+
+from tco import cashflow, emissions  # noqa: E402
+from tco import finance as fin  # noqa: E402
+from tco import uncertainty as unc  # noqa: E402
+from tco.operation import AnnualOperation  # noqa: E402
+from tco.scenario.costs import Depot, Finance, Prices, TruckCosts  # noqa: E402
+from tco.scenario.emissions import EmissionsSettings  # noqa: E402
+from tco.scenario.uncertainty import UncertaintySettings  # noqa: E402
+
+KWH = 3.6e6
+YEARS = list(range(2030, 2045))  # 15 years of service
+
+
+def build_case() -> unc.Case:
+    ops = [
+        AnnualOperation(truck="Diesel", powertrain="diesel", operating_days=250.0,
+                        trips=500.0, extra_trips=0.0, distance=1.1e8, payload_distance=2.2e12,
+                        diesel_volume=33.0, def_volume=0.7, trip_duration=7.5 * 3600),
+        AnnualOperation(truck="Electric", powertrain="electric", operating_days=250.0,
+                        trips=500.0, extra_trips=5.0, distance=1.11e8,
+                        payload_distance=2.2e12, battery_energy=120_000 * KWH,
+                        grid_energy_depot=125_000 * KWH, grid_energy_public=8_000 * KWH,
+                        charging_time_lost=80 * 3600.0, depot_charging_power=140e3,
+                        trip_duration=7.5 * 3600, battery_capacity=560 * KWH,
+                        battery_cycle_life=3500.0),
+    ]
+    inputs = cashflow.CostInputs(
+        finance=Finance(analysis_years=15, discount_rate=0.07, driver_cost_per_hour=35.0),
+        prices=Prices(diesel=1.55, diesel_exhaust_fluid=0.7, public_charging=0.45,
+                      electricity=dict(energy_price=0.18, demand_charge=12.0, fixed_fee=40.0,
+                                       bands=[dict(name="night", hours=[22, 23, 0, 1, 2, 3, 4,
+                                                                        5], price=0.11)]),
+                      escalation=dict(diesel=0.02, electricity=0.015)),
+        depot=Depot(chargers=1, charger_power=150, hardware_cost=60_000,
+                    installation_cost=25_000, maintenance_per_year=1_500),
+        trucks=[cashflow.TruckSpec("Diesel", "diesel", TruckCosts(
+                    purchase_price=125_000, maintenance=0.13, tyres=0.03, insurance_rate=0.02,
+                    registration=2_500)),
+                cashflow.TruckSpec("Electric", "electric", TruckCosts(
+                    purchase_price=260_000, maintenance=0.09, tyres=0.035, grant=25_000,
+                    insurance_rate=0.02, registration=500,
+                    battery_replacement=dict(when="cycles", cost_per_kwh=120)))],
+        operations=ops)
+    return unc.Case(inputs, EmissionsSettings(), YEARS)
+
+
+SETTINGS = UncertaintySettings(
+    distributions=[
+        dict(input="prices.diesel", kind="triangular", scale="relative", low=0.8, mode=1.0,
+             high=1.35),
+        dict(input="electricity_price", kind="pert", scale="relative", low=0.75, mode=1.0,
+             high=1.5),
+        dict(input="prices.electricity.demand_charge", kind="uniform", scale="relative",
+             low=0.7, high=1.3),
+        dict(input="route.days_per_year", kind="normal", scale="absolute", mean=250, sd=15,
+             high=300),
+        dict(input="trucks[1].costs.purchase_price", kind="pert", scale="absolute",
+             low=230_000, mode=260_000, high=300_000),
+        dict(input="energy_use[1]", kind="normal", scale="relative", mean=1.0, sd=0.06),
+        dict(input="finance.discount_rate", kind="uniform", scale="absolute", low=0.05,
+             high=0.09),
+        dict(input="emissions.grid_intensity", kind="lognormal", scale="relative", mean=1.0,
+             sd=0.15),
+    ],
+    correlations=[dict(inputs=["prices.diesel", "electricity_price"], rank=0.6)],
+)
+
+
+def best(fn, repeats: int) -> float:
+    times = []
+    for _ in range(repeats):
+        t0 = time.perf_counter()
+        fn()
+        times.append(time.perf_counter() - t0)
+    return min(times)
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    ap.add_argument("--draws", type=int, default=100_000)
+    ap.add_argument("--repeats", type=int, default=5)
+    args = ap.parse_args()
+    n, reps = args.draws, args.repeats
+
+    case = build_case()
+    specs, pearson, _ = unc.resolve_distributions(case, SETTINGS)
+    k = len(specs)
+    rng = np.random.default_rng(1)
+
+    floor = best(lambda: rng.standard_normal((k, n)), 3 * reps)
+    draws = unc.sample([s.dist for s in specs], n, rng, pearson)
+    t_sample = best(lambda: unc.sample([s.dist for s in specs], n, rng, pearson), reps)
+    over = unc.draw_overrides(specs, draws)
+    unc.run_draws(case, over)  # warm-up
+    t_models = best(lambda: unc.run_draws(case, over), reps)
+    t_mc = best(lambda: unc.monte_carlo(case, specs, pearson, n, 1), reps)
+
+    # breakdown of the model pass
+    cost, em_over, ops = case.split(over)
+    t_cf = best(lambda: cashflow.compute(case.inputs, cost, case.cost_params,
+                                         totals_only=True), reps)
+    cf = cashflow.compute(case.inputs, cost, case.cost_params, totals_only=True)
+    t_tot = best(lambda: [cf.total(i) for i in (0, 1)], reps)
+    tot = [np.atleast_2d(cf.total(i)) for i in (0, 1)]
+    t_df = best(lambda: fin.discount_factors(cf.discount_rate, case.N), reps)
+    df = fin.discount_factors(cf.discount_rate, case.N)
+    t_pv = best(lambda: [(t * df).sum(-1) for t in tot], reps)
+    t_pay = best(lambda: (fin.payback_year(tot[0] - tot[1]),
+                          fin.payback_year(tot[0] * df - tot[1] * df)), reps)
+    t_em = best(lambda: emissions.compute(case.emission_params, ops, case.years, em_over),
+                reps)
+    out = emissions.compute(case.emission_params, ops, case.years, em_over)
+    t_em_sum = best(lambda: [out[m][f].sum(-1) for m in out for f in ("wtw", "wtw_market")],
+                    reps)
+    print(f"draws {n:,} × {len(YEARS)} years × 2 trucks, {k} uncertain inputs "
+          f"(best of {reps})")
+    print(f"  floor  rng.standard_normal(({k}, {n}))      {floor * 1e3:9.1f} ms")
+    print(f"  sampling (copula + inverse CDFs)          {t_sample * 1e3:9.1f} ms  "
+          f"ratio {t_sample / floor:6.1f}")
+    print(f"  model pass (run_draws)                    {t_models * 1e3:9.1f} ms  "
+          f"ratio {t_models / floor:6.1f}  (target ≤ 3)")
+    print(f"  Monte Carlo step (sampling + models)      {t_mc * 1e3:9.1f} ms  "
+          f"ratio {t_mc / floor:6.1f}")
+    print("  breakdown of the model pass:")
+    print(f"    cashflow.compute(totals_only=True)      {t_cf * 1e3:9.1f} ms")
+    print(f"    CashFlows.total, both trucks            {t_tot * 1e3:9.1f} ms")
+    print(f"    finance.discount_factors (once)         {t_df * 1e3:9.1f} ms")
+    print(f"    present values, both trucks             {t_pv * 1e3:9.1f} ms")
+    print(f"    finance.payback_year, simple+discounted {t_pay * 1e3:9.1f} ms")
+    print(f"    emissions.compute                       {t_em * 1e3:9.1f} ms")
+    print(f"    emissions sums over years               {t_em_sum * 1e3:9.1f} ms")
+
+
+if __name__ == "__main__":
+    main()
