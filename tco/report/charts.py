@@ -40,6 +40,7 @@ import matplotlib
 import numpy as np
 import pandas as pd
 from matplotlib.figure import Figure
+from matplotlib.patches import Patch
 from matplotlib.ticker import FuncFormatter, MaxNLocator
 
 __all__ = [
@@ -306,12 +307,13 @@ def stacked_yearly_cost(tidy_cashflow: pd.DataFrame, truck, *, ylabel: str,
             for line in lines:
                 v = wide[line].to_numpy(float)
                 pos, neg = np.clip(v, 0, None), np.clip(v, None, 0)
-                bars = ax.bar(x, pos, bottom=pos_base, width=0.72, color=colors[line],
-                              linewidth=0)
-                if np.any(neg < 0):
-                    bars = ax.bar(x, neg, bottom=neg_base, width=0.72, color=colors[line],
-                                  linewidth=0)
-                seen.setdefault(line, bars)
+                # only non-zero segments are drawn: most lines fall in one or two years
+                for part, base in ((pos, pos_base), (neg, neg_base)):
+                    nz = part != 0
+                    if nz.any():
+                        ax.bar(x[nz], part[nz], bottom=base[nz], width=0.72,
+                               color=colors[line], linewidth=0)
+                        seen.setdefault(line, Patch(color=colors[line], linewidth=0))
                 pos_base += pos
                 neg_base += neg
             net = wide.sum(axis=1).to_numpy(float)

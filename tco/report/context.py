@@ -184,16 +184,17 @@ def _charts(result, u: _Units) -> dict:
     totals = cf.yearly_totals()[names]
     cum = totals.cumsum()
     be = _breakeven_year(cum)
-    table = cf.table.rename(columns={"amount": "value"})
+    table = _grouped_lines(cf.table)
     cost = [
         {"title": "Cumulative cost of ownership",
          "caption": f"Net cash out, cumulative by year ({cf.money_basis} money, not "
                     "discounted)." + (f" The lines cross in year {be:.1f}." if be else
                                       " The lines do not cross within the period."),
          "uri": charts.cumulative_cost(cum, be, ylabel=f"Cumulative cost [{cur}]")},
-        {"title": "Yearly cost by line",
+        {"title": "Yearly cost by group of lines",
          "caption": "Costs stack upward, income (grant, loan received, residual value) "
-                    "downward; the black bar is the net of each year.",
+                    "downward; the black bar is the net of each year. Line by line: the "
+                    "present value table and the workbook.",
          "uri": charts.stacked_yearly_cost(table, names, ylabel=f"Cost per year [{cur}]")},
     ]
     energy = [
@@ -231,6 +232,27 @@ def _charts(result, u: _Units) -> dict:
     if result.uncertainty is not None:
         unc = _uncertainty_charts(result, cur)
     return {"cost": cost, "energy": energy, "emissions": emissions, "uncertainty": unc}
+
+
+GROUP_LABELS = {
+    "purchase": "Purchase and incentives", "financing": "Financing", "depot": "Depot charging",
+    "energy": "Energy", "running": "Running costs", "battery": "Battery replacement",
+    "end": "End-of-life value", "tax": "Tax effects",
+}
+
+
+def _grouped_lines(table: pd.DataFrame) -> pd.DataFrame:
+    """The cash-flow table summed by group of cost lines (tidy: truck, year, line, value)."""
+    from tco.cashflow import LINES
+
+    group = {spec.name: GROUP_LABELS.get(spec.group, spec.group) for spec in LINES}
+    order = list(dict.fromkeys(group[n] for n in table["line"].unique()))
+    out = (table.assign(line=table["line"].map(group))
+           .groupby(["truck", "year", "line"], sort=False, as_index=False)["amount"].sum()
+           .rename(columns={"amount": "value"}))
+    out["line"] = pd.Categorical(out["line"], categories=order, ordered=True)
+    return out.sort_values(["line", "truck", "year"], kind="stable").assign(
+        line=lambda d: d["line"].astype(str))
 
 
 def _uncertainty_charts(result, cur: str) -> list[dict]:
