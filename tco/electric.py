@@ -1,0 +1,537 @@
+"""Battery-electric powertrain: battery power, regeneration, state of charge, feasibility.
+
+Battery power for a wheel power ``P`` (motor power limit ``P_mot`` at the wheel)::
+
+    traction (P > 0):  P_batt = min(P, P_mot) / eta_drivetrain + P_aux
+    braking  (P <= 0): P_regen = max(max(P, -P_mot) * eta_regen, -P_regen_max)
+                       P_batt  = P_regen + P_aux
+
+Braking power the motor or the battery charge limit cannot take goes to the friction
+brakes, and so does regeneration a full battery refuses. The battery energy follows::
+
+    E_0 = E_start,   E_{i+1} = min(E_max, E_i - P_batt,i * dt)
+
+There is no charging above full, and no floor: a trace that would take the battery below
+empty shows a negative state of charge, reported as infeasible rather than hidden.
+
+This module is the readable reference; :mod:`tco.kernel` compiles the same private
+formulas (``_battery_traction``, ``_regen_battery_power``, ``_regen_refused``) into its
+fused loop.
+"""
+from __future__ import annotations
+
+from typing import NamedTuple
+
+import numpy as np
+
+from tco import roadload
+from tco.roadload import _check_finite, _check_nonnegative, _check_positive, _inputs
+
+__all__ = [
+    "ElectricPowertrain",
+    "auxiliary_power",
+    "battery_energy_track",
+    "battery_power",
+    "battery_use",
+    "day_feasibility",
+    "depot_charger_power",
+    "enroute_charging_time",
+    "grid_energy",
+    "regen_refused",
+]
+
+
+class ElectricPowertrain(NamedTuple):
+    """Parameters of a battery-electric powertrain (all SI).
+
+    Attributes
+    ----------
+    usable_capacity : float
+        Usable battery energy between empty and full. [J] (1 kWh = 3.6e6 J)
+    motor_power : float
+        Motor power limit expressed at the wheel, for traction and regeneration. [W]
+    drivetrain_efficiency : float
+        Battery-to-wheel efficiency in traction, in (0, 1] (about 0.9, common practice).
+        [-]
+    regen_efficiency : float
+        Wheel-to-battery efficiency when regenerating, in (0, 1]. [-]
+    regen_power_max : float
+        Largest charge power the battery accepts while regenerating. [W]
+    aux_power : float
+        Auxiliary power drawn from the battery at all times (see
+        :func:`auxiliary_power`). [W]
+    initial_soc : float
+        State of charge at the start of the trace, fraction of usable capacity in [0, 1].
+        [-]
+    """
+
+    usable_capacity: float
+    motor_power: float
+    drivetrain_efficiency: float
+    regen_efficiency: float
+    regen_power_max: float
+    aux_power: float = 0.0
+    initial_soc: float = 1.0
+
+    def checked(self) -> ElectricPowertrain:
+        """Return a copy with every field a float, after checking the values.
+
+        Raises
+        ------
+        ValueError
+            When a value is not finite or out of its range.
+        """
+        vals = {}
+        for name, value in zip(self._fields, self, strict=True):
+            try:
+                value = float(value)
+            except (TypeError, ValueError):
+                raise ValueError(f"electric {name} must be a number, got {value!r}") from None
+            if not np.isfinite(value):
+                raise ValueError(f"electric {name} must be finite, got {value}")
+            vals[name] = value
+        for name in ("drivetrain_efficiency", "regen_efficiency"):
+            if not 0.0 < vals[name] <= 1.0:
+                raise ValueError(f"electric {name} must be in (0, 1], got {vals[name]}")
+        for name in ("usable_capacity", "motor_power"):
+            if vals[name] <= 0:
+                raise ValueError(f"electric {name} must be > 0, got {vals[name]}")
+        for name in ("regen_power_max", "aux_power"):
+            if vals[name] < 0:
+                raise ValueError(f"electric {name} must be >= 0, got {vals[name]}")
+        if not 0.0 <= vals["initial_soc"] <= 1.0:
+            raise ValueError(f"electric initial_soc must be in [0, 1], got {vals['initial_soc']}")
+        return ElectricPowertrain(**vals)
+
+
+# ----------------------------------------------------------------------------- shared formulas
+# Plain arithmetic, elementwise on arrays here and on scalars in tco.kernel (numba).
+def _battery_traction(wheel_power, motor_power, drivetrain_efficiency, aux_power):
+    """Battery power for a positive wheel power, motor limit applied [W]."""
+    return np.minimum(wheel_power, motor_power) / drivetrain_efficiency + aux_power
+
+
+def _regen_battery_power(wheel_power, motor_power, regen_efficiency, regen_power_max):
+    """Power regenerated into the battery (≤ 0) for a wheel power ≤ 0 [W]."""
+    return np.maximum(np.maximum(wheel_power, -motor_power) * regen_efficiency,
+                      -regen_power_max)
+
+
+def _regen_refused(wheel_power, regen_power, regen_efficiency):
+    """Braking power at the wheel left to the friction brakes by the power limits [W]."""
+    return regen_power / regen_efficiency - wheel_power
+
+
+# ----------------------------------------------------------------------------- public functions
+def auxiliary_power(temperature, base, heating_per_K, cooling_per_K, comfort_low,
+                    comfort_high):
+    """Auxiliary power of a battery-electric truck at an ambient temperature.
+
+    .. math:: P_{aux} = P_{base} + h \\max(0, T_{low} - T) + c \\max(0, T - T_{high})
+
+    Parameters
+    ----------
+    temperature : float, array or Series
+        Ambient temperature. [K]
+    base : float
+        Power drawn whatever the weather (controls, compressor, steering). [W]
+    heating_per_K : float
+        Cabin and battery heating power per kelvin below the comfort band. [W/K]
+    cooling_per_K : float
+        Cooling power per kelvin above the comfort band. [W/K]
+    comfort_low : float
+        Lower edge of the band needing neither heating nor cooling. [K]
+    comfort_high : float
+        Upper edge of that band. [K]
+
+    Returns
+    -------
+    float, array or Series
+        Auxiliary power. [W]
+
+    Notes
+    -----
+    A linear degree-hour model; the coefficients are the scenario's, not published
+    constants.
+
+    Examples
+    --------
+    >>> auxiliary_power(263.15, 2000.0, 300.0, 400.0, 288.15, 295.15)
+    9500.0
+    """
+    (t,), restore = _inputs(temperature)
+    if not np.all(np.isfinite(t)) or np.any(t <= 0):
+        raise ValueError("temperature must be finite and > 0 K (give kelvin)")
+    for name, value in (("base", base), ("heating_per_K", heating_per_K),
+                        ("cooling_per_K", cooling_per_K)):
+        _check_nonnegative(name, value)
+    if not comfort_low <= comfort_high:
+        raise ValueError("comfort_low must not be above comfort_high")
+    p = (float(base) + float(heating_per_K) * np.maximum(0.0, comfort_low - t)
+         + float(cooling_per_K) * np.maximum(0.0, t - comfort_high))
+    return restore(p)
+
+
+def battery_power(wheel_power, electric):
+    """Battery power for a wheel power, with the motor and regeneration limits.
+
+    .. math::
+
+        P_{batt} = \\min(P, P_{mot})/\\eta_{dt} + P_{aux} \\quad (P > 0)
+
+        P_{batt} = \\max(\\max(P, -P_{mot})\\,\\eta_{regen},\\ -P_{regen,max}) + P_{aux}
+        \\quad (P \\le 0)
+
+    Parameters
+    ----------
+    wheel_power : float, array or Series
+        Power at the wheels. [W]
+    electric : ElectricPowertrain
+        Powertrain parameters.
+
+    Returns
+    -------
+    float, array or Series
+        Battery power, positive when discharging. [W]
+
+    Examples
+    --------
+    >>> e = ElectricPowertrain(1.8e9, 400e3, 0.9, 0.8, 250e3, 5e3)
+    >>> battery_power([90e3, -100e3, -500e3], e).tolist()
+    [105000.0, -75000.0, -245000.0]
+    """
+    e = ElectricPowertrain(*electric).checked()
+    (p,), restore = _inputs(wheel_power)
+    return restore(_battery_power_array(p, e))
+
+
+def _battery_power_array(p, e):
+    traction = _battery_traction(p, e.motor_power, e.drivetrain_efficiency, e.aux_power)
+    regen = _regen_battery_power(p, e.motor_power, e.regen_efficiency, e.regen_power_max)
+    return np.where(p > 0.0, traction, regen + e.aux_power)
+
+
+def regen_refused(wheel_power, electric):
+    """Braking power at the wheel that the motor and battery power limits leave to the
+    friction brakes.
+
+    .. math:: P_{refused} = P_{regen}/\\eta_{regen} - P \\quad (P \\le 0), \\quad 0 \\ (P > 0)
+
+    Parameters
+    ----------
+    wheel_power : float, array or Series
+        Power at the wheels. [W]
+    electric : ElectricPowertrain
+        Powertrain parameters.
+
+    Returns
+    -------
+    float, array or Series
+        Braking power not regenerated, ≥ 0. [W] A full battery refuses more; see
+        :func:`battery_energy_track`.
+
+    Examples
+    --------
+    >>> e = ElectricPowertrain(1.8e9, 400e3, 0.9, 0.8, 250e3)
+    >>> regen_refused([-100e3, -500e3], e).tolist()
+    [0.0, 187500.0]
+    """
+    e = ElectricPowertrain(*electric).checked()
+    (p,), restore = _inputs(wheel_power)
+    regen = _regen_battery_power(p, e.motor_power, e.regen_efficiency, e.regen_power_max)
+    return restore(np.where(p > 0.0, 0.0, _regen_refused(p, regen, e.regen_efficiency)))
+
+
+def battery_energy_track(battery_power, dt, energy_start, energy_max):
+    """Battery energy at each sample, with no charging above full.
+
+    .. math:: E_0 = E_{start}, \\quad E_{i+1} = \\min(E_{max},\\ E_i - P_i \\Delta t)
+
+    computed without a Python loop from the closed form of this one-sided reflection:
+    with :math:`Y_k = E_{start} - \\sum_{j<k} P_j \\Delta t`,
+
+    .. math:: E_k = Y_k - \\max\\bigl(0, \\max_{j \\le k} (Y_j - E_{max})\\bigr)
+
+    Parameters
+    ----------
+    battery_power : array
+        Battery power of each interval, positive discharging. [W]
+    dt : float
+        Time step. [s]
+    energy_start : float
+        Battery energy at the first sample, ≤ ``energy_max``. [J]
+    energy_max : float
+        Battery energy when full. [J]
+
+    Returns
+    -------
+    energy : ndarray of n + 1 values
+        Battery energy at each sample. [J] Not floored: it goes below 0 when the battery
+        would run flat.
+    refused : float
+        Charge energy refused because the battery was full. [J]
+
+    Notes
+    -----
+    The closed form is the discrete Skorokhod reflection at an upper barrier; it holds
+    because the barrier is constant and ``energy_start <= energy_max``.
+
+    Examples
+    --------
+    >>> e, refused = battery_energy_track([-2.0, 1.0, -3.0], 1.0, 9.0, 10.0)
+    >>> e.tolist(), refused
+    ([9.0, 10.0, 9.0, 10.0], 3.0)
+    """
+    x = np.asarray(battery_power, dtype=float) * float(dt)
+    if not energy_start <= energy_max:
+        raise ValueError("energy_start must not be above energy_max")
+    y = np.empty(x.size + 1)
+    y[0] = energy_start
+    y[1:] = energy_start - np.cumsum(x)
+    pushed = np.maximum(np.maximum.accumulate(y - energy_max), 0.0)
+    return y - pushed, float(pushed[-1])
+
+
+#: Keys of :func:`battery_use`: energies [J], SOC [-], time [s], distance [m], speeds [m/s].
+ELECTRIC_KEYS = (
+    "electric_battery_energy_out", "electric_battery_energy_regenerated",
+    "electric_battery_energy_net", "electric_regen_refused_by_limits",
+    "electric_regen_refused_full_battery", "electric_friction_brake_energy",
+    "electric_soc_start", "electric_soc_end", "electric_soc_min",
+    "electric_limited_time", "electric_limited_distance",
+    "electric_speed_deficit_max", "electric_speed_deficit_mean",
+)
+
+
+def battery_use(speed, grade, dt, mass, vehicle, electric, leg_starts=None):
+    """Battery energy, regeneration and state of charge of an electric truck on a trace.
+
+    Parameters
+    ----------
+    speed : array or Series
+        Speed at each sample. [m/s]
+    grade : array or Series
+        Grade at each sample, rise over run. [-]
+    dt : float
+        Time step. [s]
+    mass : float or array
+        Vehicle mass, one value or one per leg. [kg]
+    vehicle : tco.roadload.Vehicle
+        Road-load parameters.
+    electric : ElectricPowertrain
+        Powertrain parameters.
+    leg_starts : array of int, optional
+        Sample index where each leg starts.
+
+    Returns
+    -------
+    totals : dict of float
+        ``electric_battery_energy_out`` [J] (discharge), ``..._regenerated`` [J] (charge
+        accepted, net of auxiliaries while braking), ``..._net`` [J] (out − regenerated
+        = start − end energy), ``electric_regen_refused_by_limits`` [J at the wheel],
+        ``electric_regen_refused_full_battery`` [J at the battery],
+        ``electric_friction_brake_energy`` [J at the wheel], ``electric_soc_start``,
+        ``electric_soc_end``, ``electric_soc_min`` [-], and for intervals where the wheel
+        power exceeds the motor limit: ``electric_limited_time`` [s],
+        ``electric_limited_distance`` [m], ``electric_speed_deficit_max`` and
+        ``electric_speed_deficit_mean`` [m/s].
+    soc : ndarray of n values
+        State of charge at each sample, fraction of usable capacity. [-]
+
+    Notes
+    -----
+    The speed deficit is defined as for the diesel (:func:`tco.diesel.fuel_use`), with
+    the motor power at the wheel.
+    """
+    e = ElectricPowertrain(*electric).checked()
+    veh = roadload.Vehicle(*vehicle).checked()
+    p = np.asarray(roadload.wheel_power(speed, grade, dt, mass, veh, leg_starts), dtype=float)
+    vm, _, dist, s = (np.asarray(x) for x in roadload.trace_intervals(
+        np.asarray(speed, dtype=float), np.asarray(grade, dtype=float), dt))
+    m = roadload.interval_mass(vm.size + 1, mass, leg_starts)
+    dt = float(dt)
+    p_batt = _battery_power_array(p, e)
+    regen = _regen_battery_power(p, e.motor_power, e.regen_efficiency, e.regen_power_max)
+    refused_limits = float(
+        np.where(p > 0.0, 0.0, _regen_refused(p, regen, e.regen_efficiency)).sum() * dt)
+    x = p_batt * dt
+    e_start = e.initial_soc * e.usable_capacity
+    energy, refused_full = battery_energy_track(p_batt, dt, e_start, e.usable_capacity)
+    soc = energy / e.usable_capacity
+    out = float(np.maximum(x, 0.0).sum())
+    regenerated = float(np.maximum(-x, 0.0).sum()) - refused_full
+    limited = p > e.motor_power
+    if limited.any():
+        v_ss = roadload.steady_speed(e.motor_power, s[limited], m[limited], veh)
+        deficit = np.maximum(vm[limited] - v_ss, 0.0)
+        deficit_max, deficit_mean = float(deficit.max()), float(deficit.mean())
+    else:
+        deficit_max = deficit_mean = 0.0
+    totals = {
+        "electric_battery_energy_out": out,
+        "electric_battery_energy_regenerated": regenerated,
+        "electric_battery_energy_net": out - regenerated,
+        "electric_regen_refused_by_limits": refused_limits,
+        "electric_regen_refused_full_battery": refused_full,
+        "electric_friction_brake_energy": refused_limits + refused_full / e.regen_efficiency,
+        "electric_soc_start": float(soc[0]),
+        "electric_soc_end": float(soc[-1]),
+        "electric_soc_min": float(soc.min()),
+        "electric_limited_time": float(limited.sum() * dt),
+        "electric_limited_distance": float(dist[limited].sum()),
+        "electric_speed_deficit_max": deficit_max,
+        "electric_speed_deficit_mean": deficit_mean,
+    }
+    return totals, soc
+
+
+# ----------------------------------------------------------------------------- feasibility
+def day_feasibility(net_battery_energy_per_day, usable_capacity_new, usable_capacity_eol,
+                    reserve_fraction):
+    """Whether a day's battery energy fits the battery when new and at end of life.
+
+    .. math:: \\text{margin} = C (1 - r) - E_{day}, \\qquad
+              C_{required} = E_{day} / (1 - r)
+
+    Parameters
+    ----------
+    net_battery_energy_per_day : float or array
+        Net energy taken from the battery over the day's driving (between charges). [J]
+    usable_capacity_new : float or array
+        Usable capacity of the new battery. [J]
+    usable_capacity_eol : float or array
+        Usable capacity at end of life (after ageing), ≤ the new capacity. [J]
+    reserve_fraction : float
+        Share of usable capacity kept in reserve and never planned to be used, in [0, 1).
+        [-]
+
+    Returns
+    -------
+    dict
+        ``feasible_new`` and ``feasible_eol`` (bool or bool array), ``margin_new`` and
+        ``margin_eol`` [J] (negative: short by that much), ``required_capacity`` [J]
+        (smallest usable capacity that serves the day with the reserve intact).
+
+    Examples
+    --------
+    >>> r = day_feasibility(1.2e9, 1.8e9, 1.44e9, 0.1)
+    >>> r["feasible_new"], r["feasible_eol"], round(r["required_capacity"] / 3.6e6, 1)
+    (True, True, 370.4)
+    """
+    e_day = np.asarray(net_battery_energy_per_day, dtype=float)
+    new = np.asarray(usable_capacity_new, dtype=float)
+    eol = np.asarray(usable_capacity_eol, dtype=float)
+    _check_finite("net_battery_energy_per_day", e_day)
+    _check_positive("usable_capacity_new", new)
+    _check_positive("usable_capacity_eol", eol)
+    if np.any(eol > new):
+        raise ValueError("usable_capacity_eol must not exceed usable_capacity_new")
+    if not 0.0 <= reserve_fraction < 1.0:
+        raise ValueError(f"reserve_fraction must be in [0, 1), got {reserve_fraction}")
+    keep = 1.0 - float(reserve_fraction)
+    margin_new = new * keep - e_day
+    margin_eol = eol * keep - e_day
+
+    def out(x):
+        return x.item() if np.ndim(x) == 0 else x
+
+    return {
+        "feasible_new": out(margin_new >= 0),
+        "feasible_eol": out(margin_eol >= 0),
+        "margin_new": out(margin_new),
+        "margin_eol": out(margin_eol),
+        "required_capacity": out(np.maximum(e_day, 0.0) / keep),
+    }
+
+
+def grid_energy(battery_energy, charging_efficiency):
+    """Energy drawn from the grid to put an energy into the battery.
+
+    .. math:: E_{grid} = E_{battery} / \\eta_{charge}
+
+    Parameters
+    ----------
+    battery_energy : float, array or Series
+        Energy to put back into the battery. [J]
+    charging_efficiency : float
+        Grid-to-battery efficiency, in (0, 1] (about 0.9 for depot or DC charging,
+        from memory; 0.884 measured on a light-duty car at Level 2). [-]
+
+    Returns
+    -------
+    float, array or Series
+        Grid energy. [J]
+
+    Examples
+    --------
+    >>> grid_energy(0.9, 0.9)
+    1.0
+    """
+    (e,), restore = _inputs(battery_energy)
+    if not 0.0 < charging_efficiency <= 1.0:
+        raise ValueError(f"charging_efficiency must be in (0, 1], got {charging_efficiency}")
+    return restore(e / float(charging_efficiency))
+
+
+def depot_charger_power(grid_energy, window_seconds):
+    """Smallest charger power that draws an energy from the grid within a time window.
+
+    .. math:: P = E_{grid} / t_{window}
+
+    Parameters
+    ----------
+    grid_energy : float, array or Series
+        Energy to draw from the grid (see :func:`grid_energy`). [J]
+    window_seconds : float, array or Series
+        Time the truck stands at the depot charger. [s]
+
+    Returns
+    -------
+    float, array or Series
+        Charger power drawn from the grid. [W]
+
+    Notes
+    -----
+    Constant power over the window; the battery's charge taper near full is ignored.
+
+    Examples
+    --------
+    >>> depot_charger_power(3.6e9, 36000.0)
+    100000.0
+    """
+    (e, t), restore = _inputs(grid_energy, window_seconds)
+    _check_nonnegative("grid_energy", e)
+    _check_positive("window_seconds", t)
+    return restore(e / t)
+
+
+def enroute_charging_time(deficit_energy, charger_power, efficiency):
+    """Time at an en-route charger to make up a battery energy deficit.
+
+    .. math:: t = E_{deficit} / (P_{charger}\\, \\eta)
+
+    Parameters
+    ----------
+    deficit_energy : float, array or Series
+        Battery energy missing for the day; zero or negative needs no stop. [J]
+    charger_power : float
+        Power the charger draws from the grid. [W]
+    efficiency : float
+        Grid-to-battery efficiency, in (0, 1]. [-]
+
+    Returns
+    -------
+    float, array or Series
+        Charging time. [s]
+
+    Examples
+    --------
+    >>> enroute_charging_time(3.6e8, 400e3, 0.9)
+    1000.0
+    """
+    (e,), restore = _inputs(deficit_energy)
+    _check_finite("deficit_energy", e)
+    _check_positive("charger_power", charger_power)
+    if not 0.0 < efficiency <= 1.0:
+        raise ValueError(f"efficiency must be in (0, 1], got {efficiency}")
+    return restore(np.maximum(e, 0.0) / (float(charger_power) * float(efficiency)))

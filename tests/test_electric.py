@@ -1,0 +1,190 @@
+"""Tests of tco.electric: battery power, regeneration, state of charge and feasibility."""
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from tco import electric as el
+from tco import roadload as rl
+from tco.units import G
+
+VEH = rl.Vehicle(drag_coefficient=0.6, frontal_area=10.0, crr=0.006, air_density=1.2)
+ELE = el.ElectricPowertrain(usable_capacity=500 * 3.6e6, motor_power=400e3,
+                            drivetrain_efficiency=0.9, regen_efficiency=0.8,
+                            regen_power_max=250e3, aux_power=5e3, initial_soc=0.9)
+
+
+# ----------------------------------------------------------------------------- auxiliaries
+def test_auxiliary_power_degree_model():
+    # Formula by hand: base + heating·(T_low − T) below the band, cooling above it.
+    args = (2000.0, 300.0, 400.0, 288.15, 295.15)
+    assert el.auxiliary_power(263.15, *args) == pytest.approx(2000 + 300 * 25)
+    assert el.auxiliary_power(290.0, *args) == 2000.0
+    assert el.auxiliary_power(305.15, *args) == pytest.approx(2000 + 400 * 10)
+
+
+def test_auxiliary_power_input_kinds_and_errors():
+    args = (2000.0, 300.0, 400.0, 288.15, 295.15)
+    assert isinstance(el.auxiliary_power(np.array([270.0, 300.0]), *args), np.ndarray)
+    ser = el.auxiliary_power(pd.Series([270.0], index=["jan"]), *args)
+    assert isinstance(ser, pd.Series) and ser.index[0] == "jan"
+    with pytest.raises(ValueError, match="kelvin"):
+        el.auxiliary_power(-5.0, *args)
+    with pytest.raises(ValueError, match="comfort_low"):
+        el.auxiliary_power(280.0, 2000.0, 300.0, 400.0, 300.0, 290.0)
+    with pytest.raises(ValueError, match="heating_per_K"):
+        el.auxiliary_power(280.0, 2000.0, -1.0, 400.0, 288.0, 295.0)
+
+
+# ----------------------------------------------------------------------------- battery power
+def test_battery_power_by_hand():
+    p = el.battery_power([90e3, -100e3, -500e3, 600e3], ELE)
+    assert p[0] == pytest.approx(90e3 / 0.9 + 5e3)
+    assert p[1] == pytest.approx(-100e3 * 0.8 + 5e3)  # within every limit
+    assert p[2] == pytest.approx(-250e3 + 5e3)  # battery charge limit
+    assert p[3] == pytest.approx(400e3 / 0.9 + 5e3)  # motor limit in traction
+
+
+def test_regen_limited_by_motor_at_the_wheel():
+    e = ELE._replace(motor_power=100e3, regen_power_max=1e9)
+    assert el.battery_power(-300e3, e) == pytest.approx(-100e3 * 0.8 + 5e3)
+    assert el.regen_refused(-300e3, e) == pytest.approx(200e3)
+
+
+def test_regen_refused():
+    r = el.regen_refused([-100e3, -500e3, 50e3], ELE)
+    assert r.tolist() == pytest.approx([0.0, 500e3 - 250e3 / 0.8, 0.0])
+
+
+def test_battery_power_input_kinds():
+    assert isinstance(el.battery_power(1e5, ELE), float)
+    assert isinstance(el.battery_power(pd.Series([1e5, -1e5]), ELE), pd.Series)
+    assert isinstance(el.regen_refused(np.array([-1e5]), ELE), np.ndarray)
+
+
+# ----------------------------------------------------------------------------- energy track
+def _track_by_loop(p, dt, e0, emax):
+    """The recursion written out plainly, as an independent check of the closed form."""
+    e = [e0]
+    refused = 0.0
+    for x in p:
+        t = e[-1] - x * dt
+        refused += max(t - emax, 0.0)
+        e.append(min(t, emax))
+    return np.array(e), refused
+
+
+@settings(max_examples=80, deadline=None)
+@given(st.lists(st.floats(-5e5, 5e5), min_size=1, max_size=80),
+       st.floats(0.0, 1.0), st.floats(0.1, 10.0))
+def test_energy_track_closed_form_equals_recursion(p, frac, dt):
+    emax = 3.6e8
+    e, refused = el.battery_energy_track(p, dt, frac * emax, emax)
+    e_ref, refused_ref = _track_by_loop(p, dt, frac * emax, emax)
+    np.testing.assert_allclose(e, e_ref, rtol=1e-12, atol=1e-3)
+    assert refused == pytest.approx(refused_ref, rel=1e-9, abs=1e-3)
+    assert e.max() <= emax  # never above full
+
+
+def test_energy_track_not_floored():
+    e, refused = el.battery_energy_track([10.0, 10.0], 1.0, 15.0, 20.0)
+    assert e.tolist() == [15.0, 5.0, -5.0] and refused == 0.0
+    with pytest.raises(ValueError, match="energy_start"):
+        el.battery_energy_track([1.0], 1.0, 30.0, 20.0)
+
+
+# ----------------------------------------------------------------------------- over a trace
+def test_constant_speed_battery_by_hand():
+    # Road-load form F = A + C·v² (SAE J1263), battery = wheel / eta + aux, by hand.
+    v, n, m = 20.0, 3601, 36000.0
+    tot, soc = el.battery_use(np.full(n, v), np.zeros(n), 1.0, m, VEH, ELE)
+    p_wheel = (0.006 * m * G + 0.5 * 1.2 * 0.6 * 10.0 * v**2) * v
+    e_out = (p_wheel / 0.9 + 5e3) * 3600
+    assert tot["electric_battery_energy_out"] == pytest.approx(e_out, rel=1e-12)
+    assert tot["electric_battery_energy_net"] == pytest.approx(e_out, rel=1e-12)
+    assert tot["electric_soc_end"] == pytest.approx(0.9 - e_out / ELE.usable_capacity,
+                                                    rel=1e-12)
+    assert tot["electric_soc_min"] == tot["electric_soc_end"] == soc[-1]
+    assert soc[0] == pytest.approx(0.9)
+
+
+def test_full_battery_refuses_regeneration():
+    # Start full and coast downhill: everything regenerated goes to the friction brakes.
+    n = 121
+    e = ELE._replace(initial_soc=1.0, aux_power=0.0)
+    tot, soc = el.battery_use(np.full(n, 15.0), np.full(n, -0.05), 1.0, 36000.0, VEH, e)
+    assert soc.max() == 1.0
+    assert tot["electric_battery_energy_regenerated"] == pytest.approx(0.0, abs=1e-6)
+    assert tot["electric_friction_brake_energy"] == pytest.approx(
+        rl.energy_components(np.full(n, 15.0), np.full(n, -0.05), 1.0, 36000.0,
+                             VEH)["braking_energy"], rel=1e-12)
+
+
+def test_motor_limit_and_deficit():
+    n, v, s, m = 31, 25.0, 0.07, 40000.0
+    tot, _ = el.battery_use(np.full(n, v), np.full(n, s), 1.0, m, VEH, ELE)
+    v_ss = rl.steady_speed(ELE.motor_power, s, m, VEH)
+    assert tot["electric_limited_time"] == 30.0
+    assert tot["electric_speed_deficit_max"] == pytest.approx(v - v_ss, rel=1e-12)
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.integers(2, 80), st.integers(0, 2**32 - 1), st.floats(0.0, 1.0))
+def test_battery_use_limits(n, seed, soc0):
+    # Invariants: SOC never above 1, regeneration never above its caps, net = start − end.
+    rng = np.random.default_rng(seed)
+    v = rng.uniform(0, 30, n)
+    s = rng.normal(0, 0.06, n)
+    e = ELE._replace(initial_soc=soc0)
+    tot, soc = el.battery_use(v, s, 1.0, 36000.0, VEH, e)
+    assert soc.max() <= 1.0
+    p = rl.wheel_power(v, s, 1.0, 36000.0, VEH)
+    assert np.all(el.battery_power(p, e) >= -e.regen_power_max + e.aux_power - 1e-9)
+    assert tot["electric_battery_energy_net"] == pytest.approx(
+        (soc[0] - soc[-1]) * e.usable_capacity, rel=1e-9, abs=1e-3)
+    assert tot["electric_friction_brake_energy"] >= tot["electric_regen_refused_by_limits"] >= 0
+
+
+# ----------------------------------------------------------------------------- feasibility
+def test_day_feasibility():
+    r = el.day_feasibility(1.2e9, 1.8e9, 1.44e9, 0.1)
+    assert r["feasible_new"] and r["feasible_eol"]
+    assert r["margin_eol"] == pytest.approx(1.44e9 * 0.9 - 1.2e9)
+    assert r["required_capacity"] == pytest.approx(1.2e9 / 0.9)
+    r = el.day_feasibility(np.array([1.0e9, 1.5e9]), 1.8e9, 1.44e9, 0.1)
+    assert r["feasible_new"].tolist() == [True, True]
+    assert r["feasible_eol"].tolist() == [True, False]
+    with pytest.raises(ValueError, match="reserve_fraction"):
+        el.day_feasibility(1e9, 1.8e9, 1.44e9, 1.0)
+    with pytest.raises(ValueError, match="eol"):
+        el.day_feasibility(1e9, 1.0e9, 1.44e9, 0.1)
+
+
+def test_charging_helpers():
+    # Charging efficiency 88.4 %: measured light-duty Level 2 value (references.md),
+    # used here only as an input to the formula E_grid = E_battery / eta.
+    kwh = 3.6e6
+    assert el.grid_energy(100 * kwh, 0.884) == pytest.approx(113.122 * kwh, rel=1e-5)
+    assert el.depot_charger_power(3.6e9, 36000.0) == pytest.approx(100e3)
+    assert el.enroute_charging_time(3.6e8, 400e3, 0.9) == pytest.approx(1000.0)
+    assert el.enroute_charging_time(-1.0, 400e3, 0.9) == 0.0
+    assert isinstance(el.grid_energy(pd.Series([1.0]), 0.9), pd.Series)
+    with pytest.raises(ValueError, match="charging_efficiency"):
+        el.grid_energy(1.0, 1.5)
+    with pytest.raises(ValueError, match="window_seconds"):
+        el.depot_charger_power(1.0, 0.0)
+    with pytest.raises(ValueError, match="efficiency"):
+        el.enroute_charging_time(1.0, 1e5, 0.0)
+
+
+@pytest.mark.parametrize("field, value", [
+    ("drivetrain_efficiency", 0.0), ("regen_efficiency", 1.01), ("usable_capacity", -1.0),
+    ("motor_power", 0.0), ("regen_power_max", -1.0), ("aux_power", -5.0),
+    ("initial_soc", 1.2), ("aux_power", np.inf),
+])
+def test_parameter_errors(field, value):
+    with pytest.raises(ValueError, match=field):
+        ELE._replace(**{field: value}).checked()
