@@ -15,8 +15,8 @@ Design notes
   alone. Rasterising is never involved, so the Agg backend is the implicit one.
 * Output is byte-stable for equal input: ``svg.hashsalt`` is fixed and the SVG date
   metadata is dropped.
-* Text is drawn as paths (``svg.fonttype = "path"``), so a chart looks the same in every
-  viewer and carries no font dependency.
+* Text stays text (``svg.fonttype = "none"``): the PDF renders it with its own DejaVu fonts,
+  so chart labels can be searched and copied, and the PDF renders faster.
 * Text that can come from a user's scenario (truck names, cost lines, input names) is
   escaped for matplotlib's mathtext, so a ``$`` in a name prints as a dollar sign instead
   of failing or being typeset as a formula.
@@ -75,7 +75,7 @@ _WIDTH = 6.7
 
 _RC = {
     "svg.hashsalt": "tco-report",
-    "svg.fonttype": "path",
+    "svg.fonttype": "none",
     "font.family": "DejaVu Sans",
     "font.size": 8.5,
     "axes.titlesize": 9,

@@ -33,6 +33,91 @@ CAUTIONS = [
 ]
 
 
+class _Lazy:
+    """A chart to draw later, so that all charts can be drawn in parallel."""
+
+    def __init__(self, fn, args, kwargs):
+        self.fn, self.args, self.kwargs = fn, args, kwargs
+
+    def __call__(self) -> str:
+        return self.fn(*self.args, **self.kwargs)
+
+
+def _later(fn, *args, **kwargs) -> _Lazy:
+    return _Lazy(fn, args, kwargs)
+
+
+_JOBS: list[_Lazy] = []
+
+
+def _run_job(k: int) -> str:
+    return _JOBS[k]()
+
+
+def _draw_all(jobs: list[_Lazy]) -> list[str]:
+    """Draw the charts, on two processes where the platform can fork.
+
+    Charts are independent and drawing them is CPU-bound pure Python (matplotlib), so a
+    second process halves the time on a two-core machine. The jobs are handed over by
+    fork (module global), never pickled; without fork, or if the pool fails to start,
+    they are drawn here one after the other.
+    """
+    global _JOBS
+    import multiprocessing as mp
+    import os
+    from concurrent.futures import ProcessPoolExecutor
+
+    workers = min(2, os.cpu_count() or 1, len(jobs))
+    if workers > 1 and "fork" in mp.get_all_start_methods():
+        _JOBS = jobs
+        try:
+            with ProcessPoolExecutor(workers, mp_context=mp.get_context("fork")) as pool:
+                # longest first, so the two processes finish together
+                order = sorted(range(len(jobs)), key=lambda k: -_weight(jobs[k]))
+                done = dict(zip(order, pool.map(_run_job, order)))
+            return [done[k] for k in range(len(jobs))]
+        except (OSError, RuntimeError):  # pragma: no cover - no fork in this sandbox
+            pass
+        finally:
+            _JOBS = []
+    return [job() for job in jobs]
+
+
+def _weight(job: _Lazy) -> int:
+    heavy = {"duty_cycle": 3, "stacked_yearly_cost": 3, "emissions_by_scope": 2,
+             "tornado": 2, "distribution": 2}
+    return heavy.get(job.fn.__name__, 1)
+
+
+def _resolve(obj):
+    """Replace every _Lazy inside the context by its drawn chart."""
+    found: list[_Lazy] = []
+
+    def walk(x):
+        if isinstance(x, dict):
+            for v in x.values():
+                walk(v)
+        elif isinstance(x, list):
+            for v in x:
+                walk(v)
+        elif isinstance(x, _Lazy):
+            found.append(x)
+
+    walk(obj)
+    drawn = dict(zip(map(id, found), _draw_all(found)))
+
+    def put(x):
+        if isinstance(x, dict):
+            return {k: put(v) for k, v in x.items()}
+        if isinstance(x, list):
+            return [put(v) for v in x]
+        if isinstance(x, _Lazy):
+            return drawn[id(x)]
+        return x
+
+    return put(obj)
+
+
 def _n(x: float | None, digits: int = 0) -> str:
     """A number with thousands separators, or an en dash when missing."""
     if x is None or (isinstance(x, float) and not math.isfinite(x)):
@@ -190,12 +275,12 @@ def _charts(result, u: _Units) -> dict:
          "caption": f"Net cash out, cumulative by year ({cf.money_basis} money, not "
                     "discounted)." + (f" The lines cross in year {be:.1f}." if be else
                                       " The lines do not cross within the period."),
-         "uri": charts.cumulative_cost(cum, be, ylabel=f"Cumulative cost [{cur}]")},
+         "uri": _later(charts.cumulative_cost, cum, be, ylabel=f"Cumulative cost [{cur}]")},
         {"title": "Yearly cost by group of lines",
          "caption": "Costs stack upward, income (grant, loan received, residual value) "
                     "downward; the black bar is the net of each year. Line by line: the "
                     "present value table and the workbook.",
-         "uri": charts.stacked_yearly_cost(table, names, ylabel=f"Cost per year [{cur}]")},
+         "uri": _later(charts.stacked_yearly_cost, table, names, ylabel=f"Cost per year [{cur}]")},
     ]
     energy = [
         {"title": f"Energy per {u.dist} by road-load component",
@@ -203,7 +288,7 @@ def _charts(result, u: _Units) -> dict:
                     "losses on top, up to the energy drawn at the source (fuel energy "
                     "at its lower heating value; electricity at the meter). Negative: "
                     "energy given back on descents and when slowing.",
-         "uri": charts.energy_components(_energy_frame(result, u),
+         "uri": _later(charts.energy_components, _energy_frame(result, u),
                                          xlabel=f"Energy per distance [kWh/{u.dist}]")},
     ]
     trace_truck = next((t for t in result.trucks.values() if t.powertrain == "electric"),
@@ -212,7 +297,7 @@ def _charts(result, u: _Units) -> dict:
         "title": f"Duty cycle of one operating day, {trace_truck.name}",
         "caption": "Speed, elevation, battery state of charge and battery power (positive: "
                    "discharging) over the day, trips and dwell times included.",
-        "uri": charts.duty_cycle(_trace_frame(trace_truck, u), xlabel="Time [h]",
+        "uri": _later(charts.duty_cycle, _trace_frame(trace_truck, u), xlabel="Time [h]",
                                  labels={"speed": f"Speed [{u.speed}]",
                                          "elevation": f"Elevation [{u.elev}]",
                                          "soc": "State of charge [%]",
@@ -225,7 +310,7 @@ def _charts(result, u: _Units) -> dict:
     emissions = [{"title": "Emissions per year by scope",
                   "caption": "Location-based Scope 2; Scope 3 category 3 is the upstream of "
                              "fuel and electricity and grid losses.",
-                  "uri": charts.emissions_by_scope(
+                  "uri": _later(charts.emissions_by_scope, 
                       tidy[["truck", "year", "scope", "value"]],
                       ylabel="Emissions [t CO2e per year]")}]
     unc = []
@@ -266,7 +351,7 @@ def _uncertainty_charts(result, cur: str) -> list[dict]:
                         "caption": "Present value difference with one input at a time at its "
                                    "low and high value (ranges in the sensitivity table); "
                                    "widest swing on top.",
-                        "uri": charts.tornado(rows, float(t["base"].iloc[0]),
+                        "uri": _later(charts.tornado, rows, float(t["base"].iloc[0]),
                                               xlabel=f"Present value difference [{cur}]")})
         draws = unc.samples[unc.samples["truck"] == truck]["present_value_difference"]
         if len(draws):
@@ -274,7 +359,7 @@ def _uncertainty_charts(result, cur: str) -> list[dict]:
                         "caption": f"{unc.draws:,} Monte Carlo draws (seed {unc.seed}) of the "
                                    "present value difference; below zero the "
                                    f"{truck} is cheaper.",
-                        "uri": charts.distribution(draws.to_numpy(),
+                        "uri": _later(charts.distribution, draws.to_numpy(),
                                                    f"Present value difference [{cur}]")})
     return out
 
@@ -506,10 +591,10 @@ def build_context(result, summary: dict) -> dict:
     """The report context of a Result (see :mod:`tco.report.html` for the structure)."""
     s = result.scenario
     u = _Units(s.study.units)
-    notes = [{"title": t, "text": x, "equation": eq, "equation_uri": charts.equation(tex)}
+    notes = [{"title": t, "text": x, "equation": eq, "equation_uri": _later(charts.equation, tex)}
              for t, x, eq, tex in METHOD_NOTES]
     cautions = list(CAUTIONS) + [c for c in summary["emissions"].get("cautions", [])[1:]]
-    return {
+    return _resolve({
         "meta": {"title": s.study.name, "date": result.created[:10], "version": __version__,
                  "fingerprint": "sha256:" + result.loaded.fingerprint[:16],
                  "currency": s.study.currency, "units": u.label,
@@ -523,4 +608,4 @@ def build_context(result, summary: dict) -> dict:
         "assumptions": _assumptions(summary),
         "method_notes": notes,
         "cautions": cautions,
-    }
+    })
