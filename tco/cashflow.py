@@ -28,6 +28,11 @@ physical quantities per truck::
     pv = flows.present_value(0)                  # shape (n_draws,)
     yearly = flows.total(0)                      # shape (n_draws, N + 1)
 
+    # Monte Carlo: only each truck's net cost by year and its distance
+    totals = compute_totals(inputs, overrides, params)
+    totals.total_by_year[0]                      # shape (N + 1, n_draws), years first
+    tco.finance.compare_costs(totals.flows[0], totals.flows[1], totals.discount_rate)
+
 Conventions
 -----------
 * Amounts are costs: positive = money out, negative = money in (grant, loan received,
@@ -81,6 +86,7 @@ from typing import Annotated
 
 import numpy as np
 import pandas as pd
+from numba import njit
 from pydantic import BaseModel
 
 from tco import finance as fin
@@ -90,8 +96,9 @@ from tco.scenario.costs import Depot, Finance, Prices, TruckCosts
 
 __all__ = [
     "LINES", "BREAK_EVEN_QUANTITIES", "CashFlows", "CashflowResult", "Comparison",
-    "CostInputs", "LineSpec", "TruckMetrics", "TruckSpec", "break_even", "cashflow_summary",
-    "check_inputs", "compute", "evaluate", "flat_params",
+    "CostInputs", "CostTotals", "LineSpec", "TruckMetrics", "TruckSpec", "break_even",
+    "cashflow_summary", "check_inputs", "compute", "compute_totals", "evaluate",
+    "flat_params",
 ]
 
 _M_PER_KM = 1000.0
@@ -401,15 +408,17 @@ class _Params:
                     raise InputError(f"override has {a.shape[0]} draws, others {self.n}",
                                      where=path)
                 self.n = a.shape[0]
-            if np.any(np.isnan(a)):
+            # the smallest and largest draw say it all (min and max are NaN if any is)
+            lo, hi = (float(a.min()), float(a.max())) if a.size else (0.0, 0.0)
+            if math.isnan(lo):
                 raise InputError("override has NaN values", where=path)
             if _may_be_negative(path):
-                if np.any(a <= -1.0):
+                if lo <= -1.0:
                     raise InputError("a rate or escalation must be above -100 % per year",
                                      where=path)
-            elif np.any(a < 0):
+            elif lo < 0:
                 raise InputError("must not be negative", where=path)
-            if _is_share(path) and np.any(a > 1):
+            if _is_share(path) and hi > 1:
                 raise InputError("a share must be at most 1", where=path)
             self.values[path] = float(a) if a.ndim == 0 else a
 
@@ -533,7 +542,9 @@ def compute(inputs: CostInputs, overrides: dict | None = None,
     totals_only : bool
         Sum the lines as they are made and keep only each truck's total, under the single
         line name ``"total"``. For Monte Carlo: with 100,000 draws a line is 13 MB, and
-        touching fresh memory for some 50 of them costs more than the arithmetic.
+        touching fresh memory for some 50 of them costs more than the arithmetic; most
+        lines are a yearly vector times a per-draw factor, and are summed in that form
+        (see :func:`compute_totals`).
 
     Returns
     -------
@@ -552,20 +563,15 @@ def compute(inputs: CostInputs, overrides: dict | None = None,
     electric trucks that charge at the depot). The depot's peak is taken as all served
     trucks charging at once at this truck's peak power, capped by the chargers' rating.
     """
-    check_inputs(inputs)
-    p = _Params(params if params is not None else flat_params(inputs), overrides)
-    ctx = _Context(inputs, p)
-    made = []
-    depot_lines, depot_assets = ctx.depot()
-    for i in range(len(inputs.trucks)):
-        made.append(ctx.truck(i, depot_lines, depot_assets, keep=not totals_only))
+    ctx, made = _make_lines(inputs, overrides, params, keep=not totals_only)
+    p = ctx.p
     if totals_only:
-        lines = [{"total": m.total} for m in made]
+        lines = [{"total": m.sums["total"].value(ctx.deflator())} for m in made]
     else:
         lines = [{k: m[k] for k in _LINE_NAMES if k in m} for m in made]
-    if ctx.real:
-        deflator = (1.0 + p("finance.inflation")) ** -ctx.y
-        lines = [{k: v * deflator for k, v in d.items()} for d in lines]
+        if ctx.real:
+            deflator = ctx.deflator()
+            lines = [{k: v * deflator for k, v in d.items()} for d in lines]
     lines = [{k: _as_first(v, ctx.N) for k, v in d.items()} for d in lines]
     rate = p("finance.discount_rate")
     return CashFlows(
@@ -575,6 +581,98 @@ def compute(inputs: CostInputs, overrides: dict | None = None,
         discount_rate=rate, money_basis=inputs.finance.money_basis,
         baseline=_baseline_index(inputs), n_draws=p.n, assumptions=ctx.assumptions,
     )
+
+
+def _make_lines(inputs: CostInputs, overrides: dict | None, params: dict | None,
+                keep: bool) -> tuple[_Context, list[_Lines]]:
+    """Check the inputs, read the parameters and make every truck's lines."""
+    check_inputs(inputs)
+    p = _Params(params if params is not None else flat_params(inputs), overrides)
+    ctx = _Context(inputs, p)
+    depot_lines, depot_assets = ctx.depot()
+    made = [ctx.truck(i, depot_lines, depot_assets, keep=keep)
+            for i in range(len(inputs.trucks))]
+    return ctx, made
+
+
+@dataclass
+class CostTotals:
+    """Each truck's net cost by year and its distance, from :func:`compute_totals`.
+
+    Attributes
+    ----------
+    years : ndarray of int
+        0..N.
+    trucks : list of str
+    flows : list of tco.finance.FlowParts
+        Per truck, net cost by year as parts (formed when read; give two of them to
+        :func:`tco.finance.compare_costs`). [currency, money basis of the case]
+    annual_distance : list of float or ndarray of shape (n_draws,)
+        Per truck, distance driven in each of years 1..N (none in year 0). [m/yr]
+    discount_rate : float or ndarray of shape (n_draws,)
+        Rate in the case's money basis. [-]
+    money_basis : str
+    baseline : int
+        Index of the reference truck.
+    n_draws : int or None
+        None for a case without array overrides.
+    assumptions : list of str
+    """
+
+    years: np.ndarray
+    trucks: list[str]
+    flows: list[fin.FlowParts]
+    annual_distance: list
+    discount_rate: float | np.ndarray
+    money_basis: str
+    baseline: int
+    n_draws: int | None
+    assumptions: list[str] = field(default_factory=list)
+
+    @property
+    def total_by_year(self) -> list[np.ndarray]:
+        """Per truck, net cost by year, years first: ``(N + 1, n_draws)`` (each draw's
+        years contiguous in memory), or ``(N + 1, 1)`` when it does not vary across draws.
+        [currency]"""
+        return [f.years_last().T for f in self.flows]
+
+
+def compute_totals(inputs: CostInputs, overrides: dict | None = None,
+                   params: dict[str, float] | None = None) -> CostTotals:
+    """Each truck's net cost by year, vectorized over draws: the lean path for Monte Carlo.
+
+    The same totals as ``compute(inputs, overrides, params, totals_only=True)`` (to
+    rounding), without the bookkeeping of :class:`CashFlows`. Most cost lines are a
+    yearly vector (a price path, a one-off year) times a per-draw factor (a drawn price
+    or quantity); such lines are summed as those pairs, one factor per distinct yearly
+    vector, and kept as :class:`tco.finance.FlowParts` instead of one pass over
+    ``(N + 1, n)`` memory per line. Lines whose yearly shape itself varies across draws
+    (a drawn escalation or residual rate, battery replacements moved by drawn energy)
+    are added as full arrays.
+
+    Parameters
+    ----------
+    inputs, overrides, params
+        As for :func:`compute`.
+
+    Returns
+    -------
+    CostTotals
+
+    Raises
+    ------
+    InputError
+        As :func:`compute`.
+    """
+    ctx, made = _make_lines(inputs, overrides, params, keep=False)
+    p = ctx.p
+    n = len(inputs.trucks)
+    return CostTotals(
+        years=np.arange(ctx.N + 1), trucks=[t.name for t in inputs.trucks],
+        flows=[m.sums["total"].parts(ctx.deflator()) for m in made],
+        annual_distance=[ctx.q(i, "distance") for i in range(n)],
+        discount_rate=p("finance.discount_rate"), money_basis=inputs.finance.money_basis,
+        baseline=_baseline_index(inputs), n_draws=p.n, assumptions=ctx.assumptions)
 
 
 def _as_first(v, n_years: int) -> np.ndarray:
@@ -588,54 +686,172 @@ def _as_first(v, n_years: int) -> np.ndarray:
 _PROCEEDS = ("residual_value", "battery_remaining_life", "depot_residual")
 
 
+@dataclass(frozen=True)
+class _Outer:
+    """A line that is a yearly vector times a per-draw factor: ``v * a``.
+
+    ``v`` is (N+1, 1) (or (N+1, n) when its yearly shape varies across draws); ``a`` a
+    float or an (n,) row. Made by :class:`_Context` so that a running :class:`_Sum`
+    can keep the factors apart; the table's line is exactly ``v * a``.
+    """
+
+    v: np.ndarray
+    a: float | np.ndarray
+
+
+def _dense(value) -> np.ndarray:
+    """A line as an array: an array stays, an _Outer is ``v * a``, a tuple of them is
+    their sum (left to right)."""
+    if isinstance(value, _Outer):
+        return value.v * value.a
+    if isinstance(value, tuple):
+        out = _dense(value[0])
+        for term in value[1:]:
+            out = out + _dense(term)
+        return out
+    return value
+
+
+# A compiled loop: a replacement in year y is a step of floor(y·λ), and numpy needs about
+# eight (n,) temporaries per year for it (a tenth of the Monte Carlo pass at 100,000 draws).
+@njit(cache=True, nogil=True)
+def _battery_replacements(lives_per_year, unit_price, costs, done, credit):
+    """Battery replacements by cycles, for m draws.
+
+    Replacements by the end of year y: ``floor(y·λ + 1e-9)`` with λ the battery lives
+    used per year; the cost of year y is the new ones times ``unit_price[y]``. The unused
+    life of the battery in use at the end of year N is ``clip(1 − (N·λ − done), 0, 1)``
+    of its price (0 when none was replaced).
+
+    ``lives_per_year`` (m,) or (1,); ``unit_price`` (N + 1, m) or (N + 1, 1). Out:
+    ``costs`` (N + 1, m) by year, ``done`` (m,) replacements in the period, ``credit``
+    (m,) value of the unused life at the end.
+    """
+    n_years, m = costs.shape
+    wide_lives = lives_per_year.shape[0] > 1
+    wide_price = unit_price.shape[1] > 1
+    last_price = np.zeros(m)
+    costs[0, :] = 0.0
+    done[:] = 0.0
+    for yr in range(1, n_years):  # years outer, draws inner: rows written in order
+        row = costs[yr]
+        for j in range(m):
+            now = np.floor(yr * lives_per_year[j if wide_lives else 0] + 1e-9)
+            count = now - done[j]
+            price = unit_price[yr, j if wide_price else 0]
+            row[j] = count * price
+            last_price[j] = price if count > 0 else last_price[j]
+            done[j] = now
+    for j in range(m):
+        lives = lives_per_year[j if wide_lives else 0]
+        left = min(max(1.0 - ((n_years - 1) * lives - done[j]), 0.0), 1.0)
+        credit[j] = left * last_price[j] if done[j] > 0 else 0.0
+
+
+class _Sum:
+    """A running sum of lines, years first, kept in parts until it is read.
+
+    * ``const`` (N+1, 1): lines that do not vary across draws;
+    * ``pairs``: for lines ``v ⊗ a`` (a yearly column times a per-draw row), the sum of
+      the rows ``a`` for each distinct yearly vector ``v``;
+    * ``rest`` (N+1, n): lines given as full arrays. The first is kept by reference and
+      the next ones make a new array: a line's array is never written into.
+
+    :meth:`parts` hands them over as :class:`tco.finance.FlowParts`, which forms the
+    flows in one compiled pass (or never writes them out at all, for
+    :func:`tco.finance.compare_costs`): a line costs about one (n,) addition instead of a
+    pass over (N+1, n) memory.
+    """
+
+    def __init__(self, n_years: int):
+        self.const = np.zeros((n_years + 1, 1))
+        self.pairs: dict[bytes, tuple[np.ndarray, np.ndarray]] = {}
+        self.rest: np.ndarray | None = None
+
+    def add(self, value) -> None:
+        if isinstance(value, _Outer):
+            self._outer(value.v, value.a)
+        elif isinstance(value, tuple):
+            for term in value:
+                self.add(term)
+        else:
+            self._array(value)
+
+    def _array(self, v) -> None:
+        v = np.asarray(v, dtype=float)
+        if v.ndim < 2 or v.shape[1] == 1:
+            self.const = self.const + (v.reshape(-1, 1) if v.ndim == 1 else v)
+        else:
+            self.rest = v if self.rest is None else self.rest + v
+
+    def _outer(self, v, a) -> None:
+        v = np.asarray(v, dtype=float)
+        a = np.asarray(a, dtype=float)
+        if a.size == 1 or v.shape[1] != 1:  # not a column times a row of draws
+            self._array(v * a)
+            return
+        key = v.tobytes()
+        if key in self.pairs:
+            self.pairs[key] = (v, self.pairs[key][1] + a)
+        else:
+            self.pairs[key] = (v, a)
+
+    def parts(self, scale: np.ndarray | None = None) -> fin.FlowParts:
+        """The sum as parts, each year times ``scale`` ((N+1, 1) or (N+1, n), e.g. the
+        deflator of the real money basis) if given."""
+        n_years = len(self.const)
+        if scale is not None and scale.shape[1] > 1:  # a yearly factor per draw
+            flows = self.value() * scale
+            return fin.FlowParts(np.zeros(n_years), np.zeros((0, n_years)),
+                                 np.zeros((0, flows.shape[1])), flows, np.ones(n_years))
+        n = self.rest.shape[1] if self.rest is not None else \
+            next(iter(self.pairs.values()))[1].shape[0] if self.pairs else 1
+        return fin.FlowParts(
+            const=np.ascontiguousarray(self.const[:, 0]),
+            shapes=np.array([v[:, 0] for v, _ in self.pairs.values()]).reshape(-1, n_years),
+            factors=np.array([a for _, a in self.pairs.values()]).reshape(-1, n),
+            rest=self.rest,
+            scale=np.ones(n_years) if scale is None else np.ascontiguousarray(scale[:, 0]))
+
+    def value(self, scale: np.ndarray | None = None) -> np.ndarray:
+        """The sum, (N+1, 1) or (N+1, n), times ``scale`` if given. A sum over draws
+        comes out years first with each draw's years contiguous in memory."""
+        if not self.pairs and self.rest is None:
+            return self.const if scale is None else self.const * scale
+        return self.parts(scale).years_last().T
+
+
 class _Lines(dict):
     """A truck's lines as they are made, with running sums of the total and, for the
-    after-tax view, of the deductible lines and the end-of-life credits; with
-    ``keep=False`` only the sums are kept.
+    after-tax view, of the deductible lines and the end-of-life credits.
 
-    Lines that do not vary across draws ((N+1, 1)) are summed apart and added to the
-    varying ones once, at the end: one pass over the draws instead of one per line.
+    With ``keep=True`` the lines are stored as arrays (the table); with ``keep=False``
+    only the total is kept, as a :class:`_Sum` of the lines in their factored form.
     """
 
     def __init__(self, n_years: int, keep: bool, tax: bool):
         super().__init__()
         self.keep, self.tax = keep, tax
-        self.sums = {k: [np.zeros((n_years + 1, 1)), None] for k in ("total", "ded", "cred")}
-
-    def _add(self, key: str, v) -> None:
-        v = np.asarray(v, dtype=float)
-        acc = self.sums[key]
-        if v.ndim < 2 or v.shape[1] == 1:
-            acc[0] = acc[0] + (v.reshape(-1, 1) if v.ndim == 1 else v)
-        elif acc[1] is None:
-            acc[1] = v.copy()  # our own array, never a stored line
-        else:
-            acc[1] += v
-
-    def _sum(self, key: str) -> np.ndarray:
-        const, full = self.sums[key]
-        return const if full is None else full + const
-
-    @property
-    def total(self) -> np.ndarray:
-        return self._sum("total")
+        self.sums = {k: _Sum(n_years) for k in ("total", "ded", "cred")}
 
     @property
     def deductible(self) -> np.ndarray:
-        return self._sum("ded")
+        return self.sums["ded"].value()
 
     @property
     def credits(self) -> np.ndarray:
-        return self._sum("cred")
+        return self.sums["cred"].value()
 
     def __setitem__(self, name: str, v) -> None:
-        self._add("total", v)
-        if self.tax and name in _DEDUCTIBLE:
-            self._add("ded", v)
-        if self.tax and name in _PROCEEDS:
-            self._add("cred", v)
         if self.keep:
+            v = _dense(v)
             super().__setitem__(name, v)
+        else:
+            self.sums["total"].add(v)
+        if self.tax and name in _DEDUCTIBLE:
+            self.sums["ded"].add(v)
+        if self.tax and name in _PROCEEDS:
+            self.sums["cred"].add(v)
 
     def update(self, other: dict) -> None:  # type: ignore[override]
         for k, v in other.items():
@@ -665,6 +881,7 @@ class _Context:
         self.op_mask = (self.y >= 1).astype(float)
         self.real = inputs.finance.money_basis == "real"
         self.assumptions: list[str] = []
+        self._scales: dict[int, float | np.ndarray] = {}
         ops = inputs.operations
         self.served = inputs.depot.trucks_served or max(1, sum(
             1 for t, op in zip(inputs.trucks, ops) if self._uses_depot(t, op)))
@@ -679,6 +896,10 @@ class _Context:
         e = np.zeros((self.N + 1, 1))
         e[t] = 1.0
         return e
+
+    def deflator(self) -> np.ndarray | None:
+        """(1 + inflation)^-y for the real money basis, None for the nominal one."""
+        return (1.0 + self.p("finance.inflation")) ** -self.y if self.real else None
 
     def esc(self, path: str):
         """Nominal escalation rate of a line (real ones are turned nominal)."""
@@ -698,17 +919,21 @@ class _Context:
         return truck.powertrain == "electric" and op.grid_energy_depot > 0
 
     def scale(self, i: int):
-        op = self.inputs.operations[i]
-        s = self.p("route.days_per_year") / op.operating_days
-        base_tpd = _base_trips_per_day(op)
-        if base_tpd > 0:
-            s = s * (self.p("route.trips_per_day") / base_tpd)
-        return s
+        if i not in self._scales:  # per truck: (n,) rows are worth not redoing
+            op = self.inputs.operations[i]
+            s = self.p("route.days_per_year") / op.operating_days
+            base_tpd = _base_trips_per_day(op)
+            if base_tpd > 0:
+                s = s * (self.p("route.trips_per_day") / base_tpd)
+            self._scales[i] = s
+        return self._scales[i]
 
     def q(self, i: int, name: str):
         """Quantity of truck i's operation; yearly ones scaled to the route's days/trips."""
         v = self.p(f"operations[{i}].{name}")
-        return v * self.scale(i) if name in _OP_SCALED else v
+        if name not in _OP_SCALED or (isinstance(v, float) and v == 0.0):
+            return v  # a quantity the truck does not have stays one zero, not one per draw
+        return v * self.scale(i)
 
     def distance(self, i: int) -> np.ndarray:
         return self.q(i, "distance") * self.op_mask
@@ -741,9 +966,9 @@ class _Context:
             hw * self.at(grow, t_last) * (1.0 - (1.0 - rs) * age / d.life))
         lines = {
             "depot_chargers": capex * share,
-            "depot_grid_connection": self.e0 * (grid * share),
-            "depot_maintenance": self.running("prices.escalation.equipment")
-            * (n * p("depot.maintenance_per_year") * share),
+            "depot_grid_connection": _Outer(self.e0, grid * share),
+            "depot_maintenance": _Outer(self.running("prices.escalation.equipment"),
+                                        n * p("depot.maintenance_per_year") * share),
             "depot_residual": residual * share,
         }
         assets = [(b * share, t, f) for b, t, f in assets]
@@ -768,11 +993,11 @@ class _Context:
         owned_at_end = f.method != "lease"
         interest = 0.0
         if f.method != "lease":
-            L["purchase_price"] = self.e0 * price
-            L["purchase_taxes_fees"] = self.e0 * taxes
-            L["grant"] = self.e0 * -grant
+            L["purchase_price"] = _Outer(self.e0, price)
+            L["purchase_taxes_fees"] = _Outer(self.e0, taxes)
+            L["grant"] = _Outer(self.e0, -grant)
             if c.tax_credit_year <= N:
-                L["tax_credit"] = self.unit(c.tax_credit_year) * -credit
+                L["tax_credit"] = _Outer(self.unit(c.tax_credit_year), -credit)
             elif c.tax_credit > 0:
                 self.assumptions.append(
                     f"{t.name}: the tax credit of year {c.tax_credit_year} falls after the "
@@ -787,25 +1012,30 @@ class _Context:
         if f.method == "loan":
             due = np.maximum(price + taxes - grant, 0.0)
             principal = due * (1.0 - p(f"{tp}.financing.down_payment_share"))
-            s = fin.loan_schedule(principal, p(f"{tp}.financing.loan_rate"), f.loan_years,
+            rate_path = f"{tp}.financing.loan_rate"
+            # For the totals, a loan at a rate that does not vary is the schedule of a loan
+            # of 1 times each draw's principal (the schedule is linear in the principal).
+            per_unit = not keep and not p.varies(rate_path)
+            s = fin.loan_schedule(1.0 if per_unit else principal, p(rate_path), f.loan_years,
                                   f.payments_per_year, N)
-            L["loan_drawdown"] = self.e0 * -principal
-            interest = _first(s.interest)
+            times = (lambda x: _Outer(x, principal)) if per_unit else (lambda x: x)
+            L["loan_drawdown"] = _Outer(self.e0, -principal)
+            interest = times(_first(s.interest))
             L["loan_interest"] = interest
             repaid = _first(s.principal)
             if f.loan_years > N:  # beyond_period == "settle" (checked)
                 repaid = repaid + self.eN * self.at(_first(s.balance), N)
                 self.assumptions.append(
                     f"{t.name}: the loan's balance left after year {N} is paid off in year {N}")
-            L["loan_principal"] = repaid
+            L["loan_principal"] = times(repaid)
         elif f.method == "lease":
             T = f.lease_years
             yearly = 12.0 * p(f"{tp}.financing.lease_payment")
-            L["lease_upfront"] = self.e0 * p(f"{tp}.financing.lease_upfront")
-            pay = ((y >= 1) & (y <= min(T, N))) * yearly
+            L["lease_upfront"] = _Outer(self.e0, p(f"{tp}.financing.lease_upfront"))
+            pay = _Outer((y >= 1) & (y <= min(T, N)), yearly)
             buyout_year = T if T <= N else None
             if T > N and f.beyond_period == "settle":
-                pay = pay + self.eN * (yearly * (T - N))
+                pay = (pay, _Outer(self.eN, yearly * (T - N)))
                 buyout_year = N
                 self.assumptions.append(
                     f"{t.name}: the lease payments after year {N} are paid in year {N}")
@@ -816,17 +1046,23 @@ class _Context:
             L["lease_payment"] = pay
             if f.lease_end == "buy_out" and buyout_year is not None:
                 buyout = p(f"{tp}.financing.lease_buyout_price")
-                L["lease_buyout"] = self.unit(buyout_year) * buyout
+                L["lease_buyout"] = _Outer(self.unit(buyout_year), buyout)
                 owned_at_end = True
                 assets.append((buyout, buyout_year, self._tax_fractions()))
 
         # value by age, insurance and residual value -------------------------------------
         share_age = self._residual_shares(i, t, c)
         start_value = np.concatenate([np.zeros((1, share_age.shape[1])), share_age[:-1]])
-        L["insurance"] = self.running(f"{tp}.escalation.insurance") * (
-            start_value * (p(f"{tp}.insurance_rate") * price) + p(f"{tp}.insurance_fixed"))
+        insurance = self.running(f"{tp}.escalation.insurance")
+        on_value = p(f"{tp}.insurance_rate") * price
+        fixed = p(f"{tp}.insurance_fixed")
+        if keep:
+            L["insurance"] = insurance * (start_value * on_value + fixed)
+        else:  # the same line as two yearly-vector × per-draw-factor terms
+            L["insurance"] = (_Outer(insurance * start_value, on_value),
+                              _Outer(insurance, fixed))
         if owned_at_end:
-            L["residual_value"] = self.eN * (-price * self.at(share_age, N))
+            L["residual_value"] = _Outer(self.eN, -price * self.at(share_age, N))
 
         # depot ---------------------------------------------------------------------------
         if self._uses_depot(t, op):
@@ -837,40 +1073,41 @@ class _Context:
         esc = "prices.escalation."
         if op.diesel_volume > 0 or p.varies(f"operations[{i}].diesel_volume"):
             price_d = p.needed("prices.diesel", f"{t.name} burns diesel")
-            L["diesel"] = self.running(esc + "diesel") * (self.q(i, "diesel_volume") * price_d)
+            L["diesel"] = _Outer(self.running(esc + "diesel"),
+                                 self.q(i, "diesel_volume") * price_d)
         if op.def_volume > 0 or p.varies(f"operations[{i}].def_volume"):
             price_f = p.needed("prices.diesel_exhaust_fluid",
                                f"{t.name} uses diesel exhaust fluid")
-            L["diesel_exhaust_fluid"] = self.running(esc + "diesel_exhaust_fluid") \
-                * (self.q(i, "def_volume") * price_f)
+            L["diesel_exhaust_fluid"] = _Outer(self.running(esc + "diesel_exhaust_fluid"),
+                                               self.q(i, "def_volume") * price_f)
         if op.grid_energy_depot > 0 or p.varies(f"operations[{i}].grid_energy_depot"):
-            L["electricity_energy"] = self.running(esc + "electricity") \
-                * (self.q(i, "grid_energy_depot") * self.depot_price(i))
+            L["electricity_energy"] = _Outer(self.running(esc + "electricity"),
+                                             self.q(i, "grid_energy_depot") * self.depot_price(i))
         if self._uses_depot(t, op):
             peak = self.q(i, "depot_charging_power")
             cap = inputs.depot.chargers * p("depot.charger_power")
             capped = np.minimum(peak * self.served, np.where(cap > 0, cap, np.inf))
             elec = self.running(esc + "electricity")
-            L["electricity_demand"] = elec * (
-                12.0 * p("prices.electricity.demand_charge") * capped / self.served)
-            L["electricity_fixed"] = elec * (
-                12.0 * p("prices.electricity.fixed_fee") / self.served)
+            L["electricity_demand"] = _Outer(
+                elec, 12.0 * p("prices.electricity.demand_charge") * capped / self.served)
+            L["electricity_fixed"] = _Outer(
+                elec, 12.0 * p("prices.electricity.fixed_fee") / self.served)
         if op.grid_energy_public > 0 or p.varies(f"operations[{i}].grid_energy_public"):
             price_pub = p.needed("prices.public_charging", f"{t.name} charges en route")
-            L["public_charging"] = self.running(esc + "public_charging") \
-                * (self.q(i, "grid_energy_public") * price_pub)
+            L["public_charging"] = _Outer(self.running(esc + "public_charging"),
+                                          self.q(i, "grid_energy_public") * price_pub)
 
         # running costs -------------------------------------------------------------------
         dist = self.q(i, "distance")
         for name in ("maintenance", "tyres", "tolls"):
-            L[name] = self.running(f"{tp}.escalation.{name}") * (dist * p(f"{tp}.{name}"))
-        L["registration"] = self.running(f"{tp}.escalation.registration") \
-            * p(f"{tp}.registration")
+            L[name] = _Outer(self.running(f"{tp}.escalation.{name}"), dist * p(f"{tp}.{name}"))
+        L["registration"] = _Outer(self.running(f"{tp}.escalation.registration"),
+                                   p(f"{tp}.registration"))
         wage = p("finance.driver_cost_per_hour")  # [currency/s]
         driver = self.running("finance.driver_cost_escalation")
-        L["charging_driver_time"] = driver * (self.q(i, "charging_time_lost") * wage)
-        L["extra_trips_driver_time"] = driver * (
-            self.q(i, "extra_trips") * self.q(i, "trip_duration") * wage)
+        L["charging_driver_time"] = _Outer(driver, self.q(i, "charging_time_lost") * wage)
+        L["extra_trips_driver_time"] = _Outer(
+            driver, self.q(i, "extra_trips") * self.q(i, "trip_duration") * wage)
 
         # battery -------------------------------------------------------------------------
         L.update(self._battery(i, t, c, op))
@@ -939,39 +1176,33 @@ class _Context:
                     f"{t.name}: the battery replacement of year {Y} falls after the {N}-year "
                     "period and is not counted")
                 return {}
-            out = {"battery_replacement": self.unit(Y) * self.at(unit_price, Y)}
+            out = {"battery_replacement": _Outer(self.unit(Y), self.at(unit_price, Y))}
             if credit_on:
                 left = max(0.0, 1.0 - (N - Y) / Y)  # the new battery lasts as long as the first
-                out["battery_remaining_life"] = self.eN * (-left * self.at(unit_price, Y))
+                out["battery_remaining_life"] = _Outer(self.eN, -left * self.at(unit_price, Y))
             return out
         # cycles: full equivalent cycles = throughput / capacity, summed over the years;
-        # a replacement whenever they pass a multiple of the cycle life. A loop over the
-        # years on (n,) rows: cheaper than (N+1, n) temporaries for floor/diff/argmax.
+        # a replacement whenever they pass a multiple of the cycle life.
         life = self.q(i, "battery_cycle_life")
         per_year = self.q(i, "battery_energy") / cap
         with np.errstate(invalid="ignore", divide="ignore"):
             lives_per_year = np.where(np.isfinite(life), per_year / life, 0.0)
-        k = np.broadcast_shapes(np.shape(lives_per_year), unit_price.shape[1:])
-        repl = np.zeros((N + 1,) + k)
-        done = np.zeros(k)  # replacements so far
-        price_last = np.zeros(k)  # price of the battery in the truck, if replaced
-        for yr in range(1, N + 1):
-            now = np.floor(yr * lives_per_year + 1e-9)
-            count = now - done
-            repl[yr] = count * unit_price[yr]
-            price_last = np.where(count > 0, unit_price[yr], price_last)
-            done = now
+        m = int(np.prod(np.broadcast_shapes(np.shape(lives_per_year), unit_price.shape[1:])))
+        repl = np.empty((N + 1, m))
+        done = np.empty(m)  # replacements in the period
+        credit = np.empty(m)  # unused life of the battery in use at the end, if replaced
+        _battery_replacements(np.atleast_1d(lives_per_year).astype(float),
+                              np.ascontiguousarray(unit_price, dtype=float), repl, done,
+                              credit)
         out = {"battery_replacement": repl}
-        if np.all(done == 0) and np.isfinite(op.battery_cycle_life) and op.battery_energy > 0:
+        if not done.any() and np.isfinite(op.battery_cycle_life) and op.battery_energy > 0:
             years = op.battery_cycle_life * op.battery_capacity / float(
                 np.max(self.q(i, "battery_energy")))
             self.assumptions.append(
                 f"{t.name}: the battery reaches its cycle life after about {years:.1f} years, "
                 f"after the {N}-year period: no replacement counted")
         if credit_on:
-            left = np.clip(1.0 - (N * lives_per_year - done), 0.0, 1.0)  # of the one in use
-            out["battery_remaining_life"] = self.eN * -np.where(done > 0, left * price_last,
-                                                                 0.0)
+            out["battery_remaining_life"] = _Outer(self.eN, -credit)
         return out
 
     def _taxes(self, L: _Lines, interest, assets: list) -> dict:
@@ -982,7 +1213,7 @@ class _Context:
         out = {}
         if a.deduct_operating_costs:
             out["tax_shield_operating"] = -tau * L.deductible
-        out["tax_shield_interest"] = -tau * (interest * self.op_mask)
+        out["tax_shield_interest"] = -tau * (_dense(interest) * self.op_mask)
         dep = zero
         book_left = 0.0
         for basis, start, fractions in assets:  # bases are floats or (1,)/(n,) rows

@@ -522,17 +522,42 @@ def grid_intensity_path(years, start, change=0.0, floor=0.0, table=None):
     if table is None:
         path = start * (1.0 + _col(change)) ** (y - y[0])
         return np.maximum(path, np.minimum(_col(floor), start))
+    weights, values, scale = _table_parts(y, table, start)
+    path = np.tensordot(weights, values, axes=(1, 0))  # (ny,) or (ny, n)
+    path = np.moveaxis(path, 0, -1)
+    return path * scale
+
+
+def _table_parts(y: np.ndarray, table, start: np.ndarray):
+    """A year table's interpolation weights (n_years, k), its values (k,) or (k, n) and
+    the scale ``I0 / I(first listed year)`` as a column (1,) or (n, 1)."""
     ty = np.array(sorted(table), dtype=float)
     values = np.stack(np.broadcast_arrays(
         *[np.asarray(table[k], dtype=float) for k in sorted(table)]))  # (k,) or (k, n)
     eye = np.eye(len(ty))
     weights = np.stack([np.interp(y, ty, eye[j]) for j in range(len(ty))], axis=1)  # (ny,k)
-    path = np.tensordot(weights, values, axes=(1, 0))  # (ny,) or (ny, n)
-    path = np.moveaxis(path, 0, -1)
     first = values[0][..., None]
     scale = np.divide(start, first, out=np.ones(np.broadcast_shapes(start.shape, first.shape)),
                       where=first > 0)
-    return path * scale
+    return weights, values, scale
+
+
+def _grid_total(years, p: Mapping[str, Any], table: dict) -> np.ndarray:
+    """Σ over the years of :func:`grid_intensity_path` (the same values, summed), as a
+    column (1,) or (n, 1), without an (n, years) array. [kg/J·yr]"""
+    y = np.asarray(years, dtype=float)
+    start = _col(p[_P + "grid_intensity"])
+    if table:  # linear in the listed values: sum the interpolation weights first
+        weights, values, scale = _table_parts(y, table, start)
+        return _col(np.tensordot(weights.sum(axis=0), values, axes=(0, 0))) * scale
+    growth = (1.0 + _col(p[_P + "grid_change"])) ** (y - y[0])  # (ny,) or (n, ny)
+    lowest = np.minimum(_col(p[_P + "grid_floor"]), start)
+    if np.all(lowest <= 0) and np.all(start >= 0):  # no floor: I(y) = I0·growth(y)
+        return start * growth.sum(axis=-1, keepdims=True)
+    total = np.zeros_like(start)
+    for t in range(y.size):  # one year at a time on (n,) rows
+        total = total + np.maximum(start * growth[..., t:t + 1], lowest)
+    return total
 
 
 def hourly_profile_24(values) -> np.ndarray:
@@ -804,6 +829,98 @@ def compute(params: Mapping[str, Any], operations: Sequence["AnnualOperation"], 
         Unknown override keys, shares out of range, mismatched draw counts, empty years,
         grid table years that miss the years of service.
     """
+    p, years, lead, table = _prepare(params, operations, years, overrides)
+    shape = (*lead, years.size)
+    full = lambda a: np.broadcast_to(a, shape)  # noqa: E731  (read-only view, no copy)
+    if table:
+        grid = grid_intensity_path(years, p[_P + "grid_intensity"], table=table)
+    else:
+        grid = grid_intensity_path(years, p[_P + "grid_intensity"], p[_P + "grid_change"],
+                                   p[_P + "grid_floor"])
+    shape24 = _hourly_shape(p)
+    out: dict[str, dict[str, np.ndarray]] = {}
+    for op in operations:
+        q = _quantities(op, _days_scale(p, op))
+        lines = _truck_lines(p, op, q, grid, shape24)
+        res = {k: full(v) for k, v in lines.items()}
+        res.update({k: full(v) for k, v in _frames(lines).items()})
+        res["distance"] = full(q["distance"])
+        res["payload_distance"] = full(q["payload_distance"])
+        out[op.truck] = res
+    return out
+
+
+def totals(params: Mapping[str, Any], operations: Sequence["AnnualOperation"], years,
+           overrides: Mapping[str, Any] | None = None,
+           names: Sequence[str] = ("wtw", "wtw_market")) -> dict[str, dict[str, np.ndarray]]:
+    """Sums over the years of service of chosen lines and frames: the lean path of
+    :func:`compute` for Monte Carlo.
+
+    Every line is either the same each year or proportional to the grid intensity
+    ``I(y)`` with a coefficient that does not change over the years, so its sum is the
+    yearly formula with every quantity times the number of years ``n`` and the intensity
+    at its mean over the years:
+
+    .. math:: \\sum_y \\left(a + b\\,I(y)\\right) = n\\,a + n\\,b\\,\\bar I,
+              \\qquad \\bar I = \\frac{1}{n} \\sum_y I(y)
+
+    Only ``Σ_y I(y)`` is worked out year by year, on (n_draws,) rows; nothing of shape
+    (n_draws, n_years) is made.
+
+    Parameters
+    ----------
+    params, operations, years, overrides
+        As for :func:`compute`.
+    names : sequence of str
+        Line items of :data:`LINES`, frames of :data:`FRAMES`, ``distance`` or
+        ``payload_distance``.
+
+    Returns
+    -------
+    dict
+        ``{truck: {name: array}}``, each the sum over the years [kg CO2e, m or kg·m] of
+        shape ``()`` when every input is scalar, else ``(n_draws,)``; equal to
+        ``compute(...)[truck][name].sum(-1)`` to rounding.
+
+    Raises
+    ------
+    InputError
+        As :func:`compute`.
+    ValueError
+        An unknown name.
+
+    Examples
+    --------
+    >>> from tco.operation import AnnualOperation
+    >>> from tco.scenario.emissions import EmissionsSettings
+    >>> op = AnnualOperation("D", "diesel", 250.0, 500.0, 0.0, 1e8, 2e12, diesel_volume=30.0)
+    >>> p = flat_params(EmissionsSettings())
+    >>> summed = totals(p, [op], range(2030, 2040))["D"]["wtw"]
+    >>> yearly = compute(p, [op], range(2030, 2040))["D"]["wtw"]
+    >>> bool(np.isclose(summed, yearly.sum(), rtol=1e-12))
+    True
+    """
+    unknown = [n for n in names if n not in (*LINE_NAMES, *FRAMES, "distance",
+                                             "payload_distance")]
+    if unknown:
+        raise ValueError(f"unknown line or frame {unknown[0]!r}")
+    p, years, lead, table = _prepare(params, operations, years, overrides)
+    n_years = years.size
+    mean_grid = _grid_total(years, p, table) / n_years
+    shape24 = _hourly_shape(p)
+    out: dict[str, dict[str, np.ndarray]] = {}
+    for op in operations:
+        q = _quantities(op, _days_scale(p, op) * n_years)
+        values = _truck_lines(p, op, q, mean_grid, shape24)
+        if any(n in FRAMES for n in names):
+            values.update(_frames(values))
+        values["distance"], values["payload_distance"] = q["distance"], q["payload_distance"]
+        out[op.truck] = {n: np.broadcast_to(values[n][..., 0], lead) for n in names}
+    return out
+
+
+def _prepare(params, operations, years, overrides):
+    """Merged parameters, the years, the shape of the draws and the grid table (if any)."""
     p = _merge(params, overrides)
     years = np.asarray(years)
     if years.ndim != 1 or years.size == 0:
@@ -814,9 +931,6 @@ def compute(params: Mapping[str, Any], operations: Sequence["AnnualOperation"], 
         lead = np.broadcast_shapes(*[a.shape for a in arrays if a.ndim == 1])
     except ValueError:
         raise InputError("arrays of draws have different lengths", where="overrides") from None
-    shape = (*lead, years.size)
-    full = lambda a: np.broadcast_to(a, shape)  # noqa: E731  (read-only view, no copy)
-
     table = {int(k[len(_P) + 11:]): v for k, v in p.items() if k.startswith(_P + "grid_table.")}
     if table:
         lo, hi = min(table), max(table)
@@ -824,51 +938,60 @@ def compute(params: Mapping[str, Any], operations: Sequence["AnnualOperation"], 
             raise InputError(f"grid table years {lo}–{hi} do not overlap the years of service "
                              f"{int(years.min())}–{int(years.max())}",
                              where="emissions.grid_table")
-        grid = grid_intensity_path(years, p[_P + "grid_intensity"], table=table)
-    else:
-        grid = grid_intensity_path(years, p[_P + "grid_intensity"], p[_P + "grid_change"],
-                                   p[_P + "grid_floor"])
-    shape24 = np.stack(np.broadcast_arrays(
+    return p, years, lead, table
+
+
+def _days_scale(p: Mapping[str, Any], op: "AnnualOperation"):
+    """Factor on an operation's yearly quantities for ``route.days_per_year``."""
+    days = p.get("route.days_per_year")
+    if days is None:
+        return 1.0
+    if not op.operating_days > 0:
+        raise InputError("operating_days must be positive to scale by days per year",
+                         where=f"operation[{op.truck}]")
+    return _col(days) / op.operating_days
+
+
+def _quantities(op: "AnnualOperation", scale) -> dict[str, np.ndarray]:
+    """An operation's yearly quantities as columns, times ``scale``. A quantity that is
+    zero (a diesel truck's electricity) stays one zero, not one per draw."""
+    return {f: _col(v) * scale if np.ndim(v) or v != 0 else _col(0.0)
+            for f in _OP_FIELDS for v in [getattr(op, f)]}
+
+
+def _hourly_shape(p: Mapping[str, Any]) -> np.ndarray:
+    """The 24 hour-of-day intensity shares, (24,) or (24, n). [-]"""
+    return np.stack(np.broadcast_arrays(
         *[np.asarray(p[f"{_P}hourly_shape.{h:02d}"], dtype=float) for h in range(24)]))
+
+
+def _truck_lines(p: Mapping[str, Any], op: "AnnualOperation", q: dict, grid: np.ndarray,
+                 shape24: np.ndarray) -> dict[str, np.ndarray]:
+    """The line items of one truck from its quantities ``q`` (columns), the grid
+    intensity ``grid`` (by year, or any value that stands for it) and the hour-of-day
+    shape of the intensity."""
     supplier = p.get(_P + "supplier_intensity")
     share = _col(p[_P + "renewable_share"])
     loss = _col(p[_P + "td_loss"])
-    days = p.get("route.days_per_year")
-
-    out: dict[str, dict[str, np.ndarray]] = {}
-    for op in operations:
-        if days is not None:
-            if not op.operating_days > 0:
-                raise InputError("operating_days must be positive to scale by days per year",
-                                 where=f"operation[{op.truck}]")
-            scale = _col(days) / op.operating_days
-        else:
-            scale = 1.0
-        q = {f: _col(getattr(op, f)) * scale for f in _OP_FIELDS}
-        e_total = q["grid_energy_depot"] + q["grid_energy_public"]
-        match = _col(hour_matching_factor(op.charging_profile, shape24))
-        lines: dict[str, np.ndarray] = {}
-        lines["diesel_co2"] = q["diesel_volume"] * _col(p[_P + "diesel_co2"])
-        ch4 = q["diesel_volume"] * _col(p[_P + "diesel_ch4_n2o"])
-        if op.powertrain == "diesel":
-            ch4 = ch4 + q["distance"] * _col(p[_P + "diesel_ch4_n2o_distance"])
-        lines["diesel_ch4_n2o"] = ch4
-        lines["def_urea_co2"] = urea_co2(q["def_volume"] * _col(p[_P + "def_density"]),
-                                         _col(p[_P + "def_urea_share"]))
-        loc = (q["grid_energy_depot"] * match + q["grid_energy_public"]) * grid
-        lines["electricity_location"] = loc
-        depot = q["grid_energy_depot"] * (_col(supplier) if supplier is not None
-                                          else match * grid)
-        lines["electricity_market"] = (1.0 - share) * depot + q["grid_energy_public"] * grid
-        lines["diesel_upstream"] = q["diesel_volume"] * _col(p[_P + "diesel_upstream"])
-        lines["electricity_upstream"] = e_total * _col(p[_P + "electricity_upstream"])
-        lines["electricity_td_losses"] = loc * loss / (1.0 - loss)
-        res = {k: full(v) for k, v in lines.items()}
-        res.update({k: full(v) for k, v in _frames(lines).items()})
-        res["distance"] = full(q["distance"])
-        res["payload_distance"] = full(q["payload_distance"])
-        out[op.truck] = res
-    return out
+    e_total = q["grid_energy_depot"] + q["grid_energy_public"]
+    match = _col(hour_matching_factor(op.charging_profile, shape24))
+    lines: dict[str, np.ndarray] = {}
+    lines["diesel_co2"] = q["diesel_volume"] * _col(p[_P + "diesel_co2"])
+    ch4 = q["diesel_volume"] * _col(p[_P + "diesel_ch4_n2o"])
+    if op.powertrain == "diesel":
+        ch4 = ch4 + q["distance"] * _col(p[_P + "diesel_ch4_n2o_distance"])
+    lines["diesel_ch4_n2o"] = ch4
+    lines["def_urea_co2"] = urea_co2(q["def_volume"] * _col(p[_P + "def_density"]),
+                                     _col(p[_P + "def_urea_share"]))
+    loc = (q["grid_energy_depot"] * match + q["grid_energy_public"]) * grid
+    lines["electricity_location"] = loc
+    depot = q["grid_energy_depot"] * (_col(supplier) if supplier is not None
+                                      else match * grid)
+    lines["electricity_market"] = (1.0 - share) * depot + q["grid_energy_public"] * grid
+    lines["diesel_upstream"] = q["diesel_volume"] * _col(p[_P + "diesel_upstream"])
+    lines["electricity_upstream"] = e_total * _col(p[_P + "electricity_upstream"])
+    lines["electricity_td_losses"] = loc * loss / (1.0 - loss)
+    return lines
 
 
 def _frames(lines: Mapping[str, np.ndarray]) -> dict[str, np.ndarray]:
@@ -1412,7 +1535,8 @@ __all__ = [
     "EmissionsResult",
     "load_factor_table", "factor_table", "diesel_sets", "gwp_sets", "diesel_factors",
     "gwp_values", "urea_co2", "grid_intensity_path", "hourly_profile_24",
-    "hour_matching_factor", "flat_params", "factor_provenance", "compute", "tonne_weights",
+    "hour_matching_factor", "flat_params", "factor_provenance", "compute", "totals",
+    "tonne_weights",
     "abatement_cost", "manufacturing_emissions", "payback", "pick_reference", "evaluate",
     "emissions_summary", "SUMMARY_SCHEMA",
 ]

@@ -43,13 +43,21 @@ value at every age, and so insurance on value, follows).
 
 Monte Carlo sampling
 --------------------
-For k inputs: Z = L·N(0, I) with L a Cholesky factor (an eigen factor when the matrix is
-singular) of the Pearson matrix R of the copula's normals,
-``R_ab = 2 sin(π ρ_s,ab / 6)`` for the requested Spearman rank correlation ρ_s; U = Φ(Z);
-each input ``x_j = F_j⁻¹(U_j)`` with the inverse CDF of its distribution from
-:mod:`scipy.stats`. Percentiles are NumPy's linear interpolation (payback years: the
-inverted CDF, so that they stay whole years; a payback not within the period counts as
-later than any year).
+For the k inputs that are correlated with another: Z = L·N(0, I) with L a Cholesky factor
+(an eigen factor when the matrix is singular) of the Pearson matrix R of the copula's
+normals, ``R_ab = 2 sin(π ρ_s,ab / 6)`` for the requested Spearman rank correlation ρ_s;
+U = Φ(Z); each input ``x_j = F_j⁻¹(U_j)`` with the inverse CDF of its distribution from
+:mod:`scipy.stats`. An input without correlations is drawn straight from its distribution
+(``rvs`` with the same generator: the same law, much faster than an inverse CDF for
+beta-PERT). Percentiles are NumPy's linear interpolation (payback years: the inverted CDF,
+so that they stay whole years; a payback not within the period counts as later than any
+year).
+
+The model pass runs the lean paths of the models: :func:`tco.cashflow.compute_totals`
+(each truck's yearly totals, kept as parts) with :func:`tco.finance.compare_costs`
+(present values and payback years in one compiled pass), and
+:func:`tco.emissions.totals` (sums over the years). They give the same numbers as the
+full models to rounding (the tests hold them equal draw by draw to a relative 1e-12).
 
 Entry points
 ------------
@@ -101,7 +109,8 @@ from tco.units import UnitError, from_si, to_si
 
 __all__ = [
     "Case", "EXTRA_UNITS", "ENERGY_FIELDS", "Input", "OUTPUTS", "SUMMARY_SCHEMA", "Uncertain",
-    "UncertaintyResult", "break_even_one", "break_even_table", "default_inputs",
+    "UncertaintyResult", "DRAWS_PER_CALL", "break_even_one", "break_even_table",
+    "default_inputs",
     "distribution", "draw_overrides", "evaluate", "label_of", "monte_carlo",
     "resolve_distributions", "resolve_input", "run_draws", "sample", "tornado",
     "uncertainty_summary",
@@ -776,9 +785,18 @@ def _factor(pearson: np.ndarray) -> np.ndarray:
 
 def sample(dists: Sequence, n: int, rng: np.random.Generator,
            pearson: np.ndarray | None = None) -> np.ndarray:
-    """Draws of several inputs through a Gaussian copula.
+    """Draws of several inputs: a Gaussian copula for the correlated ones, the others
+    straight from their distribution.
 
-    ``Z = L·N(0, I)``, ``U = Φ(Z)``, ``x_j = F_j⁻¹(U_j)``.
+    Inputs with a correlation to another input (a non-zero off-diagonal entry of
+    ``pearson``): ``Z = L·N(0, I)`` over those inputs, ``U = Φ(Z)``, ``x_j = F_j⁻¹(U_j)``.
+    Inputs without one: ``dist.rvs(size=n, random_state=rng)``, which draws from the same
+    distribution with numpy's generators (for beta-PERT numpy's beta generator, some 50
+    times faster than the inverse CDF ``scipy.stats.beta.ppf``).
+
+    The generator is used in a fixed order, so a seed gives the same draws every time:
+    first the copula's normals (one row per correlated input, in input order), then each
+    independent input in input order.
 
     Parameters
     ----------
@@ -797,14 +815,21 @@ def sample(dists: Sequence, n: int, rng: np.random.Generator,
         [unit of each input]
     """
     k = len(dists)
-    z = rng.standard_normal((k, n))
+    out = np.empty((k, n))
+    linked = np.zeros(k, dtype=bool)
     if pearson is not None and not np.allclose(pearson, np.eye(k)):
         problem = correlation_problem(pearson)
         if problem:
             raise ValueError(problem)
-        z = _factor(pearson) @ z
-    u = special.ndtr(z)
-    return np.stack([d.ppf(u[j]) for j, d in enumerate(dists)]) if k else z
+        linked = np.any(np.abs(pearson - np.eye(k)) > 0, axis=1)
+        idx = np.flatnonzero(linked)
+        z = _factor(pearson[np.ix_(idx, idx)]) @ rng.standard_normal((idx.size, n))
+        u = special.ndtr(z)
+        for row, j in enumerate(idx):
+            out[j] = dists[j].ppf(u[row])
+    for j in np.flatnonzero(~linked):
+        out[j] = dists[j].rvs(size=n, random_state=rng)
+    return out
 
 
 # --------------------------------------------------------------------------- model pass
@@ -821,8 +846,18 @@ OUTPUTS = {
 }
 
 
+#: Most draws per call of the models in :func:`run_draws`. A call's temporaries grow with
+#: its draws (some 30 MB for 100,000, 10 MB for 35,000); kept to about 10 MB they are
+#: reused by the memory allocator, where more fresh memory per call cost more in page
+#: faults than the arithmetic (up to a third of the pass, measured at 50,000 and 100,000).
+DRAWS_PER_CALL = 35_000
+
+
 def run_draws(case: Case, overrides: dict) -> dict[int, dict[str, np.ndarray]]:
-    """The cash-flow and emissions models for arrays of draws, one call each.
+    """The cash-flow and emissions models for arrays of draws.
+
+    The draws go through the lean paths of both models in equal calls of at most
+    :data:`DRAWS_PER_CALL` draws (the result does not depend on it).
 
     Parameters
     ----------
@@ -840,40 +875,47 @@ def run_draws(case: Case, overrides: dict) -> dict[int, dict[str, np.ndarray]]:
         emissions over the period, location- and market-based [kg CO2e] (absent without
         emissions settings).
     """
+    n = max((len(v) for v in overrides.values() if np.ndim(v) == 1), default=1)
+    if n <= DRAWS_PER_CALL:
+        return _run_models(case, overrides)
+    size = -(-n // -(-n // DRAWS_PER_CALL))  # equal calls: no small last one
+    parts = [_run_models(case, {p: v[a:a + size] if np.ndim(v) == 1 else v
+                                for p, v in overrides.items()})
+             for a in range(0, n, size)]
+    return {k: {q: np.concatenate([part[k][q] for part in parts]) for q in parts[0][k]}
+            for k in case.compared}
+
+
+def _run_models(case: Case, overrides: dict) -> dict[int, dict[str, np.ndarray]]:
+    """:func:`run_draws` in one call of each model."""
     cost, em_over, ops = case.split(overrides)
-    cf = cashflow.compute(case.inputs, cost, case.cost_params, totals_only=True)
     n = max((len(v) for v in overrides.values() if np.ndim(v) == 1), default=1)
     ref = case.baseline
-    # discount factors once for all trucks and both paybacks: (n, N+1) or (N+1,)
-    df = fin.discount_factors(cf.discount_rate, case.N)
-    total = {i: np.atleast_2d(cf.total(i)) for i in [ref, *case.compared]}
-    disc = {i: total[i] * df for i in total}
-    pv = {i: disc[i].sum(axis=-1) for i in total}
-    dist = {i: (np.atleast_2d(cf.distance[i]) * df).sum(axis=-1) for i in total}
+    # the lean paths: sums over the years (emissions), yearly totals as parts (costs)
     avoided = {}
     if case.emissions_settings is not None:
-        out = emissions.compute(case.emission_params, ops, case.years, em_over)
-        wtw = {name: (np.broadcast_to(out[name]["wtw"].sum(-1), (n,)),
-                      np.broadcast_to(out[name]["wtw_market"].sum(-1), (n,)))
-               for name in out}
+        wtw = emissions.totals(case.emission_params, ops, case.years, em_over)
         r = case.ops[ref].truck
-        avoided = {i: (wtw[r][0] - wtw[case.ops[i].truck][0],
-                       wtw[r][1] - wtw[case.ops[i].truck][1]) for i in case.compared}
+        avoided = {i: tuple(np.broadcast_to(wtw[r][f] - wtw[case.ops[i].truck][f], (n,))
+                            for f in ("wtw", "wtw_market")) for i in case.compared}
+        del wtw
+    ct = cashflow.compute_totals(case.inputs, cost, case.cost_params)
     res = {}
     for k in case.compared:
-        lc_k, lc_ref = pv[k] / dist[k], pv[ref] / dist[ref]
-        simple = np.atleast_1d(fin.payback_year(total[ref] - total[k]))
-        # payback_year(f, rate) discounts f with the same factors: pass them discounted
-        discounted = np.atleast_1d(fin.payback_year(disc[ref] - disc[k]))
+        # present values and both payback years of the savings in one pass over the years
+        c = fin.compare_costs(ct.flows[ref], ct.flows[k], ct.discount_rate)
+        # levelized: over the discounted distance, the same distance in each year 1..N
+        lc_k = c.pv / (ct.annual_distance[k] * c.annuity)
+        lc_ref = c.pv_baseline / (ct.annual_distance[ref] * c.annuity)
         r = {
-            "present_value_difference": np.broadcast_to(pv[k] - pv[ref], (n,)),
+            "present_value_difference": np.broadcast_to(c.pv - c.pv_baseline, (n,)),
             "levelized_cost": np.broadcast_to(lc_k, (n,)),
             "baseline_levelized_cost": np.broadcast_to(lc_ref, (n,)),
             "levelized_cost_difference": np.broadcast_to(lc_k - lc_ref, (n,)),
             "simple_payback_year": np.broadcast_to(
-                np.where(np.isnan(simple), np.inf, simple), (n,)),
+                np.where(np.isnan(c.simple_payback), np.inf, c.simple_payback), (n,)),
             "discounted_payback_year": np.broadcast_to(
-                np.where(np.isnan(discounted), np.inf, discounted), (n,)),
+                np.where(np.isnan(c.discounted_payback), np.inf, c.discounted_payback), (n,)),
         }
         if k in avoided:
             r["avoided_kg_location"], r["avoided_kg_market"] = avoided[k]

@@ -19,8 +19,8 @@ from pydantic import ValidationError
 
 from tco import finance as fin
 from tco.cashflow import (
-    LINES, CostInputs, TruckSpec, break_even, cashflow_summary, compute, evaluate,
-    flat_params,
+    LINES, CostInputs, TruckSpec, break_even, cashflow_summary, compute, compute_totals,
+    evaluate, flat_params,
 )
 from tco.errors import InputError
 from tco.operation import AnnualOperation
@@ -438,6 +438,113 @@ def test_after_tax_and_lease_vectorized_equals_scalar():
         one = compute(inputs, {p: v[k] for p, v in over.items()})
         for i in range(2):
             np.testing.assert_allclose(many.total(i)[k], one.total(i), rtol=1e-12)
+
+
+# --------------------------------------------------------------------------- lean path
+def _random_overrides(params: dict, paths, rng, n: int) -> dict:
+    """Draws around the case's values: factors 0.6..1.4 on amounts and quantities,
+    ±3 points on rates and escalations (shares kept at most 1)."""
+    out = {}
+    for path in paths:
+        base = params[path]
+        if "escalation" in path or path.endswith(("discount_rate", ".inflation")):
+            out[path] = base + rng.uniform(-0.03, 0.03, n)
+        elif path.endswith(("_rate", ".rate")):  # shares
+            out[path] = np.clip(base + rng.uniform(-0.03, 0.03, n), 0.0, 1.0)
+        else:
+            v = base * rng.uniform(0.6, 1.4, n)
+            out[path] = np.minimum(v, 1.0) if ".shares[" in path else v
+    return out
+
+
+_RICH_PATHS = (
+    "prices.diesel", "prices.diesel_exhaust_fluid", "prices.public_charging",
+    "prices.electricity.bands[0].price", "prices.electricity.energy_price",
+    "prices.electricity.demand_charge", "route.days_per_year", "route.trips_per_day",
+    "finance.discount_rate", "finance.driver_cost_per_hour",
+    "trucks[0].costs.purchase_price", "trucks[1].costs.purchase_price",
+    "trucks[1].costs.grant", "trucks[1].costs.maintenance", "trucks[0].costs.tolls",
+    "trucks[1].costs.insurance_rate", "trucks[1].costs.residual.shares[3]",
+    "trucks[1].costs.battery_replacement.cost_per_kwh", "operations[1].battery_energy",
+    "operations[1].grid_energy_depot", "operations[0].diesel_volume", "depot.hardware_cost",
+)
+
+
+def _lean_cases():
+    """(name, inputs, parameter paths drawn): every kind of line and both money bases."""
+    rich = rich_case()
+    yield "rich", rich, _RICH_PATHS
+    # drawn escalations, loan rate and residual share: lines whose yearly shape varies
+    yield "shapes vary", rich, _RICH_PATHS + (
+        "prices.escalation.diesel", "trucks[0].costs.financing.loan_rate",
+        "trucks[1].costs.escalation.battery", "prices.escalation.equipment")
+    real = rich_case()
+    real.finance = Finance(analysis_years=12, discount_rate=0.04, money_basis="real",
+                           inflation=0.025, driver_cost_per_hour=35)
+    yield "real basis", real, _RICH_PATHS
+    yield "real, drawn inflation", real, _RICH_PATHS + ("finance.inflation",)
+    f = Finance(analysis_years=8, after_tax=dict(enabled=True, depreciation="macrs",
+                                                 macrs_class=5))
+    e = TruckCosts(purchase_price=250_000, maintenance=0.08, financing=dict(
+        method="lease", lease_payment=4_000, lease_years=10, beyond_period="settle"),
+        battery_replacement=dict(when="year", year=5, cost_per_kwh=150))
+    d = TruckCosts(purchase_price=120_000, maintenance=0.12, financing=dict(
+        method="loan", loan_rate=0.06, loan_years=5))
+    taxed = two_trucks(finance=f, d_costs=d, e_costs=e)
+    yield "after tax, lease, loan", taxed, (
+        "finance.after_tax.tax_rate", "trucks[1].costs.financing.lease_payment",
+        "trucks[0].costs.purchase_price", "prices.diesel", "route.days_per_year",
+        "trucks[1].costs.battery_replacement.cost_per_kwh", "finance.discount_rate")
+
+
+@pytest.mark.parametrize("name,inputs,paths", list(_lean_cases()),
+                         ids=[c[0] for c in _lean_cases()])
+def test_lean_totals_equal_the_full_model_draw_by_draw(name, inputs, paths):
+    """compute_totals (lines summed as yearly-vector × per-draw pairs) and
+    finance.compare_costs give the same yearly totals, present values, payback years and
+    discounted distances as the full model (compute: every line by year, with
+    finance.payback_year on its totals), draw by draw, to a relative 1e-12."""
+    params = flat_params(inputs)
+    rng = np.random.default_rng(len(name))
+    n = 40
+    over = _random_overrides(params, paths, rng, n)
+    full = compute(inputs, over, params)
+    lean = compute_totals(inputs, over, params)
+    assert lean.n_draws == n and lean.trucks == full.trucks
+    assert lean.baseline == full.baseline
+    rate = full.discount_rate
+    for i in range(len(full.trucks)):
+        want = full.total(i)  # (n, N + 1)
+        got = lean.total_by_year[i].T
+        # atol: year 0 of a loan nets the price against the loan (cancellation)
+        np.testing.assert_allclose(got, want, rtol=1e-12, atol=1e-9, err_msg=str(i))
+    ref, k = full.baseline, 1 - full.baseline
+    c = fin.compare_costs(lean.flows[ref], lean.flows[k], lean.discount_rate)
+    for i in (ref, k):  # the same distance in each year 1..N, discounted
+        np.testing.assert_allclose(lean.annual_distance[i] * c.annuity,
+                                   full.discounted_distance(i), rtol=1e-12)
+    np.testing.assert_allclose(c.pv_baseline, full.present_value(ref), rtol=1e-12)
+    np.testing.assert_allclose(c.pv, full.present_value(k), rtol=1e-12)
+    savings = full.total(ref) - full.total(k)
+    np.testing.assert_array_equal(c.simple_payback, fin.payback_year(savings))
+    np.testing.assert_array_equal(c.discounted_payback, fin.payback_year(savings, rate))
+    # totals_only is the same lean sum
+    np.testing.assert_allclose(compute(inputs, over, params, totals_only=True).total(1),
+                               full.total(1), rtol=1e-12, atol=1e-9)
+
+
+def test_lean_totals_of_a_scalar_case_and_shared_lines():
+    """Without array overrides the totals are one series ((N + 1, 1)) equal to the
+    scalar model; a truck whose costs do not vary keeps one series among draws."""
+    inputs = rich_case()
+    lean = compute_totals(inputs)
+    full = compute(inputs)
+    assert lean.n_draws is None
+    for i in range(2):
+        assert lean.total_by_year[i].shape == (13, 1)
+        np.testing.assert_allclose(lean.total_by_year[i][:, 0], full.total(i), rtol=1e-12)
+    lean = compute_totals(inputs, {"trucks[1].costs.purchase_price": np.array([2e5, 3e5])})
+    assert lean.total_by_year[0].shape == (13, 1) and lean.total_by_year[1].shape == (13, 2)
 
 
 # --------------------------------------------------------------------------- properties

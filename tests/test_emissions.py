@@ -383,6 +383,63 @@ def test_vectorised_equals_scalar_per_draw(n, seed):
                 assert one[truck][key].shape == (len(YEARS),)
 
 
+# ------------------------------------------------------------------ sums over the years
+_ALL_NAMES = (*em.LINE_NAMES, *em.FRAMES, "distance", "payload_distance")
+
+
+def _sum_settings():
+    """Trajectory with a floor that binds, market basis by supplier, hourly matching; and
+    a year table."""
+    hourly = list(np.linspace(150.0, 450.0, 24))
+    yield "trajectory", EmissionsSettings(grid_change=-6, grid_floor=250,
+                                          hourly_profile=hourly, supplier_intensity=300,
+                                          electricity_upstream=40)
+    yield "no floor", EmissionsSettings(grid_change=3, renewable_share=0.4)
+    yield "table", EmissionsSettings(grid_table={2025: 400, 2028: 250, 2035: 100})
+
+
+@pytest.mark.parametrize("name,s", list(_sum_settings()), ids=[n for n, _ in _sum_settings()])
+def test_totals_equal_the_yearly_lines_summed_draw_by_draw(name, s):
+    """emissions.totals (each quantity times the number of years, the intensity at its
+    mean) equals the sum over the years of every line and frame of emissions.compute,
+    draw by draw, to a relative 1e-12, for overrides of every kind of parameter."""
+    rng = np.random.default_rng(len(name))
+    n = 30
+    p = em.flat_params(s)
+    ops = [diesel_truck(), electric_truck(charging_profile=_charging([0, 1, 2, 3]),
+                                          grid_energy_depot=rng.uniform(1e11, 6e11, n))]
+    over = {k: p[k] * rng.uniform(0.7, 1.3, n) for k in p
+            if k.startswith(("emissions.grid_", "emissions.diesel_", "emissions.hourly_shape.0",
+                             "emissions.electricity_upstream", "emissions.supplier"))}
+    if "emissions.grid_change" in p:
+        over["emissions.grid_change"] = p["emissions.grid_change"] + rng.uniform(-0.02, 0.02, n)
+    over["emissions.td_loss"] = rng.uniform(0.0, 0.1, n)
+    over["route.days_per_year"] = rng.uniform(200, 300, n)
+    yearly = em.compute(p, ops, YEARS, over)
+    summed = em.totals(p, ops, YEARS, over, names=_ALL_NAMES)
+    for truck in yearly:
+        for key in _ALL_NAMES:
+            assert summed[truck][key].shape == (n,)
+            np.testing.assert_allclose(summed[truck][key], yearly[truck][key].sum(-1),
+                                       rtol=1e-12, atol=1e-9, err_msg=f"{truck} {key}")
+
+
+def test_totals_of_a_scalar_case_and_unknown_names():
+    """Scalar inputs give 0-d sums equal to compute's; an unknown name is refused."""
+    s = EmissionsSettings(grid_change=-2)
+    p = em.flat_params(s)
+    ops = [diesel_truck(), electric_truck()]
+    summed = em.totals(p, ops, YEARS)
+    yearly = em.compute(p, ops, YEARS)
+    for truck in ("diesel", "electric"):
+        assert set(summed[truck]) == {"wtw", "wtw_market"}
+        assert summed[truck]["wtw"].shape == ()
+        assert float(summed[truck]["wtw"]) == pytest.approx(yearly[truck]["wtw"].sum(),
+                                                            rel=1e-12)
+    with pytest.raises(ValueError, match="unknown line or frame 'wtw_total'"):
+        em.totals(p, ops, YEARS, names=("wtw_total",))
+
+
 def test_operation_arrays_broadcast():
     ops = [diesel_truck(diesel_volume=np.array([20.0, 30.0]))]
     out = em.compute(em.flat_params(EmissionsSettings()), ops, YEARS)

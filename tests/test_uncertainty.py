@@ -26,6 +26,7 @@ from pydantic import ValidationError
 from scipy import stats
 
 from tco import cashflow, emissions
+from tco import finance as fin
 from tco import uncertainty as unc
 from tco.errors import InputError
 from tco.operation import AnnualOperation
@@ -326,6 +327,85 @@ def test_trips_per_day_reaches_the_emissions_model(case):
     tpd = case.cost_params["route.trips_per_day"]
     got = unc.run_draws(case, {"route.trips_per_day": np.array([1.5 * tpd])})[1]
     assert got["avoided_kg_location"][0] == pytest.approx(1.5 * base, rel=1e-12)
+
+
+def test_run_draws_equals_the_full_models_draw_by_draw(case, monkeypatch):
+    """The model pass (lean paths: cashflow.compute_totals with finance.compare_costs,
+    emissions.totals; several calls of a few draws each) gives, draw by draw, the outputs
+    worked out from the full models: every cost line by year (cashflow.compute) with
+    finance.payback_year on its totals, and every emission line by year
+    (emissions.compute) summed. Money and emissions to a relative 1e-12, payback years
+    exactly."""
+    monkeypatch.setattr(unc, "DRAWS_PER_CALL", 7)
+    rng = np.random.default_rng(21)
+    n = 30
+    p, e = case.cost_params, case.emission_params
+    over = {k: p[k] * rng.uniform(0.6, 1.4, n) for k in (
+        "prices.diesel", "prices.electricity.bands[0].price",
+        "prices.electricity.energy_price", "prices.electricity.demand_charge",
+        "trucks[1].costs.purchase_price", "trucks[1].costs.grant",
+        "trucks[0].costs.maintenance", "operations[1].grid_energy_depot",
+        "operations[1].battery_energy", "operations[0].diesel_volume",
+        "route.days_per_year", "route.trips_per_day")}
+    over["finance.discount_rate"] = rng.uniform(0.0, 0.12, n)
+    over["prices.escalation.diesel"] = rng.uniform(-0.02, 0.05, n)
+    over.update({k: e[k] * rng.uniform(0.6, 1.4, n) for k in (
+        "emissions.grid_intensity", "emissions.diesel_co2", "emissions.diesel_upstream")})
+    over["emissions.grid_change"] = rng.uniform(-0.05, 0.0, n)
+    got = unc.run_draws(case, over)
+
+    cost, em_over, ops = case.split(over)
+    full = cashflow.compute(case.inputs, cost, p)
+    yearly = emissions.compute(e, ops, YEARS, em_over)
+    rate = full.discount_rate
+    pv = [full.present_value(i) for i in (0, 1)]
+    savings = full.total(0) - full.total(1)
+    lc = [full.levelized_cost(i) for i in (0, 1)]
+    want = {
+        "present_value_difference": pv[1] - pv[0],
+        "levelized_cost": lc[1], "baseline_levelized_cost": lc[0],
+        "levelized_cost_difference": lc[1] - lc[0],
+        "avoided_kg_location": (yearly["Diesel"]["wtw"] - yearly["Electric"]["wtw"]).sum(-1),
+        "avoided_kg_market": (yearly["Diesel"]["wtw_market"]
+                              - yearly["Electric"]["wtw_market"]).sum(-1),
+    }
+    scale = {"present_value_difference": np.abs(pv).max(),
+             "levelized_cost_difference": np.abs(lc).max(),
+             "avoided_kg_location": yearly["Diesel"]["wtw"].sum(-1).max(),
+             "avoided_kg_market": yearly["Diesel"]["wtw_market"].sum(-1).max()}
+    out = got[1]
+    assert set(out) == set(unc.OUTPUTS)
+    for q, w in want.items():  # a difference: relative to the size of its terms
+        np.testing.assert_allclose(out[q], w, rtol=1e-12, atol=1e-12 * scale.get(q, 0.0),
+                                   err_msg=q)
+    for q, w in (("simple_payback_year", fin.payback_year(savings)),
+                 ("discounted_payback_year", fin.payback_year(savings, rate))):
+        np.testing.assert_array_equal(out[q], np.where(np.isnan(w), np.inf, w), err_msg=q)
+    assert np.isfinite(out["simple_payback_year"]).any()  # the check is not empty
+
+
+def test_independent_input_is_drawn_apart_from_the_copula():
+    """With two correlated inputs and one without correlations, the third is drawn from
+    its own distribution (beta-PERT: closed-form mean and variance, Vose 2008) and has no
+    rank correlation with the others (scipy.stats.spearmanr, five standard errors in
+    Fisher's z), while the pair keeps its rank correlation; a seed gives the same draws."""
+    n = 60_000
+    pearson = np.eye(3)
+    pearson[0, 1] = pearson[1, 0] = rank_to_pearson(0.6)
+    pert = dict(low=1.0, mode=2.0, high=6.0)
+    dists = [unc.distribution("uniform", low=0, high=1),
+             unc.distribution("lognormal", mean=2.0, sd=0.5),
+             unc.distribution("pert", **pert)]
+    x = unc.sample(dists, n, np.random.default_rng(8), pearson)
+    mu, var = _closed_form("pert", pert)
+    assert abs(x[2].mean() - mu) < mean_tol(math.sqrt(var), n)
+    kurt = float(_scipy_reference("pert", pert).stats(moments="k"))
+    assert abs(x[2].var(ddof=1) - var) < 5 * var * math.sqrt(2 / (n - 1) + kurt / n)
+    for a in (0, 1):
+        assert abs(math.atanh(stats.spearmanr(x[a], x[2])[0])) < _fisher_tol(n)
+    assert abs(math.atanh(stats.spearmanr(x[0], x[1])[0]) - math.atanh(0.6)) < _fisher_tol(n)
+    again = unc.sample(dists, n, np.random.default_rng(8), pearson)
+    np.testing.assert_array_equal(x, again)
 
 
 # ------------------------------------------------------------------ tornado
