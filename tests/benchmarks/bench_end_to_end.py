@@ -37,9 +37,9 @@ def main() -> None:
     for k in range(args.repeat + 1):
         t0 = time.perf_counter()
         loaded = load_scenario(demo_path())
-        progress = Silent()
-        result = evaluate(loaded, progress=progress)
-        write_outputs(result, out, progress=progress)
+        with Silent() as progress:
+            result = evaluate(loaded, progress=progress)
+            write_outputs(result, out, progress=progress)
         total = time.perf_counter() - t0
 
         html = render_html(build_context(result, build_summary(result)), for_print=True,
