@@ -26,6 +26,10 @@ def test_context_has_every_section(demo):
     check_context(ctx)
     assert all(ctx["charts"][g] for g in ("cost", "energy", "emissions", "uncertainty"))
     assert ctx["verdict"].startswith("Over 10 years")
+    # the verdict's tonnes avoided equal summary.json (location-based, not summed twice)
+    avoided = build_summary(demo)["emissions"]["comparison"]["Electric tractor"][
+        "avoided_kg_total"]["location"]
+    assert f"avoids {avoided / 1000:,.0f} t CO2e" in ctx["verdict"]
     assert any(a["source"] == "user" for a in ctx["assumptions"])
     assert any(a["source"].startswith("default: US DOE") for a in ctx["assumptions"])
 

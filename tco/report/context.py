@@ -172,7 +172,8 @@ def _verdict(result, u: _Units) -> str:
 
 def _avoided_total(result, truck: str) -> float | None:
     comp = result.emissions.comparison
-    rows = comp[(comp["truck"] == truck)] if isinstance(comp, pd.DataFrame) else None
+    rows = comp[(comp["truck"] == truck) & (comp["basis"] == "location")] \
+        if isinstance(comp, pd.DataFrame) else None
     if rows is None or rows.empty:
         return None
     return float(rows["avoided_kg"].sum())
@@ -192,6 +193,21 @@ def _feasible_text(tr) -> str:
     if b["new"]["ok_with_enroute"] and depot_ok:
         return "it can do the day only with en-route charging"
     return "it cannot do the day as planned (see the feasibility findings)"
+
+
+def _feasible_short(tr) -> tuple[str, str]:
+    """A short verdict for the key-figure box, and the detail as its note."""
+    b = tr.feasibility["battery"]
+    if not tr.feasibility["depot_charger"]["ok"]:
+        return "No", "the depot charger cannot refill the battery in the window"
+    if b["new"]["ok"]:
+        eol = ("also at end of life" if b["end_of_life"]["ok"] else
+               "at end of life it needs en-route charging" if b["end_of_life"]["ok_with_enroute"]
+               else "not at end of life")
+        return "Yes", f"on the new battery; {eol}"
+    if b["new"]["ok_with_enroute"]:
+        return "With en-route charging", f"{b['new']['enroute_time'] / 60:.0f} min a day"
+    return "No", "the battery cannot do the day and no en-route charging is given"
 
 
 def _key_figures(result, u: _Units, summary: dict) -> list[dict]:
@@ -228,8 +244,8 @@ def _key_figures(result, u: _Units, summary: dict) -> list[dict]:
                     + ("discounted)" if e.get("tonnes_discounted") else "not discounted)")})
     for name, tr in result.trucks.items():
         if tr.powertrain == "electric":
-            out.append({"label": f"Feasibility, {name}", "value": _feasible_text(tr),
-                        "note": ""})
+            value, note = _feasible_short(tr)
+            out.append({"label": f"Feasibility, {name}", "value": value, "note": note})
     if result.uncertainty is not None:
         pr = result.uncertainty.probabilities
         for r in pr[pr["event"] == "cheaper"].itertuples():
