@@ -46,7 +46,7 @@ def vehicle_parameters(truck, ambient, mean_elevation: float) -> roadload.Vehicl
 def diesel_parameters(d) -> DieselPowertrain:
     """Kernel parameters of a scenario diesel section. [SI]"""
     common = dict(accessory_power=d.accessory_power, lhv=d.fuel_lhv,
-                  density=d.fuel_density * 1.0, idle_fuel_rate=d.idle_fuel_rate,
+                  density=d.fuel_density, idle_fuel_rate=d.idle_fuel_rate,
                   def_ratio=d.def_ratio)
     if d.fuel_model == "constant_bsfc":
         return DieselPowertrain.from_bsfc(d.engine_power, d.driveline_efficiency, d.bsfc,

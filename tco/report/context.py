@@ -147,36 +147,25 @@ class _Units:
         return si_per_m * self.per_dist
 
 
-def _verdict(result, u: _Units) -> str:
+def _verdict(result, summary: dict) -> str:
     cf = result.cashflow
     cur = result.scenario.study.currency
     if not cf.comparisons:
         return "Only one truck was compared."
+    emissions = summary["emissions"]["comparison"]
     parts = []
     for c in cf.comparisons:
         diff = c.present_value_difference
         word = "more" if diff > 0 else "less"
-        em = result.emissions.comparison
-        avoided = _avoided_total(result, c.truck)
-        tr = result.trucks[c.truck]
-        feas = _feasible_text(tr)
+        # the same figure as the key-figure box: summary.json, location-based
+        avoided = (emissions.get(c.truck, {}).get("avoided_kg_total") or {}).get("location")
         parts.append(
             f"Over {cf.analysis_years} years the {c.truck} costs "
             f"{_money(abs(diff), cur)} {word} than the {c.baseline} in present value"
             + (f" and avoids {_n(avoided / 1000, 0)} t CO2e (well-to-wheel, location-based)"
                if avoided is not None else "")
-            + f"; {feas}.")
-        del em
+            + f"; {_feasible_text(result.trucks[c.truck])}.")
     return " ".join(parts)
-
-
-def _avoided_total(result, truck: str) -> float | None:
-    comp = result.emissions.comparison
-    rows = comp[(comp["truck"] == truck) & (comp["basis"] == "location")] \
-        if isinstance(comp, pd.DataFrame) else None
-    if rows is None or rows.empty:
-        return None
-    return float(rows["avoided_kg"].sum())
 
 
 def _feasible_text(tr) -> str:
@@ -475,8 +464,6 @@ def _tables(result, u: _Units, summary: dict) -> list[dict]:
                 + [_n(u.distance(result.trucks[n].summary["trip_distance"]), 1) for n in names])
     rows.append(["Wheel energy, traction per trip [kWh]"]
                 + [_n(s[n]["per_trip"]["wheel_energy_kWh"]["traction"], 1) for n in names])
-    for n in names:
-        pass
     rows.append(["Diesel per trip [" + ("US gal" if u.us else "L") + "]"]
                 + [_n(from_si(result.trucks[n].summary.get("fuel_volume", 0.0),
                               "gal" if u.us else "L"), 1) for n in names])
@@ -541,8 +528,7 @@ def _tables(result, u: _Units, summary: dict) -> list[dict]:
             ("wtw_market", "Well-to-wheel (market)")]
     rows = [[label + " [t CO2e]"] + [_n(e[n]["total_kg"][k] / 1000, 1) for n in names]
             for k, label in keys]
-    unit_t = "t·km"
-    rows.append([f"Well-to-wheel intensity [g CO2e/{unit_t}]"]
+    rows.append(["Well-to-wheel intensity [g CO2e/t·km]"]
                 + [_n(e[n]["g_co2e_per_tkm"]["wtw"], 1) for n in names])
     rows.append(["Well-to-wheel intensity [g CO2e/km]"]
                 + [_n(e[n]["g_co2e_per_km"]["wtw"], 0) for n in names])
@@ -615,7 +601,7 @@ def build_context(result, summary: dict) -> dict:
                  "fingerprint": "sha256:" + result.loaded.fingerprint[:16],
                  "currency": s.study.currency, "units": u.label,
                  "page_size": s.study.page_size, "notes": s.study.notes},
-        "verdict": _verdict(result, u),
+        "verdict": _verdict(result, summary),
         "key_figures": _key_figures(result, u, summary),
         "charts": _charts(result, u),
         "feasibility": _feasibility(result),

@@ -127,9 +127,7 @@ def _feasibility(tr) -> dict:
                                 "window_hours": d["window_hours"], "text": d["text"]}
         out["soc_min"] = tr.summary["soc_min"]
         out["soc_end"] = tr.summary["soc_end"]
-    out["feasible"] = all(
-        v.get("ok_with_enroute", v.get("ok", True)) if isinstance(v, dict) else True
-        for k, v in out.items() if k in ("payload",)) and _battery_ok(out)
+    out["feasible"] = bool(out["payload"]["ok"]) and _battery_ok(out)
     return out
 
 
