@@ -699,6 +699,15 @@ class _Outer:
     a: float | np.ndarray
 
 
+def _scaled(value, f: float):
+    """A line (array, _Outer or tuple of them) times a scalar."""
+    if isinstance(value, _Outer):
+        return _Outer(value.v, value.a * f)
+    if isinstance(value, tuple):
+        return tuple(_scaled(v, f) for v in value)
+    return value * f
+
+
 def _dense(value) -> np.ndarray:
     """A line as an array: an array stays, an _Outer is ``v * a``, a tuple of them is
     their sum (left to right)."""
@@ -1066,8 +1075,13 @@ class _Context:
 
         # depot ---------------------------------------------------------------------------
         if self._uses_depot(t, op):
-            L.update(depot_lines)
-            assets += depot_assets
+            if op.depot_cost_share is None:
+                L.update(depot_lines)
+                assets += depot_assets
+            else:  # a shared-depot schedule set this truck's share (tco.depot)
+                f = op.depot_cost_share * self.served
+                L.update({k: _scaled(v, f) for k, v in depot_lines.items()})
+                assets += [(b * f, yr, fr) for b, yr, fr in depot_assets]
 
         # energy --------------------------------------------------------------------------
         esc = "prices.escalation."
@@ -1088,10 +1102,14 @@ class _Context:
             cap = inputs.depot.chargers * p("depot.charger_power")
             capped = np.minimum(peak * self.served, np.where(cap > 0, cap, np.inf))
             elec = self.running(esc + "electricity")
+            if op.depot_peak_contribution is not None:  # billed on its part of the peak
+                capped = op.depot_peak_contribution * self.served
+            fee_share = 1.0 / self.served if op.depot_cost_share is None \
+                else op.depot_cost_share
             L["electricity_demand"] = _Outer(
                 elec, 12.0 * p("prices.electricity.demand_charge") * capped / self.served)
             L["electricity_fixed"] = _Outer(
-                elec, 12.0 * p("prices.electricity.fixed_fee") / self.served)
+                elec, 12.0 * p("prices.electricity.fixed_fee") * fee_share)
         if op.grid_energy_public > 0 or p.varies(f"operations[{i}].grid_energy_public"):
             price_pub = p.needed("prices.public_charging", f"{t.name} charges en route")
             L["public_charging"] = _Outer(self.running(esc + "public_charging"),

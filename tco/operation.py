@@ -57,6 +57,14 @@ class AnnualOperation:
         Full equivalent cycles until the battery reaches its end-of-life state of health. [-]
     payload_per_trip : float
         Payload actually carried per trip, loaded legs averaged by distance. [kg]
+    depot_cost_share : float or None
+        Share of the depot's chargers, grid connection, charger maintenance and fixed fee
+        borne by this truck, set by a shared-depot schedule (:mod:`tco.depot`); None
+        splits them equally among the trucks the depot serves. [-]
+    depot_peak_contribution : float or None
+        This truck's mean power in the depot's peak demand interval, set by a
+        shared-depot schedule; the demand charge is billed on it. None: the scenario's
+        own rule (all served trucks charging at once, capped by the chargers). [W]
     """
 
     truck: str
@@ -78,6 +86,8 @@ class AnnualOperation:
     battery_capacity: float = 0.0
     battery_cycle_life: float = float("inf")
     payload_per_trip: float = 0.0
+    depot_cost_share: float | None = None
+    depot_peak_contribution: float | None = None
 
     @property
     def grid_energy(self) -> float:

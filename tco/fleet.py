@@ -1,0 +1,762 @@
+"""Many routes sharing one depot: which routes to electrify first, how many chargers the
+depot needs, and fleet totals per year.
+
+A **fleet file** (CSV or XLSX) has one row per vehicle or route; each row points to a duty
+cycle and names the truck on it today (``current``) and its replacement candidate
+(``candidate``) from the trucks of a **base scenario** (a scenario TOML whose trucks,
+finance, prices, depot, emissions and ambient conditions apply to every row).
+
+Columns (header units in brackets, read by pint; the unit shown is the default):
+
+==================== ========== ===========================================================
+column               required   meaning
+==================== ========== ===========================================================
+``vehicle``          yes        id, unique in the file
+``cycle``            yes        a trace (``.csv``/``.gpx``) or a scenario ``.toml`` whose
+                                route (legs, segments) is used; relative to the fleet file
+``current``          yes        truck name in the base scenario
+``candidate``        yes        truck name in the base scenario
+``route``            no         a label for the report
+``annual_distance``  no [km]    distance per year; sets the trips per day (default: the
+                                cycle's own trips per day, 1 for a trace)
+``payload``          no [t]     payload on the loaded legs (default: the cycle's; 0 for a
+                                trace)
+``days_per_year``    no         operating days (default: the cycle's or the base's)
+``arrive``           no         clock time back at the depot, ``HH:MM`` (default: the base
+                                depot's charging start hour)
+``depart``           no         clock time leaving the depot (default: the base depot's
+                                charging end hour)
+==================== ========== ===========================================================
+
+The flow: each row becomes a two-truck scenario (current against candidate) and its energy
+is simulated (in parallel over the machine's cores); the candidates' nightly energy goes
+to :func:`tco.depot.schedule`, which sizes the shared chargers and peak and sets each
+truck's share of the depot costs and its charging hours; then each row's cash flows and
+emissions are computed with that share, and the routes are ranked.
+
+Simplifications (stated in the report): the whole fleet changes over in year 1 (no phased
+roll-out); trucks outside the plan keep their current truck; the depot's charger power and
+costs are the base scenario's ``[depot]``.
+"""
+from __future__ import annotations
+
+import copy
+import csv
+import dataclasses
+import difflib
+import math
+import os
+import re
+import tomllib
+from concurrent.futures import ProcessPoolExecutor
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from tco import depot as depot_model
+from tco.errors import InputError
+from tco.scenario import LoadedScenario, parse_scenario
+from tco.units import UnitError, to_si
+
+J_PER_KWH = 3.6e6
+
+# column -> (required, default unit or None for text/number)
+COLUMNS: dict[str, tuple[bool, str | None]] = {
+    "vehicle": (True, None), "cycle": (True, None), "current": (True, None),
+    "candidate": (True, None), "route": (False, None), "annual_distance": (False, "km"),
+    "payload": (False, "t"), "days_per_year": (False, ""), "arrive": (False, None),
+    "depart": (False, None),
+}
+_HEADER = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_ ]*?)\s*(?:\[(.*)\])?\s*$")
+_CLOCK = re.compile(r"^\s*(\d{1,2}):(\d{2})\s*$")
+
+
+@dataclass(frozen=True)
+class FleetRow:
+    """One row of a fleet file, in SI.
+
+    Attributes
+    ----------
+    row : int
+        Line number in the file (header = 1).
+    vehicle, route, current, candidate : str
+    cycle : Path
+        Absolute path of the duty cycle.
+    annual_distance : float or None
+        [m/yr]
+    payload : float or None
+        [kg]
+    days_per_year : float or None
+        [1/yr]
+    arrive, depart : float or None
+        Clock times at the depot. [s after midnight]
+    """
+
+    row: int
+    vehicle: str
+    cycle: Path
+    current: str
+    candidate: str
+    route: str = ""
+    annual_distance: float | None = None
+    payload: float | None = None
+    days_per_year: float | None = None
+    arrive: float | None = None
+    depart: float | None = None
+
+
+# --------------------------------------------------------------------------- reading
+def _read_table(path: Path) -> tuple[list[str], list[list[str]], list[int]]:
+    """Header and rows (as text) of a CSV or XLSX file, with each row's line number."""
+    suffix = path.suffix.lower()
+    if suffix in (".xlsx", ".xlsm"):
+        from openpyxl import load_workbook
+
+        try:
+            wb = load_workbook(path, read_only=True, data_only=True)
+        except Exception as exc:  # noqa: BLE001 - any unreadable workbook is bad input
+            raise InputError(f"cannot read the workbook ({type(exc).__name__})",
+                             file=path) from None
+        ws = wb.worksheets[0]
+        rows = [["" if c is None else str(c) for c in r] for r in ws.iter_rows(values_only=True)]
+        wb.close()
+        lines = list(range(1, len(rows) + 1))
+    elif suffix == ".csv":
+        try:
+            text = path.read_text(encoding="utf-8-sig")
+        except UnicodeDecodeError:
+            raise InputError("not a UTF-8 text file", file=path) from None
+        rows, lines = [], []
+        for n, r in enumerate(csv.reader(text.splitlines()), start=1):
+            if not r or all(not c.strip() for c in r) or r[0].lstrip().startswith("#"):
+                continue
+            rows.append(r)
+            lines.append(n)
+    else:
+        raise InputError("a fleet file must be .csv or .xlsx", file=path)
+    rows = [r for r in rows if any(str(c).strip() for c in r)]
+    if not rows:
+        raise InputError("the fleet file is empty", file=path)
+    return rows[0], rows[1:], lines[1:len(rows)]
+
+
+def _clock(text: str, path: Path, where: str) -> float:
+    m = _CLOCK.match(text)
+    if not m or int(m.group(1)) > 23 or int(m.group(2)) > 59:
+        raise InputError(f"'{text}' is not a clock time HH:MM", file=path, where=where)
+    return int(m.group(1)) * 3600.0 + int(m.group(2)) * 60.0
+
+
+def read_fleet(path: str | Path) -> list[FleetRow]:
+    """Read and check a fleet file (CSV or XLSX).
+
+    Parameters
+    ----------
+    path : str or Path
+        The fleet file; cycles are resolved relative to its folder.
+
+    Returns
+    -------
+    list of FleetRow
+
+    Raises
+    ------
+    InputError
+        Unknown or missing columns, a bad value, a duplicate vehicle id or a missing cycle
+        file, naming the row.
+    """
+    path = Path(path)
+    if not path.is_file():
+        raise InputError("file not found", file=path)
+    header, body, lines = _read_table(path)
+    cols: dict[str, tuple[int, str | None]] = {}
+    for j, h in enumerate(header):
+        m = _HEADER.match(str(h))
+        name = m.group(1).strip().lower().replace(" ", "_") if m else str(h)
+        if name not in COLUMNS:
+            close = difflib.get_close_matches(name, COLUMNS, n=1)
+            hint = f" (did you mean '{close[0]}'?)" if close else \
+                f" (known: {', '.join(COLUMNS)})"
+            raise InputError(f"unknown column '{h}'{hint}", file=path, where="header")
+        if name in cols:
+            raise InputError(f"column '{name}' appears twice", file=path, where="header")
+        unit = m.group(2).strip() if m and m.group(2) else None
+        default = COLUMNS[name][1]
+        if unit and default is None:
+            raise InputError(f"column '{name}' takes no unit", file=path, where="header")
+        cols[name] = (j, unit or default)
+    for name, (required, _) in COLUMNS.items():
+        if required and name not in cols:
+            raise InputError(f"required column '{name}' is missing", file=path,
+                             where="header")
+    if not body:
+        raise InputError("the fleet file has no vehicles", file=path)
+
+    out: list[FleetRow] = []
+    seen: dict[str, int] = {}
+    for r, line in zip(body, lines):
+        where = f"row {line}"
+
+        def cell(name):
+            if name not in cols:
+                return ""
+            j = cols[name][0]
+            return str(r[j]).strip() if j < len(r) and r[j] is not None else ""
+
+        vals: dict = {}
+        for name in ("vehicle", "cycle", "current", "candidate"):
+            vals[name] = cell(name)
+            if not vals[name]:
+                raise InputError(f"'{name}' is empty", file=path, where=where)
+        vid = vals["vehicle"]
+        if vid in seen:
+            raise InputError(f"duplicate vehicle id '{vid}' (also on row {seen[vid]})",
+                             file=path, where=where)
+        seen[vid] = line
+        cyc = Path(vals["cycle"])
+        cyc = cyc if cyc.is_absolute() else path.parent / cyc
+        if cyc.suffix.lower() not in (".csv", ".gpx", ".toml"):
+            raise InputError(f"cycle '{vals['cycle']}' must be a .csv or .gpx trace or a "
+                             ".toml scenario", file=path, where=f"{where}, cycle")
+        if not cyc.is_file():
+            raise InputError(f"cycle file '{vals['cycle']}' not found", file=path,
+                             where=f"{where}, cycle")
+        extra: dict = {}
+        for name in ("annual_distance", "payload", "days_per_year"):
+            text = cell(name)
+            if not text:
+                continue
+            try:
+                v = to_si(float(text), cols[name][1]) if _is_number(text) else \
+                    to_si(text, cols[name][1] or "")
+            except (UnitError, ValueError) as exc:
+                raise InputError(str(exc), file=path, where=f"{where}, {name}") from None
+            if not math.isfinite(v) or v < 0 or (v == 0 and name != "payload"):
+                raise InputError(f"must be {'≥ 0' if name == 'payload' else '> 0'}",
+                                 file=path, where=f"{where}, {name}")
+            if name == "days_per_year" and v > 366:
+                raise InputError("must be at most 366", file=path, where=f"{where}, {name}")
+            extra[name] = v
+        for name in ("arrive", "depart"):
+            text = cell(name)
+            if text:
+                extra[name] = _clock(text, path, f"{where}, {name}")
+        out.append(FleetRow(row=line, vehicle=vid, cycle=cyc.resolve(),
+                            current=vals["current"], candidate=vals["candidate"],
+                            route=cell("route"), **extra))
+    return out
+
+
+def _is_number(text: str) -> bool:
+    try:
+        float(text)
+        return True
+    except ValueError:
+        return False
+
+
+# --------------------------------------------------------------------------- row scenarios
+def _cycle_route(row: FleetRow) -> dict:
+    """The ``[route]`` table of a row's cycle, with files made absolute."""
+    if row.cycle.suffix.lower() == ".toml":
+        try:
+            raw = tomllib.loads(row.cycle.read_text(encoding="utf-8"))
+        except (UnicodeDecodeError, tomllib.TOMLDecodeError) as exc:
+            raise InputError(f"not valid TOML: {exc}", file=row.cycle) from None
+        if "route" not in raw:
+            raise InputError("a cycle scenario needs a [route] section", file=row.cycle)
+        route = copy.deepcopy(raw["route"])
+        for leg in route.get("legs", []):
+            if isinstance(leg, dict) and leg.get("file"):
+                f = Path(leg["file"])
+                leg["file"] = str(f if f.is_absolute() else (row.cycle.parent / f).resolve())
+        return route
+    return {"legs": [{"name": row.route or row.vehicle, "payload": 0.0,
+                      "file": str(row.cycle)}], "trips_per_day": 1.0}
+
+
+def row_scenario(base: LoadedScenario, row: FleetRow, fleet_file: Path) -> dict:
+    """The raw scenario of one row: the base with the row's cycle and its two trucks."""
+    raw = copy.deepcopy(base.raw)
+    trucks = {t.get("name"): t for t in raw.get("trucks", []) if isinstance(t, dict)}
+    for col in ("current", "candidate"):
+        name = getattr(row, col)
+        if name not in trucks:
+            close = difflib.get_close_matches(name, list(trucks), n=1)
+            hint = f" (did you mean '{close[0]}'?)" if close else \
+                f" (trucks of the base: {', '.join(map(str, trucks))})"
+            raise InputError(f"no truck '{name}' in the base scenario{hint}",
+                             file=fleet_file, where=f"row {row.row}, {col}")
+    if row.current == row.candidate:
+        raise InputError("current and candidate are the same truck", file=fleet_file,
+                         where=f"row {row.row}, candidate")
+    route = _cycle_route(row)
+    if row.payload is not None:
+        legs = route.get("legs", [])
+        loaded = [leg for leg in legs if _payload_kg(leg.get("payload", 0)) > 0] or legs[:1]
+        for leg in loaded:
+            leg["payload"] = f"{row.payload} kg"
+    if row.days_per_year is not None:
+        route["days_per_year"] = row.days_per_year
+    for key in ("time_step", "smoothing_window", "max_accel", "max_decel"):
+        if key in base.raw.get("route", {}) and key not in route:
+            route[key] = base.raw["route"][key]
+    raw["route"] = route
+    raw["trucks"] = [trucks[row.current], trucks[row.candidate]]
+    raw.setdefault("finance", {})["baseline"] = row.current
+    raw.setdefault("uncertainty", {})["enabled"] = False
+    study = raw.setdefault("study", {})
+    study["name"] = f"{row.vehicle} {row.route}".strip()
+    study.pop("slug", None)
+    dep = raw.setdefault("depot", {})
+    if row.arrive is not None:
+        dep["charging_start_hour"] = int(math.ceil(row.arrive / 3600.0 - 1e-9)) % 24
+    if row.depart is not None:
+        dep["charging_end_hour"] = int(row.depart // 3600.0) % 24
+    return raw
+
+
+def _payload_kg(value) -> float:
+    try:
+        return to_si(value, "t")
+    except UnitError:
+        return 0.0
+
+
+# --------------------------------------------------------------------------- stage 1: energy
+@dataclass
+class RouteEnergy:
+    """Energy and feasibility of one row's two trucks (no traces kept)."""
+
+    row: FleetRow
+    scenario: object
+    trip_distance: float
+    trip_duration: float
+    trips_per_day: float
+    operations: list
+    summaries: dict
+    feasibility: dict
+    warnings: list
+
+
+def _row_energy(args) -> RouteEnergy:
+    base, row, fleet_file = args
+    from tco import energy
+    from tco.pipeline import build_trip
+
+    raw = row_scenario(base, row, fleet_file)
+    where = f"row {row.row} ({row.vehicle})"
+    try:
+        s = parse_scenario(raw, row.cycle if row.cycle.suffix == ".toml" else fleet_file)
+        loaded = LoadedScenario(s, row.cycle, raw, "")
+        trip = build_trip(loaded)
+        trip_distance = float(trip["distance"].iloc[-1] - trip["distance"].iloc[0])
+        if row.annual_distance is not None:
+            if trip_distance <= 0:
+                raise InputError("the cycle covers no distance", file=row.cycle)
+            tpd = row.annual_distance / (s.route.days_per_year * trip_distance)
+            if not 0 < tpd <= 50:
+                raise InputError(f"annual distance needs {tpd:.2f} trips a day on this "
+                                 "cycle (allowed up to 50)", where="annual_distance")
+            s.route.trips_per_day = tpd
+        trucks = [energy.simulate(t, s, trip) for t in s.trucks]
+    except InputError as exc:
+        raise InputError(exc.message, file=fleet_file,
+                         where=f"{where}: " + ": ".join(
+                             p for p in (exc.file and Path(exc.file).name, exc.where) if p)
+                         ) from None
+    for tr in trucks:  # keep no traces: a fleet holds many days of 1 Hz data
+        tr.trace = None
+    return RouteEnergy(
+        row=row, scenario=s, trip_distance=trip_distance,
+        trip_duration=float(trucks[0].summary["trip_duration"]),
+        trips_per_day=float(s.route.trips_per_day), operations=[t.operation for t in trucks],
+        summaries={t.name: t.summary for t in trucks},
+        feasibility={t.name: t.feasibility for t in trucks},
+        warnings=[w for t in trucks for w in t.warnings])
+
+
+def _map(fn, items, jobs: int, progress=None):
+    """fn over items, on ``jobs`` processes (fork) or inline; results in order."""
+    import multiprocessing as mp
+
+    out = []
+    if jobs > 1 and len(items) > 1 and "fork" in mp.get_all_start_methods():
+        chunk = max(1, len(items) // (jobs * 8))
+        with ProcessPoolExecutor(jobs, mp_context=mp.get_context("fork")) as pool:
+            for r in pool.map(fn, items, chunksize=chunk):
+                out.append(r)
+                if progress:
+                    progress(1)
+        return out
+    for it in items:
+        out.append(fn(it))
+        if progress:
+            progress(1)
+    return out
+
+
+# --------------------------------------------------------------------------- feasibility
+def route_status(e: RouteEnergy, shortfall: float = 0.0) -> dict:
+    """Can the candidate do this route, and if not what would make it possible."""
+    cand = e.row.candidate
+    f = e.feasibility[cand]
+    s = e.summaries[cand]
+    remedies: list[str] = []
+    ok_payload = bool(f["payload"]["ok"])
+    if not ok_payload:
+        remedies.append(f"carry {f['payload']['lost_per_trip'] / 1000:.1f} t more per trip "
+                        f"(a higher gross limit) or run {f['payload']['extra_trips_per_year']:.0f}"
+                        " extra trips a year")
+    bat = f.get("battery")
+    ok_battery = ok_enroute = True
+    if bat:
+        new = bat["new"]
+        ok_battery = bool(new["ok"])
+        ok_enroute = bool(new["ok_with_enroute"])
+        if not ok_battery:
+            kwh = new["deficit"] / J_PER_KWH
+            if ok_enroute:
+                remedies.append(f"{kwh:.0f} kWh of en-route charging a day "
+                                f"({new['enroute_time'] / 60:.0f} min), or {kwh:.0f} kWh more "
+                                "usable battery")
+            else:
+                remedies.append(f"{kwh:.0f} kWh more usable battery, or en-route charging "
+                                f"of {kwh:.0f} kWh a day")
+    ok_depot = shortfall <= 1.0
+    if not ok_depot:
+        remedies.append(f"{shortfall / J_PER_KWH:.0f} kWh more depot charging a night: a "
+                        "longer stay at the depot or more powerful chargers")
+    if bat is None:
+        status = "feasible" if ok_payload else "not feasible"
+    elif ok_payload and ok_battery and ok_depot:
+        status = "feasible"
+    elif ok_payload and ok_enroute and ok_depot:
+        status = "feasible with en-route charging"
+    else:
+        status = "not feasible"
+    return {"status": status, "feasible": status != "not feasible", "remedies": remedies,
+            "soc_min": s.get("soc_min")}
+
+
+# --------------------------------------------------------------------------- stage 3: money
+def _with_depot(ops: list, cand_index: int, sched: depot_model.DepotSchedule | None,
+                k: int | None) -> list:
+    """The candidate's operation with its scheduled charging hours and depot shares."""
+    if sched is None or k is None:
+        return ops
+    op = ops[cand_index]
+    if op.powertrain != "electric" or op.grid_energy_depot <= 0:
+        return ops
+    prof = sched.profile[k]
+    new = dataclasses.replace(
+        op, charging_profile=prof if prof.sum() > 0 else op.charging_profile,
+        depot_charging_power=float(sched.peak_contribution[k]),
+        depot_cost_share=float(sched.cost_share[k]),
+        depot_peak_contribution=float(sched.peak_contribution[k]))
+    out = list(ops)
+    out[cand_index] = new
+    return out
+
+
+@dataclass
+class RouteMoney:
+    """Cash flows and emissions of one row (current against candidate)."""
+
+    vehicle: str
+    present_value: dict
+    levelized_cost: dict
+    difference: float
+    simple_payback: int | None
+    irr: float | None
+    yearly_cost: pd.DataFrame        # truck, year, amount
+    yearly_emissions: pd.DataFrame   # truck, year, kg_co2e (well-to-wheel, location)
+    avoided_t: float
+    abatement_cost: float | None
+    ttw_t: dict
+    wtw_t: dict
+
+
+def _route_money_task(args) -> RouteMoney:
+    return _route_money(*args)
+
+
+def _route_money(e: RouteEnergy, base: LoadedScenario, ops: list, chargers: int,
+                 served: int) -> RouteMoney:
+    from tco import cashflow, emissions
+    from tco.pipeline import cost_inputs, service_years
+
+    s = e.scenario.model_copy(deep=False)
+    s.depot = base.scenario.depot.model_copy(update={
+        "chargers": chargers, "trucks_served": max(served, 1),
+        "charging_start_hour": e.scenario.depot.charging_start_hour,
+        "charging_end_hour": e.scenario.depot.charging_end_hour})
+    inputs = cost_inputs(s, ops)
+    cf = cashflow.evaluate(inputs, break_evens=False)
+    pv = {m.name: m.present_value for m in cf.trucks}
+    lc = {m.name: m.levelized_cost for m in cf.trucks}
+    cur, cand = e.row.current, e.row.candidate
+    comp = cf.comparisons[0]
+    diff = pv[cand] - pv[cur]
+    em = emissions.evaluate(s.emissions, ops, service_years(s), reference=cur,
+                            cost_difference={cand: diff}, discount_rate=cf.discount_rate)
+    yc = cf.table.groupby(["truck", "year"], as_index=False)["amount"].sum()
+    tot = em.totals
+    wtw = tot[tot["frame"] == "wtw"][["truck", "year", "kg_co2e"]].reset_index(drop=True)
+    wtw["year"] = wtw["year"] - s.study.start_year + 1  # calendar year -> year of service
+    ttw_t = {t: float(tot[(tot["frame"] == "ttw") & (tot["truck"] == t)]["kg_co2e"].sum()
+                      / 1000) for t in (cur, cand)}
+    wtw_t = {t: float(wtw[wtw["truck"] == t]["kg_co2e"].sum() / 1000) for t in (cur, cand)}
+    ab = em.abatement.get(cand, {})
+    avoided = float(ab.get("tonnes_location", wtw_t[cur] - wtw_t[cand]))
+    return RouteMoney(
+        vehicle=e.row.vehicle, present_value=pv, levelized_cost=lc, difference=diff,
+        simple_payback=comp.simple_payback_year, irr=comp.irr, yearly_cost=yc,
+        yearly_emissions=wtw, avoided_t=avoided,
+        abatement_cost=ab.get("cost_per_tonne_location"), ttw_t=ttw_t, wtw_t=wtw_t)
+
+
+# --------------------------------------------------------------------------- the fleet
+@dataclass
+class FleetResult:
+    """Everything the fleet writers need (plain data and pandas objects).
+
+    Attributes
+    ----------
+    base : LoadedScenario
+    fleet_file : Path
+    rule : str
+        Depot charging rule (:mod:`tco.depot`).
+    routes : pandas.DataFrame
+        One row per vehicle: route, trucks, distance, energy, feasibility, depot share,
+        present values, difference, payback, IRR, emissions, abatement cost, order.
+    order : pandas.DataFrame
+        Electrification order with the depot's chargers and peak as routes are added.
+    yearly : pandas.DataFrame
+        Fleet totals per year: cost and well-to-wheel emissions as-is and with the plan,
+        chargers and peak power of the plan.
+    depot_all, depot_plan : DepotSchedule
+        Depot schedule with every candidate, and with the plan's candidates only.
+    plan : list of str
+        Vehicles the plan electrifies (feasible routes).
+    energies, money : list
+        Per-row :class:`RouteEnergy` and :class:`RouteMoney` (plan shares).
+    warnings : list of str
+    """
+
+    base: LoadedScenario
+    fleet_file: Path
+    rule: str
+    routes: pd.DataFrame
+    order: pd.DataFrame
+    yearly: pd.DataFrame
+    depot_all: depot_model.DepotSchedule
+    depot_plan: depot_model.DepotSchedule
+    plan: list
+    energies: list = field(repr=False, default_factory=list)
+    money: list = field(repr=False, default_factory=list)
+    warnings: list = field(default_factory=list)
+    timings: dict = field(default_factory=dict)
+
+    @property
+    def currency(self) -> str:
+        return self.base.scenario.study.currency
+
+
+def _depot_inputs(energies: list[RouteEnergy], base: LoadedScenario, vehicles: set[str]):
+    """Arrival, departure and nightly depot energy of the candidates in ``vehicles``."""
+    dep = base.scenario.depot
+    idx, arrive, depart, need = [], [], [], []
+    for k, e in enumerate(energies):
+        if e.row.vehicle not in vehicles:
+            continue
+        op = e.operations[1]
+        if op.powertrain != "electric" or op.grid_energy_depot <= 0:
+            continue
+        idx.append(k)
+        arrive.append(e.row.arrive if e.row.arrive is not None
+                      else dep.charging_start_hour * 3600.0)
+        depart.append(e.row.depart if e.row.depart is not None
+                      else dep.charging_end_hour * 3600.0)
+        need.append(op.grid_energy_depot / op.operating_days)
+    return idx, np.array(arrive), np.array(depart), np.array(need)
+
+
+def _schedule(energies, base, vehicles, rule):
+    dep = base.scenario.depot
+    if dep.charger_power <= 0:
+        raise InputError("a fleet needs the depot's charger power", file=base.path,
+                         where="depot.charger_power")
+    idx, a, d, need = _depot_inputs(energies, base, vehicles)
+    return idx, depot_model.schedule(a, d, need, dep.charger_power, rule=rule)
+
+
+def evaluate_fleet(base: LoadedScenario, rows: list[FleetRow], fleet_file: Path,
+                   rule: str = "first_come", jobs: int | None = None, progress=None
+                   ) -> FleetResult:
+    """Evaluate a fleet: energy per row, shared depot, money and emissions, the order.
+
+    Parameters
+    ----------
+    base : LoadedScenario
+        The base scenario (trucks, finance, prices, depot, emissions).
+    rows : list of FleetRow
+        From :func:`read_fleet`.
+    fleet_file : Path
+        The fleet file (named in errors).
+    rule : {"first_come", "spread"}
+        Depot charging rule.
+    jobs : int, optional
+        Processes for the energy simulation (default: every core).
+    progress : tco.progress.Steps, optional
+
+    Returns
+    -------
+    FleetResult
+    """
+    import time
+
+    from tco.progress import Silent
+
+    steps = progress or Silent()
+    timings = {}
+    jobs = jobs or os.cpu_count() or 1
+    t0 = time.perf_counter()
+    advance = steps.bar(len(rows), "energy of each route")
+    energies = _map(_row_energy, [(base, r, fleet_file) for r in rows], jobs, advance)
+    timings["energy"] = time.perf_counter() - t0
+
+    steps.start("sharing the depot")
+    t0 = time.perf_counter()
+    everyone = {e.row.vehicle for e in energies}
+    idx_all, sched_all = _schedule(energies, base, everyone, rule)
+    short_all = {idx_all[j]: float(sched_all.shortfall[j]) for j in range(len(idx_all))}
+    status = [route_status(e, short_all.get(k, 0.0)) for k, e in enumerate(energies)]
+    plan = [e.row.vehicle for e, st in zip(energies, status) if st["feasible"]]
+    idx_plan, sched_plan = _schedule(energies, base, set(plan), rule)
+    timings["depot"] = time.perf_counter() - t0
+
+    steps.start("cash flows and emissions of each route")
+    t0 = time.perf_counter()
+    pos_all = {k: j for j, k in enumerate(idx_all)}
+    pos_plan = {k: j for j, k in enumerate(idx_plan)}
+    work = []
+    for k, e in enumerate(energies):
+        if k in pos_plan:  # in the plan: its share of the plan's depot
+            ops = _with_depot(e.operations, 1, sched_plan, pos_plan[k])
+            work.append((e, base, ops, sched_plan.chargers, len(idx_plan)))
+        else:  # outside it: as if every candidate went electric
+            ops = _with_depot(e.operations, 1, sched_all, pos_all.get(k))
+            work.append((e, base, ops, sched_all.chargers, len(idx_all)))
+    money = _map(_route_money_task, work, jobs)
+    timings["money"] = time.perf_counter() - t0
+
+    routes = _routes_table(energies, status, money, sched_all, sched_plan, pos_all, pos_plan)
+    order = _order(routes, energies, base, rule)
+    yearly = _yearly(energies, money, set(plan), sched_plan, base)
+    warnings = [f"{e.row.vehicle}: {w}" for e in energies for w in e.warnings]
+    return FleetResult(base=base, fleet_file=Path(fleet_file), rule=rule, routes=routes,
+                       order=order, yearly=yearly, depot_all=sched_all,
+                       depot_plan=sched_plan, plan=plan, energies=energies,
+                       money=money, warnings=warnings, timings=timings)
+
+
+def _routes_table(energies, status, money, sched_all, sched_plan, pos_all, pos_plan):
+    recs = []
+    for k, (e, st, m) in enumerate(zip(energies, status, money)):
+        cur, cand = e.row.current, e.row.candidate
+        op_c, op_e = e.operations
+        in_plan = k in pos_plan
+        sch, j = (sched_plan, pos_plan[k]) if in_plan else (sched_all, pos_all.get(k))
+        recs.append({
+            "vehicle": e.row.vehicle, "route": e.row.route, "current": cur,
+            "candidate": cand, "annual_distance_m": op_e.distance,
+            "trips_per_day": e.trips_per_day, "trip_distance_m": e.trip_distance,
+            "payload_distance_kgm": op_c.payload_distance,
+            "diesel_m3": op_c.diesel_volume if op_c.powertrain == "diesel" else 0.0,
+            "grid_energy_J": op_e.grid_energy_depot + op_e.grid_energy_public,
+            "depot_energy_per_day_J": op_e.grid_energy_depot / op_e.operating_days
+            if op_e.operating_days else 0.0,
+            "status": st["status"], "feasible": st["feasible"],
+            "remedies": "; ".join(st["remedies"]), "soc_min": st["soc_min"],
+            "in_plan": in_plan,
+            "depot_cost_share": float(sch.cost_share[j]) if j is not None else 0.0,
+            "peak_contribution_W": float(sch.peak_contribution[j]) if j is not None else 0.0,
+            "pv_current": m.present_value[cur], "pv_candidate": m.present_value[cand],
+            "pv_difference": m.difference,
+            "saving": -m.difference,
+            "levelized_current_per_m": m.levelized_cost[cur],
+            "levelized_candidate_per_m": m.levelized_cost[cand],
+            "simple_payback_year": m.simple_payback, "irr": m.irr,
+            "wtw_current_t": m.wtw_t[cur], "wtw_candidate_t": m.wtw_t[cand],
+            "ttw_current_t": m.ttw_t[cur], "ttw_candidate_t": m.ttw_t[cand],
+            "avoided_t": m.avoided_t, "abatement_cost_per_t": m.abatement_cost,
+        })
+    df = pd.DataFrame.from_records(recs)
+    return df
+
+
+def _order(routes: pd.DataFrame, energies, base, rule) -> pd.DataFrame:
+    """Electrification order: feasible routes first, then by saving (largest first); the
+    rank by abatement cost is given beside it, with the depot's needs as routes are
+    added (exact up to 200 routes, then at 20 evenly spaced steps)."""
+    df = routes.copy()
+    df["_feas"] = (~df["feasible"]).astype(int)
+    df = df.sort_values(["_feas", "saving", "vehicle"], ascending=[True, False, True],
+                        kind="mergesort").reset_index(drop=True)
+    df["rank_by_saving"] = np.arange(1, len(df) + 1)
+    ab = df["abatement_cost_per_t"].astype(float).fillna(np.inf)
+    by_ab = df.assign(_ab=ab).sort_values(["_feas", "_ab", "vehicle"], kind="mergesort")
+    rank_ab = {v: i + 1 for i, v in enumerate(by_ab["vehicle"])}
+    df["rank_by_abatement"] = df["vehicle"].map(rank_ab)
+    df["cumulative_saving"] = df["saving"].cumsum()
+    df["cumulative_avoided_t"] = df["avoided_t"].cumsum()
+    n = len(df)
+    steps = list(range(1, n + 1)) if n <= 200 else sorted(
+        {int(round(x)) for x in np.linspace(1, n, 20)})
+    chargers = np.full(n, np.nan)
+    peak = np.full(n, np.nan)
+    for m in steps:
+        _, sch = _schedule(energies, base, set(df["vehicle"].iloc[:m]), rule)
+        chargers[m - 1] = sch.chargers
+        peak[m - 1] = sch.peak_power
+    df["chargers_after"] = chargers
+    df["peak_after_W"] = peak
+    cols = ["rank_by_saving", "rank_by_abatement", "vehicle", "route", "status", "saving",
+            "avoided_t", "abatement_cost_per_t", "cumulative_saving", "cumulative_avoided_t",
+            "chargers_after", "peak_after_W", "remedies"]
+    return df[cols]
+
+
+def _yearly(energies, money, plan, sched_plan, base) -> pd.DataFrame:
+    """Fleet totals per year: as-is (every current truck) and the plan."""
+    years = None
+    as_is_c = as_is_e = plan_c = plan_e = None
+    for e, m in zip(energies, money):
+        cur, cand = e.row.current, e.row.candidate
+        take = cand if e.row.vehicle in plan else cur
+        c = m.yearly_cost.pivot(index="year", columns="truck", values="amount").fillna(0.0)
+        em = m.yearly_emissions.pivot(index="year", columns="truck",
+                                      values="kg_co2e").fillna(0.0)
+        if years is None:
+            years = c.index
+            as_is_c = np.zeros(len(c)); plan_c = np.zeros(len(c))
+            as_is_e = np.zeros(len(c)); plan_e = np.zeros(len(c))
+        as_is_c += c[cur].to_numpy()
+        plan_c += c[take].to_numpy()
+        emi = em.reindex(years).fillna(0.0)
+        as_is_e += emi[cur].to_numpy()
+        plan_e += emi[take].to_numpy()
+    first = base.scenario.study.start_year
+    df = pd.DataFrame({
+        "year": years, "calendar_year": [first + y - 1 if y > 0 else first - 1
+                                         for y in years],
+        "cost_as_is": as_is_c, "cost_plan": plan_c, "saving": as_is_c - plan_c,
+        "wtw_as_is_kg": as_is_e, "wtw_plan_kg": plan_e, "avoided_kg": as_is_e - plan_e,
+        "chargers": [sched_plan.chargers if y > 0 else sched_plan.chargers for y in years],
+        "peak_power_W": [sched_plan.peak_power] * len(years),
+        "electric_trucks": [len(plan)] * len(years),
+    })
+    return df
