@@ -43,6 +43,24 @@ def _parser() -> argparse.ArgumentParser:
                          "it describes. Exit 0 when valid, 2 when not.")
     chk.add_argument("scenario", help="scenario TOML file")
 
+    fl = sub.add_parser("fleet", help="compare many routes sharing one depot",
+                        description="Evaluate a fleet file (CSV or XLSX, one row per vehicle) "
+                        "against a base scenario: energy per route, shared depot chargers and "
+                        "peak, cost and emissions per route, electrification order and fleet "
+                        "totals per year. Writes fleet.json, fleet-report.pdf/.html and "
+                        "fleet-workbook.xlsx into OUT/<base scenario>/. Default: the bundled "
+                        "demo fleet.")
+    fl.add_argument("fleet", nargs="?", help="fleet file, .csv or .xlsx (default: demo fleet)")
+    fl.add_argument("--base", help="base scenario TOML (default: base.toml beside the fleet "
+                    "file)")
+    fl.add_argument("--rule", choices=("first_come", "spread"), default="first_come",
+                    help="depot charging rule: first_come (unmanaged, chargers rotate) or "
+                    "spread (managed, flat power over each stay); default first_come")
+    fl.add_argument("--jobs", type=int, help="processes to use (default: every core)")
+    fl.add_argument("--out", default="out", help="output folder (default: ./out)")
+    fl.add_argument("--json-only", action="store_true", help="write fleet.json only")
+    fl.add_argument("--quiet", action="store_true", help="print only the output paths")
+
     init = sub.add_parser("init", help="write a commented starter scenario",
                           description="Write a commented starter scenario to PATH.")
     init.add_argument("path", nargs="?", default="scenario.toml",
@@ -102,6 +120,50 @@ def _cmd_check(args) -> int:
     return EXIT_OK
 
 
+def _jobs(value) -> int | None:
+    if value is not None and value < 1:
+        raise InputError("must be 1 or more", where="--jobs")
+    return value
+
+
+def _cmd_fleet(args) -> int:
+    from tco.fleet import evaluate_fleet, read_fleet
+    from tco.progress import Steps
+    from tco.report.atomic import check_writable
+    from tco.resources import inputs_dir
+    from tco.scenario import load_scenario
+
+    jobs = _jobs(args.jobs)
+    fleet = Path(args.fleet) if args.fleet else inputs_dir() / "fleet" / "fleet.csv"
+    base = Path(args.base) if args.base else fleet.parent / "base.toml"
+    if not args.base and not base.is_file():
+        raise InputError("no base scenario: give --base (or put base.toml beside the fleet "
+                         "file)", file=fleet, where="--base")
+    with Steps(quiet=args.quiet) as steps:
+        steps.start("reading the fleet")
+        loaded = load_scenario(base)
+        rows = read_fleet(fleet)
+        check_writable(Path(args.out) / loaded.slug)
+        result = evaluate_fleet(loaded, rows, fleet, rule=args.rule, jobs=jobs,
+                                progress=steps)
+        steps.start("writing outputs")
+        from tco.report.fleet_report import write_fleet_outputs
+
+        written = write_fleet_outputs(result, Path(args.out), json_only=args.json_only,
+                                      progress=steps)
+    if not args.quiet:
+        plan = result.depot_plan
+        cur = result.currency
+        sav = float(result.routes.loc[result.routes["in_plan"], "saving"].sum())
+        avo = float(result.routes.loc[result.routes["in_plan"], "avoided_t"].sum())
+        print(f"{len(result.plan)} of {len(result.routes)} routes feasible; the plan saves "
+              f"{sav:,.0f} {cur} (present value), avoids {avo:,.0f} t CO2e well-to-wheel, "
+              f"needs {plan.chargers} chargers and {plan.peak_power / 1000:,.0f} kW peak")
+    for f in written:
+        print(f)
+    return EXIT_OK
+
+
 def _cmd_init(args) -> int:
     from tco.starter import STARTER
 
@@ -124,7 +186,8 @@ def main(argv: list[str] | None = None) -> int:
     if args.command is None:
         parser.print_help()
         return EXIT_INPUT
-    handler = {"run": _cmd_run, "check": _cmd_check, "init": _cmd_init}[args.command]
+    handler = {"run": _cmd_run, "check": _cmd_check, "init": _cmd_init,
+               "fleet": _cmd_fleet}[args.command]
     try:
         return handler(args)
     except InputError as exc:

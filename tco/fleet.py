@@ -186,6 +186,12 @@ def read_fleet(path: str | Path) -> list[FleetRow]:
         default = COLUMNS[name][1]
         if unit and default is None:
             raise InputError(f"column '{name}' takes no unit", file=path, where="header")
+        if unit and default:
+            try:
+                to_si(f"1 {unit}", default)
+            except UnitError:
+                raise InputError(f"column '{name}': '{unit}' is not a unit of the same kind "
+                                 f"as {default}", file=path, where="header") from None
         cols[name] = (j, unit or default)
     for name, (required, _) in COLUMNS.items():
         if required and name not in cols:
@@ -425,6 +431,19 @@ def route_status(e: RouteEnergy, shortfall: float = 0.0) -> dict:
             else:
                 remedies.append(f"{kwh:.0f} kWh more usable battery, or en-route charging "
                                 f"of {kwh:.0f} kWh a day")
+    # the day must fit between leaving the depot and coming back, en-route charging included
+    r = e.row
+    away = (r.arrive - r.depart) % depot_model.DAY if r.arrive is not None and \
+        r.depart is not None else depot_model.DAY
+    away = away or depot_model.DAY
+    driving = e.trips_per_day * e.trip_duration
+    enroute = bat["new"]["enroute_time"] if bat and not ok_battery else 0.0
+    if driving + enroute > away * (1 + 1e-9):
+        ok_enroute = ok_battery = False
+        remedies.append(f"the day takes {driving / 3600:.1f} h of driving"
+                        + (f" and {enroute / 3600:.1f} h of en-route charging" if enroute
+                           else "") + f", more than the {away / 3600:.1f} h away from the "
+                        "depot: fewer trips or a longer day")
     ok_depot = shortfall <= 1.0
     if not ok_depot:
         remedies.append(f"{shortfall / J_PER_KWH:.0f} kWh more depot charging a night: a "
