@@ -769,9 +769,12 @@ def _read_csv_table(path: Path) -> tuple[dict[str, np.ndarray], dict[str, str], 
         with path.open(newline="", encoding="utf-8-sig") as fh:
             reader = csv.reader(fh)
             for row in reader:
-                if not row or all(not c.strip() for c in row):
+                if not row:
                     continue
-                if row[0].lstrip().startswith("#"):
+                first = row[0].lstrip()
+                if first.startswith("#"):
+                    continue
+                if not first and all(not c.strip() for c in row):
                     continue
                 if header is None:
                     header, header_line = row, reader.line_num
@@ -813,6 +816,10 @@ def _read_csv_table(path: Path) -> tuple[dict[str, np.ndarray], dict[str, str], 
         raise InputError("empty trace: the file has a header but no data rows", file=path,
                          where=f"line {header_line}")
     ncol = len(names)
+    data = _fast_cells(rows, ncol)
+    if data is not None:  # every cell a finite number: the per-cell checks cannot fail
+        columns = {name: data[:, c] * factors[c] for c, name in enumerate(names)}
+        return columns, texts, np.array(lines), header_line
     data = np.empty((len(rows), ncol))
     for r, (row, ln) in enumerate(zip(rows, lines)):
         if len(row) > ncol and any(c.strip() for c in row[ncol:]):
@@ -833,6 +840,24 @@ def _read_csv_table(path: Path) -> tuple[dict[str, np.ndarray], dict[str, str], 
             data[r, c] = value
     columns = {name: data[:, c] * factors[c] for c, name in enumerate(names)}
     return columns, texts, np.array(lines), header_line
+
+
+def _fast_cells(rows: list[list[str]], ncol: int) -> np.ndarray | None:
+    """The rows as a float array when every row has ``ncol`` finite numbers, else None.
+
+    numpy's C parser does in one call what the checked loop below does cell by cell (a
+    day of 1 Hz data is ~10x faster); any irregular row sends the file down the checked
+    loop, which names the line and column of the problem.
+    """
+    if any(len(r) != ncol for r in rows):
+        return None
+    try:
+        data = np.array(rows, dtype=float)  # strips spaces; rejects text
+    except ValueError:
+        return None
+    if data.shape != (len(rows), ncol) or not np.isfinite(data).all():
+        return None
+    return data
 
 
 def _first_bad(mask: np.ndarray) -> int | None:

@@ -1,0 +1,113 @@
+"""Benchmark: the fleet path on many routes, each a day of 1 Hz data.
+
+Writes N invented day-long traces (time, speed, grade at 1 Hz; 8–11 h of driving with
+stops, hills and motorway stretches), a fleet file pointing to them, and runs
+:func:`tco.fleet.evaluate_fleet` on the demo fleet base. Prints the wall time of each stage,
+the peak memory (this process and the largest worker process), and the ratio of the whole
+fleet run to a floor measured in the same run: reading the same trace files with pandas
+alone.
+
+Run: python tests/benchmarks/bench_fleet.py [--routes 1000] [--jobs 2] [--keep DIR]
+"""
+from __future__ import annotations
+
+import argparse
+import resource
+import shutil
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+
+def day_trace(rng: np.random.Generator) -> pd.DataFrame:
+    """One invented working day at 1 Hz: stretches of cruise, stops, grades."""
+    hours = rng.uniform(8.0, 11.0)
+    n = int(hours * 3600)
+    speed = np.empty(n)
+    grade = np.empty(n)
+    i = 0
+    while i < n:
+        length = int(rng.integers(120, 1800))
+        target = rng.choice([0.0, 30.0, 50.0, 80.0, 85.0], p=[0.1, 0.2, 0.2, 0.3, 0.2])
+        g = rng.normal(0.0, 1.5)
+        seg = np.full(length, target)
+        ramp = min(length // 3, 60)
+        if ramp > 0 and target > 0:
+            seg[:ramp] = np.linspace(0, target, ramp)
+            seg[-ramp:] = np.linspace(target, 0, ramp)
+        speed[i:i + length] = seg[: n - i]
+        grade[i:i + length] = g
+        i += length
+    return pd.DataFrame({"time [s]": np.arange(n, dtype=float),
+                         "speed [km/h]": np.round(speed, 2), "grade [%]": np.round(grade, 2)})
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--routes", type=int, default=1000)
+    ap.add_argument("--jobs", type=int, default=2)
+    ap.add_argument("--keep", help="write the data here and keep it")
+    args = ap.parse_args()
+
+    from tco.fleet import evaluate_fleet, read_fleet
+    from tco.resources import inputs_dir
+    from tco.scenario import load_scenario
+
+    work = Path(args.keep) if args.keep else Path(tempfile.mkdtemp(prefix="bench-fleet-"))
+    work.mkdir(parents=True, exist_ok=True)
+    rng = np.random.default_rng(7)
+    t0 = time.perf_counter()
+    rows = ["vehicle,route,cycle,current,candidate,payload [t],arrive,depart"]
+    samples = 0
+    for k in range(args.routes):
+        f = work / f"day-{k:04d}.csv"
+        if not f.exists():
+            tr = day_trace(rng)
+            tr.to_csv(f, index=False)
+        else:
+            tr = None
+        samples += len(tr) if tr is not None else sum(1 for _ in open(f)) - 1
+        rigid = k % 2 == 1
+        cur, cand = ("Diesel rigid", "Electric rigid") if rigid else \
+            ("Diesel tractor", "Electric tractor")
+        arrive = f"{int(rng.integers(15, 21)):02d}:{int(rng.integers(0, 4)) * 15:02d}"
+        depart = f"{int(rng.integers(4, 7)):02d}:{int(rng.integers(0, 4)) * 15:02d}"
+        rows.append(f"V{k:04d},day {k},{f.name},{cur},{cand},"
+                    f"{8 if rigid else 18},{arrive},{depart}")
+    fleet = work / "fleet.csv"
+    fleet.write_text("\n".join(rows) + "\n")
+    t_gen = time.perf_counter() - t0
+    print(f"data: {args.routes} routes, {samples / 1e6:.1f} M samples at 1 Hz "
+          f"({samples / args.routes / 3600:.1f} h a day on average), written in {t_gen:.0f} s")
+
+    # floor: read every trace with pandas alone
+    t0 = time.perf_counter()
+    for k in range(args.routes):
+        pd.read_csv(work / f"day-{k:04d}.csv")
+    t_floor = time.perf_counter() - t0
+
+    base = load_scenario(inputs_dir() / "fleet" / "base.toml")
+    t0 = time.perf_counter()
+    res = evaluate_fleet(base, read_fleet(fleet), fleet, jobs=args.jobs)
+    t_fleet = time.perf_counter() - t0
+
+    self_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    child_mb = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024
+    print(f"fleet run ({args.jobs} processes): {t_fleet:.1f} s = "
+          f"{args.routes / t_fleet:.1f} routes/s, {samples / t_fleet / 1e6:.2f} M samples/s")
+    print("  stages: " + ", ".join(f"{k} {v:.1f} s" for k, v in res.timings.items())
+          + f", order and totals {t_fleet - sum(res.timings.values()):.1f} s")
+    print(f"floor (pandas reading the traces, 1 process): {t_floor:.1f} s; "
+          f"ratio fleet / floor = {t_fleet / t_floor:.2f}")
+    print(f"peak memory: main process {self_mb:.0f} MB, largest worker {child_mb:.0f} MB")
+    print(f"result: {len(res.plan)} of {len(res.routes)} routes feasible; depot "
+          f"{res.depot_plan.chargers} chargers, peak {res.depot_plan.peak_power / 1e3:.0f} kW")
+    if not args.keep:
+        shutil.rmtree(work, ignore_errors=True)
+
+
+if __name__ == "__main__":
+    main()
