@@ -137,47 +137,59 @@ def _stays(arrive, depart, slot):
 
 
 def _first_come(a, stay, need, k, per_slot, n_days, day_slots):
-    """Simulate unmanaged charging with ``k`` chargers; energy per truck per slot."""
+    """Simulate unmanaged charging with ``k`` chargers; energy per truck per slot.
+
+    Event-driven: time jumps from one arrival or charge completion to the next. At each
+    event, chargers freed now go to the waiting trucks that leave first; a truck whose
+    departure comes before its charge is done leaves with a shortfall.
+    """
     n = len(a)
-    horizon = n_days * day_slots + int(stay.max(initial=0)) + 1
-    drawn = np.zeros((n, n_days * day_slots))
+    width = n_days * day_slots
+    drawn = np.zeros((n, width))
     short = np.zeros((n_days, n))
-    # events: arrivals of each truck each day, in slot order
-    arrivals: dict[int, list[int]] = {}
-    for d in range(n_days):
-        for i in range(n):
-            arrivals.setdefault(d * day_slots + int(a[i]), []).append((d, i))
-    waiting: list[tuple[int, int, int, int]] = []   # (deadline, arrival order, day, truck)
-    charging: dict[tuple[int, int], float] = {}     # (day, truck) -> energy still needed
-    deadline: dict[tuple[int, int], int] = {}
-    order = 0
-    for t in range(horizon):
-        for d, i in arrivals.get(t, ()):
-            key = (d, i)
-            deadline[key] = d * day_slots + int(a[i]) + int(stay[i])
-            if need[i] > 0:
-                heapq.heappush(waiting, (deadline[key], order, d, i))
-                order += 1
-        # trucks that leave now: unplug, record shortfall
-        for key in [k_ for k_ in charging if deadline[k_] <= t]:
-            short[key[0], key[1]] += charging.pop(key)
-        while waiting and waiting[0][0] <= t:
-            dl, _, d, i = heapq.heappop(waiting)
-            short[d, i] += need[i]
-        while waiting and len(charging) < k:
+    arrivals = sorted((d * day_slots + int(a[i]), d, i) for d in range(n_days)
+                      for i in range(n) if need[i] > 0)
+    waiting: list[tuple[int, int, int, int]] = []   # (deadline, order, day, truck)
+    busy: list[int] = []                            # finish slots of plugged trucks
+    free = int(k)
+    nxt = 0
+    while nxt < len(arrivals) or waiting:
+        t = arrivals[nxt][0] if nxt < len(arrivals) else None
+        if busy and (t is None or busy[0] < t):
+            t = busy[0]
+        if t is None:  # trucks wait but no charger will ever free up (k = 0)
+            for _, _, d, i in waiting:
+                short[d, i] += need[i]
+            break
+        while busy and busy[0] <= t:
+            heapq.heappop(busy)
+            free += 1
+        while nxt < len(arrivals) and arrivals[nxt][0] <= t:
+            s0, d, i = arrivals[nxt]
+            heapq.heappush(waiting, (s0 + int(stay[i]), nxt, d, i))
+            nxt += 1
+        while waiting and waiting[0][0] <= t:  # left before a charger came free
             _, _, d, i = heapq.heappop(waiting)
-            charging[(d, i)] = float(need[i])
-        done = []
-        for key, left in charging.items():
-            take = min(per_slot, left)
-            if t < drawn.shape[1]:
-                drawn[key[1], t] += take
-            left -= take
-            charging[key] = left
-            if left <= 1e-9 * per_slot:
-                done.append(key)
-        for key in done:  # moved off the charger; the next truck plugs in next slot
-            del charging[key]
+            short[d, i] += need[i]
+        while waiting and free > 0:
+            deadline, _, d, i = heapq.heappop(waiting)
+            full = int(need[i] // per_slot)
+            rest = need[i] - full * per_slot
+            if rest <= 1e-9 * per_slot:
+                rest = 0.0
+            m = full + (1 if rest > 0 else 0)
+            end = min(t + m, deadline)
+            lo, hi = t, min(end, width)
+            if t + m <= deadline:
+                if full:
+                    drawn[i, lo:min(t + full, width)] += per_slot
+                if rest > 0 and t + full < width:
+                    drawn[i, t + full] += rest
+            else:  # unplugged at departure
+                drawn[i, lo:hi] += per_slot
+                short[d, i] += need[i] - (deadline - t) * per_slot
+            heapq.heappush(busy, end)
+            free -= 1
     return drawn, short
 
 

@@ -40,6 +40,7 @@ the track point (GPX) or the segment field.
 from __future__ import annotations
 
 import csv
+import io
 import math
 import re
 from collections.abc import Mapping, Sequence
@@ -761,12 +762,23 @@ def _read_csv_table(path: Path) -> tuple[dict[str, np.ndarray], dict[str, str], 
     """Read a CSV trace: (SI columns, header text per column, line numbers, header line)."""
     if not path.is_file():
         raise InputError("file not found", file=path)
+    return _read_csv_table_any(path, _fast_file(path))
+
+
+def _read_csv_table_checked(path: Path):
+    """The checked reader only (row by row, cell by cell)."""
+    return _read_csv_table_any(path, None)
+
+
+def _read_csv_table_any(path: Path, fast):
     header: list[str] | None = None
     header_line = 0
     rows: list[list[str]] = []
     lines: list[int] = []
+    # a regular file (``fast``): only its header is read row by row here
     try:
-        with path.open(newline="", encoding="utf-8-sig") as fh:
+        with (io.StringIO(fast[0], newline="") if fast is not None
+              else path.open(newline="", encoding="utf-8-sig")) as fh:
             reader = csv.reader(fh)
             for row in reader:
                 if not row:
@@ -812,10 +824,16 @@ def _read_csv_table(path: Path) -> tuple[dict[str, np.ndarray], dict[str, str], 
         factors.append(_csv_unit_factor(name, unit, path, where))
         names.append(name)
         texts[name] = cell.strip()
+    ncol = len(names)
+    if fast is not None:
+        if fast[2].shape[1] == ncol:
+            data, lines = fast[2], fast[1]
+            columns = {name: data[:, c] * factors[c] for c, name in enumerate(names)}
+            return columns, texts, lines, header_line
+        return _read_csv_table_checked(path)
     if not rows:
         raise InputError("empty trace: the file has a header but no data rows", file=path,
                          where=f"line {header_line}")
-    ncol = len(names)
     data = _fast_cells(rows, ncol)
     if data is not None:  # every cell a finite number: the per-cell checks cannot fail
         columns = {name: data[:, c] * factors[c] for c, name in enumerate(names)}
@@ -840,6 +858,42 @@ def _read_csv_table(path: Path) -> tuple[dict[str, np.ndarray], dict[str, str], 
             data[r, c] = value
     columns = {name: data[:, c] * factors[c] for c, name in enumerate(names)}
     return columns, texts, np.array(lines), header_line
+
+
+def _fast_file(path: Path):
+    """A regular trace file parsed by pandas' C reader, or None when it is irregular.
+
+    Regular: comment and blank lines only above the header, then one row per line, every
+    cell a finite number. Returns (the text up to the end of the header line, line
+    numbers of the data rows, data). Anything else returns None and the file goes down the
+    checked reader, which names the line and column of a problem.
+    """
+    try:
+        text = path.read_text(encoding="utf-8-sig")
+    except (OSError, UnicodeDecodeError):
+        return None
+    pos, line = 0, 0
+    while True:  # skip comments and blank lines, then the header
+        end = text.find("\n", pos)
+        if end < 0:
+            return None
+        line += 1
+        cur = text[pos:end].strip()
+        pos = end + 1
+        if cur and not cur.startswith("#") and cur.strip(", \t\r"):
+            break
+    head, body = text[:pos], text[pos:]
+    if "#" in body or '"' in body or "\n\n" in body.replace("\r", ""):
+        return None
+    try:
+        df = pd.read_csv(io.StringIO(body), header=None, dtype=float, engine="c",
+                         skip_blank_lines=False)
+    except (ValueError, pd.errors.ParserError, pd.errors.EmptyDataError):
+        return None
+    data = df.to_numpy()
+    if data.size == 0 or not np.isfinite(data).all():
+        return None
+    return head, line + 1 + np.arange(len(data)), data
 
 
 def _fast_cells(rows: list[list[str]], ncol: int) -> np.ndarray | None:

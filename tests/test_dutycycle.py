@@ -733,3 +733,27 @@ def test_example_inputs_load(name):
     summary = dc.trace_summary(tr)
     assert 120 < summary["duration"] < 1200 and summary["climb"] > 10
     assert tr.attrs["climb_after_smoothing"] < tr.attrs["climb_before_smoothing"]
+
+
+def test_whole_file_reader_equals_the_checked_reader(tmp_path):
+    """The fast whole-file parse gives exactly what the row-by-row checked reader gives,
+    including line numbers, on a regular file with comments above the header and CRLF
+    line ends; an irregular file (a comment inside the data) takes the checked path."""
+    from tco.dutycycle import _fast_file, _read_csv_table, _read_csv_table_checked
+
+    src = Path(__file__).parent.parent / "inputs" / "example-trace.csv"
+    crlf = tmp_path / "crlf.csv"
+    crlf.write_bytes(src.read_bytes().replace(b"\n", b"\r\n"))
+    for f in (src, crlf):
+        assert _fast_file(f) is not None
+        fast, checked = _read_csv_table(f), _read_csv_table_checked(f)
+        assert fast[1] == checked[1] and fast[3] == checked[3]
+        np.testing.assert_array_equal(fast[2], checked[2])
+        for k in checked[0]:
+            np.testing.assert_array_equal(fast[0][k], checked[0][k])
+    odd = tmp_path / "odd.csv"
+    lines = src.read_text().splitlines()
+    odd.write_text("\n".join(lines[:10] + ["# a note in the middle"] + lines[10:]) + "\n")
+    assert _fast_file(odd) is None
+    cols, _, line_no, _ = _read_csv_table(odd)
+    assert len(line_no) == len(lines) - 3 and 11 not in set(line_no.tolist())  # 2 notes, header
