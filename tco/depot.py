@@ -35,7 +35,7 @@ from __future__ import annotations
 
 import heapq
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -82,6 +82,10 @@ class DepotSchedule:
         Share of the demand charge borne by each truck (peak-contribution share). [-]
     profile : numpy.ndarray
         (trucks, 24) share of each truck's energy drawn in each clock hour. [-]
+    arrive, depart : numpy.ndarray
+        Clock times of each truck's stay, as given. [s after midnight]
+    demand_interval : float
+        Interval the peak is averaged over. [s]
     """
 
     rule: str
@@ -99,6 +103,9 @@ class DepotSchedule:
     cost_share: np.ndarray
     demand_share: np.ndarray
     profile: np.ndarray
+    arrive: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    depart: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    demand_interval: float = DEFAULT_DEMAND_INTERVAL
 
     @property
     def feasible(self) -> np.ndarray:
@@ -273,7 +280,8 @@ def schedule(arrive, depart, energy, charger_power, rule: str = "first_come",
     if n == 0:
         z = np.zeros(0)
         return DepotSchedule(rule, 0, charger_power, 0.0, 0, np.zeros(day_slots), slot,
-                             np.zeros((0, day_slots)), z, z, z, z, z, z, np.zeros((0, 24)))
+                             np.zeros((0, day_slots)), z, z, z, z, z, z, np.zeros((0, 24)),
+                             z, z, float(demand_interval))
 
     if rule == "spread":
         drawn, short = _spread(a, stay, energy, per_slot, n_days, day_slots)
@@ -321,7 +329,7 @@ def schedule(arrive, depart, energy, charger_power, rule: str = "first_come",
         profile = np.where(delivered[:, None] > 0, hourly / delivered[:, None], 0.0)
     return DepotSchedule(rule, int(k), float(charger_power), peak, j, power, float(slot),
                          truck_power, delivered, shortfall, occupancy, contrib, cost_share,
-                         demand_share, profile)
+                         demand_share, profile, arrive, depart, float(demand_interval))
 
 
 def _present(a, stay, day_slots) -> np.ndarray:

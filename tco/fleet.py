@@ -558,6 +558,8 @@ class FleetResult:
         chargers and peak power of the plan.
     depot_all, depot_plan : DepotSchedule
         Depot schedule with every candidate, and with the plan's candidates only.
+    depot_all_vehicles, depot_plan_vehicles : list of str
+        The vehicle of each truck row of those schedules, in order.
     plan : list of str
         Vehicles the plan electrifies (feasible routes).
     energies, money : list
@@ -574,6 +576,8 @@ class FleetResult:
     depot_all: depot_model.DepotSchedule
     depot_plan: depot_model.DepotSchedule
     plan: list
+    depot_all_vehicles: list = field(default_factory=list)
+    depot_plan_vehicles: list = field(default_factory=list)
     energies: list = field(repr=False, default_factory=list)
     money: list = field(repr=False, default_factory=list)
     warnings: list = field(default_factory=list)
@@ -678,7 +682,10 @@ def evaluate_fleet(base: LoadedScenario, rows: list[FleetRow], fleet_file: Path,
     warnings = [f"{e.row.vehicle}: {w}" for e in energies for w in e.warnings]
     return FleetResult(base=base, fleet_file=Path(fleet_file), rule=rule, routes=routes,
                        order=order, yearly=yearly, depot_all=sched_all,
-                       depot_plan=sched_plan, plan=plan, energies=energies,
+                       depot_plan=sched_plan, plan=plan,
+                       depot_all_vehicles=[energies[k].row.vehicle for k in idx_all],
+                       depot_plan_vehicles=[energies[k].row.vehicle for k in idx_plan],
+                       energies=energies,
                        money=money, warnings=warnings, timings=timings)
 
 
