@@ -61,6 +61,19 @@ def _parser() -> argparse.ArgumentParser:
     fl.add_argument("--json-only", action="store_true", help="write fleet.json only")
     fl.add_argument("--quiet", action="store_true", help="print only the output paths")
 
+    bt = sub.add_parser("batch", help="run every scenario in a folder (one per client)",
+                        description="Run every *.toml scenario in FOLDER in parallel and write "
+                        "each one's outputs (as `tco run`) into OUT/<folder>/<scenario>/, "
+                        "plus index.json, index.xlsx, index.pdf and index.html across them. "
+                        "A bad scenario is reported and skipped; the rest finish (exit 2 if "
+                        "any was bad). Default: the bundled demo batch.")
+    bt.add_argument("folder", nargs="?", help="folder of scenario TOML files (default: demo)")
+    bt.add_argument("--out", default="out", help="output folder (default: ./out)")
+    bt.add_argument("--jobs", type=int, help="processes to use (default: every core)")
+    bt.add_argument("--json-only", action="store_true",
+                    help="write summary.json per scenario and index.json only")
+    bt.add_argument("--quiet", action="store_true", help="print only the output paths")
+
     init = sub.add_parser("init", help="write a commented starter scenario",
                           description="Write a commented starter scenario to PATH.")
     init.add_argument("path", nargs="?", default="scenario.toml",
@@ -164,6 +177,26 @@ def _cmd_fleet(args) -> int:
     return EXIT_OK
 
 
+def _cmd_batch(args) -> int:
+    from tco.batch import demo_batch_dir, run_batch
+    from tco.progress import Steps
+
+    jobs = _jobs(args.jobs)
+    folder = Path(args.folder) if args.folder else demo_batch_dir()
+    with Steps(quiet=args.quiet) as steps:
+        outcome = run_batch(folder, Path(args.out), jobs=jobs, json_only=args.json_only,
+                            progress=steps)
+    for bad in outcome.errors:
+        print(f"tco: error: {bad.error}", file=sys.stderr)
+    if not args.quiet:
+        print(f"{len(outcome.ok)} of {len(outcome.scenarios)} scenarios done"
+              + (f", {len(outcome.errors)} skipped (see above and the index)"
+                 if outcome.errors else "") + f" in {outcome.seconds:.1f} s")
+    for name in outcome.index:
+        print(name)
+    return EXIT_OK if outcome.all_ok else EXIT_INPUT
+
+
 def _cmd_init(args) -> int:
     from tco.starter import STARTER
 
@@ -187,7 +220,7 @@ def main(argv: list[str] | None = None) -> int:
         parser.print_help()
         return EXIT_INPUT
     handler = {"run": _cmd_run, "check": _cmd_check, "init": _cmd_init,
-               "fleet": _cmd_fleet}[args.command]
+               "fleet": _cmd_fleet, "batch": _cmd_batch}[args.command]
     try:
         return handler(args)
     except InputError as exc:

@@ -121,3 +121,46 @@ def test_unwritable_output_folder(capsys, tmp_path):
     blocker.write_text("x")
     code, _, err = run(capsys, "run", "--out", str(blocker / "sub"), "--json-only")
     assert code == 2 and "--out" in err
+
+
+def test_fleet_demo_json_only(capsys, tmp_path):
+    code, out, err = run(capsys, "fleet", "--out", str(tmp_path), "--json-only", "--jobs", "1")
+    assert code == 0, err
+    data = json.loads((tmp_path / "demo-fleet" / "fleet.json").read_text())
+    assert data["schema"] == "tco.fleet.summary/1"
+    assert "routes feasible" in out and str(tmp_path / "demo-fleet" / "fleet.json") in out
+
+
+def test_fleet_bad_row_is_one_line_exit_2_nothing_written(capsys, tmp_path):
+    from tco.resources import inputs_dir
+
+    src = inputs_dir() / "fleet"
+    fleet = tmp_path / "fleet.csv"
+    text = (src / "fleet.csv").read_text().replace("MF-102,", "MF-101,")
+    fleet.write_text(text.replace("cycles/", str(src / "cycles") + "/"))
+    code, out, err = run(capsys, "fleet", str(fleet), "--base", str(src / "base.toml"),
+                         "--out", str(tmp_path / "out"))
+    assert code == 2
+    assert err.strip() == (f"tco: error: {fleet}: row 5: duplicate vehicle id 'MF-101' "
+                           "(also on row 4)")
+    assert not (tmp_path / "out").exists()
+    code, out, err = run(capsys, "fleet", str(fleet), "--out", str(tmp_path / "out"))
+    assert code == 2 and "--base" in err  # no base.toml beside this fleet file
+
+
+def test_batch_with_a_bad_client_finishes_the_rest_exit_2(capsys, tmp_path):
+    folder = tmp_path / "clients"
+    folder.mkdir()
+    good = demo_path().read_text().replace("draws = 10000", "draws = 200")
+    (folder / "a.toml").write_text(good.replace('slug = "demo"', 'slug = "a"'))
+    (folder / "b.toml").write_text(good.replace('slug = "demo"', 'slug = "b"')
+                                   .replace("days_per_year = 250", "days_per_year = 400"))
+    code, out, err = run(capsys, "batch", str(folder), "--out", str(tmp_path / "out"),
+                         "--json-only", "--jobs", "1")
+    assert code == 2
+    assert err.strip().splitlines() == [
+        f"tco: error: {folder / 'b.toml'}: route.days_per_year: "
+        "must be at most 366"]
+    assert (tmp_path / "out" / "clients" / "a" / "summary.json").is_file()
+    assert not (tmp_path / "out" / "clients" / "b").exists()
+    assert (tmp_path / "out" / "clients" / "index.json").is_file()

@@ -47,6 +47,9 @@ def _later(fn, *args, **kwargs) -> _Lazy:
     return _Lazy(fn, args, kwargs)
 
 
+# Processes drawing the charts; batch workers (tco.batch) set it to 1 so that a batch
+# does not start a chart pool inside each of its own worker processes.
+CHART_WORKERS = 2
 _JOBS: list[_Lazy] = []
 
 
@@ -67,7 +70,7 @@ def _draw_all(jobs: list[_Lazy]) -> list[str]:
     import os
     from concurrent.futures import ProcessPoolExecutor
 
-    workers = min(2, os.cpu_count() or 1, len(jobs))
+    workers = min(CHART_WORKERS, os.cpu_count() or 1, len(jobs))
     if workers > 1 and "fork" in mp.get_all_start_methods():
         _JOBS = jobs
         try:
