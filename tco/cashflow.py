@@ -179,7 +179,7 @@ LINES: tuple[LineSpec, ...] = (
              "valued at the end", "tax"),
 )
 _LINE_NAMES = tuple(s.name for s in LINES)
-_DEDUCTIBLE = tuple(s.name for s in LINES if s.deductible)
+DEDUCTIBLE = tuple(s.name for s in LINES if s.deductible)
 
 #: AnnualOperation fields exposed as parameters ``operations[i].<field>``; the first group
 #: is yearly and scales with days and trips per day.
@@ -683,7 +683,7 @@ def _as_first(v, n_years: int) -> np.ndarray:
     return v
 
 
-_PROCEEDS = ("residual_value", "battery_remaining_life", "depot_residual")
+PROCEEDS = ("residual_value", "battery_remaining_life", "depot_residual")
 
 
 @dataclass(frozen=True)
@@ -857,9 +857,9 @@ class _Lines(dict):
             super().__setitem__(name, v)
         else:
             self.sums["total"].add(v)
-        if self.tax and name in _DEDUCTIBLE:
+        if self.tax and name in DEDUCTIBLE:
             self.sums["ded"].add(v)
-        if self.tax and name in _PROCEEDS:
+        if self.tax and name in PROCEEDS:
             self.sums["cred"].add(v)
 
     def update(self, other: dict) -> None:  # type: ignore[override]

@@ -326,11 +326,11 @@ def test_row_major_legend_order():
 
 
 def test_compact_tick_labels():
-    assert charts._compact(1_500) == "1.5k"
-    assert charts._compact(2_000_000) == "2M"
-    assert charts._compact(-250_000) == "\u2212250k"
-    assert charts._compact(0) == "0"
-    assert charts._compact(0.25) == "0.25"
+    assert charts.compact_number(1_500) == "1.5k"
+    assert charts.compact_number(2_000_000) == "2M"
+    assert charts.compact_number(-250_000) == "\u2212250k"
+    assert charts.compact_number(0) == "0"
+    assert charts.compact_number(0.25) == "0.25"
 
 
 # ---------------------------------------------------------------- workbook -----------

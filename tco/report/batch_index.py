@@ -47,6 +47,7 @@ from markupsafe import Markup
 
 from tco import __version__
 from tco.errors import InputError
+from tco.report.context import fmt_money, fmt_number
 
 __all__ = ["INDEX_SCHEMA", "TEMPLATE", "index_data", "index_rows", "currency_totals",
            "verdict_text", "build_index_context", "render_index_html", "write_index_workbook",
@@ -222,11 +223,11 @@ def _finite(x) -> bool:
 
 
 def _n(x, digits: int = 0) -> str:
-    return f"{x:,.{digits}f}" if _finite(x) else "–"
+    return fmt_number(x, digits) if _finite(x) else "–"
 
 
 def _money(x, cur: str, digits: int = 0) -> str:
-    return f"{_n(x, digits)} {cur}" if _finite(x) else "–"
+    return fmt_money(x, cur, digits) if _finite(x) else "–"
 
 
 def _pct(x, digits: int = 0) -> str:

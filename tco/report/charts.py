@@ -67,7 +67,7 @@ PALETTE = (
     "#F0E442",  # yellow
     "#7F7F7F",  # grey (extension for an eighth series)
 )
-_INK = "#222222"
+INK = "#222222"
 _GRID = "#D9D9D9"
 
 #: Width of the report's text column. [inch] (A4 with 18 mm margins: 174 mm ≈ 6.85 in)
@@ -84,7 +84,7 @@ _RC = {
     "ytick.labelsize": 8,
     "legend.fontsize": 8,
     "axes.edgecolor": "#555555",
-    "axes.labelcolor": _INK,
+    "axes.labelcolor": INK,
     "xtick.color": "#444444",
     "ytick.color": "#444444",
     "axes.linewidth": 0.6,
@@ -104,12 +104,12 @@ _RC = {
 
 
 @contextmanager
-def _style():
+def chart_style():
     with matplotlib.rc_context(_RC):
         yield
 
 
-def _figure(height: float, nrows: int = 1, ncols: int = 1, **kw):
+def new_figure(height: float, nrows: int = 1, ncols: int = 1, **kw):
     fig = Figure(figsize=(_WIDTH, height), layout="constrained")
     axes = fig.subplots(nrows, ncols, squeeze=False, **kw)
     return fig, axes
@@ -134,12 +134,12 @@ def svg_data_uri(fig: Figure) -> str:
     return "data:image/svg+xml;base64," + base64.b64encode(buf.getvalue()).decode("ascii")
 
 
-def _plain(text) -> str:
+def plain_text(text) -> str:
     """Text from data shown literally: mathtext's ``$`` escaped."""
     return str(text).replace("$", r"\$")
 
 
-def _compact(x: float, _pos=None) -> str:
+def compact_number(x: float, _pos=None) -> str:
     """Tick label with thousands shortened: 1500 → '1.5k', 2 500 000 → '2.5M'."""
     ax = abs(x)
     for factor, suffix in ((1e9, "G"), (1e6, "M"), (1e3, "k")):
@@ -175,7 +175,7 @@ def _row_major(items: list, ncol: int) -> list:
     return [item for col in columns for item in col]
 
 
-def _legend_below(fig: Figure, ax, ncol: int | None = None, last: str | None = None):
+def legend_below(fig: Figure, ax, ncol: int | None = None, last: str | None = None):
     handles, labels = ax.get_legend_handles_labels()
     if not handles:
         return
@@ -225,31 +225,31 @@ def cumulative_cost(df_years_by_truck: pd.DataFrame, breakeven_year: float | Non
     """
     if df_years_by_truck.empty:
         raise ValueError("cumulative_cost: no data")
-    with _style():
-        fig, axes = _figure(3.1)
+    with chart_style():
+        fig, axes = new_figure(3.1)
         ax = axes[0, 0]
         x = np.asarray(df_years_by_truck.index, dtype=float)
         colors = _truck_colors(df_years_by_truck.columns)
         for name in df_years_by_truck.columns:
             ax.plot(x, df_years_by_truck[name].to_numpy(float), marker="o", markersize=2.8,
-                    color=colors[name], label=_plain(name))
+                    color=colors[name], label=plain_text(name))
         if breakeven_year is not None and np.isfinite(breakeven_year):
             first = df_years_by_truck.iloc[:, 0].to_numpy(float)
             y = float(np.interp(breakeven_year, x, first))
-            ax.axvline(breakeven_year, color=_INK, linewidth=0.7, linestyle=(0, (3, 2)))
-            ax.plot([breakeven_year], [y], marker="D", markersize=6, color=_INK, zorder=5,
+            ax.axvline(breakeven_year, color=INK, linewidth=0.7, linestyle=(0, (3, 2)))
+            ax.plot([breakeven_year], [y], marker="D", markersize=6, color=INK, zorder=5,
                     linestyle="none")
             text = breakeven_label or f"Break-even: year {breakeven_year:.1f}"
-            ax.annotate(_plain(text), (breakeven_year, y), xytext=(-8, 10),
-                        textcoords="offset points", fontsize=8, color=_INK, ha="right",
+            ax.annotate(plain_text(text), (breakeven_year, y), xytext=(-8, 10),
+                        textcoords="offset points", fontsize=8, color=INK, ha="right",
                         bbox={"boxstyle": "round,pad=0.25", "fc": "white", "ec": "none",
                               "alpha": 0.9})
-        ax.set_xlabel(_plain(xlabel))
-        ax.set_ylabel(_plain(ylabel))
-        ax.yaxis.set_major_formatter(FuncFormatter(_compact))
+        ax.set_xlabel(plain_text(xlabel))
+        ax.set_ylabel(plain_text(ylabel))
+        ax.yaxis.set_major_formatter(FuncFormatter(compact_number))
         ax.xaxis.set_major_locator(MaxNLocator(integer=True))
         ax.set_xlim(x.min(), x.max())
-        _legend_below(fig, ax)
+        legend_below(fig, ax)
         return svg_data_uri(fig)
 
 
@@ -293,8 +293,8 @@ def stacked_yearly_cost(tidy_cashflow: pd.DataFrame, truck, *, ylabel: str,
         if sub.empty:
             raise ValueError(f"stacked_yearly_cost: no rows for truck {name!r}")
         subs.append(sub)
-    with _style():
-        fig, axes = _figure(3.0, ncols=len(trucks), sharey=True)
+    with chart_style():
+        fig, axes = new_figure(3.0, ncols=len(trucks), sharey=True)
         seen: dict = {}
         for ax, name, sub in zip(axes[0], trucks, subs):
             lines = [ln for ln in all_lines if ln in set(sub[line_col])]
@@ -318,18 +318,18 @@ def stacked_yearly_cost(tidy_cashflow: pd.DataFrame, truck, *, ylabel: str,
                 neg_base += neg
             net = wide.sum(axis=1).to_numpy(float)
             marker = ax.plot(x, net, linestyle="none", marker="_", markersize=9,
-                             markeredgewidth=2, color=_INK)[0]
+                             markeredgewidth=2, color=INK)[0]
             ax.axhline(0, color="#555555", linewidth=0.6)
-            ax.set_xlabel(_plain(xlabel))
-            ax.yaxis.set_major_formatter(FuncFormatter(_compact))
+            ax.set_xlabel(plain_text(xlabel))
+            ax.yaxis.set_major_formatter(FuncFormatter(compact_number))
             ax.xaxis.set_major_locator(MaxNLocator(integer=True))
             ax.grid(axis="x", visible=False)
             if len(trucks) > 1:
-                ax.set_title(_plain(name), loc="left", fontsize=8.5, color=_INK)
-        axes[0, 0].set_ylabel(_plain(ylabel))
+                ax.set_title(plain_text(name), loc="left", fontsize=8.5, color=INK)
+        axes[0, 0].set_ylabel(plain_text(ylabel))
         order = [ln for ln in all_lines if ln in seen]
         handles = [seen[ln] for ln in order] + [marker]
-        labels = [_plain(ln) for ln in order] + [_plain(net_label)]
+        labels = [plain_text(ln) for ln in order] + [plain_text(net_label)]
         ncol = min(len(labels), 4)
         pairs = _row_major(list(zip(handles, labels)), ncol)
         fig.legend([h for h, _ in pairs], [lab for _, lab in pairs],
@@ -361,8 +361,9 @@ def energy_components(per_km_by_truck: pd.DataFrame, *, xlabel: str,
     if per_km_by_truck.empty:
         raise ValueError("energy_components: no data")
     trucks = list(per_km_by_truck.columns)
-    with _style():
-        fig, axes = _figure(0.9 + 0.55 * len(trucks) + 0.25 * math.ceil(len(per_km_by_truck) / 4))
+    with chart_style():
+        fig, axes = new_figure(0.9 + 0.55 * len(trucks)
+                               + 0.25 * math.ceil(len(per_km_by_truck) / 4))
         ax = axes[0, 0]
         y = np.arange(len(trucks))[::-1].astype(float)
         pos_base = np.zeros(len(trucks))
@@ -371,7 +372,7 @@ def energy_components(per_km_by_truck: pd.DataFrame, *, xlabel: str,
             v = per_km_by_truck.loc[comp].to_numpy(float)
             pos, neg = np.clip(v, 0, None), np.clip(v, None, 0)
             color = PALETTE[i % len(PALETTE)]
-            ax.barh(y, pos, left=pos_base, height=0.6, color=color, label=_plain(comp),
+            ax.barh(y, pos, left=pos_base, height=0.6, color=color, label=plain_text(comp),
                     linewidth=0)
             if np.any(neg < 0):
                 ax.barh(y, neg, left=neg_base, height=0.6, color=color, linewidth=0,
@@ -380,13 +381,13 @@ def energy_components(per_km_by_truck: pd.DataFrame, *, xlabel: str,
             neg_base += neg
         net = per_km_by_truck.sum(axis=0).to_numpy(float)
         ax.plot(net, y, linestyle="none", marker="|", markersize=16, markeredgewidth=2.2,
-                color=_INK, label=_plain(net_label))
+                color=INK, label=plain_text(net_label))
         ax.axvline(0, color="#555555", linewidth=0.6)
-        ax.set_yticks(y, [_plain(t) for t in trucks])
-        ax.set_xlabel(_plain(xlabel))
+        ax.set_yticks(y, [plain_text(t) for t in trucks])
+        ax.set_xlabel(plain_text(xlabel))
         ax.grid(axis="y", visible=False)
         ax.tick_params(axis="y", length=0)
-        _legend_below(fig, ax, ncol=3, last=_plain(net_label))
+        legend_below(fig, ax, ncol=3, last=plain_text(net_label))
         return svg_data_uri(fig)
 
 
@@ -454,8 +455,8 @@ def duty_cycle(trace: pd.DataFrame, *, x: str = "time", xlabel: str,
     series = [_envelope(x_all, trace[p].to_numpy(float), max_points) for p in panels]
     colors = {"speed": PALETTE[0], "elevation": "#8C6D46", "soc": PALETTE[2],
               "power": PALETTE[1]}
-    with _style():
-        fig, axes = _figure(1.0 * len(panels) + 0.4, nrows=len(panels), sharex=True)
+    with chart_style():
+        fig, axes = new_figure(1.0 * len(panels) + 0.4, nrows=len(panels), sharex=True)
         for ax, name, (xs, y) in zip(axes[:, 0], panels, series):
             if name == "elevation":
                 ax.fill_between(xs, y, np.nanmin(y), color=colors[name], alpha=0.25,
@@ -470,10 +471,10 @@ def duty_cycle(trace: pd.DataFrame, *, x: str = "time", xlabel: str,
             else:
                 ax.plot(xs, y, color=colors[name], linewidth=0.9)
             # Horizontal panel titles read better than rotated labels on short panels.
-            ax.set_title(_plain(labels[name]), loc="left", fontsize=8, color=_INK, pad=3)
+            ax.set_title(plain_text(labels[name]), loc="left", fontsize=8, color=INK, pad=3)
             ax.yaxis.set_major_locator(MaxNLocator(4))
-            ax.yaxis.set_major_formatter(FuncFormatter(_compact))
-        axes[-1, 0].set_xlabel(_plain(xlabel))
+            ax.yaxis.set_major_formatter(FuncFormatter(compact_number))
+        axes[-1, 0].set_xlabel(plain_text(xlabel))
         axes[-1, 0].set_xlim(np.nanmin(x_all), np.nanmax(x_all))
         return svg_data_uri(fig)
 
@@ -503,8 +504,8 @@ def emissions_by_scope(tidy: pd.DataFrame, *, ylabel: str, xlabel: str = "Year",
         raise ValueError("emissions_by_scope: no data")
     trucks = list(dict.fromkeys(tidy[truck_col]))
     scopes = list(dict.fromkeys(tidy[scope_col]))
-    with _style():
-        fig, axes = _figure(2.9, ncols=len(trucks), sharey=True)
+    with chart_style():
+        fig, axes = new_figure(2.9, ncols=len(trucks), sharey=True)
         for ax, truck in zip(axes[0], trucks):
             sub = tidy[tidy[truck_col] == truck]
             wide = sub.pivot_table(index=year_col, columns=scope_col, values=value_col,
@@ -514,15 +515,15 @@ def emissions_by_scope(tidy: pd.DataFrame, *, ylabel: str, xlabel: str = "Year",
             for i, scope in enumerate(scopes):
                 v = wide[scope].to_numpy(float)
                 ax.bar(x, v, bottom=base, width=0.72, color=PALETTE[(i + 2) % len(PALETTE)],
-                       label=_plain(scope), linewidth=0)
+                       label=plain_text(scope), linewidth=0)
                 base += v
-            ax.set_title(_plain(truck), loc="left", fontsize=8.5, color=_INK)
-            ax.set_xlabel(_plain(xlabel))
+            ax.set_title(plain_text(truck), loc="left", fontsize=8.5, color=INK)
+            ax.set_xlabel(plain_text(xlabel))
             ax.xaxis.set_major_locator(MaxNLocator(integer=True))
             ax.grid(axis="x", visible=False)
-            ax.yaxis.set_major_formatter(FuncFormatter(_compact))
-        axes[0, 0].set_ylabel(_plain(ylabel))
-        _legend_below(fig, axes[0, 0])
+            ax.yaxis.set_major_formatter(FuncFormatter(compact_number))
+        axes[0, 0].set_ylabel(plain_text(ylabel))
+        legend_below(fig, axes[0, 0])
         return svg_data_uri(fig)
 
 
@@ -558,23 +559,24 @@ def tornado(rows: pd.DataFrame, base: float, *, xlabel: str, low_label: str = "I
     df = rows.assign(_swing=(rows["high"] - rows["low"]).abs())
     df = df.sort_values("_swing", ascending=False, kind="stable").head(max_rows)
     n = len(df)
-    with _style():
-        fig, axes = _figure(0.75 + 0.24 * n)
+    with chart_style():
+        fig, axes = new_figure(0.75 + 0.24 * n)
         ax = axes[0, 0]
         y = np.arange(n)[::-1].astype(float)
         low = df["low"].to_numpy(float)
         high = df["high"].to_numpy(float)
-        ax.barh(y, low - base, left=base, height=0.62, color=PALETTE[4], label=_plain(low_label),
+        ax.barh(y, low - base, left=base, height=0.62, color=PALETTE[4],
+                label=plain_text(low_label),
                 linewidth=0)
         ax.barh(y, high - base, left=base, height=0.62, color=PALETTE[0],
-                label=_plain(high_label), linewidth=0)
-        ax.axvline(base, color=_INK, linewidth=0.8)
-        ax.set_yticks(y, [_plain(t) for t in df["input"]])
+                label=plain_text(high_label), linewidth=0)
+        ax.axvline(base, color=INK, linewidth=0.8)
+        ax.set_yticks(y, [plain_text(t) for t in df["input"]])
         ax.tick_params(axis="y", length=0)
-        ax.set_xlabel(_plain(xlabel))
-        ax.xaxis.set_major_formatter(FuncFormatter(_compact))
+        ax.set_xlabel(plain_text(xlabel))
+        ax.xaxis.set_major_formatter(FuncFormatter(compact_number))
         ax.grid(axis="y", visible=False)
-        _legend_below(fig, ax)
+        legend_below(fig, ax)
         return svg_data_uri(fig)
 
 
@@ -611,8 +613,8 @@ def distribution(samples, label: str, *, ylabel: str = "Share of draws [%]", bin
     s = s[np.isfinite(s)]
     if s.size == 0:
         raise ValueError("distribution: no finite samples")
-    with _style():
-        fig, axes = _figure(2.8)
+    with chart_style():
+        fig, axes = new_figure(2.8)
         ax = axes[0, 0]
         weights = np.full(s.size, 100.0 / s.size)
         ax.hist(s, bins=bins, weights=weights, color=PALETTE[0], alpha=0.85, linewidth=0)
@@ -624,13 +626,13 @@ def distribution(samples, label: str, *, ylabel: str = "Share of draws [%]", bin
                         xytext=(0, 2), textcoords="offset points", fontsize=7.5,
                         color=PALETTE[1], ha="center", va="bottom", annotation_clip=False)
         if reference is not None:
-            ax.axvline(reference, color=_INK, linewidth=1.2, label=_plain(reference_label))
-        ax.set_xlabel(_plain(label))
-        ax.set_ylabel(_plain(ylabel))
-        ax.xaxis.set_major_formatter(FuncFormatter(_compact))
+            ax.axvline(reference, color=INK, linewidth=1.2, label=plain_text(reference_label))
+        ax.set_xlabel(plain_text(label))
+        ax.set_ylabel(plain_text(ylabel))
+        ax.xaxis.set_major_formatter(FuncFormatter(compact_number))
         ax.grid(axis="x", visible=False)
         if reference is not None:
-            _legend_below(fig, ax)
+            legend_below(fig, ax)
         return svg_data_uri(fig)
 
 
@@ -659,9 +661,9 @@ def equation(tex: str, *, fontsize: float = 11.0) -> str:
     ValueError
         ``tex`` is not valid mathtext.
     """
-    with _style(), matplotlib.rc_context({"mathtext.fontset": "dejavuserif"}):
+    with chart_style(), matplotlib.rc_context({"mathtext.fontset": "dejavuserif"}):
         fig = Figure(figsize=(0.1, 0.1))
-        fig.text(0, 0, f"${tex}$", fontsize=fontsize, color=_INK)
+        fig.text(0, 0, f"${tex}$", fontsize=fontsize, color=INK)
         buf = io.BytesIO()
         fig.savefig(buf, format="svg", metadata={"Date": None}, bbox_inches="tight",
                     pad_inches=0.02, transparent=True)

@@ -121,18 +121,20 @@ def _resolve(obj):
     return put(obj)
 
 
-def _n(x: float | None, digits: int = 0) -> str:
+def fmt_number(x: float | None, digits: int = 0) -> str:
     """A number with thousands separators, or an en dash when missing."""
     if x is None or (isinstance(x, float) and not math.isfinite(x)):
         return "–"
     return f"{x:,.{digits}f}"
 
 
-def _money(x, cur: str, digits: int = 0) -> str:
-    return "–" if x is None else f"{_n(x, digits)} {cur}"
+def fmt_money(x, cur: str, digits: int = 0) -> str:
+    """An amount with thousands separators and its ISO 4217 code, or an en dash."""
+    text = fmt_number(x, digits)
+    return text if text == "–" else f"{text} {cur}"
 
 
-class _Units:
+class DisplayUnits:
     """Display units for the scenario's unit system."""
 
     def __init__(self, system: str):
@@ -164,8 +166,8 @@ def _verdict(result, summary: dict) -> str:
         avoided = (emissions.get(c.truck, {}).get("avoided_kg_total") or {}).get("location")
         parts.append(
             f"Over {cf.analysis_years} years the {c.truck} costs "
-            f"{_money(abs(diff), cur)} {word} than the {c.baseline} in present value"
-            + (f" and avoids {_n(avoided / 1000, 0)} t CO2e (well-to-wheel, location-based)"
+            f"{fmt_money(abs(diff), cur)} {word} than the {c.baseline} in present value"
+            + (f" and avoids {fmt_number(avoided / 1000, 0)} t CO2e (well-to-wheel, location-based)"
                if avoided is not None else "")
             + f"; {_feasible_text(result.trucks[c.truck])}.")
     return " ".join(parts)
@@ -202,7 +204,7 @@ def _feasible_short(tr) -> tuple[str, str]:
     return "No", "the battery cannot do the day and no en-route charging is given"
 
 
-def _key_figures(result, u: _Units, summary: dict) -> list[dict]:
+def _key_figures(result, u: DisplayUnits, summary: dict) -> list[dict]:
     cf = result.cashflow
     cur = result.scenario.study.currency
     out = []
@@ -213,7 +215,7 @@ def _key_figures(result, u: _Units, summary: dict) -> list[dict]:
     em = summary["emissions"]["comparison"]
     for c in cf.comparisons:
         out.append({"label": f"Present value difference, {c.truck} − {c.baseline}",
-                    "value": _money(c.present_value_difference, cur),
+                    "value": fmt_money(c.present_value_difference, cur),
                     "note": "positive: costs more"})
         out.append({"label": "Payback of the extra purchase cost",
                     "value": (f"year {c.simple_payback_year}" if c.simple_payback_year
@@ -227,11 +229,11 @@ def _key_figures(result, u: _Units, summary: dict) -> list[dict]:
         e = em.get(c.truck, {})
         avoided = (e.get("avoided_kg_total") or {}).get("location")
         out.append({"label": f"Emissions avoided by the {c.truck}",
-                    "value": f"{_n(avoided / 1000 if avoided is not None else None)} t CO2e",
+                    "value": f"{fmt_number(None if avoided is None else avoided / 1000)} t CO2e",
                     "note": f"well-to-wheel, location-based, {cf.analysis_years} years"})
         ab = (e.get("abatement_cost_per_tonne") or {}).get("location")
         out.append({"label": "Abatement cost",
-                    "value": f"{_n(ab)} {cur}/t CO2e" if ab is not None else "–",
+                    "value": f"{fmt_number(ab)} {cur}/t CO2e" if ab is not None else "–",
                     "note": "PV cost difference ÷ tonnes avoided (tonnes "
                     + ("discounted)" if e.get("tonnes_discounted") else "not discounted)")})
     for name, tr in result.trucks.items():
@@ -270,7 +272,7 @@ def _breakeven_year(cum: pd.DataFrame) -> float | None:
     return None
 
 
-def _charts(result, u: _Units) -> dict:
+def _charts(result, u: DisplayUnits) -> dict:
     cf = result.cashflow
     cur = result.scenario.study.currency
     names = [m.name for m in cf.trucks]
@@ -378,7 +380,8 @@ def _uncertainty_tables(result, cur: str) -> list[dict]:
     t = unc.tornado
     if not t.empty:
         rows = [[r.input, f"{r.low_value:.4g} – {r.high_value:.4g} {r.unit}".strip(),
-                 _n(r.low), _n(r.high), _n(r.swing)] for r in t.itertuples()]
+                 fmt_number(r.low), fmt_number(r.high), fmt_number(r.swing)]
+                for r in t.itertuples()]
         tables.append({"title": "Sensitivity, one input at a time",
                        "columns": ["Input", "Low – high", f"ΔPV low [{cur}]",
                                    f"ΔPV high [{cur}]", f"Swing [{cur}]"],
@@ -400,7 +403,7 @@ def _uncertainty_tables(result, cur: str) -> list[dict]:
     for r in st.itertuples():
         if r.quantity in labels:
             name, k, d = labels[r.quantity]
-            rows.append([f"{r.truck}: {name}"] + [_n(v * k if math.isfinite(v) else v, d)
+            rows.append([f"{r.truck}: {name}"] + [fmt_number(v * k if math.isfinite(v) else v, d)
                                                   for v in (r.p10, r.p50, r.p90)])
     for r in unc.probabilities.itertuples():
         rows.append([f"{r.truck}: P({r.event.replace('_', ' ')})",
@@ -412,7 +415,7 @@ def _uncertainty_tables(result, cur: str) -> list[dict]:
     return tables
 
 
-def _energy_frame(result, u: _Units) -> pd.DataFrame:
+def _energy_frame(result, u: DisplayUnits) -> pd.DataFrame:
     names = {"aerodynamic": "Aerodynamic drag", "rolling": "Rolling resistance",
              "climbing": "Climbing", "descending": "Descending (given back)",
              "acceleration": "Acceleration", "deceleration": "Slowing (given back)"}
@@ -439,7 +442,7 @@ def _diesel_lhv_per_m3(result, truck: str) -> float:
     return t.diesel.fuel_lhv * t.diesel.fuel_density
 
 
-def _trace_frame(tr, u: _Units) -> pd.DataFrame:
+def _trace_frame(tr, u: DisplayUnits) -> pd.DataFrame:
     t = tr.trace
     out = pd.DataFrame({
         "time": t["time"] / 3600.0,
@@ -454,7 +457,7 @@ def _trace_frame(tr, u: _Units) -> pd.DataFrame:
     return out
 
 
-def _tables(result, u: _Units, summary: dict) -> list[dict]:
+def _tables(result, u: DisplayUnits, summary: dict) -> list[dict]:
     cf = result.cashflow
     cur = result.scenario.study.currency
     names = list(result.trucks)
@@ -464,38 +467,39 @@ def _tables(result, u: _Units, summary: dict) -> list[dict]:
     s = summary["trucks"]
     sysk = "us" if u.us else "metric"
     rows.append(["Distance per trip [" + u.dist + "]"]
-                + [_n(u.distance(result.trucks[n].summary["trip_distance"]), 1) for n in names])
+                + [fmt_number(u.distance(result.trucks[n].summary["trip_distance"]), 1)
+                   for n in names])
     rows.append(["Wheel energy, traction per trip [kWh]"]
-                + [_n(s[n]["per_trip"]["wheel_energy_kWh"]["traction"], 1) for n in names])
+                + [fmt_number(s[n]["per_trip"]["wheel_energy_kWh"]["traction"], 1) for n in names])
     rows.append(["Diesel per trip [" + ("US gal" if u.us else "L") + "]"]
-                + [_n(from_si(result.trucks[n].summary.get("fuel_volume", 0.0),
+                + [fmt_number(from_si(result.trucks[n].summary.get("fuel_volume", 0.0),
                               "gal" if u.us else "L"), 1) for n in names])
     rows.append(["Fuel use [" + ("mpg" if u.us else "L/100 km") + "]"]
-                + [_n(s[n]["per_distance"][sysk].get("fuel_mpg" if u.us else
+                + [fmt_number(s[n]["per_distance"][sysk].get("fuel_mpg" if u.us else
                                                      "fuel_L_per_100km"), 1) for n in names])
     rows.append(["Battery energy per trip, net [kWh]"]
-                + [_n(s[n]["per_trip"].get("battery_net_kWh"), 1) for n in names])
+                + [fmt_number(s[n]["per_trip"].get("battery_net_kWh"), 1) for n in names])
     rows.append([f"Electricity at the meter [kWh/{u.dist}]"]
-                + [_n(s[n]["per_distance"][sysk].get(f"grid_kWh_per_{u.dist}"), 3)
+                + [fmt_number(s[n]["per_distance"][sysk].get(f"grid_kWh_per_{u.dist}"), 3)
                    for n in names])
     rows.append(["Lowest state of charge in the day [%]"]
-                + [_n(100 * s[n]["feasibility"]["soc_min"], 0)
+                + [fmt_number(100 * s[n]["feasibility"]["soc_min"], 0)
                    if "soc_min" in s[n]["feasibility"] else "–" for n in names])
     rows.append(["Payload capacity [" + ("lb" if u.us else "t") + "]"]
-                + [_n(from_si(result.trucks[n].summary["payload_capacity"],
+                + [fmt_number(from_si(result.trucks[n].summary["payload_capacity"],
                               "lb" if u.us else "t"), 1) for n in names])
     rows.append([f"Distance per year [{u.dist}]"]
-                + [_n(u.distance(result.trucks[n].operation.distance)) for n in names])
+                + [fmt_number(u.distance(result.trucks[n].operation.distance)) for n in names])
     rows.append(["Extra trips per year (payload)"]
-                + [_n(result.trucks[n].operation.extra_trips, 0) for n in names])
+                + [fmt_number(result.trucks[n].operation.extra_trips, 0) for n in names])
     tables.append({"title": "Energy and operation", "columns": ["Figure"] + names,
                    "rows": rows, "note": "Per trip unless stated; one operating day = "
-                   f"{_n(result.scenario.route.trips_per_day, 1)} trips."})
+                   f"{fmt_number(result.scenario.route.trips_per_day, 1)} trips."})
     # yearly net cost
     totals = cf.yearly_totals()[[m.name for m in cf.trucks]]
     cols = ["Year"] + [f"{n} [{cur}]" for n in totals.columns]
-    rows = [[str(y)] + [_n(v) for v in totals.loc[y]] for y in totals.index]
-    rows.append(["Present value"] + [_n(m.present_value) for m in cf.trucks])
+    rows = [[str(y)] + [fmt_number(v) for v in totals.loc[y]] for y in totals.index]
+    rows.append(["Present value"] + [fmt_number(m.present_value) for m in cf.trucks])
     tables.append({"title": "Net cost by year", "columns": cols, "rows": rows,
                    "note": f"{cf.money_basis.capitalize()} money; year 0 is the purchase; "
                            f"discount rate {cf.discount_rate:.1%}."})
@@ -505,7 +509,7 @@ def _tables(result, u: _Units, summary: dict) -> list[dict]:
         for k in m.present_value_by_line:
             if k not in lines:
                 lines.append(k)
-    rows = [[k.replace("_", " ")] + [_n(m.present_value_by_line.get(k, 0.0))
+    rows = [[k.replace("_", " ")] + [fmt_number(m.present_value_by_line.get(k, 0.0))
                                      for m in cf.trucks] for k in lines]
     tables.append({"title": "Present value by cost line", "columns": ["Line"] + [
         f"{m.name} [{cur}]" for m in cf.trucks], "rows": rows,
@@ -518,7 +522,7 @@ def _tables(result, u: _Units, summary: dict) -> list[dict]:
                            ("purchase_price", f"Purchase price of the {c['truck']} [{cur}]"),
                            ("annual_distance_km", "Annual distance [km]")):
             b = c["break_even"][key]
-            rows.append([label, _n(b["value"], 3 if "price_per" in key else 0),
+            rows.append([label, fmt_number(b["value"], 3 if "price_per" in key else 0),
                          b["note"] or ""])
     tables.append({"title": "Break-even values", "columns": ["Input", "Value", "Note"],
                    "rows": rows, "note": "The value at which the trucks cost the same in "
@@ -529,12 +533,12 @@ def _tables(result, u: _Units, summary: dict) -> list[dict]:
             ("scope_2_market", "Scope 2, market-based"), ("scope_3_cat3", "Scope 3 cat. 3"),
             ("ttw", "Tank-to-wheel"), ("wtw", "Well-to-wheel (location)"),
             ("wtw_market", "Well-to-wheel (market)")]
-    rows = [[label + " [t CO2e]"] + [_n(e[n]["total_kg"][k] / 1000, 1) for n in names]
+    rows = [[label + " [t CO2e]"] + [fmt_number(e[n]["total_kg"][k] / 1000, 1) for n in names]
             for k, label in keys]
     rows.append(["Well-to-wheel intensity [g CO2e/t·km]"]
-                + [_n(e[n]["g_co2e_per_tkm"]["wtw"], 1) for n in names])
+                + [fmt_number(e[n]["g_co2e_per_tkm"]["wtw"], 1) for n in names])
     rows.append(["Well-to-wheel intensity [g CO2e/km]"]
-                + [_n(e[n]["g_co2e_per_km"]["wtw"], 0) for n in names])
+                + [fmt_number(e[n]["g_co2e_per_km"]["wtw"], 0) for n in names])
     tables.append({"title": f"Emissions over {cf.analysis_years} years",
                    "columns": ["Frame"] + names, "rows": rows,
                    "note": "GHG Protocol scopes and ISO 14083 tank-to-wheel / well-to-wheel."})
@@ -595,7 +599,7 @@ METHOD_NOTES = [
 def build_context(result, summary: dict) -> dict:
     """The report context of a Result (see :mod:`tco.report.html` for the structure)."""
     s = result.scenario
-    u = _Units(s.study.units)
+    u = DisplayUnits(s.study.units)
     notes = [{"title": t, "text": x, "equation": eq, "equation_uri": _later(charts.equation, tex)}
              for t, x, eq, tex in METHOD_NOTES]
     cautions = list(CAUTIONS) + [c for c in summary["emissions"].get("cautions", [])[1:]]

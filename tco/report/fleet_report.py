@@ -46,7 +46,8 @@ from tco.errors import InputError
 from tco.report import charts
 from tco.report import workbook_base as wbb
 from tco.report.atomic import staged_output
-from tco.report.context import _money, _n, _Units
+from tco.report.context import DisplayUnits, fmt_money
+from tco.report.context import fmt_number as _n
 from tco.report.fleet_summary import (build_fleet_summary, depot_vehicles, dumps,
                                       interval_means, table_interval)
 from tco.report.html import PAGE_SIZES, STYLESHEET, environment
@@ -187,26 +188,26 @@ def depot_power_chart(frame: pd.DataFrame, *, start_hour: int, ylabel: str,
     x = np.asarray(frame.index, dtype=float)
     step = float(x[1] - x[0]) if len(x) > 1 else 24.0
     xs = np.append(x, x[-1] + step)  # one more edge, so the last interval is drawn
-    with charts._style():
-        fig, axes = charts._figure(3.0)
+    with charts.chart_style():
+        fig, axes = charts.new_figure(3.0)
         ax = axes[0, 0]
         ys = [np.append(frame[c].to_numpy(float), frame[c].iloc[-1]) for c in frame.columns]
         colors = [charts.PALETTE[i % len(charts.PALETTE)] for i in range(len(ys))]
-        ax.stackplot(xs, ys, labels=[charts._plain(c) for c in frame.columns],
+        ax.stackplot(xs, ys, labels=[charts.plain_text(c) for c in frame.columns],
                      colors=colors, step="post", linewidth=0)
-        ax.axhline(peak_kW, color=charts._INK, linewidth=0.9, linestyle=(0, (4, 2)),
-                   label=charts._plain(peak_label))
+        ax.axhline(peak_kW, color=charts.INK, linewidth=0.9, linestyle=(0, (4, 2)),
+                   label=charts.plain_text(peak_label))
         if capacity_kW is not None and capacity_kW > peak_kW * 1.001:
             ax.axhline(capacity_kW, color="#777777", linewidth=0.8, linestyle=(0, (1, 2)),
-                       label=charts._plain(capacity_label))
+                       label=charts.plain_text(capacity_label))
         ax.set_xlim(0, 24)
         ax.set_ylim(0, max(peak_kW, capacity_kW or 0.0, 1e-9) * 1.12)
         ax.xaxis.set_major_locator(MaxNLocator(nbins=12, steps=[1, 2, 3, 6]))
         ax.xaxis.set_major_formatter(_clock_ticks(start_hour))
-        ax.yaxis.set_major_formatter(FuncFormatter(charts._compact))
-        ax.set_xlabel(charts._plain(xlabel))
-        ax.set_ylabel(charts._plain(ylabel))
-        charts._legend_below(fig, ax, ncol=min(4, len(ys) + 1))
+        ax.yaxis.set_major_formatter(FuncFormatter(charts.compact_number))
+        ax.set_xlabel(charts.plain_text(xlabel))
+        ax.set_ylabel(charts.plain_text(ylabel))
+        charts.legend_below(fig, ax, ncol=min(4, len(ys) + 1))
         return charts.svg_data_uri(fig)
 
 
@@ -247,8 +248,8 @@ def cumulative_chart(labels: list[str], saving, avoided, in_plan, *, money_label
         raise ValueError("cumulative_chart: no routes")
     x = np.arange(1, n + 1, dtype=float)
     bar_colors = np.where(plan, charts.PALETTE[0], "#B0B0B0")
-    with charts._style():
-        fig, axes = charts._figure(4.4, nrows=2, sharex=True)
+    with charts.chart_style():
+        fig, axes = charts.new_figure(4.4, nrows=2, sharex=True)
         top, bottom = axes[0, 0], axes[1, 0]
         for ax, per, color, label in ((top, s, charts.PALETTE[1], money_label),
                                       (bottom, a, charts.PALETTE[2], tonnes_label)):
@@ -256,19 +257,19 @@ def cumulative_chart(labels: list[str], saving, avoided, in_plan, *, money_label
             ax.plot(x, np.cumsum(per), color=color, marker="o", markersize=3,
                     label="Cumulative")
             ax.axhline(0, color="#555555", linewidth=0.6)
-            ax.set_title(charts._plain(label), loc="left", fontsize=8, color=charts._INK,
+            ax.set_title(charts.plain_text(label), loc="left", fontsize=8, color=charts.INK,
                          pad=3)
-            ax.yaxis.set_major_formatter(FuncFormatter(charts._compact))
+            ax.yaxis.set_major_formatter(FuncFormatter(charts.compact_number))
             ax.grid(axis="x", visible=False)
             if plan.any() and not plan.all():
-                ax.axvline(int(plan.sum()) + 0.5, color=charts._INK, linewidth=0.7,
+                ax.axvline(int(plan.sum()) + 0.5, color=charts.INK, linewidth=0.7,
                            linestyle=(0, (3, 2)))
         if n <= 30:
-            bottom.set_xticks(x, [charts._plain(t) for t in labels], rotation=60,
+            bottom.set_xticks(x, [charts.plain_text(t) for t in labels], rotation=60,
                               ha="right", fontsize=7)
         else:
             bottom.xaxis.set_major_locator(MaxNLocator(integer=True))
-        bottom.set_xlabel(charts._plain(xlabel))
+        bottom.set_xlabel(charts.plain_text(xlabel))
         from matplotlib.lines import Line2D
         from matplotlib.patches import Patch
 
@@ -277,7 +278,7 @@ def cumulative_chart(labels: list[str], saving, avoided, in_plan, *, money_label
                    Line2D([], [], color=charts.PALETTE[1], marker="o", markersize=3),
                    Line2D([], [], color=charts.PALETTE[2], marker="o", markersize=3)]
         names = [plan_label, other_label, "Cumulative saving", "Cumulative tonnes"]
-        fig.legend(handles, [charts._plain(t) for t in names], loc="outside lower center",
+        fig.legend(handles, [charts.plain_text(t) for t in names], loc="outside lower center",
                    ncol=4, handlelength=1.6, columnspacing=1.4)
         return charts.svg_data_uri(fig)
 
@@ -351,7 +352,7 @@ def _verdict(s: dict) -> str:
     tail = "" if p["pv_saving"] >= 0 else " more"
     dep = s["depot"]
     return (f"{n} of {total} {routes} can be run by {own} electric candidate. Electrifying "
-            f"{them} {word} {_money(abs(p['pv_saving']), cur)}{tail} in present value over "
+            f"{them} {word} {fmt_money(abs(p['pv_saving']), cur)}{tail} in present value over "
             f"{years} years and avoids {_n(p['avoided_t'])} t CO2e well-to-wheel; the depot "
             f"needs {p['chargers']} charger{'s' if p['chargers'] != 1 else ''} of "
             f"{_n(dep['charger_kW'])} kW and a peak of {_n(p['peak_kW'])} kW.")
@@ -368,7 +369,7 @@ def _key_figures(s: dict) -> list[dict]:
         {"label": "Routes the electric candidate can run",
          "value": f"{p['routes_feasible']} of {p['routes_total']}",
          "note": "the plan electrifies these"},
-        {"label": "Present-value saving of the plan", "value": _money(p["pv_saving"], cur),
+        {"label": "Present-value saving of the plan", "value": fmt_money(p["pv_saving"], cur),
          "note": f"cost as-is minus cost with the plan, {basis}"},
         {"label": "Emissions avoided by the plan", "value": f"{_n(p['avoided_t'])} t CO2e",
          "note": f"well-to-wheel, location-based, {tonnes}"},
@@ -421,7 +422,7 @@ def _remedies(s: dict) -> list[dict]:
             for r in s["order"] if r["remedies"]]
 
 
-def _routes_tables(s: dict, u: _Units) -> list[dict]:
+def _routes_tables(s: dict, u: DisplayUnits) -> list[dict]:
     cur = s["currency"]
     per = u.per_dist / 1000.0  # display distance unit per km
     ops, money = [], []
@@ -565,7 +566,7 @@ def build_fleet_context(result, summary: dict) -> dict:
     """
     s = summary
     st = s["study"]
-    u = _Units(st["units"])
+    u = DisplayUnits(st["units"])
     fleet_hash = s["inputs"]["fleet_file_sha256"]
     return {
         "meta": {"title": st["name"], "notes": st["notes"] or "", "date": s["created"][:10],

@@ -50,7 +50,7 @@ import numpy as np
 
 from tco import __version__
 from tco.depot import DEFAULT_DEMAND_INTERVAL
-from tco.report.summary import _clean, dumps
+from tco.report.summary import clean_json, dumps
 
 __all__ = ["SCHEMA", "build_fleet_summary", "dumps", "file_sha256", "depot_vehicles",
            "interval_means", "route_records", "order_records", "yearly_records", "clock"]
@@ -407,4 +407,4 @@ def build_fleet_summary(result, created: str | None = None) -> dict:
         "cautions": cautions(),
         "assumptions": _assumptions(loaded),
     }
-    return _clean(out)
+    return clean_json(out)

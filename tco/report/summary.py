@@ -20,14 +20,14 @@ KWH = 3.6e6
 _L = 1e-3
 
 
-def _clean(x: Any) -> Any:
+def clean_json(x: Any) -> Any:
     """JSON-safe: numpy scalars to Python, NaN/inf to None, recursively."""
     if isinstance(x, dict):
-        return {str(k): _clean(v) for k, v in x.items()}
+        return {str(k): clean_json(v) for k, v in x.items()}
     if isinstance(x, (list, tuple)):
-        return [_clean(v) for v in x]
+        return [clean_json(v) for v in x]
     if isinstance(x, np.ndarray):
-        return [_clean(v) for v in x.tolist()]
+        return [clean_json(v) for v in x.tolist()]
     if isinstance(x, (np.bool_, bool)):
         return bool(x)
     if isinstance(x, (np.integer,)):
@@ -173,7 +173,8 @@ def build_summary(result) -> dict:
         },
         "route": {
             "trips_per_day": s.route.trips_per_day, "days_per_year": s.route.days_per_year,
-            "trip_distance_km": rs["distance"] / 1000, "trip_distance_mi": rs["distance"] / 1609.344,
+            "trip_distance_km": rs["distance"] / 1000,
+            "trip_distance_mi": rs["distance"] / 1609.344,
             "trip_duration_h": rs["duration"] / 3600,
             "climb_m": rs.get("climb"), "descent_m": rs.get("descent"),
             "stops": rs.get("stops"),
@@ -196,7 +197,7 @@ def build_summary(result) -> dict:
         from tco.uncertainty import uncertainty_summary
 
         out["uncertainty"] = uncertainty_summary(result.uncertainty)
-    return _clean(out)
+    return clean_json(out)
 
 
 def dumps(summary: dict) -> str:

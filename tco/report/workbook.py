@@ -903,9 +903,9 @@ class _Book:
         return "(" + ("+".join(parts) or "0") + ")"
 
     def _cashflow_sheet(self) -> None:
-        from tco.cashflow import _DEDUCTIBLE, _PROCEEDS, LINES
+        from tco.cashflow import DEDUCTIBLE, PROCEEDS, LINES
 
-        self._ded, self._proceeds = set(_DEDUCTIBLE), set(_PROCEEDS)
+        self._ded, self._proceeds = set(DEDUCTIBLE), set(PROCEEDS)
         desc = {s.name: s.description for s in LINES}
         ws, N, cur = self.ws_cf, self.N, self.cur
         basis = "real, money of year 0" if self.real else "nominal"
