@@ -74,6 +74,23 @@ def _parser() -> argparse.ArgumentParser:
                     help="write summary.json per scenario and index.json only")
     bt.add_argument("--quiet", action="store_true", help="print only the output paths")
 
+    tm = sub.add_parser("telematics", help="energy of recorded vehicle-days (Parquet, Dask)",
+                        description="Replay partitioned Parquet telematics (vehicle, timestamp, "
+                        "speed, elevation or grade, payload) through the energy model for "
+                        "every truck of a base scenario, one vehicle-day at a time; in this "
+                        "process, on a local Dask cluster (--workers) or on an existing one "
+                        "(--scheduler). Writes vehicle_days.csv, vehicles.csv, "
+                        "skipped_days.csv and telematics.xlsx into OUT/<dataset>/. Without a "
+                        "dataset, writes and replays a small invented example.")
+    tm.add_argument("dataset", nargs="?", help="folder of Parquet files, or one file")
+    tm.add_argument("--base", help="scenario whose trucks are replayed (default: the demo)")
+    tm.add_argument("--workers", type=int, help="start a local Dask cluster of N processes")
+    tm.add_argument("--scheduler", help="address of a running Dask scheduler "
+                    "(tcp://host:port)")
+    tm.add_argument("--memory-limit", help="memory limit per local worker, e.g. 700MB")
+    tm.add_argument("--out", default="out", help="output folder (default: ./out)")
+    tm.add_argument("--quiet", action="store_true", help="print only the output paths")
+
     init = sub.add_parser("init", help="write a commented starter scenario",
                           description="Write a commented starter scenario to PATH.")
     init.add_argument("path", nargs="?", default="scenario.toml",
@@ -197,6 +214,55 @@ def _cmd_batch(args) -> int:
     return EXIT_OK if outcome.all_ok else EXIT_INPUT
 
 
+def _cmd_telematics(args) -> int:
+    from tco import telematics
+    from tco.progress import Steps
+    from tco.report.atomic import check_writable
+    from tco.resources import demo_path
+    from tco.scenario import load_scenario
+
+    if args.workers is not None and args.workers < 1:
+        raise InputError("must be 1 or more", where="--workers")
+    if args.workers and args.scheduler:
+        raise InputError("give --workers or --scheduler, not both", where="--scheduler")
+    loaded = load_scenario(Path(args.base) if args.base else demo_path())
+    out = Path(args.out)
+    if args.dataset:
+        dataset = Path(args.dataset)
+        name = (dataset.stem if dataset.is_file() else dataset.resolve().name) or "telematics"
+    else:
+        name = "telematics-example"
+        dataset = out / name / "data"
+    target = out / name
+    check_writable(target)
+    with Steps(quiet=args.quiet) as steps:
+        if not args.dataset:
+            steps.start("writing an invented example dataset")
+            telematics.write_example_dataset(dataset)
+        steps.start("replaying vehicle-days")
+        bar = {}
+
+        def progress(done, total):
+            if "advance" not in bar:
+                bar["advance"] = steps.bar(total, "partitions")
+            bar["advance"](1)
+
+        result = telematics.process(dataset, loaded, scheduler=args.scheduler,
+                                    local_workers=args.workers,
+                                    memory_limit=args.memory_limit, progress=progress)
+        steps.start("writing outputs")
+        written = telematics.write_outputs(result, target)
+    if not args.quiet:
+        vd = result.vehicle_days
+        days = len(vd[["vehicle", "day"]].drop_duplicates())
+        print(f"{vd['vehicle'].nunique()} vehicles, {days} vehicle-days, "
+              f"{len(result.partitions)} partitions ({result.backend}); "
+              f"{len(result.skipped)} vehicle-days skipped")
+    for f in written:
+        print(f)
+    return EXIT_OK
+
+
 def _cmd_init(args) -> int:
     from tco.starter import STARTER
 
@@ -220,7 +286,8 @@ def main(argv: list[str] | None = None) -> int:
         parser.print_help()
         return EXIT_INPUT
     handler = {"run": _cmd_run, "check": _cmd_check, "init": _cmd_init,
-               "fleet": _cmd_fleet, "batch": _cmd_batch}[args.command]
+               "fleet": _cmd_fleet, "batch": _cmd_batch,
+               "telematics": _cmd_telematics}[args.command]
     try:
         return handler(args)
     except InputError as exc:

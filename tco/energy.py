@@ -71,8 +71,8 @@ def electric_parameters(e, temperature: float, state_of_health: float = 1.0
 
 # Neutral parameters for the powertrain a truck does not have (the fused kernel computes
 # both; the unused one is ignored).
-_NO_DIESEL = DieselPowertrain(1e9, 1.0, 0.5)
-_NO_ELECTRIC = ElectricPowertrain(1e12, 1e9, 1.0, 1.0, 0.0)
+NO_DIESEL = DieselPowertrain(1e9, 1.0, 0.5)
+NO_ELECTRIC = ElectricPowertrain(1e12, 1e9, 1.0, 1.0, 0.0)
 
 
 def operating_day(trip: pd.DataFrame, trips_per_day: float) -> tuple[pd.DataFrame, int]:
@@ -116,8 +116,8 @@ def simulate(truck, scenario, trip: pd.DataFrame) -> TruckResult:
     leg_mass = truck.body.curb_mass + np.tile(carried, n_trips)[: len(starts)]
     veh = vehicle_parameters(truck, ambient, float(day["elevation"].mean()))
     is_e = truck.powertrain == "electric"
-    die = diesel_parameters(truck.diesel) if not is_e else _NO_DIESEL
-    ele = electric_parameters(truck.electric, ambient.temperature) if is_e else _NO_ELECTRIC
+    die = diesel_parameters(truck.diesel) if not is_e else NO_DIESEL
+    ele = electric_parameters(truck.electric, ambient.temperature) if is_e else NO_ELECTRIC
     speed = day["speed"].to_numpy(dtype=float)
     grade = day["grade"].to_numpy(dtype=float)
     run = kernel.run_trace(speed, grade, route.time_step, starts, leg_mass, veh, die, ele,

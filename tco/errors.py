@@ -29,6 +29,10 @@ class InputError(Exception):
         self.where = where
         super().__init__(self.line())
 
+    def __reduce__(self):
+        # keep file and where when the error crosses a process boundary (pickle)
+        return (InputError, (self.message, self.file, self.where))
+
     def line(self) -> str:
         """The one-line form: ``file: where: message``."""
         parts = [p for p in (self.file, self.where) if p]

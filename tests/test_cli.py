@@ -164,3 +164,19 @@ def test_batch_with_a_bad_client_finishes_the_rest_exit_2(capsys, tmp_path):
     assert (tmp_path / "out" / "clients" / "a" / "summary.json").is_file()
     assert not (tmp_path / "out" / "clients" / "b").exists()
     assert (tmp_path / "out" / "clients" / "index.json").is_file()
+
+
+def test_telematics_example_and_bad_scheduler(capsys, tmp_path):
+    code, out, err = run(capsys, "telematics", "--out", str(tmp_path))
+    assert code == 0, err
+    folder = tmp_path / "telematics-example"
+    assert "4 vehicles, 8 vehicle-days" in out
+    for name in ("vehicle_days.csv", "vehicles.csv", "telematics.xlsx"):
+        assert (folder / name).is_file()
+    code, out, err = run(capsys, "telematics", str(folder / "data"), "--scheduler",
+                         "tcp://127.0.0.1:1", "--out", str(tmp_path / "again"))
+    assert code == 2
+    assert err.startswith("tco: error: --scheduler: cannot connect") and err.count("\n") == 1
+    assert not (tmp_path / "again").exists()
+    code, out, err = run(capsys, "telematics", "--workers", "0", "--out", str(tmp_path))
+    assert code == 2 and "--workers" in err
