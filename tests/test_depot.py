@@ -101,14 +101,19 @@ trucks = st.lists(st.tuples(st.integers(0, 95), st.integers(8, 60), st.floats(0,
                   min_size=1, max_size=8)
 
 
+def _stays(spec):
+    """Arrival, departure (quarter hours) and energy [J] of drawn trucks."""
+    a = np.array([q * 900.0 for q, _, _ in spec])
+    d = (a + np.array([n * 900.0 for _, n, _ in spec])) % 86400.0
+    return a, d, np.array([x for _, _, x in spec]) * KWH
+
+
 @settings(max_examples=40, deadline=None)
 @given(trucks)
 def test_conservation_and_shares(spec):
     # energy delivered + shortfall = energy needed; shares sum to one; contributions sum
     # to the peak; the peak never exceeds chargers x charger power.
-    a = np.array([q * 900.0 for q, _, _ in spec])
-    d = (a + np.array([n * 900.0 for _, n, _ in spec])) % 86400.0
-    e = np.array([x for _, _, x in spec]) * KWH
+    a, d, e = _stays(spec)
     for rule in ("first_come", "spread"):
         s = schedule(a, d, e, 50e3, rule=rule)
         np.testing.assert_allclose(s.energy + s.shortfall, e, rtol=1e-9, atol=1e-3)
@@ -121,9 +126,7 @@ def test_conservation_and_shares(spec):
 @settings(max_examples=30, deadline=None)
 @given(trucks)
 def test_more_chargers_never_serve_worse(spec):
-    a = np.array([q * 900.0 for q, _, _ in spec])
-    d = (a + np.array([n * 900.0 for _, n, _ in spec])) % 86400.0
-    e = np.array([x for _, _, x in spec]) * KWH
+    a, d, e = _stays(spec)
     best = schedule(a, d, e, 50e3)
     short = [schedule(a, d, e, 50e3, chargers=k).shortfall.sum()
              for k in range(1, len(spec) + 1)]

@@ -42,6 +42,7 @@ from tco.report import fleet_report
 from tco.report.fleet_report import (FILES, SHEETS, build_fleet_workbook,
                                      write_fleet_outputs)
 from tco.report.fleet_summary import (SCHEMA, build_fleet_summary, clock, interval_means)
+from tco.report import pdf as pdf_module
 from tco.report.pdf import PdfResult
 
 REL = 1e-9
@@ -86,7 +87,7 @@ class _Spy:
 
     def __init__(self):
         self.results: list[PdfResult] = []
-        self._real = fleet_report.render_pdf
+        self._real = pdf_module.render_pdf
 
     def __call__(self, html, path):
         r = self._real(html, path)
@@ -97,7 +98,7 @@ class _Spy:
 def _write_all(result, out: Path):
     spy = _Spy()
     with pytest.MonkeyPatch.context() as mp:
-        mp.setattr(fleet_report, "render_pdf", spy)
+        mp.setattr(pdf_module, "render_pdf", spy)
         paths = write_fleet_outputs(result, out)
     folder = out / result.base.slug
     reader = pypdf.PdfReader(str(folder / "fleet-report.pdf"))
@@ -572,7 +573,7 @@ def test_failure_mid_way_leaves_earlier_outputs_untouched(fleet, tmp_path, monke
             raise RuntimeError("disk full")
         return PdfResult(path=Path(path), pages=1, blocked=["file:///etc/passwd"])
 
-    monkeypatch.setattr(fleet_report, "render_pdf", broken)
+    monkeypatch.setattr(pdf_module, "render_pdf", broken)
     with pytest.raises(RuntimeError if failure == "crash" else InputError):
         write_fleet_outputs(fleet, tmp_path)
     assert _snapshot(folder) == before  # same files, same bytes (fleet.json included)

@@ -564,14 +564,10 @@ def write_index(outcome, stage: Path, json_only: bool = False) -> list[str]:
     names = ["index.json"]
     if json_only:
         return names
-    from tco.report.pdf import render_pdf
+    from tco.report.pdf import write_html_and_pdf
 
     write_index_workbook(data, stage / "index.xlsx")
     context = build_index_context(data)
-    (stage / "index.html").write_text(render_index_html(context, for_print=False),
-                                      encoding="utf-8")
-    pdf = render_pdf(render_index_html(context, for_print=True), stage / "index.pdf")
-    if pdf.blocked:
-        raise InputError("the batch index tried to fetch outside resources: "
-                         + ", ".join(pdf.blocked[:3]))
+    write_html_and_pdf(lambda for_print: render_index_html(context, for_print=for_print),
+                       stage, "index", "the batch index")
     return names + ["index.xlsx", "index.html", "index.pdf"]

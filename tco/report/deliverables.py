@@ -3,29 +3,21 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from tco.errors import InputError
-
 
 def write_deliverables(result, summary: dict, stage: Path, progress=None) -> list[str]:
     """Write report.html, report.pdf and workbook.xlsx into ``stage``; return the names."""
     from tco.report.context import build_context
     from tco.report.html import render_html
-    from tco.report.pdf import render_pdf
+    from tco.report.pdf import write_html_and_pdf
 
     steps = progress
     page = result.scenario.study.page_size
     if steps:
         steps.start("charts and report text")
     context = build_context(result, summary)
-    screen = render_html(context, for_print=False, page_size=page)
-    (stage / "report.html").write_text(screen, encoding="utf-8")
-    if steps:
-        steps.start("rendering the PDF")
-    pdf = render_pdf(render_html(context, for_print=True, page_size=page),
-                     stage / "report.pdf")
-    if pdf.blocked:
-        raise InputError("the report tried to fetch outside resources: "
-                         + ", ".join(pdf.blocked[:3]))
+    write_html_and_pdf(lambda for_print: render_html(context, for_print=for_print,
+                                                     page_size=page),
+                       stage, "report", "the report", progress=steps)
     if steps:
         steps.start("writing the workbook")
     from tco.report.workbook import write_workbook

@@ -8,8 +8,8 @@ single-scenario writers render a Result:
   the workbook and the JSON show one value for each figure;
 * the template (``templates/fleet.html.j2``) computes nothing; it receives preformatted
   strings and chart ``data:`` URIs and escapes every value (``autoescape=True``);
-* the PDF is rendered by :func:`tco.report.pdf.render_pdf` (``data:`` URIs only; a blocked
-  fetch is an error);
+* the PDF is rendered by :func:`tco.report.pdf.write_html_and_pdf` (``data:`` URIs only;
+  a blocked fetch is an error);
 * the workbook keeps text as text (:func:`tco.report.workbook_base.safe_text`) and writes
   the fleet arithmetic as live formulas (savings, avoided tonnes, cumulative sums, totals,
   present values, depot totals and shares), so a reader can audit it;
@@ -51,7 +51,7 @@ from tco.report.context import fmt_number as _n
 from tco.report.fleet_summary import (build_fleet_summary, depot_vehicles, dumps,
                                       interval_means, table_interval)
 from tco.report.html import PAGE_SIZES, STYLESHEET, environment
-from tco.report.pdf import render_pdf
+from tco.report.pdf import write_html_and_pdf
 from tco.report.workbook_base import safe_text, write_value
 from tco.resources import templates_dir
 
@@ -1083,15 +1083,9 @@ def write_fleet_outputs(result, out_root, json_only: bool = False,
             if progress:
                 progress.start("fleet report: charts and text")
             context = build_fleet_context(result, summary)
-            (stage / "fleet-report.html").write_text(
-                render_fleet_html(context, for_print=False, page_size=page), encoding="utf-8")
-            if progress:
-                progress.start("rendering the fleet PDF")
-            pdf = render_pdf(render_fleet_html(context, for_print=True, page_size=page),
-                             stage / "fleet-report.pdf")
-            if pdf.blocked:
-                raise InputError("the fleet report tried to fetch outside resources: "
-                                 + ", ".join(pdf.blocked[:3]))
+            write_html_and_pdf(lambda for_print: render_fleet_html(
+                context, for_print=for_print, page_size=page), stage, "fleet-report",
+                "the fleet report", progress=progress)
             if progress:
                 progress.start("writing the fleet workbook")
             write_fleet_workbook(result, summary, stage / "fleet-workbook.xlsx")

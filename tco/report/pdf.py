@@ -16,7 +16,7 @@ from pathlib import Path
 import weasyprint
 from weasyprint.urls import URLFetcher
 
-__all__ = ["render_pdf", "PdfResult", "DataOnlyFetcher"]
+__all__ = ["render_pdf", "write_html_and_pdf", "PdfResult", "DataOnlyFetcher"]
 
 
 class DataOnlyFetcher(URLFetcher):
@@ -118,3 +118,43 @@ def render_pdf(html: str, path) -> PdfResult:
                  if not any(url in m for url in fetcher.blocked)]
     return PdfResult(path=path, pages=len(doc.pages), blocked=list(fetcher.blocked),
                      warnings=warnings)
+
+
+def write_html_and_pdf(render, stage: Path, stem: str, what: str, progress=None
+                       ) -> list[str]:
+    """Write ``<stem>.html`` (screen) and ``<stem>.pdf`` (print) of one report into a stage.
+
+    Parameters
+    ----------
+    render : callable
+        ``render(for_print: bool) -> str``: the report's HTML for screen or print.
+    stage : Path
+        The staging folder (see :func:`tco.report.atomic.staged_output`).
+    stem : str
+        File name without extension, e.g. ``"report"``.
+    what : str
+        The report's name in the error message, e.g. ``"the fleet report"``.
+    progress : tco.progress.Steps, optional
+
+    Returns
+    -------
+    list of str
+        The two file names, HTML first.
+
+    Raises
+    ------
+    InputError
+        When the document tried to fetch anything outside itself (user text that reached
+        the HTML as a link); nothing is fetched either way.
+    """
+    from tco.errors import InputError
+
+    stage = Path(stage)
+    (stage / f"{stem}.html").write_text(render(False), encoding="utf-8")
+    if progress:
+        progress.start(f"rendering {what} (PDF)")
+    pdf = render_pdf(render(True), stage / f"{stem}.pdf")
+    if pdf.blocked:
+        raise InputError(f"{what} tried to fetch outside resources: "
+                         + ", ".join(pdf.blocked[:3]))
+    return [f"{stem}.html", f"{stem}.pdf"]
