@@ -33,6 +33,7 @@ import argparse
 import multiprocessing as mp
 import os
 import shutil
+import statistics
 import sys
 import tempfile
 import time
@@ -106,14 +107,17 @@ def _max_rel_diff(a, b) -> float:
 TUNED_MALLOC = {"MALLOC_MMAP_THRESHOLD_": "33554432", "MALLOC_TRIM_THRESHOLD_": "67108864"}
 
 
-def _warm_cluster(workers, limit, data, warm, loaded, malloc_env):
+def _warm_cluster(workers, limit, data, warm, loaded, malloc_env, repeat=1, single=None):
     """Start a local cluster whose workers get ``malloc_env``, warm it up on a small
     dataset, then time ``process`` on ``data`` through the scheduler's address.
 
-    Returns (seconds, start-up seconds, peak RSS per worker [bytes], memory limit per
-    worker [bytes], result).
+    With ``single`` (a callable timing the single-process run) the two are timed in turn
+    ``repeat`` times, so that both see the same machine load.
+
+    Returns (dask seconds per round, single seconds per round, start-up seconds, peak RSS
+    per worker [bytes], memory limit per worker [bytes], result).
     """
-    from distributed import Client, LocalCluster
+    from distributed import Client
 
     # Dask takes variables already in os.environ over its config, and writes its own
     # into os.environ when it spawns workers: set them here, for this script's clusters.
@@ -121,21 +125,23 @@ def _warm_cluster(workers, limit, data, warm, loaded, malloc_env):
         os.environ.pop(key, None)
     os.environ.update(malloc_env)
     t0 = time.perf_counter()
-    with LocalCluster(n_workers=workers, threads_per_worker=1, processes=True,
-                      memory_limit=limit, dashboard_address=None,
-                      silence_logs=40) as cluster, \
+    with telematics.local_cluster(workers, limit) as cluster, \
             Client(cluster, set_as_default=False) as client:
         address = cluster.scheduler_address
         telematics.process(warm, loaded, scheduler=address)
         t_start = time.perf_counter() - t0
         client.run(_reset_peak)
-        t0 = time.perf_counter()
-        result = telematics.process(data, loaded, scheduler=address)
-        elapsed = time.perf_counter() - t0
+        t_dask, t_single = [], []
+        for _ in range(repeat):
+            if single is not None:
+                t_single.append(single())
+            t0 = time.perf_counter()
+            result = telematics.process(data, loaded, scheduler=address)
+            t_dask.append(time.perf_counter() - t0)
         peaks = client.run(_peak_rss)
         limits = {w: i["memory_limit"]
                   for w, i in client.scheduler_info(n_workers=-1)["workers"].items()}
-    return elapsed, t_start, peaks, limits, result
+    return t_dask, t_single, t_start, peaks, limits, result
 
 
 def _identical(a, b) -> bool:
@@ -155,6 +161,8 @@ def main() -> None:
     ap.add_argument("--memory-limit", default="700MB", help="per Dask worker")
     ap.add_argument("--seed", type=int, default=2030)
     ap.add_argument("--keep", action="store_true", help="keep the generated dataset")
+    ap.add_argument("--repeat", type=int, default=3,
+                    help="rounds of single-process and Dask runs timed in turn")
     args = ap.parse_args()
 
     from dask.utils import parse_bytes
@@ -183,26 +191,38 @@ def main() -> None:
         print(f"memory limit per worker: {limit / MB:,.0f} MB "
               f"(dataset = {memory / limit:.1f}× one worker's limit)")
 
-        # ---- single process
+        # ---- single process (peak memory on its first run)
         telematics.process(warm, loaded)                      # numba kernel loaded
         base = _peak_rss()
         reset = _reset_peak()
         t0 = time.perf_counter()
         single = telematics.process(data, loaded)
-        t_single = time.perf_counter() - t0
+        t_first = time.perf_counter() - t0
         peak_single = _peak_rss()
-        print(f"single process: {t_single:.1f} s, {rows / t_single / 1e6:.2f} M samples/s; "
+        print(f"single process: {t_first:.1f} s, {rows / t_first / 1e6:.2f} M samples/s; "
               f"peak RSS {peak_single / MB:,.0f} MB"
               + ("" if reset else f" (since start; {base / MB:,.0f} MB before the run)"))
 
+        def time_single():
+            t = time.perf_counter()
+            telematics.process(data, loaded)
+            return time.perf_counter() - t
+
         # ---- Dask, warm local cluster given by its address, its workers started with the
-        # malloc settings process() recommends for an existing cluster
-        t_dask, t_start, peaks, limits, dask_res = _warm_cluster(
-            args.workers, limit, data, warm, loaded, TUNED_MALLOC)
-        ratio = t_single / t_dask
-        print(f"dask, {args.workers} workers (warm cluster by address): {t_dask:.1f} s, "
+        # malloc settings process() recommends for an existing cluster; timed in turn with
+        # the single process, round by round, so both see the same machine load
+        t_dasks, t_singles, t_start, peaks, limits, dask_res = _warm_cluster(
+            args.workers, limit, data, warm, loaded, TUNED_MALLOC, repeat=args.repeat,
+            single=time_single)
+        ratios = [a / b for a, b in zip(t_singles, t_dasks)]
+        for k, (a, b) in enumerate(zip(t_singles, t_dasks), start=1):
+            print(f"  round {k}: single {a:.1f} s, dask {b:.1f} s -> {a / b:.2f}×")
+        t_single, t_dask = statistics.median(t_singles), statistics.median(t_dasks)
+        ratio = statistics.median(ratios)
+        print(f"dask, {args.workers} workers (warm cluster by address): median {t_dask:.1f} s, "
               f"{rows / t_dask / 1e6:.2f} M samples/s; speed-up {ratio:.2f}× the single "
-              f"process (target ≥ 1.5×); cluster start + warm-up {t_start:.1f} s")
+              f"process (median of {len(ratios)} rounds; target ≥ 1.5×); cluster start + "
+              f"warm-up {t_start:.1f} s")
         for w in sorted(peaks):
             print(f"  worker {w}: peak RSS {peaks[w] / MB:,.0f} MB of its "
                   f"{limits.get(w, limit) / MB:,.0f} MB limit")
@@ -210,8 +230,9 @@ def main() -> None:
               f"(largest relative difference {_max_rel_diff(single, dask_res):.1e})")
 
         # ---- the same with Dask's default worker malloc setting (for information)
-        t_def, _, peaks_def, _, _ = _warm_cluster(args.workers, limit, data, warm, loaded,
-                                                  {"MALLOC_TRIM_THRESHOLD_": "65536"})
+        t_defs, _, _, peaks_def, _, _ = _warm_cluster(args.workers, limit, data, warm, loaded,
+                                                      {"MALLOC_TRIM_THRESHOLD_": "65536"})
+        t_def = t_defs[0]
         print(f"dask, {args.workers} workers, Dask's default MALLOC_TRIM_THRESHOLD_=65536: "
               f"{t_def:.1f} s, {t_single / t_def:.2f}× the single process; peak RSS "
               f"{max(peaks_def.values()) / MB:,.0f} MB")
