@@ -384,21 +384,44 @@ def _row_energy(args) -> RouteEnergy:
         warnings=[w for t in trucks for w in t.warnings])
 
 
-def _map(fn, items, jobs: int, progress=None):
-    """fn over items, on ``jobs`` processes (fork) or inline; results in order."""
+#: Modules the fork server imports once, so each worker starts warm.
+_PRELOAD = ["tco.fleet", "tco.pipeline", "tco.energy", "tco.kernel", "tco.cashflow",
+            "tco.emissions"]
+
+
+def _pool(jobs: int, n_items: int):
+    """A process pool for the fleet's stages, or None to run inline.
+
+    Workers start from a fork server (a fresh process that imported the model once):
+    forking the caller itself would copy its threads (a progress display, numerical
+    libraries' pools), which is unsafe. Where the platform has no fork server, spawn.
+    A script calling :func:`evaluate_fleet` with ``jobs`` > 1 needs
+    ``if __name__ == "__main__":``.
+    """
     import multiprocessing as mp
 
-    out = []
-    if jobs > 1 and len(items) > 1 and "fork" in mp.get_all_start_methods():
-        chunk = max(1, len(items) // (jobs * 8))
-        with ProcessPoolExecutor(jobs, mp_context=mp.get_context("fork")) as pool:
-            for r in pool.map(fn, items, chunksize=chunk):
-                out.append(r)
-                if progress:
-                    progress(1)
+    if jobs <= 1 or n_items <= 1:
+        return None
+    methods = mp.get_all_start_methods()
+    ctx = mp.get_context("forkserver" if "forkserver" in methods else "spawn")
+    if ctx.get_start_method() == "forkserver":
+        ctx.set_forkserver_preload(_PRELOAD)
+    return ProcessPoolExecutor(min(jobs, n_items), mp_context=ctx)
+
+
+def _map(fn, items, pool, progress=None):
+    """fn over items on ``pool`` (or inline when None); results in order."""
+    if pool is None:
+        out = []
+        for it in items:
+            out.append(fn(it))
+            if progress:
+                progress(1)
         return out
-    for it in items:
-        out.append(fn(it))
+    out = []
+    chunk = max(1, len(items) // (pool._max_workers * 8))
+    for r in pool.map(fn, items, chunksize=chunk):
+        out.append(r)
         if progress:
             progress(1)
     return out
@@ -646,9 +669,20 @@ def evaluate_fleet(base: LoadedScenario, rows: list[FleetRow], fleet_file: Path,
     steps = progress or Silent()
     timings = {}
     jobs = jobs or os.cpu_count() or 1
+    pool = _pool(jobs, len(rows))
+    try:
+        return _evaluate(base, rows, fleet_file, rule, pool, steps, timings)
+    finally:
+        if pool is not None:
+            pool.shutdown(cancel_futures=True)
+
+
+def _evaluate(base, rows, fleet_file, rule, pool, steps, timings) -> FleetResult:
+    import time
+
     t0 = time.perf_counter()
     advance = steps.bar(len(rows), "energy of each route")
-    energies = _map(_row_energy, [(base, r, fleet_file) for r in rows], jobs, advance)
+    energies = _map(_row_energy, [(base, r, fleet_file) for r in rows], pool, advance)
     timings["energy"] = time.perf_counter() - t0
 
     steps.start("sharing the depot")
@@ -673,7 +707,7 @@ def evaluate_fleet(base: LoadedScenario, rows: list[FleetRow], fleet_file: Path,
         else:  # outside it: as if every candidate went electric
             ops = _with_depot(e.operations, 1, sched_all, pos_all.get(k))
             work.append((e, base, ops, sched_all.chargers, len(idx_all)))
-    money = _map(_route_money_task, work, jobs)
+    money = _map(_route_money_task, work, pool)
     timings["money"] = time.perf_counter() - t0
 
     routes = _routes_table(energies, status, money, sched_all, sched_plan, pos_all, pos_plan)
