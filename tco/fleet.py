@@ -662,8 +662,6 @@ def evaluate_fleet(base: LoadedScenario, rows: list[FleetRow], fleet_file: Path,
     -------
     FleetResult
     """
-    import time
-
     from tco.progress import Silent
 
     steps = progress or Silent()
