@@ -70,7 +70,7 @@ COLUMNS: dict[str, tuple[bool, str | None]] = {
     "depart": (False, None),
 }
 _HEADER = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_ ]*?)\s*(?:\[(.*)\])?\s*$")
-_CLOCK = re.compile(r"^\s*(\d{1,2}):(\d{2})\s*$")
+_CLOCK = re.compile(r"^\s*(\d{1,2}):(\d{2})(?::00)?\s*$")  # a workbook time adds ":00"
 
 
 @dataclass(frozen=True)

@@ -1,4 +1,5 @@
 """Tests of tco.fleet: a fleet of identical routes, depot sharing, ordering, bad input."""
+import datetime
 import re
 import tomllib
 from pathlib import Path
@@ -152,8 +153,14 @@ def test_xlsx_fleet_file_reads_like_csv(tmp_path):
     csv_file = _fleet(tmp_path, [_row("A"), _row("B", dist="60000")])
     wb = Workbook()
     ws = wb.active
-    for line in csv_file.read_text().splitlines():
-        ws.append(line.split(","))
+
+    def typed(cell):  # as a spreadsheet user would type them: times and numbers
+        if re.fullmatch(r"\d\d:\d\d", cell):
+            return datetime.time(int(cell[:2]), int(cell[3:]))
+        return float(cell) if re.fullmatch(r"\d+", cell) else cell
+
+    for k, line in enumerate(csv_file.read_text().splitlines()):
+        ws.append(line.split(",") if k == 0 else [typed(c) for c in line.split(",")])
     wb.save(tmp_path / "fleet.xlsx")
     assert read_fleet(tmp_path / "fleet.xlsx") == read_fleet(csv_file)
     assert base.is_file()
