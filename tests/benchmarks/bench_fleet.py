@@ -45,6 +45,57 @@ def day_trace(rng: np.random.Generator) -> pd.DataFrame:
                          "speed [km/h]": np.round(speed, 2), "grade [%]": np.round(grade, 2)})
 
 
+class DescendantPeaks:
+    """Peak resident memory (VmHWM) of every descendant process, polled from /proc.
+
+    The fleet's workers are children of a fork server, not of this process, so
+    ``RUSAGE_CHILDREN`` does not see them; their high-water mark is read while they live.
+    """
+
+    def __init__(self, every: float = 0.2):
+        import threading
+
+        self.peaks: dict[int, int] = {}
+        self._stop = threading.Event()
+        self._thread = threading.Thread(target=self._run, args=(every,), daemon=True)
+
+    def __enter__(self):
+        self._thread.start()
+        return self
+
+    def __exit__(self, *exc):
+        self._stop.set()
+        self._thread.join()
+
+    def _run(self, every):
+        import os
+
+        me = os.getpid()
+        while not self._stop.wait(every):
+            parent = {}
+            for d in os.listdir("/proc"):
+                if d.isdigit():
+                    try:
+                        with open(f"/proc/{d}/stat") as fh:
+                            parent[int(d)] = int(fh.read().rsplit(")", 1)[1].split()[1])
+                    except OSError:
+                        continue
+            for pid in parent:
+                p, hops = pid, 0
+                while p in parent and p != me and hops < 8:
+                    p, hops = parent[p], hops + 1
+                if p != me or pid == me:
+                    continue
+                try:
+                    with open(f"/proc/{pid}/status") as fh:
+                        for line in fh:
+                            if line.startswith("VmHWM:"):
+                                kb = int(line.split()[1])
+                                self.peaks[pid] = max(self.peaks.get(pid, 0), kb * 1024)
+                except OSError:
+                    continue
+
+
 def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--routes", type=int, default=1000)
@@ -91,18 +142,20 @@ def main() -> None:
 
     base = load_scenario(inputs_dir() / "fleet" / "base.toml")
     t0 = time.perf_counter()
-    res = evaluate_fleet(base, read_fleet(fleet), fleet, jobs=args.jobs)
+    with DescendantPeaks() as peaks:
+        res = evaluate_fleet(base, read_fleet(fleet), fleet, jobs=args.jobs)
     t_fleet = time.perf_counter() - t0
 
     self_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
-    child_mb = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024
+    child_mb = max(peaks.peaks.values(), default=0) / 2**20
     print(f"fleet run ({args.jobs} processes): {t_fleet:.1f} s = "
           f"{args.routes / t_fleet:.1f} routes/s, {samples / t_fleet / 1e6:.2f} M samples/s")
     print("  stages: " + ", ".join(f"{k} {v:.1f} s" for k, v in res.timings.items())
           + f", order and totals {t_fleet - sum(res.timings.values()):.1f} s")
     print(f"floor (pandas reading the traces, 1 process): {t_floor:.1f} s; "
           f"ratio fleet / floor = {t_fleet / t_floor:.2f}")
-    print(f"peak memory: main process {self_mb:.0f} MB, largest worker {child_mb:.0f} MB")
+    print(f"peak memory: main process {self_mb:.0f} MB, largest worker {child_mb:.0f} MB "
+          f"({len(peaks.peaks)} worker and server processes seen)")
     print(f"result: {len(res.plan)} of {len(res.routes)} routes feasible; depot "
           f"{res.depot_plan.chargers} chargers, peak {res.depot_plan.peak_power / 1e3:.0f} kW")
     if not args.keep:
