@@ -117,8 +117,9 @@ METHOD_NOTES = [
      "added (exactly up to 200 routes, then at 20 evenly spaced steps).",
      "abatement cost = (PV_candidate − PV_current) / avoided tonnes"),
     ("Fleet totals per year",
-     "As-is: every route keeps its current truck. Plan: the plan's routes run their "
-     "candidate, the rest their current truck. Saving = as-is − plan; avoided = as-is − "
+     "As-is: every route keeps its current truck type, renewed like for like (a new "
+     "truck of that type bought in year 0, as in the single comparison). Plan: the plan's "
+     "routes get their candidate instead, the rest as-is. Saving = as-is − plan; avoided = as-is − "
      "plan (well-to-wheel, location-based). The plan's present-value saving is the sum of "
      "its routes' savings and equals the present value of the yearly savings.",
      "PV = Σ_y S_y (1 + r)^−y"),
