@@ -813,7 +813,7 @@ def _yearly(energies, money, plan, sched_plan, base) -> pd.DataFrame:
                                          for y in years],
         "cost_as_is": as_is_c, "cost_plan": plan_c, "saving": as_is_c - plan_c,
         "wtw_as_is_kg": as_is_e, "wtw_plan_kg": plan_e, "avoided_kg": as_is_e - plan_e,
-        "chargers": [sched_plan.chargers if y > 0 else sched_plan.chargers for y in years],
+        "chargers": [sched_plan.chargers] * len(years),  # installed in year 0, all years
         "peak_power_W": [sched_plan.peak_power] * len(years),
         "electric_trucks": [len(plan)] * len(years),
     })
