@@ -165,6 +165,8 @@ def _cmd_fleet(args) -> int:
 
     jobs = _jobs(args.jobs)
     fleet = Path(args.fleet) if args.fleet else inputs_dir() / "fleet" / "fleet.csv"
+    if not fleet.is_file():
+        raise InputError("file not found", file=fleet)
     base = Path(args.base) if args.base else fleet.parent / "base.toml"
     if not args.base and not base.is_file():
         raise InputError("no base scenario: give --base (or put base.toml beside the fleet "
@@ -186,8 +188,9 @@ def _cmd_fleet(args) -> int:
         cur = result.currency
         sav = float(result.routes.loc[result.routes["in_plan"], "saving"].sum())
         avo = float(result.routes.loc[result.routes["in_plan"], "avoided_t"].sum())
-        print(f"{len(result.plan)} of {len(result.routes)} routes feasible; the plan saves "
-              f"{sav:,.0f} {cur} (present value), avoids {avo:,.0f} t CO2e well-to-wheel, "
+        money = f"saves {sav:,.0f} {cur}" if sav >= 0 else f"costs {-sav:,.0f} {cur} more"
+        print(f"{len(result.plan)} of {len(result.routes)} routes feasible; the plan {money} "
+              f"(present value), avoids {avo:,.0f} t CO2e well-to-wheel, "
               f"needs {plan.chargers} chargers and {plan.peak_power / 1000:,.0f} kW peak")
     for f in written:
         print(f)

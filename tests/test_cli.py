@@ -146,6 +146,8 @@ def test_fleet_bad_row_is_one_line_exit_2_nothing_written(capsys, tmp_path):
     assert not (tmp_path / "out").exists()
     code, out, err = run(capsys, "fleet", str(fleet), "--out", str(tmp_path / "out"))
     assert code == 2 and "--base" in err  # no base.toml beside this fleet file
+    code, out, err = run(capsys, "fleet", str(tmp_path / "none.csv"))
+    assert code == 2 and err.strip() == f"tco: error: {tmp_path / 'none.csv'}: file not found"
 
 
 def test_batch_with_a_bad_client_finishes_the_rest_exit_2(capsys, tmp_path):
