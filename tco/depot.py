@@ -43,6 +43,7 @@ DAY = 86400.0
 DEFAULT_SLOT = 60.0          # [s] simulation step
 DEFAULT_DEMAND_INTERVAL = 900.0  # [s] common practice: 15-minute demand intervals
 RULES = ("first_come", "spread")
+N_DAYS = 3  # identical days simulated; the middle one (index 1) is the steady state
 
 
 @dataclass(frozen=True)
@@ -215,12 +216,6 @@ def _spread(a, stay, need, per_slot, n_days, day_slots):
     return drawn, short
 
 
-def _fold_day(drawn: np.ndarray, day_slots: int, n_days: int) -> np.ndarray:
-    """Energy per slot of the middle day: each day's draw folded onto the clock."""
-    return drawn[:, day_slots:2 * day_slots] if n_days >= 3 else \
-        drawn.reshape(drawn.shape[0], n_days, day_slots).sum(axis=1)
-
-
 def schedule(arrive, depart, energy, charger_power, rule: str = "first_come",
              chargers: int | None = None, slot: float = DEFAULT_SLOT,
              demand_interval: float = DEFAULT_DEMAND_INTERVAL) -> DepotSchedule:
@@ -272,7 +267,7 @@ def schedule(arrive, depart, energy, charger_power, rule: str = "first_come",
                                     demand_interval)
     n = len(arrive)
     day_slots = int(DAY / slot)
-    n_days = 3
+    n_days = N_DAYS
     per_slot = charger_power * slot
     a, stay = _stays(arrive, depart, slot)
     a = a % day_slots
@@ -285,8 +280,8 @@ def schedule(arrive, depart, energy, charger_power, rule: str = "first_come",
 
     if rule == "spread":
         drawn, short = _spread(a, stay, energy, per_slot, n_days, day_slots)
-        occupied = (drawn[:, day_slots:2 * day_slots] > 0) | _present(a, stay, day_slots)
-        k_needed = int(_present(a, stay, day_slots)[energy > 0].sum(axis=0).max(initial=0))
+        present = _present(a, stay, day_slots)
+        k_needed = int(present[energy > 0].sum(axis=0).max(initial=0))
         k = k_needed if chargers is None else int(chargers)
         if chargers is not None and k < k_needed:
             raise ValueError(f"the spread rule needs {k_needed} chargers (one per truck "
@@ -299,9 +294,8 @@ def schedule(arrive, depart, energy, charger_power, rule: str = "first_come",
         if k < 0:
             raise ValueError("chargers must be >= 0")
         drawn, short = _first_come(a, stay, energy, k, per_slot, n_days, day_slots)
-        occupied = None
 
-    day = _fold_day(drawn, day_slots, n_days)
+    day = drawn[:, day_slots:2 * day_slots]  # the middle day, past-midnight draws included
     truck_power = day / slot
     power = truck_power.sum(axis=0)
     per_int = int(demand_interval / slot)
@@ -313,15 +307,12 @@ def schedule(arrive, depart, energy, charger_power, rule: str = "first_come",
     ties = np.flatnonzero(means >= peak * (1.0 - 1e-9)) if peak > 0 else np.array([j])
     by_int = truck_power.reshape(n, -1, per_int).mean(axis=2)
     contrib = by_int[:, ties].mean(axis=1)
-    if occupied is None:
-        # a truck holds a charger from plug-in to the end of its charge
-        occupied = np.zeros_like(day, dtype=bool)
-        for i in range(n):
-            nz = np.flatnonzero(day[i] > 0)
-            occupied[i, nz] = True
-    occupancy = occupied.sum(axis=1) * slot if occupied.ndim == 2 else np.zeros(n)
+    # spread: a truck holds a charger for its whole stay; first come: from plug-in to the
+    # end of its charge
+    occupied = present if rule == "spread" else day > 0
+    occupancy = occupied.sum(axis=1) * slot
     delivered = day.sum(axis=1)
-    shortfall = short[1] if n_days >= 3 else short.sum(axis=0)
+    shortfall = short[1]
     cost_share = _shares(occupancy)
     demand_share = _shares(contrib)
     hourly = day.reshape(n, 24, -1).sum(axis=2)
