@@ -186,8 +186,7 @@ def _cmd_fleet(args) -> int:
     if not args.quiet:
         plan = result.depot_plan
         cur = result.currency
-        sav = float(result.routes.loc[result.routes["in_plan"], "saving"].sum())
-        avo = float(result.routes.loc[result.routes["in_plan"], "avoided_t"].sum())
+        sav, avo = result.plan_saving, result.plan_avoided_t
         money = f"saves {sav:,.0f} {cur}" if sav >= 0 else f"costs {-sav:,.0f} {cur} more"
         print(f"{len(result.plan)} of {len(result.routes)} routes feasible; the plan {money} "
               f"(present value), avoids {avo:,.0f} t CO2e well-to-wheel, "

@@ -610,6 +610,17 @@ class FleetResult:
     def currency(self) -> str:
         return self.base.scenario.study.currency
 
+    @property
+    def plan_saving(self) -> float:
+        """Present-value saving of the plan: the sum over its routes. [currency]"""
+        return float(sum(self.routes.loc[self.routes["in_plan"], "saving"].tolist()))
+
+    @property
+    def plan_avoided_t(self) -> float:
+        """Well-to-wheel tonnes avoided by the plan over the period: the sum over its
+        routes. [t CO2e]"""
+        return float(sum(self.routes.loc[self.routes["in_plan"], "avoided_t"].tolist()))
+
 
 def _depot_inputs(energies: list[RouteEnergy], base: LoadedScenario, vehicles: set[str]):
     """Arrival, departure and nightly depot energy of the candidates in ``vehicles``."""

@@ -363,9 +363,8 @@ def build_fleet_summary(result, created: str | None = None) -> dict:
     created = created or datetime.now(timezone.utc).replace(microsecond=0).isoformat()
     routes = route_records(result)
     yearly = yearly_records(result)
-    plan_rows = [r for r in routes if r["in_plan"]]
-    pv_saving = float(sum(r["pv_saving"] for r in plan_rows))
-    avoided = float(sum(r["avoided_t"] for r in plan_rows))
+    pv_saving = result.plan_saving
+    avoided = result.plan_avoided_t
     tonnes_discounted = bool(getattr(s.emissions, "discount_tonnes", False))
     out = {
         "schema": SCHEMA,
