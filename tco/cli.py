@@ -150,9 +150,10 @@ def _cmd_check(args) -> int:
     return EXIT_OK
 
 
-def _jobs(value) -> int | None:
+def _at_least_one(value, option: str = "--jobs") -> int | None:
+    """A process count from the command line: None (default) or a whole number ≥ 1."""
     if value is not None and value < 1:
-        raise InputError("must be 1 or more", where="--jobs")
+        raise InputError("must be 1 or more", where=option)
     return value
 
 
@@ -163,7 +164,7 @@ def _cmd_fleet(args) -> int:
     from tco.resources import inputs_dir
     from tco.scenario import load_scenario
 
-    jobs = _jobs(args.jobs)
+    jobs = _at_least_one(args.jobs)
     fleet = Path(args.fleet) if args.fleet else inputs_dir() / "fleet" / "fleet.csv"
     if not fleet.is_file():
         raise InputError("file not found", file=fleet)
@@ -200,7 +201,7 @@ def _cmd_batch(args) -> int:
     from tco.batch import demo_batch_dir, run_batch
     from tco.progress import Steps
 
-    jobs = _jobs(args.jobs)
+    jobs = _at_least_one(args.jobs)
     folder = Path(args.folder) if args.folder else demo_batch_dir()
     with Steps(quiet=args.quiet) as steps:
         outcome = run_batch(folder, Path(args.out), jobs=jobs, json_only=args.json_only,
@@ -223,8 +224,7 @@ def _cmd_telematics(args) -> int:
     from tco.resources import demo_path
     from tco.scenario import load_scenario
 
-    if args.workers is not None and args.workers < 1:
-        raise InputError("must be 1 or more", where="--workers")
+    _at_least_one(args.workers, "--workers")
     if args.workers and args.scheduler:
         raise InputError("give --workers or --scheduler, not both", where="--scheduler")
     loaded = load_scenario(Path(args.base) if args.base else demo_path())

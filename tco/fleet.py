@@ -409,18 +409,13 @@ def _pool(jobs: int, n_items: int):
     return ProcessPoolExecutor(min(jobs, n_items), mp_context=ctx)
 
 
-def _map(fn, items, pool, progress=None):
-    """fn over items on ``pool`` (or inline when None); results in order."""
-    if pool is None:
-        out = []
-        for it in items:
-            out.append(fn(it))
-            if progress:
-                progress(1)
-        return out
+def _map(fn, items, pool, jobs: int, progress=None):
+    """fn over items on ``pool`` of ``jobs`` processes (or inline when None); results in
+    order."""
+    results = map(fn, items) if pool is None else \
+        pool.map(fn, items, chunksize=max(1, len(items) // (jobs * 8)))
     out = []
-    chunk = max(1, len(items) // (pool._max_workers * 8))
-    for r in pool.map(fn, items, chunksize=chunk):
+    for r in results:
         out.append(r)
         if progress:
             progress(1)
@@ -680,18 +675,18 @@ def evaluate_fleet(base: LoadedScenario, rows: list[FleetRow], fleet_file: Path,
     jobs = jobs or os.cpu_count() or 1
     pool = _pool(jobs, len(rows))
     try:
-        return _evaluate(base, rows, fleet_file, rule, pool, steps, timings)
+        return _evaluate(base, rows, fleet_file, rule, pool, jobs, steps, timings)
     finally:
         if pool is not None:
             pool.shutdown(cancel_futures=True)
 
 
-def _evaluate(base, rows, fleet_file, rule, pool, steps, timings) -> FleetResult:
+def _evaluate(base, rows, fleet_file, rule, pool, jobs, steps, timings) -> FleetResult:
     import time
 
     t0 = time.perf_counter()
     advance = steps.bar(len(rows), "energy of each route")
-    energies = _map(_row_energy, [(base, r, fleet_file) for r in rows], pool, advance)
+    energies = _map(_row_energy, [(base, r, fleet_file) for r in rows], pool, jobs, advance)
     timings["energy"] = time.perf_counter() - t0
 
     steps.start("sharing the depot")
@@ -716,7 +711,7 @@ def _evaluate(base, rows, fleet_file, rule, pool, steps, timings) -> FleetResult
         else:  # outside it: as if every candidate went electric
             ops = _with_depot(e.operations, 1, sched_all, pos_all.get(k))
             work.append((e, base, ops, sched_all.chargers, len(idx_all)))
-    money = _map(_route_money_task, work, pool)
+    money = _map(_route_money_task, work, pool, jobs)
     timings["money"] = time.perf_counter() - t0
 
     routes = _routes_table(energies, status, money, sched_all, sched_plan, pos_all, pos_plan)
