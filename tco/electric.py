@@ -35,6 +35,7 @@ __all__ = [
     "battery_use",
     "day_feasibility",
     "depot_charger_power",
+    "energy_above_reserve",
     "enroute_charging_time",
     "grid_energy",
     "regen_refused",
@@ -429,8 +430,8 @@ def day_feasibility(net_battery_energy_per_day, usable_capacity_new, usable_capa
     if not 0.0 <= reserve_fraction < 1.0:
         raise ValueError(f"reserve_fraction must be in [0, 1), got {reserve_fraction}")
     keep = 1.0 - float(reserve_fraction)
-    margin_new = new * keep - e_day
-    margin_eol = eol * keep - e_day
+    margin_new = energy_above_reserve(new, 1.0, float(reserve_fraction)) - e_day
+    margin_eol = energy_above_reserve(eol, 1.0, float(reserve_fraction)) - e_day
 
     def out(x):
         return x.item() if np.ndim(x) == 0 else x
@@ -471,6 +472,36 @@ def grid_energy(battery_energy, charging_efficiency):
     if not 0.0 < charging_efficiency <= 1.0:
         raise ValueError(f"charging_efficiency must be in (0, 1], got {charging_efficiency}")
     return restore(e / float(charging_efficiency))
+
+
+def energy_above_reserve(usable_capacity: float, start_soc: float, reserve: float) -> float:
+    """Energy a battery can give in a day before it reaches its reserve.
+
+    .. math:: E_{avail} = C_{usable}\,(SOC_{start} - SOC_{reserve})
+
+    A day fits the battery when its deepest drawdown, (SOC_start − SOC_min)·C_usable,
+    is at most this energy.
+
+    Parameters
+    ----------
+    usable_capacity : float
+        Usable capacity at the battery's state of health. [J]
+    start_soc : float
+        State of charge at the start of the day. [-]
+    reserve : float
+        State of charge kept in reserve. [-]
+
+    Returns
+    -------
+    float
+        Available energy. [J]
+
+    Examples
+    --------
+    >>> energy_above_reserve(500 * 3.6e6, 1.0, 0.1) / 3.6e6
+    450.0
+    """
+    return usable_capacity * (start_soc - reserve)
 
 
 def depot_charger_power(grid_energy, window_seconds):

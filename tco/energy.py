@@ -277,7 +277,7 @@ def _electric_day(truck, scenario, tot, n_trips, summary, feas, warnings, ele) -
 
     verdicts = {}
     for label, cap in (("new", cap_new), ("end_of_life", cap_eol)):
-        available = cap * (start - e.reserve)
+        available = electric.energy_above_reserve(cap, start, e.reserve)
         deficit = max(drawdown - available, 0.0)
         v = {"ok": deficit <= 0, "usable_capacity": cap, "available": available,
              "needed": drawdown, "deficit": deficit, "enroute_energy": 0.0,

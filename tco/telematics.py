@@ -564,9 +564,10 @@ def _drive(day: _Day, tk: _Truck, ambient, dt, mean_elevation) -> dict:
             soc_min=tot["electric_soc_min"],
             # as tco.energy: the day fits when the drawdown stays within the energy above
             # the reserve, with the new and the end-of-life battery
-            battery_fits=bool(need <= cap * (e.start_soc - e.reserve)),
-            battery_fits_end_of_life=bool(
-                need <= cap * e.eol_state_of_health * (e.start_soc - e.reserve)))
+            battery_fits=bool(need <= electric.energy_above_reserve(
+                cap, e.start_soc, e.reserve)),
+            battery_fits_end_of_life=bool(need <= electric.energy_above_reserve(
+                cap * e.eol_state_of_health, e.start_soc, e.reserve)))
         limited = tot["electric_limited_time"]
     else:
         row.update(diesel_fuel_m3=tot["diesel_fuel_volume"],
