@@ -362,7 +362,7 @@ def _fewest(a, stay, need, per_slot, n_days, day_slots) -> int:
     hi = users
     while lo < hi:
         mid = (lo + hi) // 2
-        if short_total(mid) <= best + 1e-6 * per_slot:
+        if short_total(mid) <= best + 1e-9 * per_slot:  # the rounding bound of _first_come
             hi = mid
         else:
             lo = mid + 1

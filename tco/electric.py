@@ -477,7 +477,7 @@ def grid_energy(battery_energy, charging_efficiency):
 def energy_above_reserve(usable_capacity: float, start_soc: float, reserve: float) -> float:
     """Energy a battery can give in a day before it reaches its reserve.
 
-    .. math:: E_{avail} = C_{usable}\,(SOC_{start} - SOC_{reserve})
+    .. math:: E_{avail} = C_{usable}\\,(SOC_{start} - SOC_{reserve})
 
     A day fits the battery when its deepest drawdown, (SOC_start − SOC_min)·C_usable,
     is at most this energy.
