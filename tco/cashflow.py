@@ -224,6 +224,13 @@ class CostInputs:
         Operating days per year of the route (default: the operations' own). [1/yr]
     trips_per_day : float, optional
         Trips per operating day, extra trips not counted (default: the operations' own).
+    purchase_year : int
+        Year t the trucks (and their share of depot equipment) are bought, 0..N−1. They
+        are paid and financed from year t, run from year t + 1 (energy, running costs,
+        distance), and hold their residual value at the end of the period (age N − t).
+        Prices are those of year t: today's prices grown by their escalations (the truck's
+        price by ``prices.escalation.equipment``). Years before t carry no flows. 0 (the
+        default) is the purchase now. [yr]
     """
 
     finance: Finance
@@ -233,6 +240,7 @@ class CostInputs:
     operations: list[AnnualOperation]
     days_per_year: float | None = None
     trips_per_day: float | None = None
+    purchase_year: int = 0
 
 
 def _base_trips_per_day(op: AnnualOperation) -> float:
@@ -263,7 +271,10 @@ def check_inputs(inputs: CostInputs) -> None:
         that ends before the period; an unknown baseline truck; operations that do not
         match the trucks.
     """
-    n = inputs.finance.analysis_years
+    n = inputs.finance.analysis_years - inputs.purchase_year  # years owned in the period
+    if not 0 <= inputs.purchase_year < inputs.finance.analysis_years:
+        raise InputError(f"purchase year {inputs.purchase_year} is outside 0.."
+                         f"{inputs.finance.analysis_years - 1}", where="purchase_year")
     if len(inputs.trucks) != len(inputs.operations):
         raise ValueError("one AnnualOperation per truck is needed, in the same order")
     for i, (t, op) in enumerate(zip(inputs.trucks, inputs.operations)):
@@ -572,12 +583,13 @@ def compute(inputs: CostInputs, overrides: dict | None = None,
         if ctx.real:
             deflator = ctx.deflator()
             lines = [{k: v * deflator for k, v in d.items()} for d in lines]
-    lines = [{k: _as_first(v, ctx.N) for k, v in d.items()} for d in lines]
+    lines = [{k: _delayed(_as_first(v, ctx.N), ctx.t0) for k, v in d.items()} for d in lines]
     rate = p("finance.discount_rate")
     return CashFlows(
-        years=np.arange(ctx.N + 1), trucks=[t.name for t in inputs.trucks],
+        years=np.arange(ctx.N + ctx.t0 + 1), trucks=[t.name for t in inputs.trucks],
         powertrains=[t.powertrain for t in inputs.trucks], by_year=lines,
-        distance_by_year=[_as_first(ctx.distance(i), ctx.N) for i in range(len(inputs.trucks))],
+        distance_by_year=[_delayed(_as_first(ctx.distance(i), ctx.N), ctx.t0)
+                          for i in range(len(inputs.trucks))],
         discount_rate=rate, money_basis=inputs.finance.money_basis,
         baseline=_baseline_index(inputs), n_draws=p.n, assumptions=ctx.assumptions,
     )
@@ -664,6 +676,8 @@ def compute_totals(inputs: CostInputs, overrides: dict | None = None,
     InputError
         As :func:`compute`.
     """
+    if inputs.purchase_year:
+        raise ValueError("compute_totals covers purchases in year 0; use compute")
     ctx, made = _make_lines(inputs, overrides, params, keep=False)
     p = ctx.p
     n = len(inputs.trucks)
@@ -673,6 +687,14 @@ def compute_totals(inputs: CostInputs, overrides: dict | None = None,
         annual_distance=[ctx.q(i, "distance") for i in range(n)],
         discount_rate=p("finance.discount_rate"), money_basis=inputs.finance.money_basis,
         baseline=_baseline_index(inputs), n_draws=p.n, assumptions=ctx.assumptions)
+
+
+def _delayed(v: np.ndarray, t0: int) -> np.ndarray:
+    """A years-first line of the years owned (0..N−t0) placed at years t0..N (zeros
+    before the purchase year)."""
+    if t0 == 0:
+        return v
+    return np.concatenate([np.zeros((t0, v.shape[1])), v], axis=0)
 
 
 def _as_first(v, n_years: int) -> np.ndarray:
@@ -883,7 +905,10 @@ class _Context:
 
     def __init__(self, inputs: CostInputs, p: _Params):
         self.inputs, self.p = inputs, p
-        self.N = inputs.finance.analysis_years
+        # Bought in year t0: the arithmetic runs over the years owned, 0..N (N = the
+        # period's years after the purchase), priced at year t0; compute() places them.
+        self.t0 = inputs.purchase_year
+        self.N = inputs.finance.analysis_years - self.t0
         self.y = np.arange(self.N + 1, dtype=float)[:, None]
         self.e0 = self.unit(0)
         self.eN = self.unit(self.N)
@@ -908,7 +933,8 @@ class _Context:
 
     def deflator(self) -> np.ndarray | None:
         """(1 + inflation)^-y for the real money basis, None for the nominal one."""
-        return (1.0 + self.p("finance.inflation")) ** -self.y if self.real else None
+        return (1.0 + self.p("finance.inflation")) ** -(self.y + self.t0) if self.real \
+            else None
 
     def esc(self, path: str):
         """Nominal escalation rate of a line (real ones are turned nominal)."""
@@ -916,12 +942,13 @@ class _Context:
         return (1.0 + e) * (1.0 + self.p("finance.inflation")) - 1.0 if self.real else e
 
     def running(self, path: str) -> np.ndarray:
-        """(1 + e)^(y-1) in years 1..N, 0 in year 0."""
-        return self.op_mask * (1.0 + self.esc(path)) ** np.maximum(self.y - 1.0, 0.0)
+        """(1 + e)^(y-1) in years 1..N, 0 in year 0 (years counted from today)."""
+        return self.op_mask * (1.0 + self.esc(path)) ** (np.maximum(self.y - 1.0, 0.0)
+                                                         + self.t0)
 
     def one_off(self, path: str) -> np.ndarray:
-        """(1 + e)^t for a one-off bought at the end of year t."""
-        return (1.0 + self.esc(path)) ** self.y
+        """(1 + e)^t for a one-off bought at the end of year t (counted from today)."""
+        return (1.0 + self.esc(path)) ** (self.y + self.t0)
 
     @staticmethod
     def _uses_depot(truck: TruckSpec, op: AnnualOperation) -> bool:
@@ -996,6 +1023,8 @@ class _Context:
 
         # purchase and incentives ---------------------------------------------------------
         price = p(f"{tp}.purchase_price")
+        if self.t0:  # bought later: today's price grown to the year of purchase
+            price = price * self.at(self.one_off("prices.escalation.equipment"), 0)
         taxes = price * p(f"{tp}.purchase_tax_rate") + p(f"{tp}.purchase_fees")
         grant = p(f"{tp}.grant")
         credit = p(f"{tp}.tax_credit")
@@ -1470,7 +1499,8 @@ def evaluate(inputs: CostInputs, break_evens: bool = True) -> CashflowResult:
         metrics.append(TruckMetrics(
             name=name, powertrain=cf.powertrains[i], present_value=float(cf.present_value(i)),
             undiscounted_total=float(total.sum()), levelized_cost=float(cf.levelized_cost(i)),
-            annual_distance=float(cf.distance[i][1]), present_value_by_line=by_line))
+            annual_distance=float(cf.distance[i][inputs.purchase_year + 1]),
+            present_value_by_line=by_line))
     table = pd.DataFrame(rows, columns=["truck", "year", "line", "amount"])
 
     ref = cf.baseline

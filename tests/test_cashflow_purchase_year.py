@@ -1,0 +1,127 @@
+"""Tests of purchases after year 0 in tco.cashflow (``CostInputs.purchase_year``).
+
+A truck bought in year t is paid and financed in year t, runs from t + 1 and holds its
+residual value at the end of the period; prices are today's grown by their escalations.
+Checks are hand calculations written out below and the Fisher relation (real = nominal).
+"""
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+import pytest
+
+from tco.cashflow import TruckSpec, compute, evaluate
+from tco.errors import InputError
+from test_cashflow import hand_case, rich_case
+
+
+
+def _later(inputs, years, t):
+    inputs = dataclasses.replace(inputs, purchase_year=t)
+    inputs.finance = inputs.finance.model_copy(update=dict(analysis_years=years))
+    return inputs
+
+
+def test_hand_case_bought_in_year_two_of_five():
+    """The three-year loan case of test_cashflow, bought in year 2 of a 5-year period.
+
+    Same loan (the price does not escalate: equipment escalation 0): year 2 pays
+    100,000 + 2,000 − 81,600 = 20,400.00; instalments 30,527.36 in years 3, 4, 5.
+    Diesel at year-2 prices: 20,000 L × 1.50 × 1.04² = 32,448.00, then 33,745.92,
+    35,095.76 (4 % a year, to the cent). Maintenance 5,000 and insurance 1,000 a year from year 3.
+    Residual at the end of year 5, age 3: 100,000 × 0.8³ = 51,200.00.
+
+    year 0: 0; year 1: 0; year 2: 20,400.00;
+    year 3: 30,527.36 + 32,448.00 + 6,000 = 68,975.36;
+    year 4: 30,527.36 + 33,745.92 + 6,000 = 70,273.28;
+    year 5: 30,527.36 + 35,095.76 + 6,000 − 51,200 = 20,423.12.
+    """
+    cf = compute(_later(hand_case(), 5, 2))
+    cents = lambda a: np.round(a, 2).tolist()  # noqa: E731
+    lines = cf.lines[0]
+    assert cents(lines["diesel"]) == [0.0, 0.0, 0.0, 32448.00, 33745.92, 35095.76]
+    assert cents(lines["loan_drawdown"]) == [0.0, 0.0, -81600.0, 0.0, 0.0, 0.0]
+    assert cents(lines["residual_value"]) == [0.0, 0.0, 0.0, 0.0, 0.0, -51200.0]
+    assert cents(cf.total(0)) == [0.0, 0.0, 20400.00, 68975.36, 70273.28, 20423.12]
+    assert cents(cf.distance[0]) == [0.0, 0.0, 0.0, 5e7, 5e7, 5e7]
+    # PV at 10 % of the unrounded flows above, each discounted from its own year.
+    a = 81_600 * 0.06 / (1 - 1.06 ** -3)
+    flows = [20_400, a + 32_448 + 6_000, a + 33_745.92 + 6_000,
+             a + 32_448 * 1.04 ** 2 + 6_000 - 51_200]
+    pv = sum(f / 1.1 ** (k + 2) for k, f in enumerate(flows))
+    assert cf.present_value(0) == pytest.approx(pv, rel=1e-12)
+
+
+def test_truck_price_grows_with_the_equipment_escalation():
+    """Equipment escalation 2 %: bought in year 2 at 100,000 × 1.02² = 104,040; the
+    residual after 3 years is 104,040 × 0.8³ = 53,268.48."""
+    inputs = _later(hand_case(), 5, 2)
+    esc = inputs.prices.escalation.model_copy(update=dict(equipment=0.02))
+    inputs.prices = inputs.prices.model_copy(update=dict(escalation=esc))
+    lines = compute(inputs).lines[0]
+    assert round(lines["purchase_price"][2], 2) == 104_040.00
+    assert round(lines["residual_value"][5], 2) == -53_268.48
+
+
+def test_year_zero_is_the_default_and_year_shift_keeps_the_years_owned():
+    """purchase_year = 0 is the case as before; a zero-escalation case bought in year t
+    of an N-year period has the flows of the (N − t)-year case moved t years later."""
+    base = rich_case(9)
+    assert compute(dataclasses.replace(base, purchase_year=0)).total(1).tolist() == \
+        compute(base).total(1).tolist()
+    def no_equipment_escalation(inputs):
+        esc = inputs.prices.escalation.model_copy(update=dict(equipment=0.0))
+        inputs.prices = inputs.prices.model_copy(update=dict(escalation=esc))
+        return inputs
+
+    later = compute(no_equipment_escalation(_later(rich_case(9), 12, 3)))
+    now = compute(no_equipment_escalation(rich_case(9)))
+    for k in range(2):
+        # escalations make prices differ; compare only lines without one: loan, residual
+        for line in ("loan_drawdown", "loan_interest", "loan_principal"):
+            if line in now.lines[k]:
+                np.testing.assert_allclose(later.lines[k][line][3:], now.lines[k][line],
+                                           rtol=1e-12)
+                assert not np.any(later.lines[k][line][:3])
+
+
+def test_real_basis_equals_nominal_for_a_later_purchase():
+    """Fisher relation with the purchase in year 4 of 12: real escalations e, rate r and
+    inflation i give the nominal case with (1+e)(1+i)−1, (1+r)(1+i)−1."""
+    i = 0.03
+
+    def case(basis, conv):
+        inputs = _later(rich_case(), 12, 4)
+        inputs.finance = inputs.finance.model_copy(update=dict(
+            money_basis=basis, inflation=i, discount_rate=conv(0.04),
+            driver_cost_escalation=conv(0.01)))
+        esc = inputs.prices.escalation.model_copy(update=dict(
+            diesel=conv(0.02), electricity=conv(-0.01), equipment=conv(0.0),
+            diesel_exhaust_fluid=conv(0.0), public_charging=conv(0.005)))
+        inputs.prices = inputs.prices.model_copy(update=dict(escalation=esc))
+        for k, t in enumerate(inputs.trucks):
+            e = t.costs.escalation.model_copy(update=dict(
+                maintenance=conv(0.01), battery=conv(-0.04), insurance=conv(0.0),
+                tyres=conv(0.0), tolls=conv(0.0), registration=conv(0.0)))
+            inputs.trucks[k] = TruckSpec(t.name, t.powertrain,
+                                         t.costs.model_copy(update=dict(escalation=e)))
+        return compute(inputs)
+
+    real = case("real", lambda e: e)
+    nominal = case("nominal", lambda e: (1 + e) * (1 + i) - 1)
+    for k in range(2):
+        assert real.present_value(k) == pytest.approx(nominal.present_value(k), rel=1e-12)
+        np.testing.assert_allclose(real.total(k), nominal.total(k) / (1 + i) ** np.arange(13),
+                                   rtol=1e-12, atol=1e-6)
+        assert not np.any(real.total(k)[:4])
+
+
+def test_purchase_year_outside_the_period_is_refused():
+    with pytest.raises(InputError, match="purchase year"):
+        compute(_later(hand_case(), 3, 3))
+
+
+def test_evaluate_reads_the_first_year_in_service():
+    r = evaluate(_later(hand_case(), 5, 2), break_evens=False)
+    assert r.trucks[0].annual_distance == pytest.approx(5e7)
