@@ -414,6 +414,53 @@ def test_demo_formulas_equal_the_model(demo, demo_xlsx, demo_recalc):
     assert n > 600  # two trucks × ~25 lines × 13 columns, emissions, summary
 
 
+def test_cached_values_as_written_equal_the_model(demo, demo_xlsx):
+    """Numbers visible without recalculation: the file as written (no spreadsheet program)
+    carries every formula's result, and ``openpyxl.load_workbook(data_only=True)`` reads
+    the model's figures (cash-flow table, summary.json, emissions) to 1e-9 relative."""
+    result, summary = demo
+    values = openpyxl.load_workbook(demo_xlsx, data_only=True)
+    formulas = openpyxl.load_workbook(demo_xlsx)
+    blank = [(ws.title, c.coordinate) for ws in formulas for row in ws.iter_rows()
+             for c in row if c.data_type == "f" and values[ws.title][c.coordinate].value
+             is None]
+    assert not blank, blank[:10]
+    n = _Checker(demo_xlsx, demo_xlsx, result, summary).run()
+    assert n > 600
+
+
+def test_cached_values_of_the_variant_equal_the_model(variant, tmp_path):
+    """The same check, without LibreOffice, on the structure the demo does not use."""
+    result, summary = variant
+    path = tmp_path / "variant.xlsx"
+    write_workbook(result, summary, path)
+    _Checker(path, path, result, summary).run()
+
+
+@pytest.mark.slow
+@needs_soffice
+def test_cached_values_equal_libreoffice(demo_xlsx, demo_recalc):
+    """The stored results equal LibreOffice's own recalculation of every formula cell
+    (1e-12 relative; LibreOffice is the reference spreadsheet program here)."""
+    mine = openpyxl.load_workbook(demo_xlsx, data_only=True)
+    lo = openpyxl.load_workbook(demo_recalc, data_only=True)
+    formulas = openpyxl.load_workbook(demo_xlsx)
+    n = 0
+    for ws in formulas:
+        for row in ws.iter_rows():
+            for c in row:
+                if c.data_type != "f":
+                    continue
+                a, b = mine[ws.title][c.coordinate].value, lo[ws.title][c.coordinate].value
+                n += 1
+                if isinstance(b, (int, float)) and not isinstance(b, bool):
+                    assert math.isclose(a, b, rel_tol=1e-12, abs_tol=1e-9), (
+                        ws.title, c.coordinate, a, b)
+                else:
+                    assert a == b, (ws.title, c.coordinate, a, b)
+    assert n > 600
+
+
 @pytest.mark.slow
 @needs_soffice
 @pytest.mark.parametrize("sheet, key, col, factor", [

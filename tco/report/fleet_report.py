@@ -1046,7 +1046,9 @@ def build_fleet_workbook(result, summary: dict):
 
 def write_fleet_workbook(result, summary: dict, path) -> None:
     """Write :func:`build_fleet_workbook` to ``path`` (``.xlsx``)."""
-    build_fleet_workbook(result, summary).save(Path(path))
+    from tco.report.workbook_values import save_with_values
+
+    save_with_values(build_fleet_workbook(result, summary), Path(path))
 
 
 # =========================================================================== writer

@@ -93,7 +93,9 @@ def write_workbook(result, summary: dict, path) -> None:
     path : str or Path
         The ``.xlsx`` file to write (overwritten).
     """
-    build_workbook(result, summary).save(Path(path))
+    from tco.report.workbook_values import save_with_values
+
+    save_with_values(build_workbook(result, summary), Path(path))
 
 
 def build_workbook(result, summary: dict) -> Workbook:
