@@ -15,6 +15,11 @@ column         unit    meaning
 ``leg``        [-]     leg number, 0-based (int)
 =============  ======  ==========================================================
 
+An optional boolean column ``parked`` marks samples of a parked dwell (loading or
+unloading at the end of a leg): the interval *into* such a sample is standing with the
+engine off unless a parked-idle share is given (:func:`tco.energy.simulate`). Traffic
+stops inside a leg are not parked. :func:`concatenate_legs` keeps the column.
+
 Interval scheme
 ---------------
 Interval *i* runs from sample *i* to sample *i + 1*. Its mean speed is
@@ -1336,6 +1341,8 @@ def concatenate_legs(traces: Sequence[pd.DataFrame]) -> pd.DataFrame:
             raise InputError(f"time step {this_dt:g} s differs from the first leg's {dt:g} s",
                              where=f"legs[{j}]")
         part = tr.loc[:, list(COLUMNS)].reset_index(drop=True).copy()
+        part["parked"] = (tr["parked"].to_numpy(dtype=bool) if "parked" in tr.columns
+                          else np.zeros(len(tr), dtype=bool))
         part["leg"] = pd.factorize(part["leg"])[0] + leg_offset
         if t_end is None:
             dz = 0.0
@@ -1358,6 +1365,8 @@ def concatenate_legs(traces: Sequence[pd.DataFrame]) -> pd.DataFrame:
             climbs[k] += float(tr.attrs.get(key, _climb(tr["elevation"].to_numpy())[0]))
     out = pd.concat(parts, ignore_index=True)
     out["leg"] = out["leg"].astype(np.int64)
+    if not out["parked"].any():
+        out = out.drop(columns="parked")
     out.attrs = {
         "dt": dt,
         "leg_starts": leg_starts(out).tolist(),

@@ -122,8 +122,11 @@ def simulate(truck, scenario, trip: pd.DataFrame) -> TruckResult:
     grade = day["grade"].to_numpy(dtype=float)
     run = kernel.run_trace(speed, grade, route.time_step, starts, leg_mass, veh, die, ele,
                            series=True)
-    tot = run.totals
-    ser = run.series
+    parked = (day["parked"].to_numpy(dtype=bool)[1:] if "parked" in day.columns
+              else np.zeros(speed.size - 1, dtype=bool))
+    tot, ser, soc = engine_off_when_parked(run.totals, run.series, run.soc, speed, parked,
+                                           route.time_step, route.parked_idle_share,
+                                           die, ele)
 
     out = day[["time", "speed", "grade", "elevation", "distance", "leg"]].copy()
     out["leg"] = out["leg"] % n_legs
@@ -131,7 +134,7 @@ def simulate(truck, scenario, trip: pd.DataFrame) -> TruckResult:
     out["wheel_power"] = _pad(ser.wheel_power)
     if is_e:
         out["battery_power"] = _pad(ser.battery_power)
-        out["soc"] = run.soc
+        out["soc"] = soc
     else:
         out["fuel_rate"] = _pad(ser.fuel_rate)
 
@@ -212,6 +215,89 @@ def simulate(truck, scenario, trip: pd.DataFrame) -> TruckResult:
     summary["wheel_energy_per_distance"] = {
         k: v / trip_distance for k, v in summary["wheel_energy"].items()}
     return TruckResult(truck.name, truck.powertrain, out, summary, feas, warnings, op)
+
+
+def engine_off_when_parked(totals: dict, series, soc: np.ndarray, speed: np.ndarray,
+                           parked: np.ndarray, dt: float, idle_share: float, diesel: DieselPowertrain,
+                           electric_pt: ElectricPowertrain):
+    r"""Switch the truck off during parked dwells (loading, unloading) of a kernel run.
+
+    The kernel idles the diesel engine and runs the electric truck's auxiliaries through
+    every standing interval. Traffic stops are like that; a parked truck is switched off.
+    For the parked intervals that are standing (mean speed below the diesel's stop speed)
+    a share ``1 − idle_share`` of the idle fuel and of the auxiliary power is removed:
+
+    .. math:: V_{idle} \leftarrow V_{idle} - (1-s)\,n_p\,\Delta t\,\dot V_{idle},
+       \qquad P_b \leftarrow P_b - (1-s)\,P_{aux} \text{ on parked intervals}
+
+    and the battery's energy track is recomputed from the corrected battery power with
+    :func:`tco.electric.battery_energy_track` (the same full-battery rule as the kernel).
+
+    Parameters
+    ----------
+    totals : dict
+        Kernel totals (:data:`tco.kernel.TOTAL_KEYS`). [SI]
+    series : tco.kernel.TraceSeries
+        Kernel series of the same run.
+    soc : ndarray
+        State of charge at each sample. [-]
+    speed : ndarray
+        Speed at each sample of the run. [m/s]
+    parked : ndarray of bool
+        One per interval: the interval ends in a parked sample. [-]
+    dt : float
+        Time step. [s]
+    idle_share : float
+        Share of the parked time with the engine (or the auxiliaries) left running, e.g.
+        for cab heating or cooling in a cold or hot climate. [-]
+    diesel, electric_pt : DieselPowertrain, ElectricPowertrain
+        Parameters of the run.
+
+    Returns
+    -------
+    totals, series, soc
+        Corrected copies (the inputs are not changed).
+    """
+    tot = dict(totals)
+    if idle_share >= 1.0 or not parked.any():
+        return tot, series, soc
+    off = 1.0 - float(idle_share)
+    vm = 0.5 * (speed[1:] + speed[:-1])
+    standing = parked & (vm < diesel.stop_speed)
+    n_off = float(np.count_nonzero(standing))
+    # diesel: idle fuel during the parked time
+    saved_time = off * n_off * dt
+    saved_volume = saved_time * diesel.idle_fuel_rate
+    fuel_volume = tot["diesel_fuel_volume"] - saved_volume
+    tot["diesel_idle_time"] -= saved_time
+    tot["diesel_idle_fuel_volume"] -= saved_volume
+    tot["diesel_fuel_volume"] = fuel_volume
+    tot["diesel_fuel_mass"] -= saved_volume * diesel.density
+    tot["diesel_def_volume"] = float(
+        tot["diesel_def_volume"] * fuel_volume / (fuel_volume + saved_volume)
+        if fuel_volume + saved_volume > 0 else 0.0)
+    fuel_rate = series.fuel_rate.copy()
+    fuel_rate[standing] -= off * diesel.idle_fuel_rate
+    # electric: auxiliaries during the parked time, battery track recomputed
+    pb = series.battery_power.copy()
+    pb[standing] -= off * electric_pt.aux_power
+    cap = electric_pt.usable_capacity
+    energy, refused_full = electric.battery_energy_track(
+        pb, dt, electric_pt.initial_soc * cap, cap)
+    new_soc = energy / cap
+    out = float(np.maximum(pb, 0.0).sum() * dt)
+    regenerated = float(np.maximum(-pb, 0.0).sum() * dt) - refused_full
+    tot.update({
+        "electric_battery_energy_out": out,
+        "electric_battery_energy_regenerated": regenerated,
+        "electric_battery_energy_net": out - regenerated,
+        "electric_regen_refused_full_battery": refused_full,
+        "electric_friction_brake_energy": (tot["electric_regen_refused_by_limits"]
+                                           + refused_full / electric_pt.regen_efficiency),
+        "electric_soc_end": float(new_soc[-1]),
+        "electric_soc_min": float(new_soc.min()),
+    })
+    return tot, kernel.TraceSeries(series.wheel_power, pb, fuel_rate, new_soc), new_soc
 
 
 def _pad(per_interval: np.ndarray) -> np.ndarray:

@@ -52,7 +52,10 @@ def _leg_trace(loaded: LoadedScenario, i: int) -> pd.DataFrame:
 
 
 def _append_dwell(trace: pd.DataFrame, dwell: float, dt: float) -> pd.DataFrame:
-    """Stand still for ``dwell`` seconds at the end of a trace (loading, unloading)."""
+    """Stand still for ``dwell`` seconds at the end of a trace (loading, unloading).
+
+    The added samples are marked ``parked`` (engine off, see :func:`tco.energy.simulate`).
+    """
     n = int(round(dwell / dt))
     if n <= 0:
         return trace
@@ -62,8 +65,10 @@ def _append_dwell(trace: pd.DataFrame, dwell: float, dt: float) -> pd.DataFrame:
     extra = pd.DataFrame({
         "time": last["time"] + dt * np.arange(1, n + 1),
         "speed": 0.0, "grade": 0.0, "elevation": last["elevation"],
-        "distance": last["distance"], "leg": last["leg"],
+        "distance": last["distance"], "leg": last["leg"], "parked": True,
     })
+    trace = trace.assign(parked=trace["parked"].to_numpy(dtype=bool)
+                         if "parked" in trace.columns else False)
     out = pd.concat([trace, extra], ignore_index=True)
     out["leg"] = out["leg"].astype(trace["leg"].dtype)
     out.attrs = dict(trace.attrs)

@@ -757,3 +757,12 @@ def test_whole_file_reader_equals_the_checked_reader(tmp_path):
     assert _fast_file(odd) is None
     cols, _, line_no, _ = _read_csv_table(odd)
     assert len(line_no) == len(lines) - 3 and 11 not in set(line_no.tolist())  # 2 notes, header
+
+
+def test_concatenate_legs_keeps_the_parked_marks():
+    a = from_segments([{"length": 300.0, "speed": 10.0}])
+    b = from_segments([{"length": 300.0, "speed": 10.0}])
+    a = a.assign(parked=np.arange(len(a)) >= len(a) - 3)  # the last three samples parked
+    both = concatenate_legs([a, b])
+    assert both["parked"].tolist() == [False] * (len(a) - 3) + [True] * 3 + [False] * len(b)
+    assert "parked" not in concatenate_legs([b, b]).columns

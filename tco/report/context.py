@@ -574,7 +574,10 @@ METHOD_NOTES = [
      r" + f_r m a"),
     ("Diesel fuel", "Engine power is wheel power through the driveline plus accessories; "
      "fuel follows the Willans line (or a constant BSFC). Fuel is cut on overrun; idling "
-     "burns the idle rate. Demand above rated power is capped and reported.",
+     "burns the idle rate at traffic stops, while a parked truck (loading, unloading) is "
+     "switched off except for the parked-idle share (route.parked_idle_share), which also "
+     "sets the electric truck's auxiliaries while parked. Demand above rated power is "
+     "capped and reported.",
      "ṁ_f = (P_e + P_0) / (η_m · LHV)",
      r"\dot m_f = \frac{P_e + P_0}{\eta_m \, LHV}"),
     ("Battery and charging", "Battery power is wheel power through the drivetrain plus "

@@ -123,6 +123,12 @@ class Route(Section):
     days_per_year: Qty("", gt=0, le=366) = qfield(
         250.0, "", "Operating days per year", "common practice: about 250 working days a year"
     )
+    parked_idle_share: Qty("", ge=0, le=1) = qfield(
+        0.0, "", "Share of the parked dwell (loading, unloading at the end of a leg) with "
+        "the engine or auxiliaries left running, e.g. for cab heating or cooling; traffic "
+        "stops always idle",
+        "common practice: trucks are switched off while parked (anti-idling rules)"
+    )
     time_step: Qty("s", gt=0, le=10) = qfield(1.0, "s", "Simulation time step", ASSUMPTION)
     smoothing_window: Qty("m", ge=0, le=5000) = qfield(
         250.0, "m", "Elevation smoothing window for CSV and GPX traces (0 = off)", ASSUMPTION
