@@ -760,9 +760,9 @@ def test_whole_file_reader_equals_the_checked_reader(tmp_path):
 
 
 def test_concatenate_legs_keeps_the_parked_marks():
-    a = from_segments([{"length": 300.0, "speed": 10.0}])
-    b = from_segments([{"length": 300.0, "speed": 10.0}])
+    a = dc.from_segments([{"length": 300.0, "speed": 10.0}])
+    b = dc.from_segments([{"length": 300.0, "speed": 10.0}])
     a = a.assign(parked=np.arange(len(a)) >= len(a) - 3)  # the last three samples parked
-    both = concatenate_legs([a, b])
+    both = dc.concatenate_legs([a, b])
     assert both["parked"].tolist() == [False] * (len(a) - 3) + [True] * 3 + [False] * len(b)
-    assert "parked" not in concatenate_legs([b, b]).columns
+    assert "parked" not in dc.concatenate_legs([b, b]).columns
