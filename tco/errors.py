@@ -34,10 +34,17 @@ class InputError(Exception):
         return (InputError, (self.message, self.file, self.where))
 
     def line(self) -> str:
-        """The one-line form: ``file: where: message``."""
+        """The one-line form: ``file: where: message``.
+
+        Always one line: line breaks inside an echoed value, key or file name are shown
+        as ``\\n``, control characters are replaced and a very long line is cut (see
+        :func:`tco.text.one_line`).
+        """
+        from tco.text import one_line
+
         parts = [p for p in (self.file, self.where) if p]
         parts.append(self.message)
-        return ": ".join(parts)
+        return one_line(": ".join(parts))
 
     def located(self, file: str | Path | None = None, where: str | None = None) -> "InputError":
         """Return a copy with the file and/or location filled in where still missing."""

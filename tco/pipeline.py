@@ -16,6 +16,7 @@ from tco.errors import InputError
 from tco.progress import Silent, Steps
 from tco.result import Result
 from tco.scenario import LoadedScenario, Scenario, field_sources
+from tco.scenario.base import unusual_values
 
 
 def _leg_trace(loaded: LoadedScenario, i: int) -> pd.DataFrame:
@@ -165,7 +166,8 @@ def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
             raise exc.located(file=loaded.path) from None
         timings["uncertainty"] = time.perf_counter() - t0
 
-    warnings = [w for tr in trucks.values() for w in tr.warnings]
+    warnings = unusual_values(s)
+    warnings += [w for tr in trucks.values() for w in tr.warnings]
     warnings += list(getattr(cf, "assumptions", []))
     return Result(
         loaded=loaded, route=trip, route_summary=dutycycle.trace_summary(trip),

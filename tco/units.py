@@ -95,11 +95,15 @@ def to_si(value: float | int | str, unit: str) -> float:
         q = _parse_string(value)
         target = ureg.parse_expression(unit) if "(" in unit else Q_(1.0, unit)
         if q.dimensionality != target.dimensionality:
-            if q.dimensionless:
-                # a bare number inside a string: read it in the default unit
-                return to_si(float(q.to("").magnitude), unit)
+            if not q._units:  # pint's unitless is true for "%" too; this is "no unit at all"
+                # a bare number inside a string ("12"): read it in the default unit
+                return to_si(float(q.magnitude), unit)
+            # A unit of the wrong dimension, including a dimensionless one such as "%" on
+            # a length: never guess what was meant.
+            expected = f"a unit like '{unit}'" if unit else "a plain number or a '%'"
             raise UnitError(
-                f"'{value}' is not a {_dimension_name(unit)} (expected units like '{unit}')"
+                f"'{_short(value)}' is not {_a(_dimension_name(unit))}: its unit "
+                f"'{_unit_text(q)}' is {_given_dimension(q)}; expected {expected}"
             )
         out = float(q.to_base_units().magnitude)
     else:
@@ -135,11 +139,44 @@ _DIMENSION_NAMES = {
     "[mass] * [length] / [time] ** 2": "force",
     "[mass] * [length] / [time] ** 2 / [length]": "energy per distance",
 }
+_DIMENSION_NAMES.update({
+    str(Q_(1.0, unit).dimensionality): name
+    for unit, name in (("1/km", "price per distance"), ("1/L", "price per volume"),
+                       ("1/kWh", "price per energy"), ("1/kW", "price per power"),
+                       ("1/h", "price per time"), ("g/kWh", "mass per energy"),
+                       ("kg/L", "density"), ("kW/K", "power per kelvin"),
+                       ("s/m", "time per distance"), ("m/s^2", "acceleration"),
+                       ("L/h", "volume per time"), ("MJ/kg", "energy per mass"))
+})
+
+
+def _short(text: str, limit: int = 40) -> str:
+    """``text`` cut to ``limit`` characters for an error message."""
+    text = str(text)
+    return text if len(text) <= limit else text[: limit - 1] + "…"
+
+
+def _unit_text(q: pint.Quantity) -> str:
+    return _short(f"{q.units:~}" or str(q.units), 30)
+
+
+def _given_dimension(q: pint.Quantity) -> str:
+    if q.dimensionless:
+        return "dimensionless"
+    dim = str(q.dimensionality)
+    name = _DIMENSION_NAMES.get(dim)
+    return _a(name) if name else f"of dimension {dim}"
+
+
+def _a(noun: str) -> str:
+    return ("an " if noun[:1] in "aeiou" else "a ") + noun
 
 
 def _dimension_name(unit: str) -> str:
     dim = str(ureg.parse_expression(unit).dimensionality) if "(" in unit \
         else str(Q_(1.0, unit).dimensionality)
+    if dim == "dimensionless":
+        return "plain number (dimensionless)"
     return _DIMENSION_NAMES.get(dim, f"quantity of dimension {dim}")
 
 

@@ -38,7 +38,8 @@ __all__ = [
 class Truck(Section):
     """One candidate truck."""
 
-    name: str = mfield(..., "", "Name of the truck, unique in the scenario")
+    name: str = mfield(..., "", "Name of the truck, unique in the scenario (at most 80 "
+                       "characters)", text_limit=80)
     powertrain: Literal["diesel", "electric"] = mfield(..., "", "diesel or electric")
     body: Body = Field(..., description="Masses, aerodynamics, tyres")
     diesel: Diesel | None = Field(None, description="Diesel powertrain (diesel trucks)")

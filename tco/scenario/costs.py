@@ -40,6 +40,13 @@ NO_ESCALATION = "assumption: no change in price over the period unless you give 
 NO_DEFAULT = "no default: give it when a truck uses it"
 
 
+#: The highest yearly rate or escalation accepted: +100 % a year (prices doubling every
+#: year). A larger figure is almost always a percent written as a plain number (8 for
+#: 8 %); write 0.08 or "8 %". [-]
+RATE_CEILING = 1.0
+_AS_FRACTION = "write a fraction (0.03) or a percent string ('3 %')"
+
+
 def _escalation_check(value: float) -> float:
     # Escalation compounds: price_y = price_0 * (1 + e)**y. The price stays positive over
     # any period exactly when e > -1, so this one bound is the whole "never negative" check.
@@ -48,6 +55,9 @@ def _escalation_check(value: float) -> float:
             f"an escalation of {value:.0%} per year would make the price zero or negative; "
             "it must be above -100 %"
         )
+    if value > RATE_CEILING:
+        raise ValueError(f"an escalation of {value:.4g} is {value:.0%} per year; the limit "
+                         f"is {RATE_CEILING:.0%} ({_AS_FRACTION})")
     return value
 
 
@@ -55,19 +65,24 @@ def _rate_check(value: float) -> float:
     if value <= -1.0:
         raise ValueError(f"a rate of {value:.0%} per year or less has no meaning; it must be "
                          "above -100 %")
+    if value > RATE_CEILING:
+        raise ValueError(f"a rate of {value:.4g} is {value:.0%} per year; the limit is "
+                         f"{RATE_CEILING:.0%} ({_AS_FRACTION})")
     return value
 
 
-#: A yearly escalation rate: a fraction per year (``0.03`` or ``"3 %"``), above -100 %. [-]
+#: A yearly escalation rate: a fraction per year (``0.03`` or ``"3 %"``), above -100 % and
+#: at most :data:`RATE_CEILING`. [-]
 Escalation = Annotated[Qty(""), AfterValidator(_escalation_check)]
-#: A discount or inflation rate per year, above -100 %. [-]
+#: A discount or inflation rate per year, above -100 % and at most :data:`RATE_CEILING`. [-]
 Rate = Annotated[Qty(""), AfterValidator(_rate_check)]
 #: A share between 0 and 1 (``0.2`` or ``"20 %"``). [-]
 Share = Qty("", ge=0, le=1)
 
 
 def _esc(description: str, source: str = NO_ESCALATION):
-    return qfield(0.0, "", f"{description}, change per year (fraction, '3 %' accepted)", source)
+    return qfield(0.0, "", f"{description}, change per year (fraction, '3 %' accepted; usual "
+                  "-15 % to +15 %)", source, usual=(-0.15, 0.15))
 
 
 # --------------------------------------------------------------------------- finance
@@ -113,13 +128,15 @@ class Finance(Section):
         ge=1, le=50,
     )
     discount_rate: Rate = qfield(
-        0.08, "", "Discount rate per year (nominal or real, as money_basis says)", ASSUMPTION
+        0.08, "", "Discount rate per year (nominal or real, as money_basis says; usual 0 to "
+        "25 %)", ASSUMPTION, usual=(0.0, 0.25)
     )
     money_basis: Literal["nominal", "real"] = mfield(
         "nominal", "", "nominal: money of each year; real: money of year 0", ASSUMPTION
     )
     inflation: Rate = qfield(
-        0.02, "", "General inflation per year, used only when money_basis is real", ASSUMPTION
+        0.02, "", "General inflation per year, used only when money_basis is real (usual "
+        "-2 % to 20 %)", ASSUMPTION, usual=(-0.02, 0.20)
     )
     after_tax: AfterTax = Field(default_factory=AfterTax, description="After-tax view")
     baseline: str | None = mfield(
@@ -137,7 +154,8 @@ class Finance(Section):
 class TouBand(Section):
     """A time-of-use band of the depot electricity tariff."""
 
-    name: str = mfield(..., "", "Name of the band (e.g. off-peak)")
+    name: str = mfield(..., "", "Name of the band (e.g. off-peak; at most 80 characters)",
+                       text_limit=80)
     hours: list[int] = mfield(
         ..., "h", "Hours of the day in the band: 0 is the hour from 00:00 to 01:00, 23 the hour "
         "from 23:00 to 24:00", min_length=1
@@ -229,8 +247,9 @@ class Depot(Section):
     residual value.
     """
 
-    chargers: int = mfield(0, "", "Number of depot chargers", ASSUMPTION, ge=0)
-    charger_power: Qty("kW", ge=0) = qfield(
+    chargers: int = mfield(0, "", "Number of depot chargers (at most 10,000)", ASSUMPTION,
+                           ge=0, le=10_000)
+    charger_power: Qty("kW", ge=0, le=10_000) = qfield(
         0.0, "kW", "Rated power of one charger (0: no cap on the depot's peak)", ASSUMPTION
     )
     hardware_cost: float = mfield(0.0, "currency", "Hardware cost of one charger",
@@ -249,7 +268,7 @@ class Depot(Section):
     )
     trucks_served: int | None = mfield(
         None, "", "Trucks sharing the depot (default: the electric trucks of the scenario "
-        "that charge at the depot)", ASSUMPTION, ge=1
+        "that charge at the depot; at most 100,000)", ASSUMPTION, ge=1, le=100_000
     )
     charging_start_hour: int = mfield(
         20, "h", "Hour of the day depot charging may start (0..23)", ASSUMPTION, ge=0, le=23

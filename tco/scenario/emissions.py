@@ -29,6 +29,9 @@ from tco.emissions import (
 from tco.errors import InputError
 from tco.scenario.base import ASSUMPTION, Qty, Section, mfield, qfield
 
+#: Highest grid or supplier intensity accepted: about twice the most carbon-intensive
+#: generation (lignite, about 1,100–1,200 g CO2e/kWh, from memory). [g/kWh]
+MAX_GRID_G_PER_KWH = 2500
 GRID_DEFAULT_SOURCE = (
     "US EPA eGRID2022 (published January 2024), US total output emission rate 823.1 lb "
     "CO2/MWh; CO2 only, at generation"
@@ -88,13 +91,13 @@ class LifecycleAddon(Section):
     include: bool = mfield(
         False, "", "Report manufacturing emissions and the electric truck's payback distance",
         "tool default: off (no published default figures are shipped)")
-    vehicle_diesel: Qty("kg", ge=0) | None = qfield(
+    vehicle_diesel: Qty("kg", ge=0, le=1e7) | None = qfield(
         None, "kg", "Manufacturing emissions of the diesel truck, CO2e",
         "none: you give it when include is true")
-    vehicle_electric: Qty("kg", ge=0) | None = qfield(
+    vehicle_electric: Qty("kg", ge=0, le=1e7) | None = qfield(
         None, "kg", "Manufacturing emissions of the electric truck without its battery, CO2e",
         "none: you give it when include is true")
-    battery: Qty("kg/kWh", ge=0) | None = qfield(
+    battery: Qty("kg/kWh", ge=0, le=1000) | None = qfield(
         None, "kg/kWh", "Battery manufacturing emissions per kWh of nominal capacity, CO2e",
         "none: you give it when include is true")
 
@@ -124,26 +127,26 @@ class EmissionsSettings(Section):
         "ipcc_ar5", "", "Global warming potential set for CH4 and N2O: ipcc_ar5, ipcc_ar6, or "
         "a set of your factor_file",
         "IPCC AR5 WG1 Ch. 8 Table 8.7 (GWP100), values from memory (tco/data/ipcc_gwp.csv)")
-    diesel_upstream: Qty("kg/L", ge=0) | None = qfield(
+    diesel_upstream: Qty("kg/L", ge=0, le=20) | None = qfield(
         None, "kg/L", "Well-to-tank emissions of diesel per litre, CO2e; empty: the diesel "
         "set's own figure, or EN 16258 when the set has none",
         f"the diesel set; otherwise {UPSTREAM_FALLBACK_SET}: EN 16258:2012 Annex A Table A.1 "
         "WTW 3.24 - TTW 2.67 kg CO2e/L (from memory)")
-    def_density: Qty("kg/L", gt=0) = qfield(
+    def_density: Qty("kg/L", gt=0, le=3) = qfield(
         1.09, "kg/L", "Density of diesel exhaust fluid", "ISO 22241-1 (from memory)")
     def_urea_share: Qty("percent", ge=0, le=100) = qfield(
         32.5, "percent", "Urea mass share of diesel exhaust fluid",
         "ISO 22241-1, nominal urea content (from memory)")
-    grid_intensity: Qty("g/kWh", ge=0) = qfield(
+    grid_intensity: Qty("g/kWh", ge=0, le=MAX_GRID_G_PER_KWH) = qfield(
         "823.1 lb/MWh", "g/kWh", "Location-based grid intensity in the first year of service, "
         "CO2e per kWh at the meter (373.4 g/kWh)", GRID_DEFAULT_SOURCE)
-    grid_change: Qty("percent", ge=-100) = qfield(
+    grid_change: Qty("percent", ge=-100, le=100) = qfield(
         0.0, "percent", "Compound change of the grid intensity per year (-3 means 3 % lower "
         "each year)", ASSUMPTION + ": no change")
-    grid_floor: Qty("g/kWh", ge=0) = qfield(
+    grid_floor: Qty("g/kWh", ge=0, le=MAX_GRID_G_PER_KWH) = qfield(
         0.0, "g/kWh", "A declining grid intensity stops at this value",
         ASSUMPTION + ": no floor")
-    grid_table: dict[int, Qty("g/kWh", ge=0)] | None = qfield(
+    grid_table: dict[int, Qty("g/kWh", ge=0, le=MAX_GRID_G_PER_KWH)] | None = qfield(
         None, "g/kWh", "Grid intensity by calendar year, instead of grid_intensity with "
         "grid_change (linear between listed years, flat outside them)",
         "none: the trajectory is used")
@@ -158,7 +161,7 @@ class EmissionsSettings(Section):
         "shape", "", "'shape': only the profile's ratios to its mean count (the annual "
         "intensity stays); 'absolute': values in g/kWh, their mean is the first-year "
         "intensity", ASSUMPTION)
-    supplier_intensity: Qty("g/kWh", ge=0) | None = qfield(
+    supplier_intensity: Qty("g/kWh", ge=0, le=MAX_GRID_G_PER_KWH) | None = qfield(
         None, "g/kWh", "Market-based: your depot supplier's contractual emission factor "
         "(held constant over the years; public charging stays at the grid intensity)",
         "none: the market-based figure uses the grid intensity")
@@ -170,7 +173,7 @@ class EmissionsSettings(Section):
         5.0, "percent", "Transmission-and-distribution loss share of the grid, for Scope 3 "
         "category 3; 0 when the grid intensity already includes losses",
         ASSUMPTION + ": a typical order of magnitude for national grids")
-    electricity_upstream: Qty("g/kWh", ge=0) = qfield(
+    electricity_upstream: Qty("g/kWh", ge=0, le=MAX_GRID_G_PER_KWH) = qfield(
         0.0, "g/kWh", "Upstream (fuel supply of power plants) emissions per kWh at the meter, "
         "Scope 3 category 3", ASSUMPTION + ": not counted unless you give a figure")
     discount_tonnes: bool = mfield(

@@ -11,12 +11,21 @@ from tco.scenario.base import ASSUMPTION, Qty, Section, mfield, qfield
 ISA_SEA_LEVEL = "U.S. Standard Atmosphere 1976: 15 °C at sea level"
 SLUG = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._-]{0,79}$")
 CURRENCY = re.compile(r"^[A-Z]{3}$")
+#: Longest study notes accepted: room for a few pages of text, not a document. [characters]
+NOTES_LIMIT = 20_000
+#: Longest synthetic stretch; a trip longer than a few days is refused by the trace budget
+#: anyway (:mod:`tco.budget`). [km]
+MAX_SEGMENT_KM = 5_000
+#: Fastest speed accepted anywhere on a route: above any truck's legal or governed top
+#: speed. [km/h]
+MAX_TRUCK_SPEED_KMH = 150
 
 
 class Study(Section):
     """What the study is called and how results are shown."""
 
-    name: str = mfield(..., "", "Title of the study, shown on the report (any text)")
+    name: str = mfield(..., "", "Title of the study, shown on the report (any text, at most "
+                       "200 characters)")
     slug: str | None = mfield(
         None, "", "Name of the output folder under --out; letters, digits, '.', '_' and '-' "
         "only. Default: the scenario file's name without extension", "scenario file name"
@@ -29,7 +38,9 @@ class Study(Section):
     )
     start_year: int = mfield(2027, "", "Calendar year of the first year of service", ASSUMPTION)
     page_size: Literal["A4", "Letter"] = mfield("A4", "", "Report page size", ASSUMPTION)
-    notes: str = mfield("", "", "Free text shown in the report", ASSUMPTION)
+    notes: str = mfield("", "", "Free text shown in the report (line breaks kept; at most "
+                        f"{NOTES_LIMIT:,} characters, a few pages)", ASSUMPTION,
+                        text_limit=NOTES_LIMIT, multiline=True)
 
     @field_validator("slug")
     @classmethod
@@ -75,33 +86,40 @@ class Ambient(Section):
 class Segment(Section):
     """One stretch of a synthetic route."""
 
-    length: Qty("km", gt=0) = qfield(..., "km", "Horizontal length of the stretch")
-    speed: Qty("km/h", gt=0, le=150) = qfield(..., "km/h", "Cruise speed")
+    length: Qty("km", gt=0, le=MAX_SEGMENT_KM) = qfield(
+        ..., "km", f"Horizontal length of the stretch (at most {MAX_SEGMENT_KM:,} km)",
+        usual=(None, 1000))
+    speed: Qty("km/h", gt=0, le=MAX_TRUCK_SPEED_KMH) = qfield(
+        ..., "km/h", f"Cruise speed (at most {MAX_TRUCK_SPEED_KMH} km/h)", usual=(None, 110))
     grade: Qty("percent", ge=-30, le=30) = qfield(
         0.0, "percent", "Road grade, rise over run (negative downhill)", ASSUMPTION
     )
-    stops: int = mfield(0, "", "Stops inside the stretch (evenly spaced)", ASSUMPTION, ge=0)
-    dwell: Qty("s", ge=0) = qfield(
-        30.0, "s", "Time standing at each stop", ASSUMPTION
+    stops: int = mfield(0, "", "Stops inside the stretch (evenly spaced; at most 10,000)",
+                        ASSUMPTION, ge=0, le=10_000)
+    dwell: Qty("s", ge=0, le=86_400) = qfield(
+        30.0, "s", "Time standing at each stop (at most a day)", ASSUMPTION, usual=(None, 3600)
     )
 
 
 class Leg(Section):
     """A part of the trip with one payload, e.g. loaded out or empty back."""
 
-    name: str = mfield("leg", "", "Name of the leg", ASSUMPTION)
-    payload: Qty("t", ge=0) = qfield(..., "t", "Payload carried on this leg")
+    name: str = mfield("leg", "", "Name of the leg (at most 80 characters)", ASSUMPTION,
+                       text_limit=80)
+    payload: Qty("t", ge=0, le=500) = qfield(..., "t", "Payload carried on this leg (at most "
+                                             "500 t)", usual=(None, 60))
     file: str | None = mfield(
         None, "", "CSV trace or GPX track for this leg, relative to the scenario file",
         "none: the leg is built from segments"
     )
-    cruise_speed: Qty("km/h", gt=0) | None = qfield(
-        None, "km/h", "Constant cruise speed for a CSV with distance and elevation only",
-        "none"
+    cruise_speed: Qty("km/h", gt=0, le=MAX_TRUCK_SPEED_KMH) | None = qfield(
+        None, "km/h", "Constant cruise speed for a CSV with distance and elevation only (at "
+        f"most {MAX_TRUCK_SPEED_KMH} km/h)", "none", usual=(None, 110)
     )
     segments: list[Segment] = Field(default_factory=list, description="Synthetic stretches")
     dwell_end: Qty("min", ge=0) = qfield(
-        0.0, "min", "Time standing at the end of the leg (loading or unloading)", ASSUMPTION
+        0.0, "min", "Time standing at the end of the leg (loading or unloading); the whole "
+        "trip is held to the trace budget of tco.budget", ASSUMPTION, usual=(None, 720)
     )
 
     @model_validator(mode="after")

@@ -19,20 +19,23 @@ JEC_FUELS = "JEC Well-to-Tank report v5 (JRC, 2020), standard properties of fuel
 class Body(Section):
     """The vehicle as the road sees it: masses, aerodynamics, tyres."""
 
-    curb_mass: Qty("t", gt=0) = qfield(
+    curb_mass: Qty("t", gt=0, le=200) = qfield(
         ..., "t", "Empty mass of the complete combination ready to drive (tractor, trailer, "
-        "battery or full tank, driver)"
+        "battery or full tank, driver)", usual=(3, 40)
     )
-    gross_mass_limit: Qty("t", gt=0) = qfield(
+    gross_mass_limit: Qty("t", gt=0, le=300) = qfield(
         40.0, "t", "Legal gross combination weight limit for this operation; set it to "
-        "your local law", ASSUMPTION + "; weight limits vary by jurisdiction"
+        "your local law", ASSUMPTION + "; weight limits vary by jurisdiction", usual=(3, 80)
     )
-    zero_emission_allowance: Qty("t", ge=0) = qfield(
+    zero_emission_allowance: Qty("t", ge=0, le=20) = qfield(
         0.0, "t", "Extra gross weight allowed for a zero-emission truck, where the local law "
-        "grants one (electric trucks only)", ASSUMPTION + "; varies by jurisdiction"
+        "grants one (electric trucks only)", ASSUMPTION + "; varies by jurisdiction",
+        usual=(None, 4)
     )
-    frontal_area: Qty("m^2", gt=0) = qfield(
-        10.0, "m^2", "Frontal area", "common practice: 9–10.5 m² for a tractor with a box trailer"
+    frontal_area: Qty("m^2", gt=0, le=40) = qfield(
+        10.0, "m^2", "Frontal area",
+        "common practice: 9–10.5 m² for a tractor with a box trailer",
+        usual=(4, 12)
     )
     drag_coefficient: Qty("", gt=0, le=2) = qfield(
         0.6, "", "Aerodynamic drag coefficient Cd",
@@ -41,7 +44,7 @@ class Body(Section):
     rolling_resistance: Qty("", ge=0, le=0.05) = qfield(
         0.0055, "", "Rolling-resistance coefficient at low speed (kg/t ÷ 1000)", EU_TYRE_LABEL
     )
-    rolling_resistance_speed: Qty("s/m", ge=0) = qfield(
+    rolling_resistance_speed: Qty("s/m", ge=0, le=0.01) = qfield(
         0.0, "s/m", "Speed dependence of the rolling-resistance coefficient: "
         "Crr(v) = Crr + k·v", ASSUMPTION + " (no speed dependence)"
     )
@@ -54,13 +57,14 @@ class Body(Section):
 class Diesel(Section):
     """Diesel powertrain: engine, driveline and fuel model."""
 
-    engine_power: Qty("kW", gt=0) = qfield(..., "kW", "Rated engine power")
+    engine_power: Qty("kW", gt=0, le=3000) = qfield(..., "kW", "Rated engine power",
+        usual=(80, 800))
     driveline_efficiency: Qty("", gt=0, le=1) = qfield(
         0.88, "", "Engine-output-to-wheel efficiency (gearbox, axle)", COMMON_DRIVELINE
     )
-    accessory_power: Qty("kW", ge=0) = qfield(
+    accessory_power: Qty("kW", ge=0, le=200) = qfield(
         3.0, "kW", "Engine-driven accessory load (air compressor, alternator, fan, steering)",
-        ASSUMPTION
+        ASSUMPTION, usual=(None, 30)
     )
     fuel_model: Literal["willans", "constant_bsfc"] = qfield(
         "willans", "", "Fuel model: the Willans line (part-load) or a constant BSFC",
@@ -78,10 +82,10 @@ class Diesel(Section):
         0.08, "", "Willans line friction and pumping loss at zero load, as a share of rated "
         "power", ASSUMPTION
     )
-    idle_fuel_rate: Qty("L/h", ge=0) = qfield(
+    idle_fuel_rate: Qty("L/h", ge=0, le=100) = qfield(
         2.42, "L/h", "Fuel burned while idling when stopped",
         "US DOE Vehicle Technologies Office, Fact of the Week #861 (2015): 0.64 US gal/h "
-        "for a loaded tractor-semitrailer"
+        "for a loaded tractor-semitrailer", usual=(None, 10)
     )
     fuel_density: Qty("kg/L", gt=0.7, lt=1.0) = qfield(0.832, "kg/L", "Diesel density", JEC_FUELS)
     fuel_lhv: Qty("MJ/kg", gt=30, lt=50) = qfield(
@@ -96,32 +100,35 @@ class Diesel(Section):
 class EnRoute(Section):
     """Optional en-route (public or opportunity) charging during the day."""
 
-    power: Qty("kW", ge=0) = qfield(
-        0.0, "kW", "Charger power available en route; 0 means no en-route charging", ASSUMPTION
+    power: Qty("kW", ge=0, le=10_000) = qfield(
+        0.0, "kW", "Charger power available en route; 0 means no en-route charging", ASSUMPTION,
+        usual=(None, 4000)
     )
     efficiency: Qty("", gt=0, le=1) = qfield(
         0.92, "", "Grid-to-battery efficiency at the en-route (DC) charger",
         "from memory: about 90 % (85–95 %) typical for DC charging"
     )
-    overhead: Qty("min", ge=0) = qfield(
+    overhead: Qty("min", ge=0, le=1440) = qfield(
         10.0, "min", "Time lost per en-route charging stop besides charging (detour, plugging)",
-        ASSUMPTION
+        ASSUMPTION, usual=(None, 120)
     )
 
 
 class Electric(Section):
     """Battery-electric powertrain: battery, motor, regeneration, auxiliaries, charging."""
 
-    battery_capacity: Qty("kWh", gt=0) = qfield(..., "kWh", "Nominal battery capacity")
+    battery_capacity: Qty("kWh", gt=0, le=20_000) = qfield(..., "kWh", "Nominal battery capacity",
+        usual=(50, 2000))
     usable_share: Qty("", gt=0, le=1) = qfield(
         0.9, "", "Share of the nominal capacity the battery management lets you use", ASSUMPTION
     )
-    battery_mass: Qty("t", ge=0) = qfield(
+    battery_mass: Qty("t", ge=0, le=50) = qfield(
         0.0, "t", "Battery mass (already inside curb mass; shown for the payload analysis)",
-        ASSUMPTION
+        ASSUMPTION, usual=(None, 12)
     )
-    motor_power: Qty("kW", gt=0) = qfield(..., "kW", "Rated (continuous) motor power")
-    regen_power: Qty("kW", ge=0) = qfield(
+    motor_power: Qty("kW", gt=0, le=5000) = qfield(..., "kW", "Rated (continuous) motor power",
+        usual=(80, 1200))
+    regen_power: Qty("kW", ge=0, le=5000) = qfield(
         300.0, "kW", "Maximum regenerative charging power into the battery", ASSUMPTION
     )
     drivetrain_efficiency: Qty("", gt=0, le=1) = qfield(
@@ -130,20 +137,22 @@ class Electric(Section):
     regen_efficiency: Qty("", ge=0, le=1) = qfield(
         0.85, "", "Wheel-to-battery efficiency when regenerating", ASSUMPTION
     )
-    aux_power: Qty("kW", ge=0) = qfield(
+    aux_power: Qty("kW", ge=0, le=200) = qfield(
         2.5, "kW", "Auxiliary load (compressor, steering, electronics) besides cabin climate",
-        ASSUMPTION
+        ASSUMPTION, usual=(None, 30)
     )
-    heating_per_kelvin: Qty("kW/K", ge=0) = qfield(
+    heating_per_kelvin: Qty("kW/K", ge=0, le=10) = qfield(
         0.15, "kW/K", "Cabin and battery heating load per kelvin below the comfort band",
         ASSUMPTION
     )
-    cooling_per_kelvin: Qty("kW/K", ge=0) = qfield(
+    cooling_per_kelvin: Qty("kW/K", ge=0, le=10) = qfield(
         0.12, "kW/K", "Cabin and battery cooling load per kelvin above the comfort band",
         ASSUMPTION
     )
-    comfort_low: Qty("degC") = qfield(15.0, "degC", "Lower edge of the comfort band", ASSUMPTION)
-    comfort_high: Qty("degC") = qfield(24.0, "degC", "Upper edge of the comfort band", ASSUMPTION)
+    comfort_low: Qty("degC", ge=-60, le=60) = qfield(
+        15.0, "degC", "Lower edge of the comfort band", ASSUMPTION)
+    comfort_high: Qty("degC", ge=-60, le=60) = qfield(
+        24.0, "degC", "Upper edge of the comfort band", ASSUMPTION)
     charging_efficiency: Qty("", gt=0, le=1) = qfield(
         0.90, "", "Grid-to-battery efficiency at the depot charger (meter to cells)",
         "from memory: about 90 % (85–95 %) typical for depot or DC charging"
@@ -158,8 +167,9 @@ class Electric(Section):
         0.80, "", "State of health (usable capacity share) at the battery's end of life",
         "common practice: 70–80 % for traction batteries"
     )
-    cycle_life: Qty("", gt=0) = qfield(
-        3000.0, "", "Full equivalent cycles until the end-of-life state of health", ASSUMPTION
+    cycle_life: Qty("", gt=0, le=1_000_000) = qfield(
+        3000.0, "", "Full equivalent cycles until the end-of-life state of health", ASSUMPTION,
+        usual=(300, 20000)
     )
     enroute: EnRoute = Field(default_factory=EnRoute, description="En-route charging")
 
