@@ -53,9 +53,11 @@ def _parser() -> argparse.ArgumentParser:
     fl.add_argument("fleet", nargs="?", help="fleet file, .csv or .xlsx (default: demo fleet)")
     fl.add_argument("--base", help="base scenario TOML (default: base.toml beside the fleet "
                     "file)")
-    fl.add_argument("--rule", choices=("first_come", "spread"), default="first_come",
-                    help="depot charging rule: first_come (unmanaged, chargers rotate) or "
-                    "spread (managed, flat power over each stay); default first_come")
+    fl.add_argument("--rule", choices=("managed", "unmanaged", "spread", "first_come"),
+                    default=None,
+                    help="depot charging rule: managed (also 'spread': flat power over each "
+                    "stay) or unmanaged (also 'first_come': full power, chargers rotate); "
+                    "default: the base scenario's [depot] charging")
     fl.add_argument("--jobs", type=int, help="processes to use (default: every core)")
     fl.add_argument("--out", default="out", help="output folder (default: ./out)")
     fl.add_argument("--json-only", action="store_true", help="write fleet.json only")

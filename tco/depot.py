@@ -367,3 +367,120 @@ def _fewest(a, stay, need, per_slot, n_days, day_slots) -> int:
         else:
             lo = mid + 1
     return hi
+
+
+# --------------------------------------------------------------------------- scenarios
+#: The scenario's trade words for the two rules (``[depot] charging``).
+RULE_OF_CHARGING = {"managed": "spread", "unmanaged": "first_come"}
+CHARGING_OF_RULE = {v: k for k, v in RULE_OF_CHARGING.items()}
+
+
+def rule_name(rule: str) -> str:
+    """The schedule rule (``spread``/``first_come``) of a rule or trade word. [-]"""
+    rule = RULE_OF_CHARGING.get(rule, rule)
+    if rule not in RULES:
+        raise ValueError(f"unknown charging rule '{rule}' (use managed or unmanaged)")
+    return rule
+
+
+def other_rule(rule: str) -> str:
+    """The other of the two rules, as a schedule rule. [-]"""
+    return "first_come" if rule_name(rule) == "spread" else "spread"
+
+
+@dataclass(frozen=True)
+class ScenarioDepot:
+    """The depot schedule of one scenario's trucks, and where each truck sits in it.
+
+    Attributes
+    ----------
+    schedule : DepotSchedule
+        The schedule of every truck sharing the depot.
+    members : list of int
+        For each truck of the schedule, the index of the scenario truck it is (trucks the
+        scenario does not describe, up to ``depot.trucks_served``, repeat the scenario's
+        own in turn).
+    row : dict of int to int
+        Scenario truck index -> its own row in the schedule.
+    """
+
+    schedule: DepotSchedule
+    members: list
+    row: dict
+
+
+def scenario_schedule(depot, operations, rule: str | None = None) -> ScenarioDepot | None:
+    """Schedule the scenario's electric trucks at its depot, as a fleet would.
+
+    Each electric truck that takes energy at the depot arrives when the charging window
+    opens (``depot.charging_start_hour``) and leaves when it closes, needing its daily
+    depot energy at the meter. When ``depot.trucks_served`` names more trucks than the
+    scenario describes, the others are taken to charge like the scenario's own (repeated
+    in turn), so the depot's peak and each truck's part of it follow from the same rule.
+
+    Parameters
+    ----------
+    depot : tco.scenario.Depot
+        The depot section (charger count and power, window, rule, trucks served).
+    operations : list of tco.operation.AnnualOperation
+        The scenario's trucks, in order.
+    rule : str, optional
+        ``managed``/``unmanaged`` (or ``spread``/``first_come``); default the depot's own.
+
+    Returns
+    -------
+    ScenarioDepot or None
+        None when no truck charges at the depot.
+
+    Raises
+    ------
+    ValueError
+        Managed charging with fewer chargers than trucks plugged in at once.
+    """
+    rule = rule_name(rule or depot.charging)
+    users = [i for i, op in enumerate(operations)
+             if op.powertrain == "electric" and op.grid_energy_depot > 0]
+    if not users:
+        return None
+    n = max(int(depot.trucks_served or len(users)), len(users))
+    members = users + [users[j % len(users)] for j in range(n - len(users))]
+    start = depot.charging_start_hour * 3600.0
+    end = depot.charging_end_hour * 3600.0
+    stay = (end - start) % DAY or DAY
+    need = np.array([operations[i].grid_energy_depot / operations[i].operating_days
+                     for i in members])
+    given = depot.chargers > 0 and depot.charger_power > 0
+    power = depot.charger_power if given else float(need.max() / stay)
+    sched = schedule(np.full(n, start), np.full(n, end), need, power, rule=rule,
+                     chargers=depot.chargers if given else None)
+    return ScenarioDepot(sched, members, {i: members.index(i) for i in users})
+
+
+def scheduled_operation(op, sched: DepotSchedule, k: int, cost_share: bool):
+    """One truck's operation with its row ``k`` of a depot schedule.
+
+    The truck gets its hour-of-day charging profile, its mean power in the depot's peak
+    interval (``depot_charging_power`` and ``depot_peak_contribution``, on which the
+    demand charge is billed) and, with ``cost_share``, its occupancy share of the depot's
+    fixed costs (otherwise they are split equally among the trucks served). The one rule
+    for single scenarios (:func:`with_schedule`) and fleets (:mod:`tco.fleet`).
+    """
+    import dataclasses
+
+    prof = sched.profile[k]
+    extra = {"depot_cost_share": float(sched.cost_share[k])} if cost_share else {}
+    return dataclasses.replace(
+        op, charging_profile=prof if prof.sum() > 0 else op.charging_profile,
+        depot_charging_power=float(sched.peak_contribution[k]),
+        depot_peak_contribution=float(sched.peak_contribution[k]), **extra)
+
+
+def with_schedule(operations, sd: ScenarioDepot | None) -> list:
+    """The scenario's operations with their rows of its depot schedule (fixed costs split
+    equally among the trucks served; see :func:`scheduled_operation`)."""
+    if sd is None:
+        return list(operations)
+    out = list(operations)
+    for i, k in sd.row.items():
+        out[i] = scheduled_operation(out[i], sd.schedule, k, cost_share=False)
+    return out

@@ -13,7 +13,9 @@ Simplifications (stated in the report's method notes):
   temperature (1976 standard atmosphere pressure).
 * Each leg's payload is capped at the truck's legal payload capacity; the payload left
   behind is moved by extra trips, whose energy scales with the trip's.
-* The depot charges each night from the charging window's start at the charger's power.
+* The depot charges each night from the charging window's start at the charger's power;
+  :func:`tco.pipeline.evaluate` then replaces the charging hours and the power billed by
+  the depot's schedule under the scenario's charging rule (:mod:`tco.depot`).
 """
 from __future__ import annotations
 

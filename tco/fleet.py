@@ -42,7 +42,6 @@ from __future__ import annotations
 
 import copy
 import csv
-import dataclasses
 import difflib
 import math
 import os
@@ -487,12 +486,7 @@ def _with_depot(ops: list, cand_index: int, sched: depot_model.DepotSchedule | N
     op = ops[cand_index]
     if op.powertrain != "electric" or op.grid_energy_depot <= 0:
         return ops
-    prof = sched.profile[k]
-    new = dataclasses.replace(
-        op, charging_profile=prof if prof.sum() > 0 else op.charging_profile,
-        depot_charging_power=float(sched.peak_contribution[k]),
-        depot_cost_share=float(sched.cost_share[k]),
-        depot_peak_contribution=float(sched.peak_contribution[k]))
+    new = depot_model.scheduled_operation(op, sched, k, cost_share=True)
     out = list(ops)
     out[cand_index] = new
     return out
@@ -646,7 +640,7 @@ def _schedule(energies, base, vehicles, rule):
 
 
 def evaluate_fleet(base: LoadedScenario, rows: list[FleetRow], fleet_file: Path,
-                   rule: str = "first_come", jobs: int | None = None, progress=None
+                   rule: str | None = None, jobs: int | None = None, progress=None
                    ) -> FleetResult:
     """Evaluate a fleet: energy per row, shared depot, money and emissions, the order.
 
@@ -658,8 +652,9 @@ def evaluate_fleet(base: LoadedScenario, rows: list[FleetRow], fleet_file: Path,
         From :func:`read_fleet`.
     fleet_file : Path
         The fleet file (named in errors).
-    rule : {"first_come", "spread"}
-        Depot charging rule.
+    rule : {"managed", "unmanaged", "spread", "first_come"}, optional
+        Depot charging rule (managed is ``spread``, unmanaged ``first_come``); default the
+        base scenario's ``[depot] charging``.
     jobs : int, optional
         Processes for the energy simulation (default: every core).
     progress : tco.progress.Steps, optional
@@ -672,6 +667,7 @@ def evaluate_fleet(base: LoadedScenario, rows: list[FleetRow], fleet_file: Path,
 
     steps = progress or Silent()
     timings = {}
+    rule = depot_model.rule_name(rule or base.scenario.depot.charging)
     jobs = jobs or os.cpu_count() or 1
     pool = _pool(jobs, len(rows))
     try:

@@ -5,12 +5,14 @@ The data flows one way; writers in :mod:`tco.report` only render the Result.
 """
 from __future__ import annotations
 
+import dataclasses
 import time
 from datetime import datetime, timezone
 
 import numpy as np
 import pandas as pd
 
+from tco import depot as depot_model
 from tco import dutycycle
 from tco.errors import InputError
 from tco.progress import Silent, Steps
@@ -104,6 +106,96 @@ def service_years(scenario: Scenario) -> np.ndarray:
     return scenario.study.start_year + np.arange(scenario.finance.analysis_years)
 
 
+def depot_schedule(loaded: LoadedScenario, ops: list, rule: str | None = None):
+    """The depot schedule of the scenario's electric trucks (:mod:`tco.depot`)."""
+    try:
+        return depot_model.scenario_schedule(loaded.scenario.depot, ops, rule)
+    except ValueError as exc:
+        raise InputError(str(exc), file=loaded.path, where="depot.chargers") from None
+
+
+def depot_summary(loaded: LoadedScenario, sd, ops: list, cf) -> dict | None:
+    """What the depot costs each electric truck under the chosen rule and the other.
+
+    The other rule's figures come from the same cash-flow model run on the operations
+    scheduled under that rule (everything else unchanged).
+
+    Returns
+    -------
+    dict or None
+        ``charging`` (managed/unmanaged), ``other_charging``, ``charger_power`` [W],
+        ``chargers``, ``trucks_sharing``, ``peak_power`` and ``other_peak_power`` (the
+        depot's) [W], and per electric truck name in ``trucks``: ``depot_cost`` (present
+        value of its depot lines: chargers, grid connection, maintenance, residual)
+        [currency], ``demand_charge`` and ``other_demand_charge`` (present values)
+        [currency], ``peak_contribution`` and ``other_peak_contribution`` [W],
+        ``present_value`` and ``other_present_value`` [currency], ``difference`` and
+        ``other_difference`` (against the baseline) [currency]. None without depot
+        charging.
+    """
+    from tco import cashflow
+
+    if sd is None:
+        return None
+    s = loaded.scenario
+    rule = sd.schedule.rule
+    alt_rule = depot_model.other_rule(rule)
+    try:
+        alt = depot_schedule(loaded, [trk for trk in _unscheduled(ops)], alt_rule)
+    except InputError:
+        alt = None
+    alt_cf = None
+    if alt is not None:
+        alt_ops = depot_model.with_schedule(_unscheduled(ops), alt)
+        alt_cf = cashflow.compute(cost_inputs(s, alt_ops))
+    rate = cf.discount_rate
+    pv = {m.name: m.present_value for m in cf.trucks}
+    ref = cf.baseline
+    out = {
+        "charging": depot_model.CHARGING_OF_RULE[rule],
+        "other_charging": depot_model.CHARGING_OF_RULE[alt_rule],
+        "charger_power": sd.schedule.charger_power, "chargers": sd.schedule.chargers,
+        "trucks_sharing": len(sd.members), "peak_power": sd.schedule.peak_power,
+        "other_peak_power": alt.schedule.peak_power if alt is not None else None,
+        "trucks": {},
+    }
+    from tco import finance as fin
+
+    names = [t.name for t in cf.trucks]
+    for i, k in sd.row.items():
+        m = cf.trucks[i]
+        by = m.present_value_by_line
+        row = {
+            "depot_cost": sum(by.get(n, 0.0) for n in (
+                "depot_chargers", "depot_grid_connection", "depot_maintenance",
+                "depot_residual")),
+            "demand_charge": by.get("electricity_demand", 0.0),
+            "peak_contribution": float(sd.schedule.peak_contribution[k]),
+            "present_value": m.present_value,
+            "difference": m.present_value - pv[ref] if m.name != ref else 0.0,
+            "other_demand_charge": None, "other_peak_contribution": None,
+            "other_present_value": None, "other_difference": None,
+        }
+        if alt_cf is not None:
+            lines = alt_cf.lines[i]
+            dem = lines.get("electricity_demand")
+            row["other_demand_charge"] = float(fin.present_value(dem, rate)) \
+                if dem is not None else 0.0
+            row["other_peak_contribution"] = float(
+                alt.schedule.peak_contribution[alt.row[i]])
+            alt_pv = [float(alt_cf.present_value(j)) for j in range(len(s.trucks))]
+            row["other_present_value"] = alt_pv[i]
+            row["other_difference"] = alt_pv[i] - alt_pv[names.index(ref)]
+        out["trucks"][m.name] = row
+    return out
+
+
+def _unscheduled(ops: list) -> list:
+    """Operations as the energy model made them (no depot schedule applied)."""
+    return [dataclasses.replace(op, depot_peak_contribution=None, depot_cost_share=None)
+            for op in ops]
+
+
 def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
     """Evaluate a loaded scenario end to end.
 
@@ -144,9 +236,14 @@ def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
     for t in s.trucks:
         trucks[t.name] = timed(f"energy of {t.name}", energy.simulate, t, s, trip)
     ops = [trucks[t.name].operation for t in s.trucks]
+    sd = timed("depot charging schedule", depot_schedule, loaded, ops)
+    ops = depot_model.with_schedule(ops, sd)
+    for t, op in zip(s.trucks, ops):
+        trucks[t.name] = dataclasses.replace(trucks[t.name], operation=op)
 
     inputs = cost_inputs(s, ops)
     cf = timed("cash flows and metrics", cashflow.evaluate, inputs)
+    depot_info = timed("depot under the other rule", depot_summary, loaded, sd, ops, cf)
     pv = {m.name: m.present_value for m in cf.trucks}
     ref = cf.baseline
     diff = {name: v - pv[ref] for name, v in pv.items() if name != ref}
@@ -171,7 +268,7 @@ def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
     warnings += list(getattr(cf, "assumptions", []))
     return Result(
         loaded=loaded, route=trip, route_summary=dutycycle.trace_summary(trip),
-        trucks=trucks, cashflow=cf, emissions=em, uncertainty=unc,
+        trucks=trucks, cashflow=cf, emissions=em, uncertainty=unc, depot=depot_info,
         assumptions=field_sources(s), warnings=warnings,
         created=datetime.now(timezone.utc).replace(microsecond=0).isoformat(),
         timings=timings,

@@ -72,6 +72,10 @@ class Result:
         ISO 8601 time of the evaluation (UTC).
     timings : dict
         Seconds per step.
+    depot : dict or None
+        The depot's charging rule, charger power, trucks sharing it and, per electric
+        truck, the depot cost it carries and its demand charge under the chosen rule and
+        the other one (see :func:`tco.pipeline.depot_summary`); None without depot charging.
     """
 
     loaded: Any
@@ -85,6 +89,7 @@ class Result:
     warnings: list[str]
     created: str
     timings: dict[str, float] = field(default_factory=dict)
+    depot: dict | None = None
 
     @property
     def scenario(self):

@@ -170,7 +170,47 @@ def _verdict(result, summary: dict) -> str:
             + (f" and avoids {fmt_number(avoided / 1000, 0)} t CO2e (well-to-wheel, location-based)"
                if avoided is not None else "")
             + f"; {_feasible_text(result.trucks[c.truck])}.")
+    parts += depot_sentences(result)
     return " ".join(parts)
+
+
+RULE_WORDS = {
+    "managed": "managed (each truck draws the steady power that refills it by departure)",
+    "unmanaged": "unmanaged (each truck charges at the charger's full power until full)",
+}
+
+
+def depot_sentences(result) -> list[str]:
+    """What the depot costs the electric trucks and how the charging rule moves it: the
+    rule, charger power, trucks sharing the depot, the depot cost each truck carries and
+    the demand charge under the other rule (from ``result.depot``)."""
+    d = getattr(result, "depot", None)
+    if not d:
+        return []
+    cur = result.scenario.study.currency
+    cf = result.cashflow
+    n = d["trucks_sharing"]
+    out = [
+        f"Depot charging is {RULE_WORDS[d['charging']]}, on {d['chargers']} × "
+        f"{fmt_number(d['charger_power'] / 1000)} kW charger"
+        + ("s" if d["chargers"] != 1 else "")
+        + (" serving this truck alone" if n == 1 else f" shared by {n} trucks") + "."]
+    for name, t in d["trucks"].items():
+        who = "in full" if n == 1 else f"as 1/{n} of the depot (its share)"
+        s = (f"The depot build and upkeep (chargers, installation, grid connection, "
+             f"maintenance, less resale) is charged to the {name} {who}: "
+             f"{fmt_money(t['depot_cost'], cur)} in present value. Its demand charge is "
+             f"{fmt_money(t['demand_charge'], cur)} (billed on "
+             f"{fmt_number(t['peak_contribution'] / 1000)} kW)")
+        if t["other_demand_charge"] is not None:
+            diff = t["other_difference"]
+            word = "more" if diff > 0 else "less"
+            s += (f"; with {d['other_charging']} charging it would be "
+                  f"{fmt_money(t['other_demand_charge'], cur)} (billed on "
+                  f"{fmt_number(t['other_peak_contribution'] / 1000)} kW), and the {name} "
+                  f"would cost {fmt_money(abs(diff), cur)} {word} than the {cf.baseline}")
+        out.append(s + ".")
+    return out
 
 
 def _feasible_text(tr) -> str:

@@ -15,7 +15,7 @@ import numpy as np
 from tco import __version__
 from tco.units import from_si, mpg_us
 
-SCHEMA_VERSION = "1.0"
+SCHEMA_VERSION = "1.1"
 KWH = 3.6e6
 _L = 1e-3
 
@@ -152,6 +152,32 @@ def _assumptions(result) -> list[dict]:
     return rows
 
 
+def depot_summary(result) -> dict | None:
+    """The depot charging facts the verdict states (``depot`` key; null without depot
+    charging). Money in present value, powers in kW."""
+    d = getattr(result, "depot", None)
+    if not d:
+        return None
+
+    def kw(x):
+        return None if x is None else x / 1000
+
+    return {
+        "charging": d["charging"], "other_charging": d["other_charging"],
+        "charger_kW": kw(d["charger_power"]), "chargers": d["chargers"],
+        "trucks_sharing": d["trucks_sharing"], "peak_kW": kw(d["peak_power"]),
+        "other_peak_kW": kw(d["other_peak_power"]),
+        "trucks": {name: {
+            "depot_cost_pv": t["depot_cost"], "demand_charge_pv": t["demand_charge"],
+            "other_demand_charge_pv": t["other_demand_charge"],
+            "peak_contribution_kW": kw(t["peak_contribution"]),
+            "other_peak_contribution_kW": kw(t["other_peak_contribution"]),
+            "present_value_difference": t["difference"],
+            "other_present_value_difference": t["other_difference"],
+        } for name, t in d["trucks"].items()},
+    }
+
+
 def build_summary(result) -> dict:
     """The summary.json content of a Result (JSON-safe)."""
     from tco.cashflow import cashflow_summary
@@ -190,6 +216,7 @@ def build_summary(result) -> dict:
         "cashflow": cashflow_summary(result.cashflow),
         "emissions": emissions_summary(result.emissions),
         "uncertainty": None,
+        "depot": depot_summary(result),
         "warnings": result.warnings,
         "assumptions": _assumptions(result),
     }

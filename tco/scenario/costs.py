@@ -38,6 +38,10 @@ IRS_PUB_946_B1 = (
 COMMON_MONTHLY = "common practice: loan instalments are paid monthly"
 NO_ESCALATION = "assumption: no change in price over the period unless you give one"
 NO_DEFAULT = "no default: give it when a truck uses it"
+MANAGED_DEFAULT = (
+    "assumption: depot chargers sold for fleets schedule their power (load management) as "
+    "common practice, and a depot that pays a demand charge would use it; set unmanaged "
+    "for chargers that always run at full power")
 
 
 #: The highest yearly rate or escalation accepted: +100 % a year (prices doubling every
@@ -240,7 +244,11 @@ class Prices(Section):
 class Depot(Section):
     """Depot charging: chargers, grid connection and the nightly charging window.
 
-    The depot's costs are split equally among the trucks it serves. Charger hardware and
+    The depot's costs are split equally among the trucks it serves (``trucks_served``;
+    default: the scenario's electric trucks that charge there). The trucks charge by the
+    rule ``charging`` (see :mod:`tco.depot`: ``managed`` is its ``spread`` rule,
+    ``unmanaged`` its ``first_come`` rule); trucks sharing the depot that the scenario does
+    not describe are taken to charge like the scenario's own. Charger hardware and
     installation are bought at year 0 and again at the end of each life that ends before
     the period does; hardware is worth ``residual_share`` of its cost at the end of its
     life (straight-line in between). The grid connection is paid once at year 0 and has no
@@ -269,6 +277,11 @@ class Depot(Section):
     trucks_served: int | None = mfield(
         None, "", "Trucks sharing the depot (default: the electric trucks of the scenario "
         "that charge at the depot; at most 100,000)", ASSUMPTION, ge=1, le=100_000
+    )
+    charging: Literal["managed", "unmanaged"] = mfield(
+        "managed", "", "Depot charging rule: managed (smart charging: each truck draws the "
+        "steady power that refills it just in time for departure) or unmanaged (each truck "
+        "charges at the charger's full power from plug-in until full)", MANAGED_DEFAULT
     )
     charging_start_hour: int = mfield(
         20, "h", "Hour of the day depot charging may start (0..23)", ASSUMPTION, ge=0, le=23

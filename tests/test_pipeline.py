@@ -1,0 +1,133 @@
+"""The whole chain on the demo: the depot charging rule, shared with ``tco fleet``."""
+from __future__ import annotations
+
+import re
+import tomllib
+
+import pytest
+
+from tco.fleet import evaluate_fleet, read_fleet
+from tco.pipeline import evaluate
+from tco.report.context import depot_sentences
+from tco.report.summary import build_summary
+from tco.resources import demo_path
+from tco.scenario import LoadedScenario, load_scenario, parse_scenario
+
+KWH = 3.6e6
+
+
+def _demo(tmp_path=None, **depot) -> LoadedScenario:
+    """The demo with keys added to its [depot] and the Monte Carlo off (written out when
+    asked, so a fleet can use it as its base and its cycle)."""
+    text = demo_path().read_text(encoding="utf-8").replace("enabled = true",
+                                                            "enabled = false")
+    lines = [f"{k} = {v!r}".replace("'", '"') for k, v in depot.items()]
+    for k in depot:
+        text = re.sub(rf"(?m)^{k} = .*$\n", "", text)
+    text = text.replace("[depot]\n", "[depot]\n" + "\n".join(lines) + "\n")
+    assert tomllib.loads(text)["depot"].items() >= depot.items()
+    if tmp_path is None:
+        raw = tomllib.loads(text)
+        return LoadedScenario(parse_scenario(raw, demo_path()), demo_path(), raw, "test")
+    p = tmp_path / "demo.toml"
+    p.write_text(text, encoding="utf-8")
+    return load_scenario(p)
+
+
+@pytest.fixture(scope="module")
+def by_rule():
+    return {rule: evaluate(_demo(charging=rule)) for rule in ("managed", "unmanaged")}
+
+
+@pytest.mark.parametrize("rule", ["managed", "unmanaged"])
+def test_one_truck_equals_a_one_vehicle_fleet(tmp_path, by_rule, rule):
+    """`tco run` and `tco fleet` share one depot model: the demo run as a fleet of one
+    vehicle (the same route, arriving when the demo's window opens and leaving when it
+    closes) gives the same present values to 1e-9 under each rule."""
+    base = _demo(tmp_path, charging=rule)
+    fleet = tmp_path / "fleet.csv"
+    fleet.write_text("vehicle,route,cycle,current,candidate,arrive,depart\n"
+                     "D-1,demo,demo.toml,Diesel tractor,Electric tractor,21:00,05:00\n",
+                     encoding="utf-8")
+    res = evaluate_fleet(base, read_fleet(fleet), fleet, jobs=1)
+    row = res.routes.iloc[0]
+    pv = {m.name: m.present_value for m in by_rule[rule].cashflow.trucks}
+    assert row["pv_current"] == pytest.approx(pv["Diesel tractor"], rel=1e-9, abs=1e-6)
+    assert row["pv_candidate"] == pytest.approx(pv["Electric tractor"], rel=1e-9, abs=1e-6)
+    assert row["peak_contribution_W"] == pytest.approx(
+        by_rule[rule].depot["trucks"]["Electric tractor"]["peak_contribution"], rel=1e-12)
+
+
+def test_managed_demand_charge_by_hand(by_rule):
+    """Managed charging of one truck: it draws its nightly depot energy evenly over the
+    21:00-05:00 window (8 h), so the monthly peak is E/8 h and the demand charge is
+    12 × 11.5 EUR/kW-month × peak in year 1, growing 1.5 %/yr with electricity, each year
+    discounted at 7 % (hand calculation of the tariff's definition)."""
+    r = by_rule["managed"]
+    op = r.trucks["Electric tractor"].operation
+    per_day = op.grid_energy_depot / op.operating_days
+    peak_kw = per_day / (8 * 3600) / 1000
+    yearly = 12 * 11.5 * peak_kw
+    pv = sum(yearly * 1.015 ** (y - 1) / 1.07 ** y for y in range(1, 11))
+    d = r.depot["trucks"]["Electric tractor"]
+    assert d["peak_contribution"] / 1000 == pytest.approx(peak_kw, rel=1e-9)
+    assert d["demand_charge"] == pytest.approx(pv, rel=1e-9)
+    # unmanaged: the same truck at the charger's full 150 kW
+    full = sum(12 * 11.5 * 150 * 1.015 ** (y - 1) / 1.07 ** y for y in range(1, 11))
+    assert d["other_demand_charge"] == pytest.approx(full, rel=1e-9)
+    assert by_rule["unmanaged"].depot["trucks"]["Electric tractor"]["demand_charge"] == \
+        pytest.approx(full, rel=1e-9)
+
+
+def test_the_charging_rule_alone_flips_the_verdict_and_the_report_says_why(by_rule):
+    diff = {k: r.cashflow.comparisons[0].present_value_difference
+            for k, r in by_rule.items()}
+    assert diff["managed"] < 0 < diff["unmanaged"]
+    for rule, other in (("managed", "unmanaged"), ("unmanaged", "managed")):
+        r = by_rule[rule]
+        text = " ".join(depot_sentences(r))
+        d = r.depot["trucks"]["Electric tractor"]
+        assert f"Depot charging is {rule}" in text
+        assert "1 × 150 kW charger serving this truck alone" in text
+        assert "charged to the Electric tractor in full" in text
+        assert f"{round(d['depot_cost']):,} EUR" in text
+        assert f"{round(d['demand_charge']):,} EUR" in text
+        assert f"with {other} charging it would be {round(d['other_demand_charge']):,} EUR" \
+            in text
+        # the other rule's verdict is the other run's own figure
+        word = "more" if diff[other] > 0 else "less"
+        assert f"would cost {round(abs(diff[other])):,} EUR {word}" in text
+        # summary.json carries the same facts
+        s = build_summary(r)["depot"]
+        assert s["charging"] == rule and s["other_charging"] == other
+        assert s["charger_kW"] == 150 and s["trucks_sharing"] == 1
+        t = s["trucks"]["Electric tractor"]
+        assert t["other_present_value_difference"] == pytest.approx(diff[other], rel=1e-9)
+        assert t["demand_charge_pv"] == d["demand_charge"]
+
+
+def test_trucks_sharing_the_depot_split_its_cost():
+    """Four trucks sharing the depot (four chargers): this truck carries a quarter of the
+    depot's build and its own part of the peak."""
+    one = evaluate(_demo(charging="managed"))
+    four = evaluate(_demo(charging="managed", trucks_served=4, chargers=4))
+    a = one.depot["trucks"]["Electric tractor"]
+    b = four.depot["trucks"]["Electric tractor"]
+    # four chargers at a quarter each: the same depot cost as one charger alone, except
+    # the grid connection, paid once and split four ways
+    grid = 25000
+    assert b["depot_cost"] == pytest.approx(a["depot_cost"] - grid + grid / 4, rel=1e-9)
+    assert b["peak_contribution"] == pytest.approx(a["peak_contribution"], rel=1e-9)
+    assert four.depot["trucks_sharing"] == 4
+    assert "shared by 4 trucks" in " ".join(depot_sentences(four))
+
+
+def test_managed_charging_needs_a_charger_per_truck():
+    from tco.errors import InputError
+
+    with pytest.raises(InputError) as err:
+        evaluate(_demo(charging="managed", trucks_served=3))
+    assert err.value.where == "depot.chargers"
+    assert "needs 3 chargers" in err.value.line()
+
+
