@@ -46,10 +46,11 @@ Monte Carlo sampling
 For the k inputs that are correlated with another: Z = L·N(0, I) with L a Cholesky factor
 (an eigen factor when the matrix is singular) of the Pearson matrix R of the copula's
 normals, ``R_ab = 2 sin(π ρ_s,ab / 6)`` for the requested Spearman rank correlation ρ_s;
-U = Φ(Z); each input ``x_j = F_j⁻¹(U_j)`` with the inverse CDF of its distribution from
-:mod:`scipy.stats`. An input without correlations is drawn straight from its distribution
-(``rvs`` with the same generator: the same law, much faster than an inverse CDF for
-beta-PERT). Percentiles are NumPy's linear interpolation (payback years: the inverted CDF,
+U = Φ(Z); each input ``x_j = F_j⁻¹(U_j)`` with the inverse CDF of its distribution
+(:mod:`tco.sampling`: closed forms, and for beta-PERT a polynomial table checked against
+:func:`scipy.stats.beta.ppf`). An input without correlations is drawn straight from its
+distribution with the same generator (the calls of ``rvs`` in :mod:`scipy.stats`, made
+directly). Percentiles are NumPy's linear interpolation (payback years: the inverted CDF,
 so that they stay whole years; a payback not within the period counts as later than any
 year).
 
@@ -95,7 +96,7 @@ import numpy as np
 import pandas as pd
 from scipy import special, stats
 
-from tco import cashflow, emissions
+from tco import cashflow, emissions, sampling
 from tco import finance as fin
 from tco.errors import InputError
 from tco.scenario.route import Route
@@ -789,10 +790,12 @@ def sample(dists: Sequence, n: int, rng: np.random.Generator,
     straight from their distribution.
 
     Inputs with a correlation to another input (a non-zero off-diagonal entry of
-    ``pearson``): ``Z = L·N(0, I)`` over those inputs, ``U = Φ(Z)``, ``x_j = F_j⁻¹(U_j)``.
-    Inputs without one: ``dist.rvs(size=n, random_state=rng)``, which draws from the same
-    distribution with numpy's generators (for beta-PERT numpy's beta generator, some 50
-    times faster than the inverse CDF ``scipy.stats.beta.ppf``).
+    ``pearson``): ``Z = L·N(0, I)`` over those inputs, ``U = Φ(Z)``, ``x_j = F_j⁻¹(U_j)``
+    (:func:`tco.sampling.inverse_cdf`: closed forms, normal and lognormal straight from Z,
+    beta-PERT from a polynomial table within 1e-12 of ``scipy.stats.beta.ppf``).
+    Inputs without one: straight from numpy's generators (:func:`tco.sampling.draw`, the
+    same calls as ``dist.rvs(size=n, random_state=rng)``; for beta-PERT numpy's beta
+    generator).
 
     The generator is used in a fixed order, so a seed gives the same draws every time:
     first the copula's normals (one row per correlated input, in input order), then each
@@ -826,9 +829,9 @@ def sample(dists: Sequence, n: int, rng: np.random.Generator,
         z = _factor(pearson[np.ix_(idx, idx)]) @ rng.standard_normal((idx.size, n))
         u = special.ndtr(z)
         for row, j in enumerate(idx):
-            out[j] = dists[j].ppf(u[row])
+            out[j] = sampling.inverse_cdf(dists[j], u[row], z[row])
     for j in np.flatnonzero(~linked):
-        out[j] = dists[j].rvs(size=n, random_state=rng)
+        out[j] = sampling.draw(dists[j], n, rng)
     return out
 
 
