@@ -261,15 +261,15 @@ def _baseline_index(inputs: CostInputs) -> int:
     return 0
 
 
-def check_inputs(inputs: CostInputs) -> None:
+def check_inputs(inputs: CostInputs, view: str = "as_financed") -> None:
     """Cross-section checks the section models cannot make alone.
 
     Raises
     ------
     InputError
         A loan or lease longer than the period without ``beyond_period``; a returned lease
-        that ends before the period; an unknown baseline truck; operations that do not
-        match the trucks.
+        that ends before the period; a leased truck without a purchase price in the
+        unlevered view; an unknown baseline truck; operations that do not match the trucks.
     """
     n = inputs.finance.analysis_years - inputs.purchase_year  # years owned in the period
     if not 0 <= inputs.purchase_year < inputs.finance.analysis_years:
@@ -302,6 +302,11 @@ def check_inputs(inputs: CostInputs) -> None:
                     f"the lease ends in year {f.lease_years} and the truck is returned, "
                     f"before the {n}-year period ends; use lease_end = 'buy_out' or a lease "
                     "of at least the period", where=f"{where}.lease_years")
+            if view == "unlevered" and t.costs.purchase_price <= 0:
+                raise InputError(
+                    "a leased truck needs its purchase price: the headline values every truck "
+                    "bought in cash and judges the lease apart (or set finance.valuation = "
+                    "'as_financed')", where=f"trucks[{i}].costs.purchase_price")
     _baseline_index(inputs)
     users = sum(1 for t, op in zip(inputs.trucks, inputs.operations)
                 if _Context._uses_depot(t, op))
@@ -535,8 +540,27 @@ class CashFlows:
         return self.present_value(i) / self.discounted_distance(i)
 
 
+def headline_view(finance: Finance) -> str:
+    """The flows behind the headline figures: ``"unlevered"`` or ``"as_financed"``."""
+    return finance.valuation
+
+
+def headline_method(finance: Finance, costs: TruckCosts) -> str:
+    """How a truck is paid for in the headline flows: its own method when the valuation
+    is as financed, ``"cash"`` when it is unlevered."""
+    return "cash" if finance.valuation == "unlevered" else costs.financing.method
+
+
+def _view(inputs: CostInputs, view: str | None) -> str:
+    v = headline_view(inputs.finance) if view is None else view
+    if v not in ("unlevered", "as_financed"):
+        raise ValueError(f"unknown view '{v}'")
+    return v
+
+
 def compute(inputs: CostInputs, overrides: dict | None = None,
-            params: dict[str, float] | None = None, totals_only: bool = False) -> CashFlows:
+            params: dict[str, float] | None = None, totals_only: bool = False,
+            view: str | None = None) -> CashFlows:
     """Yearly cost lines of every truck, vectorized over draws.
 
     .. math:: PV_k = \\sum_{y=0}^{N} \\sum_{l} C_{k,l,y} (1 + r)^{-y}
@@ -556,6 +580,10 @@ def compute(inputs: CostInputs, overrides: dict | None = None,
         touching fresh memory for some 50 of them costs more than the arithmetic; most
         lines are a yearly vector times a per-draw factor, and are summed in that form
         (see :func:`compute_totals`).
+    view : {None, "unlevered", "as_financed"}
+        ``"unlevered"``: every truck is paid in cash (no loan or lease lines);
+        ``"as_financed"``: each truck's financing as given. None (default): the headline
+        view of ``finance.valuation``.
 
     Returns
     -------
@@ -574,7 +602,8 @@ def compute(inputs: CostInputs, overrides: dict | None = None,
     electric trucks that charge at the depot). The depot's peak is taken as all served
     trucks charging at once at this truck's peak power, capped by the chargers' rating.
     """
-    ctx, made = _make_lines(inputs, overrides, params, keep=not totals_only)
+    ctx, made = _make_lines(inputs, overrides, params, keep=not totals_only,
+                            view=_view(inputs, view))
     p = ctx.p
     if totals_only:
         lines = [{"total": m.sums["total"].value(ctx.deflator())} for m in made]
@@ -596,11 +625,11 @@ def compute(inputs: CostInputs, overrides: dict | None = None,
 
 
 def _make_lines(inputs: CostInputs, overrides: dict | None, params: dict | None,
-                keep: bool) -> tuple[_Context, list[_Lines]]:
+                keep: bool, view: str = "as_financed") -> tuple[_Context, list[_Lines]]:
     """Check the inputs, read the parameters and make every truck's lines."""
-    check_inputs(inputs)
+    check_inputs(inputs, view)
     p = _Params(params if params is not None else flat_params(inputs), overrides)
-    ctx = _Context(inputs, p)
+    ctx = _Context(inputs, p, view)
     depot_lines, depot_assets = ctx.depot()
     made = [ctx.truck(i, depot_lines, depot_assets, keep=keep)
             for i in range(len(inputs.trucks))]
@@ -650,7 +679,8 @@ class CostTotals:
 
 
 def compute_totals(inputs: CostInputs, overrides: dict | None = None,
-                   params: dict[str, float] | None = None) -> CostTotals:
+                   params: dict[str, float] | None = None,
+                   view: str | None = None) -> CostTotals:
     """Each truck's net cost by year, vectorized over draws: the lean path for Monte Carlo.
 
     The same totals as ``compute(inputs, overrides, params, totals_only=True)`` (to
@@ -664,7 +694,7 @@ def compute_totals(inputs: CostInputs, overrides: dict | None = None,
 
     Parameters
     ----------
-    inputs, overrides, params
+    inputs, overrides, params, view
         As for :func:`compute`.
 
     Returns
@@ -678,7 +708,7 @@ def compute_totals(inputs: CostInputs, overrides: dict | None = None,
     """
     if inputs.purchase_year:
         raise ValueError("compute_totals covers purchases in year 0; use compute")
-    ctx, made = _make_lines(inputs, overrides, params, keep=False)
+    ctx, made = _make_lines(inputs, overrides, params, keep=False, view=_view(inputs, view))
     p = ctx.p
     n = len(inputs.trucks)
     return CostTotals(
@@ -903,8 +933,9 @@ class _Context:
     as a (1,) or (n,) row.
     """
 
-    def __init__(self, inputs: CostInputs, p: _Params):
+    def __init__(self, inputs: CostInputs, p: _Params, view: str = "as_financed"):
         self.inputs, self.p = inputs, p
+        self.view = view
         # Bought in year t0: the arithmetic runs over the years owned, 0..N (N = the
         # period's years after the purchase), priced at year t0; compute() places them.
         self.t0 = inputs.purchase_year
@@ -1017,6 +1048,8 @@ class _Context:
         op = inputs.operations[i]
         c = t.costs
         f = c.financing
+        if self.view == "unlevered" and f.method != "cash":
+            f = f.model_copy(update={"method": "cash"})  # paid in cash: financing apart
         tp = f"trucks[{i}].costs"
         L = _Lines(N, keep, tax=inputs.finance.after_tax.enabled)
         assets: list = []  # (basis, year bought, fractions) for tax depreciation
@@ -1436,6 +1469,63 @@ class Comparison:
 
 
 @dataclass
+class TruckFinancing:
+    """A truck's loan or lease judged against paying cash, and its equity view.
+
+    Attributes
+    ----------
+    name, method : str
+        Truck name; ``"loan"`` or ``"lease"``.
+    cost_of_debt : float
+        Pre-tax borrowing rate, nominal. [-/yr]
+    after_tax_cost_of_debt : float
+        ``cost_of_debt × (1 − tax rate)`` (tax rate 0 in the pre-tax view), in the money
+        basis of the case (turned real with the inflation rate when the basis is real).
+        [-/yr]
+    flows : ndarray, shape (N + 1,)
+        Financed net cost minus the same truck's net cost paid in cash, by year (loan
+        received negative; repayments, interest, lease payments, their tax effects and
+        the lost depreciation and residual value positive). [currency]
+    present_value_at_cost_of_debt : float
+        Present value of ``flows`` at the after-tax cost of debt: positive, the loan or
+        lease costs more than paying cash; negative, it is worth taking. [currency]
+    present_value_unlevered, present_value_as_financed : float
+        The truck's present value of costs at the discount rate, paid in cash and as
+        financed (the equity view). [currency]
+    """
+
+    name: str
+    method: str
+    cost_of_debt: float
+    after_tax_cost_of_debt: float
+    flows: np.ndarray
+    present_value_at_cost_of_debt: float
+    present_value_unlevered: float
+    present_value_as_financed: float
+
+
+@dataclass
+class FinancingResult:
+    """Financing shown apart from the headline (see :func:`financing_view`).
+
+    Attributes
+    ----------
+    valuation : str
+        The headline view, ``"unlevered"`` or ``"as_financed"``.
+    trucks : list of TruckFinancing
+        The trucks with a loan or lease.
+    comparisons : list of dict
+        Per non-baseline truck: ``truck``, ``baseline``,
+        ``present_value_difference_unlevered``, ``present_value_difference_as_financed``
+        [currency], ``irr_unlevered``, ``irr_as_financed`` [-/yr or None] and their notes.
+    """
+
+    valuation: str
+    trucks: list[TruckFinancing]
+    comparisons: list[dict]
+
+
+@dataclass
 class CashflowResult:
     """The purchase case of a scenario.
 
@@ -1453,6 +1543,9 @@ class CashflowResult:
     analysis_years : int
     assumptions : list of str
     flows : CashFlows
+        The headline flows (``finance.valuation``).
+    financing : FinancingResult or None
+        Loans and leases judged apart, and the other view's figures.
     """
 
     table: pd.DataFrame
@@ -1464,6 +1557,7 @@ class CashflowResult:
     analysis_years: int
     assumptions: list[str]
     flows: CashFlows
+    financing: FinancingResult | None = None
 
     def yearly_totals(self) -> pd.DataFrame:
         """Net cost by year (rows) and truck (columns). [currency]"""
@@ -1518,11 +1612,7 @@ def evaluate(inputs: CostInputs, break_evens: bool = True) -> CashflowResult:
             note = "no extra up-front cost"
         else:
             note = "" if not np.isnan(disc) else "discounted payback not within the period"
-        r, status = fin.irr(savings)
-        irr_note = "" if status == 0 else fin.IRR_STATUS[status]
-        if status == 2:
-            roots = fin.irr_roots(savings)
-            irr_note += ": " + ", ".join(f"{x:.2%}" for x in roots)
+        irr_value, irr_note = _irr_and_note(savings)
         be = {}
         if break_evens:
             for qname in BREAK_EVEN_QUANTITIES:
@@ -1534,13 +1624,119 @@ def evaluate(inputs: CostInputs, break_evens: bool = True) -> CashflowResult:
             extra_upfront_cost=extra,
             simple_payback_year=None if np.isnan(simple) else int(simple),
             discounted_payback_year=None if np.isnan(disc) else int(disc),
-            payback_note=note, irr=None if status else float(r), irr_note=irr_note,
+            payback_note=note, irr=irr_value, irr_note=irr_note,
             break_even=be))
     return CashflowResult(
         table=table, trucks=metrics, comparisons=comparisons, baseline=cf.trucks[ref],
         money_basis=cf.money_basis, discount_rate=rate,
         analysis_years=inputs.finance.analysis_years, assumptions=list(cf.assumptions),
-        flows=cf)
+        flows=cf, financing=financing_view(inputs, cf, params))
+
+
+def _irr_and_note(savings: np.ndarray) -> tuple[float | None, str]:
+    r, status = fin.irr(savings)
+    note = "" if status == 0 else fin.IRR_STATUS[status]
+    if status == 2:
+        note += ": " + ", ".join(f"{x:.2%}" for x in fin.irr_roots(savings))
+    return (None if status else float(r)), note
+
+
+def after_tax_cost_of_debt(finance: Finance, costs: TruckCosts) -> tuple[float, float]:
+    r"""A truck's pre-tax cost of debt (nominal) and its after-tax cost of debt in the money
+    basis of the case.
+
+    .. math:: r_{d,\,after\ tax} = r_d (1 - \tau), \qquad
+              r_{real} = \frac{1 + r_{d,\,after\ tax}}{1 + i} - 1
+
+    ``r_d`` is ``finance.cost_of_debt`` when given, else the truck's loan rate (a loan),
+    else the discount rate (made nominal when the basis is real); ``τ`` is the tax rate
+    of the after-tax view, 0 in the pre-tax view.
+
+    Returns
+    -------
+    (float, float)
+        Pre-tax nominal rate and after-tax rate in the case's basis. [-/yr]
+    """
+    real = finance.money_basis == "real"
+    if finance.cost_of_debt is not None:
+        rd = float(finance.cost_of_debt)
+    elif costs.financing.method == "loan":
+        rd = float(costs.financing.loan_rate)
+    else:
+        rd = float(fin.nominal_rate(finance.discount_rate, finance.inflation)) if real \
+            else float(finance.discount_rate)
+    tau = finance.after_tax.tax_rate if finance.after_tax.enabled else 0.0
+    after = rd * (1.0 - tau)
+    if real:
+        after = float(fin.real_rate(after, finance.inflation))
+    return rd, after
+
+
+def financing_view(inputs: CostInputs, headline: CashFlows,
+                   params: dict[str, float] | None = None) -> FinancingResult:
+    """Loans and leases judged apart from the headline: against paying cash at the
+    after-tax cost of debt, and the equity view (the flows as financed at the discount
+    rate).
+
+    The financing's own flows are the truck's net cost as financed minus its net cost
+    paid in cash, year by year, so they hold the loan or lease payments and every tax
+    effect they change (interest shield, deductible lease payments against depreciation,
+    the residual value a returned lease gives up). Their present value at the after-tax
+    cost of debt is the lease-versus-buy (or borrow-versus-pay-cash) figure of corporate
+    finance: a loan at the borrowing rate, with interest deductible, is worth 0 at that
+    rate.
+
+    Parameters
+    ----------
+    inputs : CostInputs
+    headline : CashFlows
+        The headline flows (from :func:`compute` with the default view).
+    params : dict, optional
+        From :func:`flat_params`.
+
+    Returns
+    -------
+    FinancingResult
+    """
+    params = params if params is not None else flat_params(inputs)
+    view = headline_view(inputs.finance)
+    financed = [t for t in inputs.trucks if t.costs.financing.method != "cash"]
+    no_price = [t.name for t in financed if t.costs.financing.method == "lease"
+                and t.costs.purchase_price <= 0]
+    if no_price:  # as financed, with a lease but no price: nothing to compare it with
+        return FinancingResult(valuation=view, trucks=[], comparisons=[])
+    if financed:
+        other = compute(inputs, params=params,
+                        view="as_financed" if view == "unlevered" else "unlevered")
+    else:
+        other = headline  # every truck in cash: both views are the same flows
+    unlev, levered = (headline, other) if view == "unlevered" else (other, headline)
+    trucks = []
+    for i, t in enumerate(inputs.trucks):
+        if t.costs.financing.method == "cash":
+            continue
+        rd, after = after_tax_cost_of_debt(inputs.finance, t.costs)
+        flows = np.asarray(levered.total(i) - unlev.total(i), dtype=float)
+        trucks.append(TruckFinancing(
+            name=t.name, method=t.costs.financing.method, cost_of_debt=rd,
+            after_tax_cost_of_debt=after, flows=flows,
+            present_value_at_cost_of_debt=float(fin.present_value(flows, after)),
+            present_value_unlevered=float(unlev.present_value(i)),
+            present_value_as_financed=float(levered.present_value(i))))
+    comps = []
+    ref = headline.baseline
+    for i, t in enumerate(inputs.trucks):
+        if i == ref:
+            continue
+        entry = {"truck": t.name, "baseline": inputs.trucks[ref].name}
+        for key, cf in (("unlevered", unlev), ("as_financed", levered)):
+            entry[f"present_value_difference_{key}"] = float(
+                cf.present_value(i) - cf.present_value(ref))
+            r, note = _irr_and_note(np.asarray(cf.total(ref) - cf.total(i), dtype=float))
+            entry[f"irr_{key}"] = r
+            entry[f"irr_note_{key}"] = note
+        comps.append(entry)
+    return FinancingResult(valuation=view, trucks=trucks, comparisons=comps)
 
 
 def _num(x) -> float | None:
@@ -1594,6 +1790,23 @@ def cashflow_summary(result: CashflowResult) -> dict:
       "note": str}``
 
     ``assumptions`` (list of str) statements on how the case was read.
+
+    ``valuation`` (str, schema 1.1) ``"unlevered"`` (default: every truck paid in cash in
+    the figures above) or ``"as_financed"``.
+
+    ``financing`` (dict, schema 1.1): loans and leases shown apart from the headline:
+
+    - ``trucks`` (dict by truck name, trucks with a loan or lease only) of ``method``,
+      ``cost_of_debt`` (pre-tax, nominal, per year), ``after_tax_cost_of_debt`` (per
+      year, money basis of the case), ``flows`` (list, years 0..N: financed minus cash
+      net cost) [currency], ``present_value_at_cost_of_debt`` (positive: the loan or
+      lease costs more than paying cash) [currency], ``present_value_unlevered`` and
+      ``present_value_as_financed`` (at the discount rate; the latter is the equity view)
+      [currency]
+    - ``comparisons`` (list, one per non-baseline truck) of ``truck``, ``baseline``,
+      ``present_value_difference_unlevered``, ``present_value_difference_as_financed``
+      [currency], ``irr_unlevered``, ``irr_as_financed`` (per year or null; the latter is
+      a return on equity), ``irr_note_unlevered``, ``irr_note_as_financed``
 
     Parameters
     ----------
@@ -1650,4 +1863,22 @@ def cashflow_summary(result: CashflowResult) -> dict:
         "trucks": trucks,
         "comparisons": comps,
         "assumptions": list(result.assumptions),
+        "valuation": result.financing.valuation if result.financing else "as_financed",
+        "financing": _financing_summary(result.financing),
     }
+
+
+def _financing_summary(f: FinancingResult | None) -> dict:
+    if f is None:
+        return {"trucks": {}, "comparisons": []}
+    trucks = {t.name: {
+        "method": t.method, "cost_of_debt": _num(t.cost_of_debt),
+        "after_tax_cost_of_debt": _num(t.after_tax_cost_of_debt),
+        "flows": [float(v) for v in t.flows],
+        "present_value_at_cost_of_debt": _num(t.present_value_at_cost_of_debt),
+        "present_value_unlevered": _num(t.present_value_unlevered),
+        "present_value_as_financed": _num(t.present_value_as_financed),
+    } for t in f.trucks}
+    comps = [{k: (_num(v) if isinstance(v, float) else v) for k, v in c.items()}
+             for c in f.comparisons]
+    return {"trucks": trucks, "comparisons": comps}

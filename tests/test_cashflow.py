@@ -153,7 +153,7 @@ def test_three_year_loan_case_worked_by_hand():
     20,400 + 66,527.3607/1.1 + 67,727.3607/1.21 + 17,775.3607/1.331 = 150,207.34
     (the instalment rounded to 30,527.36 first would give 150,207.33).
     """
-    cf = compute(hand_case())
+    cf = compute(hand_case(), view="as_financed")
     lines = cf.lines[0]
     cents = lambda a: np.round(a, 2).tolist()  # noqa: E731
     assert cents(lines["loan_interest"]) == [0.0, 4896.00, 3358.12, 1727.96]
@@ -171,7 +171,7 @@ def test_model_flows_through_numpy_financial():
     """The model's own yearly totals give the same PV through npf.npv, the same loan
     instalments through npf.pmt, and the same IRR of the savings through npf.irr."""
     inputs = rich_case()
-    cf = compute(inputs)
+    cf = compute(inputs, view="as_financed")
     for i in range(2):
         assert cf.present_value(i) == pytest.approx(npf.npv(0.06, cf.total(i)), rel=1e-12)
     # loan of truck D: principal = 0.9 × 130,000 × 1.05, monthly over 5 years
@@ -295,7 +295,7 @@ def test_lease_with_buy_out():
                    financing=dict(method="lease", lease_payment=3_000, lease_upfront=1_000,
                                   lease_years=4, lease_end="buy_out",
                                   lease_buyout_price=50_000))
-    lines = compute(two_trucks(finance=fin6, e_costs=e)).lines[1]
+    lines = compute(two_trucks(finance=fin6, e_costs=e), view="as_financed").lines[1]
     assert lines["lease_payment"].tolist() == [0, 36_000, 36_000, 36_000, 36_000, 0, 0]
     assert lines["lease_upfront"][0] == 1_000 and lines["lease_buyout"][4] == 50_000
     assert lines["residual_value"][6] == pytest.approx(-250_000 * 0.9 ** 6)
@@ -307,15 +307,17 @@ def test_lease_past_the_period_settled_or_dropped():
     base = dict(method="lease", lease_payment=1_000, lease_years=5)
     settle = TruckCosts(purchase_price=1, financing={**base, "beyond_period": "settle"})
     drop = TruckCosts(purchase_price=1, financing={**base, "beyond_period": "drop"})
-    s = compute(two_trucks(finance=fin3, e_costs=settle)).lines[1]["lease_payment"]
-    d = compute(two_trucks(finance=fin3, e_costs=drop)).lines[1]["lease_payment"]
+    s = compute(two_trucks(finance=fin3, e_costs=settle),
+                view="as_financed").lines[1]["lease_payment"]
+    d = compute(two_trucks(finance=fin3, e_costs=drop),
+                view="as_financed").lines[1]["lease_payment"]
     assert s.tolist() == [0, 12_000, 12_000, 12_000 + 24_000]
     assert d.tolist() == [0, 12_000, 12_000, 12_000]
 
 
 def test_loan_past_the_period_settled():
     """A 5-year loan in a 3-year study, settled: repaid principal sums to the loan."""
-    fin3 = Finance(analysis_years=3)
+    fin3 = Finance(analysis_years=3, valuation="as_financed")
     e = TruckCosts(purchase_price=200_000, financing=dict(
         method="loan", loan_rate=0.07, loan_years=5, beyond_period="settle"))
     res = evaluate(two_trucks(finance=fin3, e_costs=e), break_evens=False)
@@ -354,7 +356,7 @@ def test_after_tax_interest_shield():
     f = Finance(analysis_years=5, after_tax=dict(enabled=True, tax_rate=0.3))
     d = TruckCosts(purchase_price=100_000, financing=dict(method="loan", loan_rate=0.08,
                                                           loan_years=5))
-    lines = compute(two_trucks(finance=f, d_costs=d)).lines[0]
+    lines = compute(two_trucks(finance=f, d_costs=d), view="as_financed").lines[0]
     np.testing.assert_allclose(lines["tax_shield_interest"], -0.3 * lines["loan_interest"])
 
 
@@ -635,7 +637,7 @@ def test_evaluate_table_metrics_and_summary():
     text = json.dumps(s, allow_nan=False)  # JSON-able, no NaN
     assert json.loads(text)["baseline"] == "D"
     assert set(s) == {"money_basis", "discount_rate", "analysis_years", "baseline", "lines",
-                      "trucks", "comparisons", "assumptions"}
+                      "trucks", "comparisons", "assumptions", "valuation", "financing"}
     assert set(s["trucks"]["E"]) == {
         "powertrain", "present_value", "undiscounted_total", "levelized_cost_per_km",
         "levelized_cost_per_mile", "annual_distance_km", "yearly_totals",
@@ -779,3 +781,98 @@ def test_every_input_field_is_documented_with_unit_and_source():
                 continue
             extra = info.json_schema_extra or {}
             assert "unit" in extra and extra.get("source"), f"{model.__name__}.{name}"
+
+
+# --------------------------------------------------------------------------- unlevered headline
+def test_headline_is_unlevered_and_the_loan_is_shown_apart():
+    """The hand case of test_three_year_loan_case_worked_by_hand with the headline on
+    unlevered flows (the truck paid in cash), worked by hand:
+
+    year 0 = 100,000 + 2,000 = 102,000; year 1 = 30,000 + 5,000 + 1,000 = 36,000;
+    year 2 = 31,200 + 6,000 = 37,200; year 3 = 32,448 + 6,000 − 51,200 = −12,752.
+    PV at 10 % = 102,000 + 36,000/1.1 + 37,200/1.21 − 12,752/1.331 = 155,890.31.
+
+    The equity view (flows as financed) keeps the hand figure 150,207.34 of that test. The
+    loan's own flows (financed − cash) are −81,600 then three instalments of 30,527.36;
+    at the loan's own 6 % they are worth 0 (a loan at its own rate has zero NPV; checked
+    with numpy_financial.npv)."""
+    res = evaluate(hand_case(), break_evens=False)
+    pv = 102_000 + 36_000 / 1.1 + 37_200 / 1.21 - 12_752 / 1.331
+    assert res.trucks[0].present_value == pytest.approx(pv, abs=0.005)
+    assert round(pv, 2) == 155_890.31
+    assert "loan_interest" not in set(res.table.line)
+    f = res.financing
+    assert f.valuation == "unlevered"
+    (t,) = f.trucks
+    assert t.method == "loan" and t.cost_of_debt == pytest.approx(0.06)
+    assert t.after_tax_cost_of_debt == pytest.approx(0.06)  # pre-tax view: no tax
+    a = -npf.pmt(0.06, 3, 81_600)
+    np.testing.assert_allclose(t.flows, [-81_600, a, a, a], rtol=1e-12)
+    assert npf.npv(0.06, t.flows) == pytest.approx(0.0, abs=1e-6)
+    assert t.present_value_at_cost_of_debt == pytest.approx(0.0, abs=1e-6)
+    assert round(t.present_value_as_financed, 2) == 150_207.34
+    assert t.present_value_unlevered == pytest.approx(pv, abs=0.005)
+
+
+def test_loan_worth_zero_at_the_after_tax_cost_of_debt():
+    """With interest deductible at 30 %, a loan at 8 % is worth 0 at 8 % × (1 − 0.3) =
+    5.6 % (the standard lease-versus-buy result, Myers, Dill and Bautista 1976, from
+    memory): its flows are −P, then each year the instalment less 30 % of that year's
+    interest (numpy_financial.pmt and ipmt, yearly instalments)."""
+    f = Finance(analysis_years=5, discount_rate=0.09,
+                after_tax=dict(enabled=True, tax_rate=0.3))
+    d = TruckCosts(purchase_price=100_000, financing=dict(
+        method="loan", loan_rate=0.08, loan_years=5, payments_per_year=1))
+    res = evaluate(two_trucks(finance=f, d_costs=d), break_evens=False)
+    (t,) = res.financing.trucks
+    assert t.after_tax_cost_of_debt == pytest.approx(0.056)
+    per = np.arange(1, 6)
+    pay = -npf.pmt(0.08, 5, 100_000)
+    interest = -npf.ipmt(0.08, per, 5, 100_000)
+    want = np.concatenate([[-100_000], pay - 0.3 * interest])
+    np.testing.assert_allclose(t.flows, want, rtol=1e-9, atol=1e-6)
+    assert npf.npv(0.056, want) == pytest.approx(0.0, abs=1e-6)
+    assert t.present_value_at_cost_of_debt == pytest.approx(0.0, abs=1e-6)
+    # the headline does not see the loan: the same truck bought in cash gives the same PV
+    cash = evaluate(two_trucks(finance=f, d_costs=TruckCosts(purchase_price=100_000)),
+                    break_evens=False)
+    assert res.trucks[0].present_value == pytest.approx(cash.trucks[0].present_value,
+                                                        rel=1e-13)
+    assert res.comparisons[0].irr == pytest.approx(cash.comparisons[0].irr, rel=1e-12)
+
+
+def test_lease_against_cash_by_hand():
+    """Lease 2,500 a month for 3 years, truck returned; bought in cash it costs 100,000
+    and is worth 100,000 × 0.8³ = 51,200 at the end. Lease minus cash:
+    [−100,000, 30,000, 30,000, 30,000 + 51,200]; at the 6 % cost of debt
+    −100,000 + 30,000/1.06 + 30,000/1.06² + 81,200/1.06³ = 23,178.87 (the lease costs
+    more than buying; hand)."""
+    f = Finance(analysis_years=3, discount_rate=0.10, cost_of_debt=0.06)
+    e = TruckCosts(purchase_price=100_000, residual=dict(rate=0.2), financing=dict(
+        method="lease", lease_payment=2_500, lease_years=3))
+    res = evaluate(two_trucks(finance=f, e_costs=e), break_evens=False)
+    (t,) = res.financing.trucks
+    np.testing.assert_allclose(t.flows, [-100_000, 30_000, 30_000, 81_200], rtol=1e-12)
+    want = -100_000 + 30_000 / 1.06 + 30_000 / 1.06 ** 2 + 81_200 / 1.06 ** 3
+    assert round(want, 2) == 23_178.87
+    assert t.present_value_at_cost_of_debt == pytest.approx(want, rel=1e-12)
+    assert "lease_payment" not in set(res.table.line)
+    s = cashflow_summary(res)
+    assert s["valuation"] == "unlevered"
+    assert s["financing"]["trucks"]["E"]["present_value_at_cost_of_debt"] == \
+        pytest.approx(want, rel=1e-12)
+    # as financed the lease is inside the headline, and a lease needs no price then
+    f2 = f.model_copy(update={"valuation": "as_financed"})
+    res2 = evaluate(two_trucks(finance=f2, e_costs=e), break_evens=False)
+    assert "lease_payment" in set(res2.table.line)
+    assert res2.trucks[1].present_value == pytest.approx(t.present_value_as_financed)
+
+
+def test_leased_truck_without_price_is_refused_in_the_unlevered_view():
+    e = TruckCosts(financing=dict(method="lease", lease_payment=2_500, lease_years=10))
+    with pytest.raises(InputError) as err:
+        evaluate(two_trucks(e_costs=e), break_evens=False)
+    assert err.value.where == "trucks[1].costs.purchase_price"
+    f = Finance(valuation="as_financed")
+    res = evaluate(two_trucks(finance=f, e_costs=e), break_evens=False)
+    assert res.financing.trucks == []

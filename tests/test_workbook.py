@@ -61,7 +61,7 @@ def _variant_data() -> dict:
     data = _demo_data()
     data["uncertainty"] = {"enabled": False}
     data["finance"].update(money_basis="real", inflation=0.021, discount_rate=0.045,
-                           driver_cost_escalation=0.01,
+                           driver_cost_escalation=0.01, valuation="as_financed",
                            after_tax={"enabled": True, "tax_rate": 0.25,
                                       "depreciation": "macrs", "macrs_class": 5})
     diesel = data["trucks"][0]["costs"]
@@ -351,7 +351,6 @@ class _Checker:
     def inputs(self):
         ws = self.f["Inputs"]
         scen = self.result.scenario
-        table = self.result.cashflow.table
         ops = [tr.operation for tr in self.result.trucks.values()]
         for r in range(1, ws.max_row + 1):
             if ws.cell(row=r, column=3).data_type != "f":
@@ -373,9 +372,9 @@ class _Checker:
                 want = scale
             elif what == "em_scale":
                 want = days
-            elif what == "loan_amount":
-                t = table[(table.truck == self.names[i]) & (table.line == "loan_drawdown")]
-                want = -float(t[t.year == 0].amount.iloc[0])
+            elif what == "loan_amount":  # the loan received: financed minus cash, year 0
+                fin_t = {t.name: t for t in self.result.cashflow.financing.trucks}
+                want = -float(fin_t[self.names[i]].flows[0])
             elif band:
                 hours = tariff.bands[int(band.group(1)) - 1].hours
                 want = op.grid_energy_depot / 3.6e6 * profile[hours].sum()

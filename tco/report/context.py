@@ -540,9 +540,16 @@ def _tables(result, u: DisplayUnits, summary: dict) -> list[dict]:
     cols = ["Year"] + [f"{n} [{cur}]" for n in totals.columns]
     rows = [[str(y)] + [fmt_number(v) for v in totals.loc[y]] for y in totals.index]
     rows.append(["Present value"] + [fmt_number(m.present_value) for m in cf.trucks])
+    view = summary["cashflow"].get("valuation", "as_financed")
     tables.append({"title": "Net cost by year", "columns": cols, "rows": rows,
                    "note": f"{cf.money_basis.capitalize()} money; year 0 is the purchase; "
-                           f"discount rate {cf.discount_rate:.1%}."})
+                           f"discount rate {cf.discount_rate:.1%}; "
+                           + ("every truck paid in cash (unlevered; financing below)."
+                              if view == "unlevered" else "loans and leases included "
+                              "(as financed).")})
+    fin_table = _financing_table(summary["cashflow"], cur)
+    if fin_table is not None:
+        tables.append(fin_table)
     # present value by line
     lines = []
     for m in cf.trucks:
@@ -587,6 +594,32 @@ def _tables(result, u: DisplayUnits, summary: dict) -> list[dict]:
     return tables
 
 
+def _financing_table(cashflow: dict, cur: str) -> dict | None:
+    """Loans and leases shown apart from the headline (None when every truck pays cash)."""
+    f = cashflow.get("financing") or {}
+    trucks = f.get("trucks") or {}
+    if not trucks:
+        return None
+    rows = []
+    for name, t in trucks.items():
+        rows.append([f"{name}: {t['method']} against paying cash, PV at the after-tax cost "
+                     f"of debt {t['after_tax_cost_of_debt']:.2%} [{cur}]",
+                     fmt_number(t["present_value_at_cost_of_debt"])])
+        rows.append([f"{name}: present value as financed (equity view) [{cur}]",
+                     fmt_number(t["present_value_as_financed"])])
+    for c in f.get("comparisons") or []:
+        irr = c.get("irr_as_financed")
+        rows.append([f"{c['truck']} − {c['baseline']}: present value difference as financed "
+                     f"[{cur}]", fmt_number(c.get("present_value_difference_as_financed"))])
+        rows.append([f"{c['truck']} − {c['baseline']}: IRR as financed (return on equity)",
+                     f"{irr:.1%}" if irr is not None else (c.get("irr_note_as_financed")
+                                                           or "no IRR")])
+    return {"title": "Financing, shown apart", "columns": ["Figure", "Value"], "rows": rows,
+            "note": "Positive: the loan or lease costs more than paying cash. The financing's "
+                    "flows are the net cost as financed minus the net cost paid in cash, "
+                    "tax effects included."}
+
+
 def _assumptions(summary: dict) -> list[dict]:
     out = []
     for r in summary["assumptions"]:
@@ -627,7 +660,10 @@ METHOD_NOTES = [
      "E_{k+1} = min(E_max, E_k − P_b Δt);  E_grid = E_b / η_ch",
      r"E_{k+1} = \min(E_{max}, E_k - P_b \Delta t), \quad E_{grid} = E_b/\eta_{ch}"),
     ("Cost of ownership", "Yearly cash flows per cost line, escalated per line, discounted "
-     "at the discount rate; the levelized cost is discounted cost over discounted distance.",
+     "at the discount rate; the levelized cost is discounted cost over discounted distance. "
+     "The present values, levelized costs, payback and IRR are on unlevered flows (every "
+     "truck paid in cash) unless the scenario sets finance.valuation = 'as_financed'; a loan "
+     "or lease is judged apart, against paying cash at the after-tax cost of debt.",
      "PV = Σ_y C_y (1+r)^−y;  LCC = PV / Σ_y d_y (1+r)^−y",
      r"PV = \sum_y C_y (1+r)^{-y}, \quad LCC = PV \,/\, \sum_y d_y (1+r)^{-y}"),
     ("Emissions", "Diesel litres times the selected factor set (CO2, CH4 and N2O with the "

@@ -457,6 +457,11 @@ class _Book:
                   "yr", src(fpath + "tax_credit_year"), wbb.INTEGER)
         fi = c.financing
         self._info("Financing", fi.method, "", src(fpath + "financing.method"))
+        if fi.method != "cash":
+            from tco.cashflow import headline_method
+
+            self._info("Paid for in the Cash flow sheet (finance.valuation)",
+                       headline_method(self.inputs.finance, c), "", src("finance.valuation"))
         if fi.method == "loan":
             self._inp(P + "loan_rate", "Loan interest rate per year (nominal)",
                       g("financing.loan_rate"), "-", src(fpath + "financing.loan_rate"), _RATE)
@@ -866,10 +871,12 @@ class _Book:
     def _assets(self, i: int) -> list[tuple[str, str]]:
         """Tax-depreciated assets of truck i: (basis formula, start-year formula)."""
         P, N = self.pre(i), "analysis_years"
+        from tco.cashflow import headline_method
+
         c = self.inputs.trucks[i].costs
         fi = c.financing
         out = []
-        if fi.method != "lease":
+        if headline_method(self.inputs.finance, c) != "lease":
             out.append((f"({P}purchase_price+({P}purchase_price*{P}purchase_tax_rate"
                         f"+{P}purchase_fees)-{P}grant)", "0"))
         elif fi.lease_end == "buy_out" and "lease_buyout" in self.lines[i]:

@@ -49,6 +49,12 @@ MANAGED_DEFAULT = (
 #: 8 %); write 0.08 or "8 %". [-]
 RATE_CEILING = 1.0
 _AS_FRACTION = "write a fraction (0.03) or a percent string ('3 %')"
+UNLEVERED_SOURCE = (
+    "common practice in corporate finance: a project's unlevered flows are valued at the "
+    "discount rate (WACC) and a loan or lease is a separate decision, judged at the after-tax "
+    "cost of debt (Brealey, Myers and Allen, Principles of Corporate Finance, lease-versus-buy "
+    "chapter; from memory)"
+)
 
 
 def _escalation_check(value: float) -> float:
@@ -152,6 +158,17 @@ class Finance(Section):
         "for time lost at en-route chargers and for extra trips", ASSUMPTION
     )
     driver_cost_escalation: Escalation = _esc("Driver cost")
+    valuation: Literal["unlevered", "as_financed"] = mfield(
+        "unlevered", "", "Flows behind the headline present value, levelized cost, payback and "
+        "IRR: unlevered (every truck paid in cash, financing judged apart at the cost of debt) "
+        "or as_financed (loan or lease flows inside, discounted at the discount rate)",
+        UNLEVERED_SOURCE
+    )
+    cost_of_debt: Rate | None = qfield(
+        None, "", "Pre-tax borrowing rate per year (nominal) at which a loan or lease is "
+        "judged against paying cash; empty: each truck's own loan rate, or the discount rate "
+        "for a lease", ASSUMPTION
+    )
 
 
 # --------------------------------------------------------------------------- prices
