@@ -64,33 +64,34 @@ References
 from __future__ import annotations
 
 import math
-import re
 from dataclasses import dataclass, field
-from pathlib import Path
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
 import numpy as np
 import pandas as pd
 
+from tco.emission_factors import (  # noqa: F401  (re-exported: the model's public names)
+    DATA_DIR,
+    OPTIONAL_COLUMNS,
+    QUANTITIES,
+    REQUIRED_COLUMNS,
+    SHIPPED_TABLES,
+    UPSTREAM_FALLBACK_SET,
+    diesel_sets,
+    factor_table,
+    gwp_sets,
+    hourly_profile_24,
+    load_factor_table,
+)
 from tco.errors import InputError
-from tco.units import Q_
 
 if TYPE_CHECKING:  # pragma: no cover
     from tco.operation import AnnualOperation
     from tco.scenario.emissions import EmissionsSettings
 
-#: Folder of the shipped factor tables (package data).
-DATA_DIR = Path(__file__).with_name("data")
-#: The shipped emission factor tables (other models keep their own tables in the folder).
-SHIPPED_TABLES = ("us_epa_ghg_hub_2025.csv", "ipcc_2006_guidelines.csv", "en_16258_2012.csv",
-                  "ipcc_gwp.csv")
-
 #: Molar-mass ratios of the IPCC 2006 urea equation (Vol. 2 Ch. 3): C in urea, CO2 per C.
 UREA_CARBON_RATIO = 12.0 / 60.0
 CO2_PER_CARBON = 44.0 / 12.0
-
-#: The set whose well-to-tank figure is used when the chosen diesel set has none.
-UPSTREAM_FALLBACK_SET = "en_16258_2012"
 
 #: Line items: (name, scope, basis). Basis "both" lines belong to the location- and the
 #: market-based totals; the two Scope 2 lines are alternatives, never added together.
@@ -112,224 +113,6 @@ FRAMES = (
     "scope_1", "scope_2_location", "scope_2_market", "scope_3_cat3",
     "total_location", "total_market", "ttw", "wtt", "wtt_market", "wtw", "wtw_market",
 )
-
-# --------------------------------------------------------------------------- factor tables
-REQUIRED_COLUMNS = ("set", "quantity", "value", "unit", "source", "year")
-OPTIONAL_COLUMNS = ("status", "note")
-
-# bases by pint dimensionality of the SI unit
-_BASES = {
-    "[mass] / [length] ** 3": "volume",
-    "[time] ** 2 / [length] ** 2": "energy",
-    "dimensionless": "mass",
-    "[mass] / [length]": "distance",
-    "[length] ** 2 / [time] ** 2": "specific_energy",
-}
-_FUEL_BASES = {"volume", "energy", "mass"}
-#: Known quantities and the bases each accepts.
-QUANTITIES: dict[str, set[str]] = {
-    "diesel.co2": _FUEL_BASES,
-    "diesel.ch4": _FUEL_BASES | {"distance"},
-    "diesel.n2o": _FUEL_BASES | {"distance"},
-    "diesel.co2e_ttw": _FUEL_BASES,
-    "diesel.co2e_wtw": _FUEL_BASES,
-    "diesel.co2e_wtt": _FUEL_BASES,
-    "diesel.net_calorific_value": {"specific_energy"},
-    "diesel.density": {"volume"},
-    "gwp.co2": {"mass"},
-    "gwp.ch4": {"mass"},
-    "gwp.n2o": {"mass"},
-}
-_SET_NAME = re.compile(r"^[A-Za-z0-9_.\-]+$")
-_GAS_WORDS = re.compile(r"\b(CO2e|CO2|CH4|N2O)\b", re.IGNORECASE)
-
-
-def _unit_si(unit: str) -> tuple[float, str]:
-    """Scale to SI and basis name of a factor unit; raises ValueError when unreadable."""
-    cleaned = _GAS_WORDS.sub("", unit).strip()
-    cleaned = re.sub(r"\s+/", "/", re.sub(r"/\s+", "/", cleaned))
-    q = Q_(1.0, cleaned if cleaned else "").to_base_units()
-    dim = str(q.dimensionality) if str(q.dimensionality) != "dimensionless" else "dimensionless"
-    if dim not in _BASES:
-        raise ValueError(f"unit '{unit}' is not a factor unit (dimension {dim})")
-    return float(q.magnitude), _BASES[dim]
-
-
-_CACHE: dict[tuple[str, int, int], pd.DataFrame] = {}
-
-
-def load_factor_table(path: str | Path) -> pd.DataFrame:
-    """Read and check one factor table.
-
-    Parameters
-    ----------
-    path : str or Path
-        A CSV file in the format of ``tco/data/README.md``.
-
-    Returns
-    -------
-    pandas.DataFrame
-        One row per factor with the file's columns plus ``value_si`` (value in SI units),
-        ``basis`` (``volume``, ``energy``, ``mass``, ``distance``, ``specific_energy``),
-        ``file`` and ``row`` (line number in the file, header = 1).
-
-    Raises
-    ------
-    InputError
-        Naming the file and the row (or the set) for any problem.
-
-    Examples
-    --------
-    >>> t = load_factor_table(DATA_DIR / "ipcc_gwp.csv")
-    >>> float(t.query("set == 'ipcc_ar5' and quantity == 'gwp.ch4'").value.iloc[0])
-    28.0
-    """
-    path = Path(path)
-    if not path.is_file():
-        raise InputError("factor table not found", file=path)
-    stat = path.stat()
-    key = (str(path.resolve()), stat.st_mtime_ns, stat.st_size)
-    if key not in _CACHE:  # settings validation and flat_params read the same files
-        _CACHE[key] = _read_factor_table(path)
-    return _CACHE[key].copy()
-
-
-def _read_factor_table(path: Path) -> pd.DataFrame:
-    try:
-        raw = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True)
-    except Exception as exc:  # pandas raises several parser errors
-        raise InputError(f"cannot read as CSV ({type(exc).__name__}: {exc})", file=path) \
-            from None
-    raw.columns = [str(c).strip() for c in raw.columns]
-    missing = [c for c in REQUIRED_COLUMNS if c not in raw.columns]
-    if missing:
-        raise InputError(f"missing column(s) {', '.join(missing)}; a factor table needs "
-                         f"{', '.join(REQUIRED_COLUMNS)}", file=path, where="header")
-    rows = []
-    seen: dict[tuple[str, str], int] = {}
-    for i, rec in enumerate(raw.to_dict("records")):
-        line = i + 2
-        where = f"row {line}"
-        rec = {k: str(v).strip() for k, v in rec.items()}
-        name, quantity = rec["set"], rec["quantity"]
-        if not _SET_NAME.match(name):
-            raise InputError(f"set name '{name}' must be letters, digits, '_', '-' or '.'",
-                             file=path, where=where)
-        if quantity not in QUANTITIES:
-            raise InputError(f"unknown quantity '{quantity}' (known: "
-                             f"{', '.join(QUANTITIES)})", file=path, where=where)
-        try:
-            value = float(rec["value"])
-        except ValueError:
-            raise InputError(f"value '{rec['value']}' is not a number", file=path,
-                             where=where) from None
-        if not math.isfinite(value) or value < 0:
-            raise InputError(f"value {rec['value']} must be a finite number, zero or more",
-                             file=path, where=where)
-        try:
-            scale, basis = _unit_si(rec["unit"])
-        except Exception as exc:
-            msg = str(exc) if isinstance(exc, ValueError) and "factor unit" in str(exc) \
-                else f"cannot read unit '{rec['unit']}'"
-            raise InputError(msg, file=path, where=where) from None
-        if basis not in QUANTITIES[quantity]:
-            raise InputError(f"unit '{rec['unit']}' gives a {basis} basis; {quantity} accepts "
-                             f"{', '.join(sorted(QUANTITIES[quantity]))}", file=path,
-                             where=where)
-        if not rec["source"]:
-            raise InputError("source is empty; every factor needs a citation", file=path,
-                             where=where)
-        try:
-            year = int(float(rec["year"]))
-        except ValueError:
-            raise InputError(f"year '{rec['year']}' is not a year", file=path,
-                             where=where) from None
-        if not 1800 <= year <= 2200:
-            raise InputError(f"year {year} is out of range", file=path, where=where)
-        key = (name, quantity)
-        if key in seen:
-            raise InputError(f"{quantity} of set '{name}' is given twice (also row "
-                             f"{seen[key]})", file=path, where=where)
-        seen[key] = line
-        rows.append({
-            "set": name, "quantity": quantity, "value": value, "unit": rec["unit"],
-            "source": rec["source"], "year": year, "status": rec.get("status", ""),
-            "note": rec.get("note", ""), "value_si": value * scale, "basis": basis,
-            "file": str(path), "row": line,
-        })
-    table = pd.DataFrame(rows, columns=[
-        "set", "quantity", "value", "unit", "source", "year", "status", "note",
-        "value_si", "basis", "file", "row"])
-    _check_sets(table, path)
-    return table
-
-
-def _check_sets(table: pd.DataFrame, path: Path) -> None:
-    for name, rows in table.groupby("set", sort=False):
-        q = dict(zip(rows.quantity, rows.basis))
-        where = f"set '{name}'"
-        if "diesel.co2" in q and "diesel.co2e_ttw" in q:
-            raise InputError("gives both diesel.co2 and diesel.co2e_ttw; keep one",
-                             file=path, where=where)
-        if "diesel.co2e_wtw" in q and "diesel.co2e_wtt" in q:
-            raise InputError("gives both diesel.co2e_wtw and diesel.co2e_wtt; keep one",
-                             file=path, where=where)
-        diesel = [k for k in q if k.startswith("diesel.")]
-        if diesel and not ({"diesel.co2", "diesel.co2e_ttw"} & set(q)) and (
-                {"diesel.ch4", "diesel.n2o", "diesel.co2e_wtw"} & set(q)):
-            raise InputError("has no tank-to-wheel CO2 (diesel.co2 or diesel.co2e_ttw)",
-                             file=path, where=where)
-        bases = {q[k] for k in diesel}
-        if "energy" in bases:
-            for need in ("diesel.net_calorific_value", "diesel.density"):
-                if need not in q:
-                    raise InputError(f"has per-energy factors but no {need} row",
-                                     file=path, where=where)
-        if "mass" in bases and "diesel.density" not in q:
-            raise InputError("has per-mass factors but no diesel.density row",
-                             file=path, where=where)
-        gwp = [k for k in q if k.startswith("gwp.")]
-        if gwp and not {"gwp.ch4", "gwp.n2o"} <= set(q):
-            raise InputError("a GWP set needs gwp.ch4 and gwp.n2o", file=path, where=where)
-
-
-def factor_table(extra_file: str | Path | None = None) -> pd.DataFrame:
-    """All shipped factor tables, plus a user's file when given.
-
-    Parameters
-    ----------
-    extra_file : str or Path, optional
-        A user's CSV in the same format; its set names must not clash with shipped ones.
-
-    Returns
-    -------
-    pandas.DataFrame
-        The rows of every table (see :func:`load_factor_table`).
-    """
-    tables = [load_factor_table(DATA_DIR / name) for name in SHIPPED_TABLES]
-    if extra_file is not None:
-        tables.append(load_factor_table(extra_file))
-    owner: dict[str, str] = {}
-    for t in tables:
-        for name in t["set"].unique():
-            f = t.loc[t["set"] == name, "file"].iloc[0]
-            if name in owner and owner[name] != f:
-                raise InputError(f"factor set '{name}' is also defined in {owner[name]}; "
-                                 "use another set name", file=f, where=f"set '{name}'")
-            owner[name] = f
-    return pd.concat(tables, ignore_index=True)
-
-
-def diesel_sets(table: pd.DataFrame) -> list[str]:
-    """Names of the sets that give diesel tank-to-wheel factors."""
-    m = table.quantity.isin(["diesel.co2", "diesel.co2e_ttw"])
-    return list(dict.fromkeys(table.loc[m, "set"]))
-
-
-def gwp_sets(table: pd.DataFrame) -> list[str]:
-    """Names of the sets that give global warming potentials."""
-    return list(dict.fromkeys(table.loc[table.quantity == "gwp.ch4", "set"]))
-
 
 # --------------------------------------------------------------------------- diesel
 @dataclass(frozen=True)
@@ -558,40 +341,6 @@ def _grid_total(years, p: Mapping[str, Any], table: dict) -> np.ndarray:
     for t in range(y.size):  # one year at a time on (n,) rows
         total = total + np.maximum(start * growth[..., t:t + 1], lowest)
     return total
-
-
-def hourly_profile_24(values) -> np.ndarray:
-    """Reduce an hourly intensity profile to 24 hour-of-day values.
-
-    24 values are used as they are; 8760 (or 8784, a leap year) values, starting at 00:00
-    on 1 January in local clock time, are averaged by hour of day over all days.
-
-    Parameters
-    ----------
-    values : array_like
-        24, 8760 or 8784 values, zero or more. [kg/J or any scale for a shape]
-
-    Returns
-    -------
-    numpy.ndarray
-        24 values. [same unit as ``values``]
-
-    Raises
-    ------
-    ValueError
-        Wrong number of values, negative or non-finite values, or all zero.
-    """
-    v = np.asarray(values, dtype=float).ravel()
-    if v.size not in (24, 8760, 8784):
-        raise ValueError(f"an hourly profile needs 24, 8760 or 8784 (leap year) values, got "
-                         f"{v.size}")
-    bad = np.flatnonzero(~np.isfinite(v) | (v < 0))
-    if bad.size:
-        raise ValueError(f"hourly profile value {v[bad[0]]:g} at hour {bad[0]} must be a "
-                         "finite number, zero or more")
-    if not np.any(v > 0):
-        raise ValueError("hourly profile is all zero")
-    return v.reshape(-1, 24).mean(axis=0)
 
 
 def hour_matching_factor(charging_profile, shape) -> np.ndarray | float:

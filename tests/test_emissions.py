@@ -649,3 +649,16 @@ def test_unknown_sets_in_model_functions(table):
 def test_reference_must_exist():
     with pytest.raises(InputError, match="reference truck 'other'"):
         em.evaluate(EmissionsSettings(), [diesel_truck()], YEARS, reference="other")
+
+
+def test_scenario_section_does_not_import_the_model():
+    """Scenario sections describe inputs: importing the emissions section (and the whole
+    scenario package) must not import the emissions model (issue: no import circle)."""
+    import subprocess
+    import sys
+
+    code = ("import sys, tco.scenario, tco.scenario.emissions; "
+            "print('tco.emissions' in sys.modules)")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         check=True)
+    assert out.stdout.strip() == "False"

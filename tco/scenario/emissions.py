@@ -19,7 +19,7 @@ from typing import Literal
 import numpy as np
 from pydantic import Field, PrivateAttr, ValidationInfo, field_validator, model_validator
 
-from tco.emissions import (
+from tco.emission_factors import (
     UPSTREAM_FALLBACK_SET,
     diesel_sets,
     factor_table,
