@@ -199,6 +199,45 @@ class _Checker:
                 i = self.names.index(truck)
                 st = s["trucks"][truck]
                 continue
+            if key == "comparison":
+                truck = ws.cell(row=r, column=3).value
+                i = self.names.index(truck)
+                st = s["trucks"][truck]
+                comp = next(c for c in s["comparisons"] if c["truck"] == truck)
+                base = np.asarray(s["trucks"][comp["baseline"]]["yearly_totals"])
+                saving = base - np.asarray(st["yearly_totals"])
+                continue
+            if key in ("savings", "discounted_savings", "cumulative_savings",
+                       "discounted_cumulative_savings"):
+                want = saving * (df if "discounted" in key else 1.0)
+                want = np.cumsum(want) if "cumulative" in key else want
+                self.row("Cash flow", r, 3, list(want), f"{truck}/{key}")
+                continue
+            if key in ("simple_payback_year", "discounted_payback_year", "irr"):
+                want = comp[key]
+                if want is None:
+                    got = self.v["Cash flow"][f"C{r}"].value
+                    self.checked.add(("Cash flow", f"C{r}"))
+                    if not isinstance(got, str):
+                        self.errors.append(f"Cash flow!C{r} {key}: sheet {got!r}, model None")
+                else:
+                    self.cmp("Cash flow", f"C{r}", want, f"{truck}/{key}")
+                continue
+            if str(key).startswith("break_even."):
+                b = comp["break_even"][key.split(".", 1)[1]]
+                if b["value"] is None:  # no break-even: the sheet says why in words
+                    self.checked.add(("Cash flow", f"C{r}"))
+                    if not isinstance(self.v["Cash flow"][f"C{r}"].value, str):
+                        self.errors.append(f"Cash flow!C{r} {key}: not text, model None")
+                else:
+                    self.cmp("Cash flow", f"C{r}", b["value"], f"{truck}/{key}")
+                continue
+            if key == "workings":
+                # rows with one input 1 % higher: checked through the break-even values
+                # they feed (a wrong working moves a break-even)
+                self.checked |= {("Cash flow", c.coordinate) for c in ws[r]
+                                 if c.data_type == "f"}
+                continue
             if key == "discount_factor":
                 self.row("Cash flow", r, 3, list(df), "discount factor")
                 continue
@@ -339,6 +378,24 @@ class _Checker:
                          s["trucks"][name]["present_value"] if key.endswith("difference")
                          else 0.0)
             r += 1
+        for r in range(r, ws.max_row + 1):
+            key = ws.cell(row=r, column=2).value
+            if key not in ("simple_payback_year", "discounted_payback_year", "irr") and \
+                    not str(key).startswith("break_even."):
+                continue
+            for k, name in enumerate(names):
+                coord = f"{_L(3 + k)}{r}"
+                if ws[coord].data_type != "f":
+                    continue
+                c = comps[name]
+                want = (c["break_even"][key.split(".", 1)[1]]["value"]
+                        if key.startswith("break_even.") else c[key])
+                if want is None:
+                    self.checked.add(("Summary", coord))
+                    if not isinstance(self.v["Summary"][coord].value, str):
+                        self.errors.append(f"Summary!{coord} {key}: not text")
+                else:
+                    self.cmp("Summary", coord, want, f"{name}/{key}")
         mark = next(r for r in range(1, ws.max_row + 1)
                     if ws.cell(row=r, column=2).value == "cumulative_by_year")
         for k in range(self.N + 1):
@@ -370,8 +427,6 @@ class _Checker:
             band = re.fullmatch(r"depot_kwh_band(\d+)", what)
             if what == "scale":
                 want = scale
-            elif what == "em_scale":
-                want = days
             elif what == "loan_amount":  # the loan received: financed minus cash, year 0
                 fin_t = {t.name: t for t in self.result.cashflow.financing.trucks}
                 want = -float(fin_t[self.names[i]].flows[0])
@@ -711,3 +766,123 @@ def test_energy_sheet_holds_the_duty_cycle_summary(demo):
     r = keys["per_distance.us.grid_kWh_per_mi"]
     assert ws.cell(row=r, column=4).value == pytest.approx(
         summary["trucks"][names[1]]["per_distance"]["us"]["grid_kWh_per_mi"])
+
+
+# --------------------------------------------------------------------------- live edits
+_EDITS = [  # workbook name, new value in sheet units, the same edit in the scenario
+    ("diesel_price", 1.60, lambda d: d["prices"].__setitem__("diesel", 1.60)),
+    ("elec_band1_price", 0.17,
+     lambda d: d["prices"]["electricity"]["bands"][0].__setitem__("price", 0.17)),
+    ("t2_purchase_price", 240000.0,
+     lambda d: d["trucks"][1]["costs"].__setitem__("purchase_price", 240000.0)),
+    ("days_per_year", 280.0, lambda d: d["route"].__setitem__("days_per_year", 280)),
+]
+
+
+def _sheet_figures(values, formulas, truck):
+    """The comparison figures of ``truck`` on the Cash flow sheet and its emissions totals
+    on the Summary sheet, by key."""
+    out = {}
+    ws, wv = formulas["Cash flow"], values["Cash flow"]
+    inside = False
+    for r in range(1, ws.max_row + 1):
+        key = ws.cell(row=r, column=2).value
+        if key == "comparison":
+            inside = ws.cell(row=r, column=3).value == truck
+        elif inside and key in ("simple_payback_year", "discounted_payback_year", "irr") or (
+                inside and str(key).startswith("break_even.")):
+            out[key] = wv.cell(row=r, column=3).value
+    su, sv = formulas["Summary"], values["Summary"]
+    head = next(r for r in range(1, su.max_row + 1) if su.cell(row=r, column=2).value == "Key")
+    col = next(c for c in range(3, su.max_column + 1) if su.cell(row=head, column=c).value
+               == truck)
+    for r in range(head + 1, su.max_row + 1):
+        key = su.cell(row=r, column=2).value
+        if key in ("wtw_t", "wtw_market_t", "ttw_t", "avoided_location_t",
+                   "avoided_market_t"):
+            out[key] = sv.cell(row=r, column=col).value
+    return out
+
+
+def _model_figures(summary, truck):
+    c = next(c for c in summary["cashflow"]["comparisons"] if c["truck"] == truck)
+    e = summary["emissions"]
+    out = {k: c[k] for k in ("simple_payback_year", "discounted_payback_year", "irr")}
+    out.update({f"break_even.{k}": v["value"] for k, v in c["break_even"].items()})
+    tot = e["trucks"][truck]["total_kg"]
+    out.update(wtw_t=tot["wtw"] / 1000, wtw_market_t=tot["wtw_market"] / 1000,
+               ttw_t=tot["ttw"] / 1000,
+               avoided_location_t=e["comparison"][truck]["avoided_kg_total"]["location"] / 1000,
+               avoided_market_t=e["comparison"][truck]["avoided_kg_total"]["market"] / 1000)
+    return out
+
+
+@pytest.mark.slow
+@needs_soffice
+@pytest.mark.parametrize("name, value, edit", _EDITS, ids=[e[0] for e in _EDITS])
+def test_an_edit_in_libreoffice_equals_a_new_run(name, value, edit, tmp_path):
+    """Every figure is live: one input edited in the workbook and recalculated by
+    LibreOffice gives the IRR, payback years, break-even values and emissions of a new
+    model run (the whole pipeline, physics included) on the same edit: 1e-6 relative,
+    payback years exactly. The edit moves at least one of those figures."""
+    data = _demo_data()
+    data["uncertainty"] = {"enabled": False}
+    result, summary = _evaluate(data)
+    truck = result.cashflow.trucks[1].name
+    path = tmp_path / "demo.xlsx"
+    write_workbook(result, summary, path)
+    wb = openpyxl.load_workbook(path)
+    sheet, coord = next(iter(wb.defined_names[name].destinations))
+    wb[sheet][coord.replace("$", "")].value = value
+    changed = tmp_path / "changed.xlsx"
+    wb.save(changed)
+    got = _sheet_figures(openpyxl.load_workbook(recalculate(changed, tmp_path / "out"),
+                                                data_only=True), wb, truck)
+    edited = _demo_data()
+    edited["uncertainty"] = {"enabled": False}
+    edit(edited)
+    _, new_summary = _evaluate(edited)
+    want = _model_figures(new_summary, truck)
+    before = _model_figures(summary, truck)
+    assert set(got) == set(want), set(want) ^ set(got)
+    assert any(want[k] != before[k] for k in want)
+    for key, w in want.items():
+        g = got[key]
+        if w is None:
+            assert isinstance(g, str), (key, g)
+        elif key.endswith("payback_year"):
+            assert g == w, (key, g, w)
+        else:
+            assert math.isclose(g, w, rel_tol=1e-6), (key, g, w)
+
+
+def test_emissions_follow_trips_and_days(demo):
+    """Emissions follow the inputs that drive them: 1.5 × the trips per day and 0.8 × the
+    days per year give 1.2 × every truck's well-to-wheel emissions (hand: each yearly
+    quantity scales with trips × days; the factors are per litre and per kWh). Results
+    from the formulas themselves (tco.report.workbook_values), no model run."""
+    from tco.report.workbook_values import evaluate as evaluate_formulas
+
+    result, summary = demo
+    wb = build_workbook(result, summary)
+
+    def setv(name, factor):
+        sheet, coord = next(iter(wb.defined_names[name].destinations))
+        cell = wb[sheet][coord.replace("$", "")]
+        cell.value = cell.value * factor
+
+    def totals():
+        v = evaluate_formulas(wb)
+        ws = wb["Summary"]
+        head = next(r for r in range(1, ws.max_row + 1) if ws.cell(row=r, column=2).value
+                    == "Key")
+        r = next(r for r in range(head, ws.max_row + 1) if ws.cell(row=r, column=2).value
+                 == "wtw_t")
+        return [v[("Summary", f"{_L(3 + k)}{r}")] for k in range(len(result.trucks))]
+
+    before = totals()
+    setv("trips_per_day", 1.5)
+    setv("days_per_year", 0.8)
+    after = totals()
+    for a, b in zip(after, before):
+        assert a == pytest.approx(1.2 * b, rel=1e-12)

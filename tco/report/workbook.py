@@ -41,6 +41,7 @@ cell references and numbers, never from scenario text.
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -73,12 +74,16 @@ _YEAR_ROW = 3
 _FIRST_COL = 3  # column C = first year
 _RATE = "0.00%"
 _FACTOR = "0.000000"
+#: Grey marks a model figure that cannot be live (Monte Carlo, step-function break-evens).
+_MODEL_FILL = PatternFill("solid", fgColor="D9D9D9")
 _DERIVED_FILL = PatternFill("solid", fgColor="E2EFDA")  # light green: formula on Inputs
 _SECTION_FONT = Font(bold=True, size=12, color="0B3954")
 _TITLE_FONT = Font(bold=True, size=14, color="0B3954")
 _BOLD = Font(bold=True)
 _WRAP = Alignment(wrap_text=True, vertical="top")
 _NOT_LIVE = "model figure (not live)"
+#: Factor on a break-even input in the workings that measure the present value's slope.
+_BUMP = 1.01
 
 
 def write_workbook(result, summary: dict, path) -> None:
@@ -211,6 +216,7 @@ class _Book:
         self.blocks: list[_Block] = []
         self.em_blocks: list[_EmBlock] = []
         self.bands_of: dict[int, list[tuple[str, str]]] = {}  # truck -> (kWh name, price)
+        self.derived_f: dict[str, str] = {}  # derived input name -> its formula
 
     # ------------------------------------------------------------------------ build
     def build(self) -> Workbook:
@@ -266,6 +272,7 @@ class _Book:
         safe_text(ws.cell(row=r, column=4), unit)
         safe_text(ws.cell(row=r, column=5), "formula (derived): " + formula).alignment = _WRAP
         self._define(name, r, r)
+        self.derived_f[name] = formula
         self.row += 1
         return name
 
@@ -585,9 +592,6 @@ class _Book:
         else:
             self._derived(P + "scale", "Scale of the yearly cost quantities: days per year ÷ "
                           "modelled days", f"days_per_year/{P}operating_days", "-", _FACTOR)
-        self._derived(P + "em_scale", "Scale of the yearly emission quantities: days per year "
-                      "÷ modelled days (the emissions model does not scale by trips per day)",
-                      f"days_per_year/{P}operating_days", "-", _FACTOR)
         if (c.battery_replacement.when == "cycles" and op.battery_capacity > 0
                 and math.isfinite(op.battery_cycle_life)):
             self._derived(P + "battery_lives_per_year", "Battery lives used per year: "
@@ -949,6 +953,8 @@ class _Book:
         row += 2
         for i, name in enumerate(self.trucks):
             row = self._truck_block(i, name, row, cols, c_sum, c_pv, c_note, desc, npv)
+        self._cf_ctx = (cols, c_sum, c_pv, c_note, npv)
+        self.cf_end = row
         # differences to the baseline (after all blocks, so the baseline rows are known)
         ref = self.blocks[self.ref]
         for i, blk in enumerate(self.blocks):
@@ -961,6 +967,267 @@ class _Book:
                 ws.cell(row=r, column=_FIRST_COL,
                         value=f"={first}{getattr(blk, base_attr)}-{first}"
                               f"{getattr(ref, base_attr)}")
+        self._comparisons()
+
+    # ------------------------------------------------------------------------ comparisons
+    #: Break-even quantities (keys of summary.json ``break_even``): the workbook names they
+    #: move, which trucks' costs they reach (None: every truck; "truck": the compared one)
+    #: and the model's search range as multiples of the case's value
+    #: (tco.cashflow.BREAK_EVEN_QUANTITIES).
+    def _break_even_specs(self, i: int):
+        P = self.pre(i)
+        elec = [price for _, price in self.bands_of.get(i, [])]
+        for _, price in self.bands_of.get(self.ref, []):
+            if price not in elec:
+                elec.append(price)
+        return [
+            ("diesel_price_per_litre", "diesel_price", ["diesel_price"], None, (0.0, 10.0)),
+            ("electricity_price_per_kwh", "electricity prices (all depot bands together)",
+             elec, None, (0.0, 10.0)),
+            ("purchase_price", f"{P}purchase_price", [f"{P}purchase_price"], "truck",
+             (0.0, 10.0)),
+            ("annual_distance_km", "days_per_year", ["days_per_year"], None, (0.02, 5.0)),
+        ]
+
+    def _substituted(self, names: list[str]):
+        """A function rewriting a formula as if every name in ``names`` were 1 % higher,
+        following the derived inputs (loan amount, scale...) that read them."""
+        pat = {}
+
+        def rx(n):
+            return re.compile(r"(?<![A-Za-z0-9_.$'!])" + re.escape(n) + r"(?![A-Za-z0-9_.(])")
+
+        for n in names:
+            pat[n] = (rx(n), f"({n}*{_BUMP})")
+
+        def sub(f: str) -> str:
+            for r, repl in pat.values():
+                f = r.sub(repl, f)
+            return f
+
+        for d, formula in self.derived_f.items():  # definition order: inputs first
+            new = sub(formula)
+            if new != formula:
+                pat[d] = (rx(d), f"({new})")
+        return sub
+
+    def _shadow(self, i: int, names: list[str], row: int, title: str) -> tuple[int, int]:
+        """Truck i's cost lines that change when ``names`` are 1 % higher, at the bottom of
+        the Cash flow sheet; the changed total and its present value. Returns (row of the
+        total, next free row)."""
+        ws = self.ws_cf
+        cols, c_sum, c_pv, c_note, npv = self._cf_ctx
+        blk = self.blocks[i]
+        sub = self._substituted(names)
+        safe_text(ws.cell(row=row, column=1), title).font = _BOLD
+        safe_text(ws.cell(row=row, column=2), "workings")
+        row += 1
+        rows = dict(blk.rows)
+        changed = []
+        for line in self.lines[i]:
+            cells = []
+            differs = False
+            for c in cols:
+                col = _col(c)
+                y = f"{col}${_YEAR_ROW}"
+                body, deflate = self._formula(i, line, y, col, rows)
+                orig, _ = self._formula(i, line, y, col, blk.rows)
+                new = sub(body)
+                if deflate and self.real:
+                    new = f"({new}){self._defl(y)}"
+                    orig = f"({orig}){self._defl(y)}"
+                differs |= new != orig
+                cells.append(new)
+            if not differs:
+                continue
+            rows[line] = row
+            changed.append(line)
+            safe_text(ws.cell(row=row, column=1), f"  {line}, input 1 % higher")
+            safe_text(ws.cell(row=row, column=2), "workings")
+            for c, f in zip(cols, cells):
+                ws.cell(row=row, column=c, value="=" + f).number_format = wbb.MONEY
+            row += 1
+        safe_text(ws.cell(row=row, column=1), "  Net cost with the input 1 % higher")
+        safe_text(ws.cell(row=row, column=2), "workings")
+        for c in cols:
+            col = _col(c)
+            delta = "".join(f"+{col}{rows[ln]}-{col}{blk.rows[ln]}" for ln in changed)
+            ws.cell(row=row, column=c, value=f"={col}{blk.total}{delta}").number_format = \
+                wbb.MONEY
+        ws.cell(row=row, column=c_pv, value=f"={npv(row)}").number_format = wbb.MONEY
+        return row, row + 1
+
+    def _no_replacement(self, trucks, i: int) -> bool:
+        """True when no battery replacement by cycles falls in the period for these trucks,
+        at the case's days per year nor at the model's break-even distance."""
+        b = self._model_comparison(i).get("break_even", {}).get("annual_distance_km", {})
+        ref_km = self.ops[self.ref].distance / _M_PER_KM
+        k = max(1.0, (b.get("value") or 0.0) / ref_km) if ref_km > 0 else 1.0
+        for t in trucks:
+            op = self.ops[t]
+            lives = op.battery_energy / op.battery_capacity / op.battery_cycle_life
+            if lives * self.N * k + 1e-9 >= 1:
+                return False
+        return True
+
+    def _model_comparison(self, i: int) -> dict:
+        return next((c for c in self.summary.get("cashflow", {}).get("comparisons", [])
+                     if c.get("truck") == self.trucks[i]), {})
+
+    def _comparisons(self) -> None:
+        """Per compared truck: savings rows, live payback years, IRR and break-evens."""
+        ws, N = self.ws_cf, self.N
+        cols, c_sum, c_pv, c_note, npv = self._cf_ctx
+        ref = self.blocks[self.ref]
+        first, last = _col(cols[0]), _col(cols[-1])
+        years = f"${first}${_YEAR_ROW}:${last}${_YEAR_ROW}"
+        row = self.cf_end + 1
+        self.cmp_rows: dict[int, dict[str, int]] = {}
+        work = []
+        for i, blk in enumerate(self.blocks):
+            if i == self.ref:
+                continue
+            R: dict[str, int] = {}
+            self.cmp_rows[i] = R
+            _section(ws, row, f"{self.trucks[i]} against {self.trucks[self.ref]}")
+            safe_text(ws.cell(row=row, column=2), "comparison")
+            safe_text(ws.cell(row=row, column=3), self.trucks[i])
+            row += 1
+            for key, label in (("savings", "Savings: baseline net cost − this truck's"),
+                               ("discounted_savings", "Discounted savings"),
+                               ("cumulative_savings", "Cumulative savings"),
+                               ("discounted_cumulative_savings",
+                                "Discounted cumulative savings")):
+                R[key] = row
+                self._label(row, label, key)
+                for k, c in enumerate(cols):
+                    col = _col(c)
+                    if key == "savings":
+                        f = f"={col}{ref.total}-{col}{blk.total}"
+                    elif key == "discounted_savings":
+                        f = f"={col}{R['savings']}*{col}{self.df_row}"
+                    else:
+                        src = R["savings" if key == "cumulative_savings"
+                                else "discounted_savings"]
+                        f = f"={col}{src}" if k == 0 else f"={_col(c - 1)}{row}+{col}{src}"
+                    ws.cell(row=row, column=c, value=f).number_format = wbb.MONEY
+                row += 1
+            safe_text(ws.cell(row=R["savings"], column=c_note),
+                      "positive: this truck costs less that year")
+            # payback: the year after the last year the cumulative saving is below
+            # −1e-9 × max(largest |saving| of the row, 1) (tco.finance.payback_year)
+            for key, label, cum, flow in (
+                    ("simple_payback_year", "Simple payback year", "cumulative_savings",
+                     "savings"),
+                    ("discounted_payback_year", "Discounted payback year",
+                     "discounted_cumulative_savings", "discounted_savings")):
+                fr = f"{first}{R[flow]}:{last}{R[flow]}"
+                cr = f"{first}{R[cum]}:{last}{R[cum]}"
+                dust = f"-1E-9*MAX(MAX({fr}),-MIN({fr}),1)"
+                after = f"SUMPRODUCT(MAX(({cr}<{dust})*({years}+1)))"
+                R[key] = row
+                self._metric(row, label, key, f"=IF({after}>analysis_years,"
+                             f"\"not within the period\",{after})", "0")
+                safe_text(ws.cell(row=row, column=c_note), "the year after the last year "
+                          "the cumulative saving is below zero (0: never below)")
+                row += 1
+            R["irr"] = row
+            # the spreadsheet's IRR iterates from a starting guess; from its default 10 % it
+            # misses strongly negative rates and picks among several roots by chance. The
+            # guess is the model's IRR of the case as written (only the starting point:
+            # the rate itself is recomputed from the savings row after any edit).
+            model_irr = self._model_comparison(i).get("irr")
+            guess = repr(float(model_irr)) if model_irr is not None else "0.1"
+            self._metric(row, "IRR of the extra investment (spreadsheet IRR over the savings)",
+                         "irr", f"=IFERROR(IRR({first}{R['savings']}:{last}{R['savings']},"
+                         f"{guess}),\"-\")", _RATE)
+            row += 1
+            work.append((i, R, row))
+            row += len(self._break_even_specs(i)) + 1
+        # break-even workings, then the break-even values (closed form: PV is affine)
+        row += 1
+        _section(ws, row, "Break-even workings: the cost lines that change when one input "
+                 "is 1 % higher (present value is affine in each break-even input between "
+                 "steps such as a battery replacement, so the slope is the change in present "
+                 "value ÷ 1 % of the input)")
+        row += 1
+        shadow_pv: dict[tuple[str, int], int] = {}
+        for i, R, r_be in work:
+            for key, what, names, reach, _ in self._break_even_specs(i):
+                if not names:
+                    continue
+                for t in ([i] if reach == "truck" else [i, self.ref]):
+                    if (key, t) in shadow_pv:
+                        continue
+                    tot, row = self._shadow(t, names, row, f"{self.trucks[t]}: {what} "
+                                            "1 % higher")
+                    shadow_pv[(key, t)] = tot
+        for i, R, r_be in work:
+            blk = self.blocks[i]
+            D = f"{first}{blk.difference}"
+            for k, (key, what, names, reach, (lo, hi)) in enumerate(
+                    self._break_even_specs(i)):
+                r = r_be + k
+                R["break_even." + key] = r
+                label = {"diesel_price_per_litre": f"Break-even diesel price [{self.cur}/L]",
+                         "electricity_price_per_kwh": "Break-even depot electricity price, "
+                         f"profile-weighted [{self.cur}/kWh]",
+                         "purchase_price": f"Break-even purchase price [{self.cur}]",
+                         "annual_distance_km": "Break-even annual distance of the baseline "
+                         "truck [km/yr]"}[key]
+                cyc = [t for t in (i, self.ref) if key == "annual_distance_km"
+                       and f"{self.pre(t)}battery_lives_per_year" in self.derived_f]
+                steps = bool(cyc) and not self._no_replacement(cyc, i)
+                if steps:  # replacements by cycles: a step function of the distance
+                    b = self._model_comparison(i).get("break_even", {}).get(key, {})
+                    self._metric(r, label, "break_even." + key, None, wbb.INTEGER)
+                    write_value(ws.cell(row=r, column=_FIRST_COL), "-" if b.get("value")
+                                is None else b["value"], wbb.INTEGER).fill = _MODEL_FILL
+                    safe_text(ws.cell(row=r, column=c_note), f"{_NOT_LIVE}: battery "
+                              "replacements by cycles make the cost a step function of the "
+                              "distance")
+                    continue
+                if not names:
+                    self._metric(r, label, "break_even." + key, None, "0.00")
+                    safe_text(ws.cell(row=r, column=_FIRST_COL), "-")
+                    safe_text(ws.cell(row=r, column=c_note), "the scenario has no depot "
+                              "electricity price")
+                    continue
+                pv = f"{_col(c_pv)}"
+                dpv = f"({pv}{shadow_pv[(key, i)]}-{first}{blk.present_value})"
+                if reach != "truck":
+                    dpv += (f"-({pv}{shadow_pv[(key, self.ref)]}-{first}"
+                            f"{ref.present_value})")
+                if key == "electricity_price_per_kwh":
+                    x0 = "1"  # the factor on every depot band price
+                else:
+                    x0 = names[0]
+                slope = f"({dpv})/({x0}*{_BUMP - 1!r})"
+                root = f"({x0}-{D}/({slope}))"
+                if key == "electricity_price_per_kwh":
+                    who = i if self.ops[i].grid_energy_depot > 0 else self.ref
+                    Pw = self.pre(who)
+                    kwh = "+".join(f"{a}*{b}" for a, b in self.bands_of[who])
+                    value = f"{root}*({kwh})/{Pw}depot_kwh"
+                elif key == "annual_distance_km":
+                    Pr = self.pre(self.ref)
+                    value = f"{Pr}distance_km*{Pr}scale*{root}/days_per_year"
+                else:
+                    value = root
+                if cyc:  # live while no battery replacement falls in the period
+                    ok = ",".join(f"{self.pre(t)}battery_lives_per_year*analysis_years*"
+                                  f"MAX({root},days_per_year)/days_per_year+1E-9<1"
+                                  for t in cyc)
+                    value = (f"IF(AND({ok}),{value},\"a battery replacement makes a step: "
+                             "rerun the model\")")
+                f = (f"=IF({slope}=0,\"-\",IF(AND({root}>={lo}*{x0},{root}<={hi}*{x0}),"
+                     f"{value},\"no break-even in the range\"))")
+                fmt = {"purchase_price": wbb.MONEY, "annual_distance_km": wbb.INTEGER
+                       }.get(key, "#,##0.0000")
+                self._metric(r, label, "break_even." + key, f, fmt)
+                safe_text(ws.cell(row=r, column=c_note),
+                          f"{what} − PV difference ÷ slope; searched {lo:g}–{hi:g}× the "
+                          "case's value")
 
     def _truck_block(self, i, name, row, cols, c_sum, c_pv, c_note, desc, npv) -> int:
         ws = self.ws_cf
@@ -1245,7 +1512,7 @@ class _Book:
 
     def _em_formula(self, i: int, line: str, c: int, blk: _EmBlock) -> str:
         P = self.pre(i)
-        S = f"{P}em_scale"
+        S = f"{P}scale"  # emissions follow days and trips like the costs
         grid = f"{_col(c)}${self.grid_row}/1000"  # kg/kWh
         if line == "diesel_co2":
             return f"{P}diesel_L*{S}*ef_diesel_ttw"
@@ -1494,62 +1761,38 @@ class _Book:
 
     def _comparison_values(self, row: int) -> int:
         ws = self.ws_su
-        comps = self.summary.get("cashflow", {}).get("comparisons", [])
-        if not comps:
+        if not self.cmp_rows:
             return row
-        _section(ws, row, f"Payback, IRR and break-even values: {_NOT_LIVE}")
+        _section(ws, row, "Payback, IRR and break-even values (formulas over the Cash flow "
+                 "sheet)")
         row += 1
         names = self.trucks
-        wbb.header_row(ws, row, ["Figure", "Key"] + list(names) + ["Unit", "Note"])
+        wbb.header_row(ws, row, ["Figure", "Key"] + list(names) + ["Unit"])
         row += 1
-        be_units = {"diesel_price_per_litre": f"{self.cur}/L",
-                    "electricity_price_per_kwh": f"{self.cur}/kWh",
-                    "purchase_price": self.cur, "annual_distance_km": "km/yr"}
+        cur = self.cur
         items = [("Simple payback year", "simple_payback_year", "yr", "0"),
                  ("Discounted payback year", "discounted_payback_year", "yr", "0"),
-                 ("IRR of the extra investment", "irr", "1/yr", _RATE)]
-        by_truck = {c["truck"]: c for c in comps}
+                 ("IRR of the extra investment", "irr", "1/yr", _RATE),
+                 ("Break-even diesel price", "break_even.diesel_price_per_litre", f"{cur}/L",
+                  "#,##0.0000"),
+                 ("Break-even depot electricity price (profile-weighted)",
+                  "break_even.electricity_price_per_kwh", f"{cur}/kWh", "#,##0.0000"),
+                 ("Break-even purchase price", "break_even.purchase_price", cur, wbb.MONEY),
+                 ("Break-even annual distance (baseline truck)",
+                  "break_even.annual_distance_km", "km/yr", wbb.INTEGER)]
         for label, key, unit, fmt in items:
             safe_text(ws.cell(row=row, column=1), label)
             safe_text(ws.cell(row=row, column=2), key)
-            notes = []
-            for i, name in enumerate(names):
-                c = by_truck.get(name)
+            for i in range(len(names)):
                 cell = ws.cell(row=row, column=3 + i)
-                if c is None:
+                R = self.cmp_rows.get(i)
+                if R is None:
                     safe_text(cell, "baseline")
                     continue
-                v = c.get(key)
-                write_value(cell, "not within the period" if v is None and key != "irr"
-                            else ("-" if v is None else v), fmt)
-                note = c.get("payback_note" if "payback" in key else "irr_note")
-                if note:
-                    notes.append(f"{name}: {note}")
+                cell.value = "=" + _ref(_CF, _FIRST_COL, R[key])
+                cell.number_format = fmt
             safe_text(ws.cell(row=row, column=3 + len(names)), unit)
-            safe_text(ws.cell(row=row, column=4 + len(names)), "; ".join(notes))
-            row += 1
-        keys = []
-        for c in comps:
-            for k in c.get("break_even", {}):
-                if k not in keys:
-                    keys.append(k)
-        for k in keys:
-            safe_text(ws.cell(row=row, column=1), "Break-even " + k.replace("_", " "))
-            safe_text(ws.cell(row=row, column=2), f"break_even.{k}")
-            notes = []
-            for i, name in enumerate(names):
-                c = by_truck.get(name)
-                cell = ws.cell(row=row, column=3 + i)
-                if c is None:
-                    safe_text(cell, "baseline")
-                    continue
-                b = c.get("break_even", {}).get(k, {})
-                write_value(cell, "-" if b.get("value") is None else b["value"],
-                            "#,##0.0000")
-                if b.get("note"):
-                    notes.append(f"{name}: {b['note']}")
-            safe_text(ws.cell(row=row, column=3 + len(names)), be_units.get(k, ""))
-            safe_text(ws.cell(row=row, column=4 + len(names)), "; ".join(notes))
+            self.su_rows[key] = row
             row += 1
         return row
 
@@ -1616,9 +1859,12 @@ class _Book:
         cur = self.cur
         _title(ws, f"Sensitivity: present value difference to {unc.get('baseline')} "
                f"[{cur}] with one input at a time at its low or high value")
-        safe_text(ws.cell(row=2, column=1), f"{_NOT_LIVE}: each row is a model run with "
-                  "one input changed; differences are truck − baseline (positive: the "
-                  "truck costs more).")
+        banner = safe_text(ws.cell(row=2, column=1), f"{_NOT_LIVE.upper()}: each row is a "
+                           "model run with one input changed; differences are truck − "
+                           "baseline (positive: the truck costs more). Editing the Inputs "
+                           "sheet does not change this sheet.")
+        banner.font, banner.fill = _BOLD, _MODEL_FILL
+        ws.sheet_properties.tabColor = "808080"
         wbb.set_widths(ws, {"A": 40, "B": 34, "C": 12, "D": 14, "E": 14, "F": 14, "G": 18,
                             "H": 18, "I": 16, "J": 30})
         row = 4
@@ -1678,9 +1924,12 @@ class _Book:
         ws = self.wb.create_sheet(_ST)
         cur = self.cur
         _title(ws, f"Monte Carlo: {unc.get('draws', 0)} draws, seed {unc.get('seed')}")
-        safe_text(ws.cell(row=2, column=1), f"{_NOT_LIVE}: statistics of the model run over "
-                  "the sampled inputs; differences are truck − baseline "
-                  f"({unc.get('baseline')}).")
+        banner = safe_text(ws.cell(row=2, column=1), f"{_NOT_LIVE.upper()}: statistics of "
+                           "the Monte Carlo model run over the sampled inputs; differences are "
+                           f"truck − baseline ({unc.get('baseline')}). Editing the Inputs "
+                           "sheet does not change this sheet.")
+        banner.font, banner.fill = _BOLD, _MODEL_FILL
+        ws.sheet_properties.tabColor = "808080"
         wbb.set_widths(ws, {"A": 52, "B": 16, "C": 16, "D": 16, "E": 16, "F": 16, "G": 16,
                             "H": 18})
         row = 4
