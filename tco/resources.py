@@ -26,11 +26,6 @@ def inputs_dir() -> Path:
     return _folder("inputs")
 
 
-def data_dir() -> Path:
-    """Folder of the factor tables (package data)."""
-    return Path(__file__).resolve().parent / "data"
-
-
 def demo_path() -> Path:
     """The bundled demo scenario."""
     return inputs_dir() / "demo.toml"

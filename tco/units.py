@@ -3,7 +3,7 @@
 Everything inside the models is SI (m, s, kg, W, J, m³, K, m/s). Users write either a
 plain number in a field's documented default unit or a string with units (``"36 t"``,
 ``"73000 lb"``, ``"62 mph"``, ``"1.3 kWh/km"``); :func:`to_si` turns either into a float
-in SI. :func:`display` converts back to metric or US customary units for reports.
+in SI. Display text (metric or US customary) is written by :mod:`tco.report.formatting`.
 
 Money is never a pint quantity: pint silently drops a ``$`` sign, so amounts are plain
 numbers in the scenario's declared ISO 4217 currency, and a currency symbol in a
@@ -23,6 +23,14 @@ Q_ = ureg.Quantity
 
 #: Standard acceleration of gravity [m/s²] (CGPM 1901; equals ``scipy.constants.g``).
 G = 9.80665
+#: Joules in one kilowatt-hour [J/kWh] (exact: 1000 W × 3600 s).
+J_PER_KWH = 3.6e6
+#: Metres in one international mile [m/mi] (exact, 1959 international yard and pound).
+M_PER_MILE = 1609.344
+#: Cubic metres in one US liquid gallon [m³/gal] (exact: 231 in³).
+M3_PER_US_GALLON = 3.785411784e-3
+#: Kilograms in one avoirdupois pound [kg/lb] (exact, 1959 agreement).
+KG_PER_LB = 0.45359237
 
 _CURRENCY_SIGNS = re.compile(r"[$€£¥₹]")
 
@@ -178,53 +186,6 @@ def _dimension_name(unit: str) -> str:
     if dim == "dimensionless":
         return "plain number (dimensionless)"
     return _DIMENSION_NAMES.get(dim, f"quantity of dimension {dim}")
-
-
-# --------------------------------------------------------------------------- display
-#: Display units per quantity kind for each unit system: (unit for pint, label).
-DISPLAY_UNITS: dict[str, dict[str, tuple[str, str]]] = {
-    "metric": {
-        "distance": ("km", "km"),
-        "speed": ("km/h", "km/h"),
-        "mass": ("t", "t"),
-        "volume": ("L", "L"),
-        "energy": ("kWh", "kWh"),
-        "power": ("kW", "kW"),
-        "energy_per_distance": ("kWh/km", "kWh/km"),
-        "volume_per_distance": ("L/(100 km)", "L/100 km"),
-        "elevation": ("m", "m"),
-        "temperature": ("degC", "°C"),
-        "area": ("m^2", "m²"),
-        "mass_transport": ("t*km", "t·km"),
-        "emissions_per_distance": ("g/km", "g CO2e/km"),
-        "emissions_per_transport": ("g/(t*km)", "g CO2e/t·km"),
-    },
-    "us": {
-        "distance": ("mi", "mi"),
-        "speed": ("mph", "mph"),
-        "mass": ("lb", "lb"),
-        "volume": ("gal", "US gal"),
-        "energy": ("kWh", "kWh"),
-        "power": ("hp", "hp"),
-        "energy_per_distance": ("kWh/mi", "kWh/mi"),
-        "volume_per_distance": ("gal/(100 mi)", "gal/100 mi"),
-        "elevation": ("ft", "ft"),
-        "temperature": ("degF", "°F"),
-        "area": ("ft^2", "ft²"),
-        "mass_transport": ("ton*mi", "ton-mi"),
-        "emissions_per_distance": ("g/mi", "g CO2e/mi"),
-        "emissions_per_transport": ("g/(ton*mi)", "g CO2e/ton-mi"),
-    },
-}
-
-
-def display(value_si, kind: str, system: str = "metric") -> tuple[float, str]:
-    """Convert an SI value to the display unit of ``kind`` in ``system``.
-
-    Returns the converted value and the unit's label.
-    """
-    unit, label = DISPLAY_UNITS[system][kind]
-    return from_si(value_si, unit), label
 
 
 def mpg_us(volume_per_distance_si: float) -> float:

@@ -150,24 +150,32 @@ def _sample_context() -> dict:
                   "0" if y == "0" else "9,000", "0" if y == "0" else "1,500",
                   "0" if y == "0" else "12,800", "−55,000" if y == "10" else "0"]
                  for y in years]
-    assumptions = [
-        {"field": "study.discount_rate", "value": "6.0", "unit": "%", "source": "user"},
-        {"field": "study.horizon", "value": "10", "unit": "yr", "source": "user"},
-        {"field": "route.annual_distance", "value": "115,000", "unit": "km/yr",
-         "source": "user"},
-        {"field": "trucks[0].mass.curb", "value": "9,200", "unit": "kg", "source": "user"},
-        {"field": "trucks[1].battery.capacity", "value": "540", "unit": "kWh",
-         "source": "user"},
-        {"field": "trucks[1].tyres.rolling_resistance", "value": "5.5", "unit": "kg/t",
-         "source": "default: Regulation (EU) 2020/740, Annex I Part A: C3 (truck) tyre "
-                   "rolling-resistance classes A ≤ 4.0, B 4.1–5.0, C 5.1–6.0 kg/t; 5.5 "
-                   "kg/t is the middle of class C"},
-    ] + [
-        {"field": f"trucks[{i % 2}].costs.item_{i:02d}", "value": f"{1000 + 37 * i:,}",
-         "unit": "EUR/yr",
-         "source": "default: assumption (tool default; replace with your own figure)"}
-        for i in range(40)
-    ]
+    assumptions = {
+        "sections": [
+            {"title": "Finance", "columns": ["Input", "Value"],
+             "rows": [["Discount rate per year", "6.0 %"], ["Analysis period", "10 years"]],
+             "tables": []},
+            {"title": "Route and conditions", "columns": ["Input", "Value"],
+             "rows": [["Distance per year", "115,000 km"]],
+             "tables": [{"title": "Leg 1: out", "note": "Payload carried on this leg: 20 t",
+                         "columns": ["Segment", "Length [km]", "Speed [km/h]", "Grade"],
+                         "rows": [["1", "12", "60", "0 % [1]"], ["2", "40", "80", "1.5 %"]]}]},
+            {"title": "Trucks", "columns": ["Input", "Diesel 6x4", "Electric 6x4"],
+             "rows": [["Empty mass", "9.2 t", "11.4 t"],
+                      ["Nominal battery capacity", "", "540 kWh"],
+                      ["Rolling-resistance coefficient", "0.0055 [2]", "0.0055 [2]"]] + [
+                 [f"Cost item {i:02d} per year", f"{1000 + 37 * i:,} EUR/year [1]",
+                  f"{1100 + 37 * i:,} EUR/year [1]"] for i in range(40)],
+             "tables": []},
+        ],
+        "sources": [
+            {"number": 1, "text": "assumption (tool default; replace with your own figure)"},
+            {"number": 2, "text": "Regulation (EU) 2020/740, Annex I Part A: C3 (truck) tyre "
+                                  "rolling-resistance classes A ≤ 4.0, B 4.1–5.0, C 5.1–6.0 "
+                                  "kg/t; 5.5 kg/t is the middle of class C"},
+        ],
+        "counts": {"shown": 46, "user": 6, "default": 40, "left_out": 3},
+    }
     return {
         "meta": {"title": "Regional distribution, 40 t, two shifts", "date": "2025-03-14",
                  "version": "0.1.0",

@@ -30,8 +30,9 @@ def test_context_has_every_section(demo):
     avoided = build_summary(demo)["emissions"]["comparison"]["Electric tractor"][
         "avoided_kg_total"]["location"]
     assert f"avoids {avoided / 1000:,.0f} t CO2e" in ctx["verdict"]
-    assert any(a["source"] == "user" for a in ctx["assumptions"])
-    assert any(a["source"].startswith("default: US DOE") for a in ctx["assumptions"])
+    appendix = ctx["assumptions"]
+    assert appendix["counts"]["user"] > 0 and appendix["counts"]["default"] > 0
+    assert any(s["text"].startswith("US DOE") for s in appendix["sources"])
 
 
 def test_metric_and_us_display(demo):

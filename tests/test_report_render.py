@@ -76,7 +76,7 @@ def test_pdf_page_size(rendered):
 @pytest.mark.slow
 def test_pdf_shows_key_figures_exactly(rendered):
     size, ctx, result, reader, pages = rendered
-    summary = pages[1]
+    summary = pages[2]  # cover, contents, summary
     for fig in ctx["key_figures"]:
         assert fig["value"] in summary, fig
         assert _squash(fig["label"]) in _squash(summary)
@@ -96,12 +96,13 @@ def test_pdf_running_header_and_page_numbers(rendered):
         if i > 1:  # the cover has no running header
             assert title in text
             assert f"tco {ctx['meta']['version']}" in text
-    # The section name runs in the header: on the first assumptions page it shows twice
+    # The section name runs in the header: on the first appendix page it shows twice
     # (heading and header), on the page with the last input at least in the header.
-    first = next(i for i, t in enumerate(pages) if "study.discount_rate" in t)
-    last = max(i for i, t in enumerate(pages) if ctx["assumptions"][-1]["field"] in t)
-    assert pages[first].count("Assumptions") >= 2
-    assert "Assumptions" in pages[last]
+    first = next(i for i, t in enumerate(pages) if "Discount rate per year" in t)
+    last_label = ctx["assumptions"]["sections"][-1]["rows"][-1][0]
+    last = max(i for i, t in enumerate(pages) if last_label in t)
+    assert pages[first].count("Appendix: assumptions") >= 2
+    assert "Appendix: assumptions" in pages[last]
 
 
 @pytest.mark.slow
@@ -110,11 +111,14 @@ def test_pdf_has_every_section_and_input(rendered):
     text = _squash("\n".join(pages))
     for heading in ("Summary", "Cost of ownership", "Energy and duty cycle", "Emissions",
                     "Uncertainty", "Feasibility and warnings", "Detailed figures",
-                    "Assumptions", "Method notes", "Cautions"):
+                    "Contents", "Appendix: assumptions", "Method notes", "Cautions"):
         assert _squash(heading) in text
-    for a in ctx["assumptions"]:
-        assert _squash(a["field"]) in text
-        assert _squash(a["source"]) in text
+    for sec in ctx["assumptions"]["sections"]:
+        for row in sec["rows"] + [r for t in sec["tables"] for r in t["rows"]]:
+            for cell in row:
+                assert _squash(cell) in text
+    for src in ctx["assumptions"]["sources"]:
+        assert _squash(src["text"]) in text
     for c in ctx["cautions"]:
         assert _squash(c) in text
     for w in ctx["warnings"]:
@@ -160,8 +164,12 @@ def test_html_is_standalone(sample_context, for_print):
     p.feed(html)
     n_images = sum(len(v) for v in sample_context["charts"].values()) + sum(
         bool(n["equation_uri"]) for n in sample_context["method_notes"])
-    assert len(p.refs) == n_images
-    assert all(v.startswith("data:image/") for _, _, v in p.refs)
+    # besides the images, only links to the document's own sections (the contents)
+    inner = [v for _, name, v in p.refs if name == "href"]
+    assert inner and all(v.startswith("#") for v in inner)
+    images = [v for _, name, v in p.refs if name != "href"]
+    assert len(images) == n_images
+    assert all(v.startswith("data:image/") for v in images)
     assert "link" not in p.tags and "script" not in p.tags
     # No reference outside the document in the markup itself (the SVGs are base64).
     outside = re.sub(r'src="data:[^"]*"', "", html)

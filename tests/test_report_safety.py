@@ -50,8 +50,13 @@ def _hostile_context(ctx: dict, hostile: list[str]) -> dict:
     ctx["warnings"] = list(hostile)
     ctx["tables"][1]["columns"][1] = hostile[8]
     ctx["tables"][1]["rows"].append(list(hostile[:3]))
-    ctx["assumptions"] = [{"field": f"notes[{i}]", "value": h, "unit": h, "source": h}
-                          for i, h in enumerate(hostile)] + ctx["assumptions"]
+    ctx["assumptions"]["sections"].insert(0, {
+        "title": hostile[0], "columns": ["Input", hostile[1]],
+        "rows": [[h, h] for h in hostile],
+        "tables": [{"title": hostile[2], "note": hostile[3], "columns": [hostile[4]],
+                    "rows": [[h] for h in hostile]}]})
+    ctx["assumptions"]["sources"] += [{"number": 90 + i, "text": h}
+                                      for i, h in enumerate(hostile)]
     ctx["method_notes"][0].update(title=hostile[3], text=joined, equation=hostile[9])
     ctx["cautions"].append(joined)
     for figures in ctx["charts"].values():
@@ -84,13 +89,16 @@ def test_html_shows_hostile_text_literally(sample_context, hostile, for_print):
     got.feed(html)
     ref.feed(clean)
     # The hostile report has exactly the kinds of elements the clean one has: no img,
-    # link, a or script came from the text.
+    # link, a or script came from the text (the only links are the contents' own).
     assert set(got.tags) == set(ref.tags)
     assert got.tags.count("img") == ref.tags.count("img")
-    for tag in ("link", "a", "script", "iframe", "object", "embed", "base"):
+    assert got.tags.count("a") == ref.tags.count("a")
+    for tag in ("link", "script", "iframe", "object", "embed", "base"):
         assert tag not in got.tags
     refs = [(t, k, v) for t, k, v in got.attrs if k in ("src", "href")]
-    assert all(v.startswith("data:image/") for _, _, v in refs)
+    assert all(v.startswith("data:image/") if k == "src" else
+               (t == "a" and v.startswith("#") and v[1:].replace("-", "").isalpha())
+               for t, k, v in refs)
     assert not any(k.startswith("on") for _, k, _ in got.attrs)  # no event handlers
     text = "".join(got.text)
     for h in hostile:

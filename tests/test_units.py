@@ -3,7 +3,8 @@ import numpy as np
 import pytest
 import scipy.constants
 
-from tco.units import G, UnitError, display, from_si, mpg_us, to_si
+from tco.units import (G, J_PER_KWH, KG_PER_LB, M3_PER_US_GALLON, M_PER_MILE, UnitError,
+                       from_si, mpg_us, to_si)
 
 
 def test_standard_gravity_matches_scipy():
@@ -68,12 +69,18 @@ def test_booleans_and_other_types_are_rejected():
         to_si([1, 2], "km")
 
 
-def test_display_in_both_systems():
-    # 100 km = 62.137 mi (mile = 1609.344 m, exact).
-    value, label = display(100_000.0, "distance", "us")
-    assert label == "mi" and value == pytest.approx(100_000 / 1609.344)
-    value, label = display(100_000.0, "distance", "metric")
-    assert label == "km" and value == pytest.approx(100.0)
+def test_conversion_constants_against_pint():
+    """The exact factors of tco.units against pint's own definitions (reference library):
+    mile 1609.344 m, US gallon 231 in³ = 3.785411784 L, pound 0.45359237 kg (all exact by
+    the 1959 international yard and pound agreement), kWh 3.6 MJ."""
+    import pint
+
+    ureg = pint.UnitRegistry()
+    assert M_PER_MILE == ureg.Quantity(1, "mile").to("m").magnitude
+    assert M3_PER_US_GALLON == pytest.approx(ureg.Quantity(1, "gallon").to("m^3").magnitude,
+                                             rel=1e-15)
+    assert KG_PER_LB == pytest.approx(ureg.Quantity(1, "lb").to("kg").magnitude, rel=1e-15)
+    assert J_PER_KWH == ureg.Quantity(1, "kWh").to("J").magnitude
 
 
 def test_mpg_from_litres_per_100km():

@@ -12,10 +12,13 @@ import pandas as pd
 
 from tco import __version__
 from tco.report import charts
+from tco.report import formatting as fm
+from tco.report.assumptions import build_appendix
+from tco.report.findings import rewrite_warnings
+from tco.report.formatting import money as fmt_money  # noqa: F401 - public for other writers
+from tco.report.formatting import number as _auto_number
+from tco.units import J_PER_KWH as KWH
 from tco.units import from_si
-
-KWH = 3.6e6
-MILE = 1609.344
 
 CAUTIONS = [
     "This report is a decision aid built on the inputs listed in the assumptions table. It "
@@ -121,35 +124,14 @@ def _resolve(obj):
     return put(obj)
 
 
-def fmt_number(x: float | None, digits: int = 0) -> str:
-    """A number with thousands separators, or an en dash when missing."""
-    if x is None or (isinstance(x, float) and not math.isfinite(x)):
-        return "–"
-    return f"{x:,.{digits}f}"
+def fmt_number(x: float | None, digits: int | None = 0) -> str:
+    """A number with thousands separators, or an en dash when missing (see
+    :func:`tco.report.formatting.number`; ``digits=None`` picks them by magnitude)."""
+    return _auto_number(x, digits)
 
 
-def fmt_money(x, cur: str, digits: int = 0) -> str:
-    """An amount with thousands separators and its ISO 4217 code, or an en dash."""
-    text = fmt_number(x, digits)
-    return text if text == "–" else f"{text} {cur}"
-
-
-class DisplayUnits:
-    """Display units for the scenario's unit system."""
-
-    def __init__(self, system: str):
-        self.us = system == "us"
-        self.dist = "mi" if self.us else "km"
-        self.per_dist = MILE if self.us else 1000.0   # metres per display distance unit
-        self.speed = "mph" if self.us else "km/h"
-        self.elev = "ft" if self.us else "m"
-        self.label = "US customary" if self.us else "metric"
-
-    def distance(self, m: float) -> float:
-        return m / self.per_dist
-
-    def per_distance(self, si_per_m: float) -> float:
-        return si_per_m * self.per_dist
+#: The study's display units (kept under its old name for the other report writers).
+DisplayUnits = fm.Units
 
 
 def _verdict(result, summary: dict) -> str:
@@ -250,7 +232,7 @@ def _key_figures(result, u: DisplayUnits, summary: dict) -> list[dict]:
     out = []
     for m in cf.trucks:
         out.append({"label": f"Cost per {u.dist}, {m.name}",
-                    "value": f"{m.levelized_cost * u.per_dist:,.3f} {cur}/{u.dist}",
+                    "value": fm.unit_price(m.levelized_cost * 1000, "km", cur, u.system, 3),
                     "note": f"levelized over {cf.analysis_years} years"})
     em = summary["emissions"]["comparison"]
     for c in cf.comparisons:
@@ -264,8 +246,9 @@ def _key_figures(result, u: DisplayUnits, summary: dict) -> list[dict]:
                                                if c.discounted_payback_year
                                                else "not within the period"))})
         out.append({"label": "IRR of the extra investment",
-                    "value": f"{c.irr:.1%}" if c.irr is not None and math.isfinite(c.irr)
-                    else "no IRR", "note": c.irr_note or ""})
+                    "value": fm.irr_text(c.irr), "note": c.irr_note or (
+                        "" if fm.number(c.irr) != fm.DASH
+                        else "the cash flows have no meaningful rate of return")})
         e = em.get(c.truck, {})
         avoided = (e.get("avoided_kg_total") or {}).get("location")
         out.append({"label": f"Emissions avoided by the {c.truck}",
@@ -284,16 +267,21 @@ def _key_figures(result, u: DisplayUnits, summary: dict) -> list[dict]:
         pr = result.uncertainty.probabilities
         for r in pr[pr["event"] == "cheaper"].itertuples():
             out.append({"label": f"Probability the {r.truck} is cheaper",
-                        "value": f"{r.probability:.0%}",
+                        "value": fm.percent(r.probability, 0),
                         "note": f"Monte Carlo, {result.uncertainty.draws:,} draws"})
     return out
 
 
-def _feasibility(result) -> list[dict]:
+def _feasibility(result, u: DisplayUnits | None = None) -> list[dict]:
+    from tco.report.findings import sentences
+
+    u = u or fm.Units(result.scenario.study.units)
     rows = []
     for name, tr in result.trucks.items():
         f = tr.feasibility
-        texts = [f["payload"]["text"], f["power"]["text"]]
+        said = sentences(tr, u)
+        texts = [said.get(f["payload"]["text"], f["payload"]["text"]),
+                 said.get(f["power"]["text"], f["power"]["text"])]
         if tr.powertrain == "electric":
             texts += [f["battery"]["new"]["text"], f["battery"]["end_of_life"]["text"],
                       f["depot_charger"]["text"]]
@@ -414,12 +402,33 @@ def _uncertainty_charts(result, cur: str) -> list[dict]:
     return out
 
 
-def _uncertainty_tables(result, cur: str) -> list[dict]:
+def _tornado_input_value(value, unit: str, key: str, cur: str, system: str) -> str:
+    """A tornado or break-even input value (in the input's documented display unit)."""
+    if not fm._finite(value):
+        return "none"
+    if unit == "×":
+        return f"{fm.number(value, 2)} × scenario"
+    if unit == "currency":
+        return fm.money(value, cur)
+    if unit.startswith("1/"):
+        per = "kW·month" if key.endswith("demand_charge") else unit[2:]
+        return fm.unit_price(value, per, cur, system)
+    if unit in ("", "-") and fm.is_percent_field(key, unit):
+        return fm.percent(value, 2)
+    if key.endswith("days_per_year"):
+        return f"{fm.number(value, 0)} days"
+    return f"{fm.number(value)} {unit}".strip()
+
+
+def _uncertainty_tables(result, cur: str, system: str = "metric") -> list[dict]:
     unc = result.uncertainty
     tables = []
     t = unc.tornado
+    key = "key" if "key" in t.columns else "input"
     if not t.empty:
-        rows = [[r.input, f"{r.low_value:.4g} – {r.high_value:.4g} {r.unit}".strip(),
+        rows = [[r.input, _tornado_input_value(r.low_value, r.unit, getattr(r, key), cur, system)
+                 + " – " + _tornado_input_value(r.high_value, r.unit, getattr(r, key), cur,
+                                                system),
                  fmt_number(r.low), fmt_number(r.high), fmt_number(r.swing)]
                 for r in t.itertuples()]
         tables.append({"title": "Sensitivity, one input at a time",
@@ -427,16 +436,12 @@ def _uncertainty_tables(result, cur: str) -> list[dict]:
                                    f"ΔPV high [{cur}]", f"Swing [{cur}]"],
                        "rows": rows, "note": "ΔPV: present value of the compared truck minus "
                        f"the {unc.baseline}; negative means the compared truck is cheaper."})
-    b = unc.break_even
-    if not b.empty:
-        rows = [[r.input, (f"{r.value:.4g} {r.unit}" if math.isfinite(r.value) else "none"),
-                 f"{r.base_value:.4g} {r.unit}", r.note or ""] for r in b.itertuples()]
-        tables.append({"title": "Break-even by input", "columns": [
-            "Input", "Break-even", "Scenario value", "Note"], "rows": rows,
-            "note": "Value at which the trucks cost the same, all other inputs unchanged."})
     st = unc.statistics
     labels = {"present_value_difference": (f"ΔPV [{cur}]", 1.0, 0),
-              "levelized_cost_difference": (f"Δ cost per km [{cur}/km]", 1000.0, 3),
+              "levelized_cost_difference": (
+                  f"Δ cost per {'mi' if system == 'us' else 'km'} "
+                  f"[{cur}/{'mi' if system == 'us' else 'km'}]",
+                  fm.Units(system).per_dist, 3),
               "simple_payback_year": ("Payback year", 1.0, 1),
               "avoided_kg_location": ("Emissions avoided [t CO2e]", 1e-3, 0)}
     rows = []
@@ -445,14 +450,66 @@ def _uncertainty_tables(result, cur: str) -> list[dict]:
             name, k, d = labels[r.quantity]
             rows.append([f"{r.truck}: {name}"] + [fmt_number(v * k if math.isfinite(v) else v, d)
                                                   for v in (r.p10, r.p50, r.p90)])
-    for r in unc.probabilities.itertuples():
-        rows.append([f"{r.truck}: P({r.event.replace('_', ' ')})",
-                     f"{r.probability:.1%}", f"± {r.standard_error:.1%}", ""])
     tables.append({"title": "Monte Carlo statistics", "columns": ["Quantity", "P10", "P50",
                                                                   "P90"], "rows": rows,
-                   "note": f"{unc.draws:,} draws, seed {unc.seed}; probabilities with their "
-                           "standard error. " + " ".join(unc.notes[:3])})
+                   "note": f"{unc.draws:,} draws, seed {unc.seed}. P10, P50, P90: the values "
+                           "that 10 %, 50 % and 90 % of the draws fall below."})
+    events = {"cheaper": "is cheaper than the " + unc.baseline}
+    prows = [[f"The {r.truck} " + events.get(r.event, r.event.replace("_", " ")),
+              fm.percent(r.probability, 1), "± " + fm.percent(r.standard_error, 1)]
+             for r in unc.probabilities.itertuples()]
+    if prows:
+        tables.append({"title": "Monte Carlo probabilities",
+                       "columns": ["Event", "Probability", "Standard error"], "rows": prows,
+                       "note": " ".join(unc.notes[:3])})
     return tables
+
+
+def _break_even_table(result, summary: dict, cur: str, system: str) -> dict:
+    """One break-even table: the uncertainty study's inputs when it ran, else the four
+    inputs of the cash-flow comparison."""
+    unc = result.uncertainty
+    rows: list[list[str]] = []
+    notes: list[str] = []
+    if unc is not None and not unc.break_even.empty:
+        b = unc.break_even
+        key = "key" if "key" in b.columns else "input"
+        for r in b.itertuples():
+            k = getattr(r, key)
+            factor = getattr(r, "factor", None)
+            change = (f"{(factor - 1) * 100:+,.1f} %" if fm._finite(factor) else fm.DASH)
+            label = (f"{r.truck}: " if len(unc.trucks) > 1 else "") + r.input
+            if r.note:
+                notes.append(f"{label}: {r.note}")
+            rows.append([label, _tornado_input_value(r.value, r.unit, k, cur, system),
+                         _tornado_input_value(r.base_value, r.unit, k, cur, system), change])
+    else:
+        u = fm.Units(system)
+        for c in summary["cashflow"]["comparisons"]:
+            be = c["break_even"]
+            specs = (("diesel_price_per_litre", "Diesel price",
+                      lambda v: fm.unit_price(v, "L", cur, system)),
+                     ("electricity_price_per_kwh", "Depot electricity price",
+                      lambda v: fm.unit_price(v, "kWh", cur, system)),
+                     ("purchase_price", f"Purchase price of the {c['truck']}",
+                      lambda v: fm.money(v, cur)),
+                     ("annual_distance_km", "Annual distance",
+                      lambda v: u.quantity(v * 1000.0, "km", 0)))
+            for k, label, show in specs:
+                b = be.get(k)
+                if b is None:
+                    continue
+                if b["note"]:
+                    notes.append(f"{label}: {b['note']}")
+                rows.append([label, show(b["value"]) if b["value"] is not None else "none"])
+        return {"title": "Break-even values", "columns": ["Input", "Break-even"],
+                "rows": rows, "note": "The value at which the trucks cost the same in "
+                "present value, all other inputs unchanged. " + " ".join(notes)}
+    return {"title": "Break-even values", "columns": ["Input", "Break-even", "Scenario value",
+                                                      "Change"], "rows": rows,
+            "note": "The value at which the trucks cost the same in present value, all "
+                    "other inputs unchanged; change: from the scenario's value. "
+                    + " ".join(f"{n}." if not n.endswith(".") else n for n in notes)}
 
 
 def _energy_frame(result, u: DisplayUnits) -> pd.DataFrame:
@@ -538,42 +595,60 @@ def _tables(result, u: DisplayUnits, summary: dict) -> list[dict]:
     # yearly net cost
     totals = cf.yearly_totals()[[m.name for m in cf.trucks]]
     cols = ["Year"] + [f"{n} [{cur}]" for n in totals.columns]
-    rows = [[str(y)] + [fmt_number(v) for v in totals.loc[y]] for y in totals.index]
-    rows.append(["Present value"] + [fmt_number(m.present_value) for m in cf.trucks])
+    pairs = [(c.truck, c.baseline) for c in cf.comparisons]
+    cols += [f"{a} − {b} [{cur}]" for a, b in pairs]
+    rows = [[str(y)] + [fmt_number(v) for v in totals.loc[y]]
+            + [fmt_number(totals.loc[y, a] - totals.loc[y, b]) for a, b in pairs]
+            for y in totals.index]
+    pv = {m.name: m.present_value for m in cf.trucks}
+    rows.append(["Present value"] + [fmt_number(m.present_value) for m in cf.trucks]
+                + [fmt_number(pv[a] - pv[b]) for a, b in pairs])
     view = summary["cashflow"].get("valuation", "as_financed")
     tables.append({"title": "Net cost by year", "columns": cols, "rows": rows,
+                   "total": True,
                    "note": f"{cf.money_basis.capitalize()} money; year 0 is the purchase; "
-                           f"discount rate {cf.discount_rate:.1%}; "
+                           f"discount rate {fm.percent(cf.discount_rate)}; "
                            + ("every truck paid in cash (unlevered; financing below)."
                               if view == "unlevered" else "loans and leases included "
                               "(as financed).")})
     fin_table = _financing_table(summary["cashflow"], cur)
     if fin_table is not None:
         tables.append(fin_table)
-    # present value by line
+    # present value by line: human labels, a total and the difference to the baseline
+    from tco.cashflow import LINES
+
+    described = {spec.name: spec.description for spec in LINES}
     lines = []
     for m in cf.trucks:
         for k in m.present_value_by_line:
             if k not in lines:
                 lines.append(k)
-    rows = [[k.replace("_", " ")] + [fmt_number(m.present_value_by_line.get(k, 0.0))
-                                     for m in cf.trucks] for k in lines]
-    tables.append({"title": "Present value by cost line", "columns": ["Line"] + [
-        f"{m.name} [{cur}]" for m in cf.trucks], "rows": rows,
-        "note": "Negative: money in (grant, loan received, residual value)."})
-    # break-evens
+    base = next((m for m in cf.trucks if cf.comparisons
+                 and m.name == cf.comparisons[0].baseline), None)
+    others = [m for m in cf.trucks if m is not base]
+    cols = ["Cost line"] + [f"{m.name} [{cur}]" for m in cf.trucks]
+    if base is not None:
+        cols += [f"{m.name} − {base.name} [{cur}]" for m in others]
     rows = []
-    for c in summary["cashflow"]["comparisons"]:
-        for key, label in (("diesel_price_per_litre", f"Diesel price [{cur}/L]"),
-                           ("electricity_price_per_kwh", f"Depot electricity price [{cur}/kWh]"),
-                           ("purchase_price", f"Purchase price of the {c['truck']} [{cur}]"),
-                           ("annual_distance_km", "Annual distance [km]")):
-            b = c["break_even"][key]
-            rows.append([label, fmt_number(b["value"], 3 if "price_per" in key else 0),
-                         b["note"] or ""])
-    tables.append({"title": "Break-even values", "columns": ["Input", "Value", "Note"],
-                   "rows": rows, "note": "The value at which the trucks cost the same in "
-                   "present value, all else unchanged."})
+    for k in lines:
+        vals = [m.present_value_by_line.get(k, 0.0) for m in cf.trucks]
+        if all(abs(v) < 0.5 for v in vals):
+            continue  # a line that is zero for every truck says nothing
+        row = [described.get(k, k.replace("_", " ").capitalize())] + [fmt_number(v)
+                                                                      for v in vals]
+        if base is not None:
+            bv = base.present_value_by_line.get(k, 0.0)
+            row += [fmt_number(m.present_value_by_line.get(k, 0.0) - bv) for m in others]
+        rows.append(row)
+    total = ["Total (present value)"] + [fmt_number(m.present_value) for m in cf.trucks]
+    if base is not None:
+        total += [fmt_number(m.present_value - base.present_value) for m in others]
+    rows.append(total)
+    tables.append({"title": "Present value by cost line", "columns": cols, "rows": rows,
+                   "total": True,
+                   "note": "Negative: money in (grant, loan received, residual value). Lines "
+                           "that are zero for every truck are left out."})
+    tables.append(_break_even_table(result, summary, cur, u.system))
     # emissions
     e = summary["emissions"]["trucks"]
     keys = [("scope_1", "Scope 1"), ("scope_2_location", "Scope 2, location-based"),
@@ -590,7 +665,9 @@ def _tables(result, u: DisplayUnits, summary: dict) -> list[dict]:
                    "columns": ["Frame"] + names, "rows": rows,
                    "note": "GHG Protocol scopes and ISO 14083 tank-to-wheel / well-to-wheel."})
     if result.uncertainty is not None:
-        tables += _uncertainty_tables(result, cur)
+        tables += _uncertainty_tables(result, cur, u.system)
+    for t in tables:
+        t.setdefault("total", False)
     return tables
 
 
@@ -603,7 +680,7 @@ def _financing_table(cashflow: dict, cur: str) -> dict | None:
     rows = []
     for name, t in trucks.items():
         rows.append([f"{name}: {t['method']} against paying cash, PV at the after-tax cost "
-                     f"of debt {t['after_tax_cost_of_debt']:.2%} [{cur}]",
+                     f"of debt {fm.percent(t['after_tax_cost_of_debt'], 2)} [{cur}]",
                      fmt_number(t["present_value_at_cost_of_debt"])])
         rows.append([f"{name}: present value as financed (equity view) [{cur}]",
                      fmt_number(t["present_value_as_financed"])])
@@ -612,28 +689,12 @@ def _financing_table(cashflow: dict, cur: str) -> dict | None:
         rows.append([f"{c['truck']} − {c['baseline']}: present value difference as financed "
                      f"[{cur}]", fmt_number(c.get("present_value_difference_as_financed"))])
         rows.append([f"{c['truck']} − {c['baseline']}: IRR as financed (return on equity)",
-                     f"{irr:.1%}" if irr is not None else (c.get("irr_note_as_financed")
-                                                           or "no IRR")])
+                     fm.irr_text(irr, c.get("irr_note_as_financed")
+                                 or "the flows have no meaningful rate of return")])
     return {"title": "Financing, shown apart", "columns": ["Figure", "Value"], "rows": rows,
             "note": "Positive: the loan or lease costs more than paying cash. The financing's "
                     "flows are the net cost as financed minus the net cost paid in cash, "
                     "tax effects included."}
-
-
-def _assumptions(summary: dict) -> list[dict]:
-    out = []
-    for r in summary["assumptions"]:
-        v = r["value"]
-        if isinstance(v, float):
-            v = f"{v:.6g}"
-        elif isinstance(v, list):
-            v = ", ".join(str(x) for x in v) if len(v) < 30 else f"{len(v)} values"
-        elif v is None:
-            v = "–"
-        src = r["source"]
-        out.append({"field": r["field"], "value": str(v), "unit": r["unit"] or "",
-                    "source": "user" if src == "user" else f"default: {src}"})
-    return out
 
 
 METHOD_NOTES = [
@@ -678,7 +739,7 @@ METHOD_NOTES = [
 def build_context(result, summary: dict) -> dict:
     """The report context of a Result (see :mod:`tco.report.html` for the structure)."""
     s = result.scenario
-    u = DisplayUnits(s.study.units)
+    u = fm.Units(s.study.units)
     notes = [{"title": t, "text": x, "equation": eq, "equation_uri": _later(charts.equation, tex)}
              for t, x, eq, tex in METHOD_NOTES]
     cautions = list(CAUTIONS) + [c for c in summary["emissions"].get("cautions", [])[1:]]
@@ -690,10 +751,10 @@ def build_context(result, summary: dict) -> dict:
         "verdict": _verdict(result, summary),
         "key_figures": _key_figures(result, u, summary),
         "charts": _charts(result, u),
-        "feasibility": _feasibility(result),
-        "warnings": list(result.warnings),
+        "feasibility": _feasibility(result, u),
+        "warnings": rewrite_warnings(list(result.warnings), result, u),
         "tables": _tables(result, u, summary),
-        "assumptions": _assumptions(summary),
+        "assumptions": build_appendix(result.assumptions, s, u.system),
         "method_notes": notes,
         "cautions": cautions,
     })

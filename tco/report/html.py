@@ -39,14 +39,18 @@ lists may be empty, and an empty chart group or list leaves its heading out.
 ``warnings`` : list of str
     Plain-word warnings (model range exceeded, defaults relied on, ...).
 ``tables`` : list of dict
-    ``{"title", "columns": [str], "rows": [[str]], "note"}``: detailed tables
+    ``{"title", "columns": [str], "rows": [[str]], "note"}`` and optionally ``"total"``
+    (the last row is a total, set in bold): detailed tables
     (cash flow per year, per-truck summary ...). The first column is text (left-aligned),
     the others figures (right-aligned); ``note`` may be ``""``. Columns share the page
     width equally, so a table reads well up to about 9 columns on a portrait page: put
     years in rows, not columns.
-``assumptions`` : list of dict
-    ``{"field", "value", "unit", "source"}``: every input, with ``source`` either
-    ``"user"`` or ``"default: <citation>"``.
+``assumptions`` : dict
+    The appendix from :func:`tco.report.assumptions.build_appendix`: ``sections``
+    (``{"title", "columns", "rows", "tables"}``, rows of preformatted strings, tables
+    ``{"title", "note", "columns", "rows"}``), ``sources`` (``{"number", "text"}``: the
+    numbered sources of the defaults) and ``counts`` (``shown``, ``user``, ``default``,
+    ``left_out``).
 ``method_notes`` : list of dict
     ``{"title", "text", "equation", "equation_uri"}``: ``equation`` is the plain-text
     (Unicode) form, may be ``""``; ``equation_uri`` is the typeset form from
@@ -74,6 +78,8 @@ __all__ = ["environment", "render_html", "check_context", "PAGE_SIZES", "TEMPLAT
 
 TEMPLATE = "report.html.j2"
 STYLESHEET = "report.css"
+#: Browser-only rules (responsive layout, navigation bar), added for screen pages only.
+SCREEN_STYLESHEET = "report-screen.css"
 
 #: Page size name → CSS ``@page size`` keyword.
 PAGE_SIZES = {"A4": "A4", "Letter": "letter"}
@@ -163,6 +169,8 @@ def render_html(context: dict, *, for_print: bool,
     env = environment()
     # The stylesheet is our own package file, not user input: inlined as trusted markup.
     css = (templates_dir() / STYLESHEET).read_text(encoding="utf-8")
+    if not for_print:
+        css += "\n" + (templates_dir() / SCREEN_STYLESHEET).read_text(encoding="utf-8")
     return env.get_template(TEMPLATE).render(
         **context,
         css=Markup(css),

@@ -1,0 +1,367 @@
+"""Numbers and units for people: the one place where a figure becomes text.
+
+Every human-facing output (PDF, HTML, console, the batch and fleet reports, the
+workbook's display formats) formats its figures here, so a figure reads the same
+wherever it is shown:
+
+- money carries the scenario's ISO 4217 code and thousands separators (``19,955 EUR``);
+- unit prices read as currency per unit (``1.480 EUR/L``, ``0.058 EUR/kWh``,
+  ``11.50 EUR/kW·month``);
+- rates and shares read as percentages (``4.5 %``);
+- decimals follow the magnitude (about three significant figures, never fewer than the
+  whole part) and no scientific notation is ever written;
+- lengths, speeds, masses, volumes and temperatures are shown in the study's unit system
+  (``study.units``: ``"metric"`` or ``"us"``), converted with the exact factors of
+  :mod:`tco.units`.
+
+Models keep SI and return numbers; the sentences a reader sees are written by the report
+layer with these functions.
+"""
+from __future__ import annotations
+
+import math
+import re
+
+from tco.units import from_si
+
+__all__ = [
+    "DASH", "number", "money", "signed_money", "percent", "unit_price", "per_unit_label",
+    "quantity", "Units", "input_value", "label_from_description", "field_label", "hours_text",
+    "irr_text", "EXCEL_FORMATS",
+]
+
+#: Shown for a missing or non-finite figure.
+DASH = "–"
+
+
+def _finite(x) -> bool:
+    try:
+        return x is not None and not isinstance(x, bool) and math.isfinite(float(x))
+    except (TypeError, ValueError):
+        return False
+
+
+def auto_digits(x: float, significant: int = 3, most: int = 6) -> int:
+    """Decimals that show ``x`` to about ``significant`` figures (0 for |x| ≥ 10^(s-1))."""
+    ax = abs(float(x))
+    if ax == 0 or not math.isfinite(ax):
+        return 0
+    return int(min(most, max(0, significant - 1 - math.floor(math.log10(ax)))))
+
+
+def number(x, digits: int | None = None, trim: bool = False) -> str:
+    """A number with thousands separators, decimals by magnitude, never in e-notation.
+
+    Parameters
+    ----------
+    x : float or None
+    digits : int, optional
+        Fixed number of decimals; by default about three significant figures.
+    trim : bool
+        With automatic decimals, write a whole number without decimals (``8`` not
+        ``8.00``); for single values, not for columns that should align.
+
+    Examples
+    --------
+    >>> number(212345.6), number(1.4567), number(0.0452036), number(None)
+    ('212,346', '1.46', '0.0452', '–')
+    """
+    if not _finite(x):
+        return DASH
+    x = float(x)
+    d = auto_digits(x) if digits is None else digits
+    if trim and digits is None and x == round(x):
+        d = 0
+    text = f"{x:,.{d}f}"
+    return "0" if text in ("-0", "-0." + "0" * d) else text
+
+
+def money(x, currency: str, digits: int = 0) -> str:
+    """An amount with thousands separators and its ISO 4217 code: ``19,955 EUR``."""
+    text = number(x, digits)
+    return text if text == DASH else f"{text} {currency}"
+
+
+def signed_money(x, currency: str, digits: int = 0) -> str:
+    """An amount with an explicit sign (``+1,200 EUR``, ``-300 EUR``)."""
+    if not _finite(x):
+        return DASH
+    text = money(x, currency, digits)
+    return text if float(x) < 0 or text.startswith("0 ") else "+" + text
+
+
+def percent(share, digits: int = 1) -> str:
+    """A share (0.045) as a percentage (``4.5 %``)."""
+    if not _finite(share):
+        return DASH
+    if float(share) == 0:
+        return "0 %"
+    return f"{number(100.0 * float(share), digits)} %"
+
+
+# --------------------------------------------------------------------------- units
+#: Display unit in each system for the units the scenario documents its fields in
+#: (pint spelling → (pint unit, label)). Units not listed are shown as written.
+_DISPLAY = {
+    "metric": {
+        "km": ("km", "km"), "m": ("m", "m"), "km/h": ("km/h", "km/h"), "t": ("t", "t"),
+        "kg": ("kg", "kg"), "L": ("L", "L"), "L/h": ("L/h", "L/h"), "degC": ("degC", "°C"),
+        "m^2": ("m^2", "m²"), "m/s^2": ("m/s^2", "m/s²"), "kg/L": ("kg/L", "kg/L"),
+        "g/kWh": ("g/kWh", "g/kWh"), "kWh": ("kWh", "kWh"), "kW": ("kW", "kW"),
+        "kW/K": ("kW/K", "kW/K"), "MJ/kg": ("MJ/kg", "MJ/kg"), "s": ("s", "s"),
+        "min": ("min", "min"), "h": ("h", "h"), "s/m": ("s/m", "s/m"),
+        "kg/kWh": ("kg/kWh", "kg/kWh"), "yr": ("yr", "years"),
+    },
+    "us": {
+        "km": ("mi", "mi"), "m": ("ft", "ft"), "km/h": ("mph", "mph"), "t": ("lb", "lb"),
+        "kg": ("lb", "lb"), "L": ("gal", "US gal"), "L/h": ("gal/h", "US gal/h"),
+        "degC": ("degF", "°F"), "m^2": ("ft^2", "ft²"), "m/s^2": ("ft/s^2", "ft/s²"),
+        "kg/L": ("lb/gal", "lb/US gal"), "s/m": ("s/mi", "s/mi"),
+    },
+}
+#: Money per unit: the unit a price is shown per in each system.
+_PER = {
+    "metric": {"km": "km", "L": "L", "kWh": "kWh", "kW": "kW", "h": "h", "t": "t"},
+    "us": {"km": "mi", "L": "gal", "kWh": "kWh", "kW": "kW", "h": "h", "t": "ton"},
+}
+_PER_LABEL = {"gal": "US gal", "ton": "short ton"}
+
+
+class Units:
+    """The study's unit system: ``Units("metric")`` or ``Units("us")``."""
+
+    def __init__(self, system: str = "metric"):
+        self.system = "us" if system == "us" else "metric"
+        self.us = self.system == "us"
+        self.label = "US customary" if self.us else "metric"
+        self.dist = "mi" if self.us else "km"
+        self.speed = "mph" if self.us else "km/h"
+        self.elev = "ft" if self.us else "m"
+        self.mass = "lb" if self.us else "t"
+        self.volume = "US gal" if self.us else "L"
+        # metres per display distance unit (exact: tco.units)
+        self.per_dist = float(from_si(1.0, "1/mi" if self.us else "1/km"))
+
+    def distance(self, m: float) -> float:
+        """Metres in the display distance unit."""
+        return m / self.per_dist
+
+    def per_distance(self, si_per_m: float) -> float:
+        """A quantity per metre, per display distance unit."""
+        return si_per_m * self.per_dist
+
+    def convert(self, value_si: float, unit: str) -> tuple[float, str]:
+        """An SI value in the display unit for a field documented in ``unit``."""
+        unit_, label = _DISPLAY[self.system].get(unit) or _DISPLAY["metric"].get(
+            unit, (unit, unit))
+        try:
+            return float(from_si(value_si, unit_)), label
+        except Exception:  # noqa: BLE001 - a label-only unit ("%", "1/yr")
+            return float(value_si), label
+
+    def quantity(self, value_si, unit: str, digits: int | None = None) -> str:
+        """An SI value as display text: ``quantity(22000, "t")`` → ``'22.0 t'``."""
+        if not _finite(value_si):
+            return DASH
+        v, label = self.convert(value_si, unit)
+        return f"{number(v, digits, trim=digits is None)} {label}".strip()
+
+
+def quantity(value_si, unit: str, system: str = "metric", digits: int | None = None) -> str:
+    """An SI value shown in ``system`` (see :class:`Units`)."""
+    return Units(system).quantity(value_si, unit, digits)
+
+
+def per_unit_label(per: str, currency: str, system: str = "metric") -> str:
+    """``EUR/L`` (metric) or ``USD/US gal`` (US) for a price per ``per``."""
+    if per in ("kW·month", "kW/month"):
+        return f"{currency}/kW·month"
+    shown = _PER.get(system, _PER["metric"]).get(per, per)
+    return f"{currency}/{_PER_LABEL.get(shown, shown)}"
+
+
+def unit_price(price_per_unit: float, per: str, currency: str, system: str = "metric",
+               digits: int | None = None) -> str:
+    """A price given per metric ``per`` (km, L, kWh, t), shown in ``system``.
+
+    ``price_per_unit`` is currency per metric unit (per km, per L); in US units it is
+    converted to per mile, per US gallon.
+    """
+    if not _finite(price_per_unit):
+        return DASH
+    shown = _PER.get(system, _PER["metric"]).get(per, per)
+    value = float(price_per_unit)
+    if shown != per and per not in ("kW·month",):
+        # currency per metric unit → per shown unit: times (shown unit ÷ metric unit)
+        value = value * float(from_si(1.0, per)) / float(from_si(1.0, shown))
+    if digits is None:
+        digits = max(2, auto_digits(value)) if abs(value) < 100 else 0
+    return f"{number(value, digits)} {per_unit_label(per, currency, system)}"
+
+
+# --------------------------------------------------------------------------- inputs
+_PERCENT_NAMES = re.compile(
+    r"(rate|share|efficiency|escalation|escalation\.[a-z_]+|reserve|start_soc|state_of_health|"
+    r"inflation|def_ratio|default_swing|percent_grade|grade|change|renewable_share|"
+    r"td_loss|urea_share)$")
+_NOT_PERCENT = re.compile(r"(idle_fuel_rate|payments_per_year|declining_balance_percent)$")
+
+
+def is_percent_field(key: str, unit: str) -> bool:
+    """Whether an input is a rate or share shown as a percentage."""
+    leaf = key.rsplit(".", 1)[-1]
+    if _NOT_PERCENT.search(key):
+        return False
+    if unit in ("percent", "%"):
+        return True
+    return unit in ("", "-") and bool(_PERCENT_NAMES.search(key) or _PERCENT_NAMES.search(
+        leaf))
+
+
+def _money_per(unit: str) -> str | None:
+    """For a price unit (``"1/km"``, ``"currency/yr"``) the unit it is per."""
+    if unit.startswith("currency/"):
+        return unit.split("/", 1)[1]
+    if unit.startswith("1/") and unit not in ("1/yr",):
+        return unit[2:]
+    return None
+
+
+def input_value(value, unit: str, key: str, currency: str, system: str = "metric") -> str:
+    """An input as written by :func:`tco.scenario.base.field_sources` (SI), for reading.
+
+    Parameters
+    ----------
+    value : float, int, str, bool, list or None
+        The validated (SI) value.
+    unit : str
+        The field's documented unit (``"km"``, ``"1/L"``, ``"currency"``, ``""``).
+    key : str
+        The field's path (``"finance.discount_rate"``), used to tell rates from counts.
+    """
+    if value is None:
+        return DASH
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, str):
+        # choice words read as words ("declining_balance"); names and codes stay as written
+        return value.replace("_", " ") if re.fullmatch(r"[a-z]+(_[a-z]+)+", value) else value
+    if isinstance(value, int):  # counts, years and hours are not converted (mfield)
+        if key.endswith("_hour"):
+            return f"{value:02d}:00"
+        if key.endswith(("year", "seed")):
+            return str(value)
+        label = {"yr": "years", "h": "h", "%": "%"}.get(unit, "")
+        return f"{number(value, 0)} {label}".strip()
+    if isinstance(value, (list, tuple)):
+        if key.endswith("hours") and all(isinstance(v, int) for v in value):
+            return hours_text(value)
+        if not value:
+            return "none"
+        if len(value) > 12:
+            return f"{len(value)} values"
+        return ", ".join(input_value(v, unit, key, currency, system) for v in value)
+    if not _finite(value):
+        return DASH
+    if unit == "currency":
+        return money(value, currency, 0 if abs(value) >= 100 or value == round(value) else 2)
+    per = _money_per(unit)
+    if per is not None:
+        if per == "month" or per == "yr":
+            whole = abs(value) >= 100 or value == round(value)
+            return f"{money(value, currency, 0 if whole else 2)}/" \
+                   f"{'month' if per == 'month' else 'year'}"
+        price_metric = float(from_si(value, "1/" + per))
+        if key.endswith("demand_charge"):
+            return unit_price(price_metric, "kW·month", currency, system)
+        return unit_price(price_metric, per, currency, system)
+    if is_percent_field(key, unit):
+        share = float(value)
+        return percent(share, 2 if abs(share) < 0.01 else 1)
+    if unit in ("", "-"):
+        return number(value, trim=True)
+    if unit == "%":
+        return f"{number(value)} %"
+    return Units(system).quantity(value, unit)
+
+
+_BRACKET = re.compile(r"\s*\[[^\]]*\]\s*$")
+_FRACTION = re.compile(r"\s*\((fraction|share)[^)]*\)")
+#: Labels for choice fields, whose descriptions list the choices rather than name them.
+CHOICE_LABELS = {
+    "powertrain": "Powertrain", "method": "Method", "fuel_model": "Fuel model",
+    "residual.method": "Residual value method", "financing.method": "Financing",
+    "battery_replacement.when": "Battery replacement", "money_basis": "Money basis",
+    "diesel_factors": "Diesel emission factor set", "gwp": "Global warming potential set",
+    "hourly_profile_kind": "Hourly profile kind", "beyond_period":
+    "Loan or lease running past the period", "units": "Unit system",
+    "depreciation": "Tax depreciation method", "lease_end": "At the end of the lease",
+}
+_CURRENCY_PAREN = re.compile(r"\s*\((currency per [^)]*)\)")
+
+
+def field_label(key: str, description: str) -> str:
+    """The reader's label of an input: a choice field's name, else its description."""
+    parts = key.split(".")
+    for n in (2, 1):
+        k = ".".join(parts[-n:])
+        k = re.sub(r"\[\d+\]", "", k)
+        if k in CHOICE_LABELS:
+            return CHOICE_LABELS[k]
+    return label_from_description(description)
+
+
+def label_from_description(description: str) -> str:
+    """A field's description without its unit bracket, as a table label.
+
+    ``"Maintenance and repair per distance (currency per km) [1/km]"`` →
+    ``"Maintenance and repair per distance"``. Only the first clause of a long
+    description is kept (up to a semicolon).
+    """
+    text = _BRACKET.sub("", description or "").strip()
+    text = _CURRENCY_PAREN.sub("", text)
+    text = _FRACTION.sub("", text)
+    text = text.split("; ")[0].strip()
+    if text.count("(") > text.count(")"):  # a parenthesis cut by the semicolon
+        text = text[:text.rindex("(")].strip()
+    return text[:1].upper() + text[1:] if text else text
+
+
+def hours_text(hours) -> str:
+    """Hours of the day as clock ranges: ``[22, 23, 0, 1]`` → ``'22:00–02:00'``."""
+    hs = sorted(set(int(h) % 24 for h in hours))
+    if not hs:
+        return "none"
+    if len(hs) == 24:
+        return "all day"
+    runs, start = [], hs[0]
+    prev = start
+    for h in hs[1:] + [None]:
+        if h is not None and h == prev + 1:
+            prev = h
+            continue
+        runs.append((start, prev + 1))
+        if h is not None:
+            start = prev = h
+    if len(runs) > 1 and runs[0][0] == 0 and runs[-1][1] == 24:  # wraps past midnight
+        runs = [(runs[-1][0], runs[0][1])] + runs[1:-1]
+    return ", ".join(f"{a:02d}:00–{b % 24:02d}:00" for a, b in runs)
+
+
+def irr_text(irr, reason: str | None = None) -> str:
+    """An internal rate of return as a percentage, or ``n/a`` with the reason."""
+    if _finite(irr):
+        return percent(irr, 1)
+    return f"n/a ({reason})" if reason else "n/a"
+
+
+#: Number formats shared with the workbook (spreadsheet syntax), by kind.
+EXCEL_FORMATS = {
+    "money": '#,##0 "{cur}";-#,##0 "{cur}"',
+    "money_cents": '#,##0.00 "{cur}"',
+    "unit_price": '0.000 "{cur}/{per}"',
+    "percent": "0.0 %",
+    "number": "#,##0",
+    "number_1": "#,##0.0",
+    "number_3": "#,##0.000",
+}
