@@ -241,7 +241,9 @@ def _empty(columns: dict) -> pd.DataFrame:
 def _frame(records: list, columns: dict) -> pd.DataFrame:
     if not records:
         return _empty(columns)
-    return pd.DataFrame.from_records(records, columns=list(columns)).astype(columns)
+    # column by column: each built once with its dtype (no object frame to convert)
+    return pd.DataFrame({k: pd.Series(list(v), dtype=columns[k])
+                         for k, v in zip(columns, zip(*records))})
 
 
 # ============================================================================ reading
@@ -485,12 +487,11 @@ def _stint(t, v, zg, is_grade, payload, dt, window, base_altitude):
         z = dutycycle.smooth_elevation(s, zg, window)
     else:
         z = zg
-    tr = dutycycle.resample(t, s, z, dt, speed=v)
+    tr = dutycycle.resample_arrays(t, s, z, dt, speed=v)
     # source time of each output sample (the time axis may be stretched by time_scale)
-    src = tr["time"].to_numpy() / tr.attrs["time_scale"]
+    src = tr.time / tr.time_scale
     k = np.clip(np.searchsorted(t - t[0], src * (1 + 1e-12), side="right") - 1, 0, t.size - 1)
-    return (tr["speed"].to_numpy(), tr["grade"].to_numpy(), tr["elevation"].to_numpy(),
-            payload[k])
+    return tr.speed, tr.grade, tr.elevation, payload[k]
 
 
 def _vehicle_day(t, v, zg, is_grade, payload, dt, window, gap_limit, base_altitude):
@@ -626,6 +627,15 @@ def process_table(table, scenario, source: str = "table", file=None,
     return _process_columns(columns, scenario, source, file, gap_limit)
 
 
+def _in_order(codes, day, t) -> bool:
+    """Whether rows are already sorted by vehicle code, day and time (ties kept in order,
+    as the stable sort would keep them)."""
+    if codes.size < 2:
+        return True
+    dc, dd, dtm = np.diff(codes), np.diff(day), np.diff(t)
+    return bool(np.all((dc > 0) | ((dc == 0) & ((dd > 0) | ((dd == 0) & (dtm >= 0))))))
+
+
 def _process_columns(columns, scenario, source, file, gap_limit) -> PartitionResult:
     """:func:`process_table` on the validated columns of :func:`_read_columns` (which
     the caller may hold without the table, to keep memory down)."""
@@ -643,10 +653,12 @@ def _process_columns(columns, scenario, source, file, gap_limit) -> PartitionRes
     trucks = _trucks(scenario)
 
     # Vehicle, day, time; the row number last, so a repeated timestamp keeps its first row.
-    order = np.lexsort((np.arange(n), t, day, codes))
-    codes, day = codes[order], day[order]
-    t, speed, zg, payload = t[order], speed[order], zg[order], payload[order]
-    del order
+    # Files written in that order (the usual case) skip the sort: it would not move a row.
+    if not _in_order(codes, day, t):
+        order = np.lexsort((np.arange(n), t, day, codes))
+        codes, day = codes[order], day[order]
+        t, speed, zg, payload = t[order], speed[order], zg[order], payload[order]
+        del order
     new = np.flatnonzero((np.diff(codes) != 0) | (np.diff(day) != 0)) + 1
     bounds = np.concatenate(([0], new, [n]))
     rows, skipped = [], []

@@ -766,3 +766,19 @@ def test_concatenate_legs_keeps_the_parked_marks():
     both = dc.concatenate_legs([a, b])
     assert both["parked"].tolist() == [False] * (len(a) - 3) + [True] * 3 + [False] * len(b)
     assert "parked" not in dc.concatenate_legs([b, b]).columns
+
+
+@pytest.mark.parametrize("sigma", [0.3, 2.0, 12.5, 31.7])
+def test_gaussian_kernel_convolution_equals_scipy_gaussian_filter1d(sigma):
+    """The smoothing's kernel applied with numpy.convolve equals
+    scipy.ndimage.gaussian_filter1d (truncate=4, mode 'nearest') away from the ends of a
+    random walk, to 1e-12 m (rounding of the sums)."""
+    from scipy.ndimage import gaussian_filter1d
+
+    from tco.dutycycle import _gaussian_kernel
+
+    x = np.cumsum(np.random.default_rng(1).standard_normal(3000)) + 300.0
+    k = _gaussian_kernel(sigma)
+    r = k.size // 2
+    ref = gaussian_filter1d(x, sigma, mode="nearest", truncate=4.0)[r:x.size - r]
+    np.testing.assert_allclose(np.convolve(x, k, mode="valid"), ref, rtol=0, atol=1e-12)
