@@ -84,3 +84,37 @@ def recalculate(xlsx_path, outdir=None, timeout: float = 180.0) -> Path:
         raise RuntimeError(f"LibreOffice recalculation failed (exit {proc.returncode}): "
                            f"{proc.stderr.strip() or proc.stdout.strip() or 'no output'}")
     return result
+
+
+def to_pdf(xlsx_path, outdir, timeout: float = 180.0) -> Path:
+    """Print a workbook to PDF with LibreOffice (every sheet, its own page setup).
+
+    Parameters
+    ----------
+    xlsx_path : str or Path
+    outdir : str or Path
+        Folder for the PDF (created; must differ from the input's folder).
+
+    Returns
+    -------
+    Path
+        The PDF.
+    """
+    if SOFFICE is None:
+        raise RuntimeError("LibreOffice (soffice) is not installed")
+    src = Path(xlsx_path).resolve()
+    out = Path(outdir).resolve()
+    out.mkdir(parents=True, exist_ok=True)
+    profile = Path(tempfile.mkdtemp(prefix="lo-profile-"))
+    try:
+        cmd = [SOFFICE, f"-env:UserInstallation={profile.as_uri()}", "--headless",
+               "--norestore", "--nologo", "--convert-to", "pdf", "--outdir", str(out),
+               str(src)]
+        proc = subprocess.run(cmd, capture_output=True, text=True, timeout=timeout)
+    finally:
+        shutil.rmtree(profile, ignore_errors=True)
+    result = out / (src.stem + ".pdf")
+    if proc.returncode != 0 or not result.exists():
+        raise RuntimeError(f"LibreOffice PDF export failed (exit {proc.returncode}): "
+                           f"{proc.stderr.strip() or proc.stdout.strip() or 'no output'}")
+    return result

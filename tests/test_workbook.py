@@ -886,3 +886,76 @@ def test_emissions_follow_trips_and_days(demo):
     after = totals()
     for a, b in zip(after, before):
         assert a == pytest.approx(1.2 * b, rel=1e-12)
+
+
+# --------------------------------------------------------------------------- printing
+def test_every_sheet_has_its_page_setup(demo, demo_xlsx):
+    """Orientation, one page wide, repeated titles on the long tables, the study name in
+    the header, page numbers in the footer, frozen panes, currency in money formats."""
+    result, summary = demo
+    wb = openpyxl.load_workbook(demo_xlsx)
+    study = summary["scenario"]["name"]
+    for ws in wb:
+        assert ws.page_setup.orientation in ("landscape", "portrait"), ws.title
+        assert ws.sheet_properties.pageSetUpPr.fitToPage, ws.title
+        assert ws.page_setup.fitToWidth == 1 and ws.page_setup.fitToHeight == 0, ws.title
+        assert study.replace("&", "&&") in ws.oddHeader.left.text, ws.title
+        assert "&P" in ws.oddFooter.center.text and "&N" in ws.oddFooter.center.text
+        assert ws.freeze_panes, ws.title
+    for title, rows in (("Cash flow", "$1:$3"), ("Emissions", "$1:$3"), ("Inputs", "$1:$1")):
+        assert wb[title].print_title_rows == rows, title
+    cur = result.scenario.study.currency
+    su = wb["Summary"]
+    r = next(r for r in range(1, su.max_row + 1) if su.cell(row=r, column=2).value
+             == "break_even.purchase_price")
+    # the currency code after the amount, as the PDF report writes it (244,534 EUR)
+    assert su.cell(row=r, column=4).number_format == f'#,##0 "{cur}";[Red]-#,##0 "{cur}"'
+
+
+def test_wrapped_text_rows_are_tall_enough(demo_xlsx):
+    """A wrapped label longer than its column gets a row tall enough for its lines
+    (hand: 11-point text, about one character per unit of column width, 15 pt a line)."""
+    wb = openpyxl.load_workbook(demo_xlsx)
+    ws = wb["Inputs"]
+    checked = 0
+    for row in ws.iter_rows(min_row=2):
+        for c in row:
+            if isinstance(c.value, str) and c.alignment.wrap_text:
+                width = ws.column_dimensions[c.column_letter].width
+                if len(c.value) > 1.3 * width:
+                    lines = math.ceil(len(c.value) / (1.3 * width))  # a loose lower bound
+                    h = ws.row_dimensions[c.row].height
+                    assert h is not None and h >= 15 * lines, (c.coordinate, h, c.value)
+                    checked += 1
+    assert checked > 5
+
+
+@pytest.mark.slow
+@needs_soffice
+def test_libreoffice_prints_each_sheet_one_page_wide(demo_xlsx, tmp_path):
+    """LibreOffice's PDF export of the demo workbook: at most 20 pages, and every page of
+    a table sheet shows the table's first and last column headings (one page wide: a
+    sheet split across pages sideways would leave its last heading off some page)."""
+    import shutil
+    import subprocess
+
+    from recalc import to_pdf
+
+    if shutil.which("pdftotext") is None:
+        pytest.skip("poppler (pdftotext) is not installed")
+    pdf = to_pdf(demo_xlsx, tmp_path / "pdf")
+    text = subprocess.run(["pdftotext", "-layout", str(pdf), "-"], capture_output=True,
+                          text=True, check=True).stdout
+    pages = text.split("\f")
+    pages = [p for p in pages if p.strip()]
+    assert 1 <= len(pages) <= 20, len(pages)
+    edges = {"Cash flow": ("Cost line", "Present value"), "Emissions": ("Line", "Total"),
+             "Inputs": ("Input", "Source"), "Energy": ("Quantity", "Unit")}
+    seen = set()
+    for p in pages:
+        head = p.strip().splitlines()[0]
+        for sheet, (left, right) in edges.items():
+            if head.rstrip().endswith(sheet):
+                seen.add(sheet)
+                assert left in p and right in p, (sheet, p[:300])
+    assert seen == set(edges)

@@ -236,10 +236,36 @@ class _Book:
         if unc:
             self._sensitivity_sheet(unc)
             self._statistics_sheet(unc)
-        # openpyxl stores formulas without results: ask the spreadsheet program to compute
-        # everything when the file is opened.
+        self._formats_and_printing()
+        # spreadsheet programs recompute everything when the file is opened (the file also
+        # carries each formula's result, tco.report.workbook_values)
         wb.calculation = CalcProperties(fullCalcOnLoad=True)
         return wb
+
+    def _formats_and_printing(self) -> None:
+        """Money formats carry the currency code; every sheet gets its page setup."""
+        money = {wbb.MONEY: wbb.money_format(self.cur, 0),
+                 wbb.MONEY_CENTS: wbb.money_format(self.cur, 2)}
+        years = range(_FIRST_COL, _FIRST_COL + self.N + 1)
+        for ws in self.wb.worksheets:
+            if ws.title == _IN:
+                continue  # the Unit column names the currency of every input
+            for row in ws.iter_rows():
+                # year grids keep plain amounts (the sheet title names the currency);
+                # single figures, sums and present values show the code
+                grid = ws.title == _CF and row[_FIRST_COL].data_type == "f" \
+                    if len(row) > _FIRST_COL else False
+                for c in row:
+                    f = money.get(c.number_format)
+                    if f and not (grid and c.column in years):
+                        c.number_format = f
+        study = self.summary.get("scenario", {}).get("name", self.s.study.name)
+        titles = {_SU: ("1:1", None), _IN: ("1:1", None),
+                  _CF: (f"1:{_YEAR_ROW}", "A:B"), _EM: (f"1:{_YEAR_ROW}", "A:B"),
+                  _EN: ("1:3", "A:B"), _SE: ("1:2", None), _ST: ("1:4", None)}
+        for ws in self.wb.worksheets:
+            rows, cols = titles.get(ws.title, (None, None))
+            wbb.print_setup(ws, study, title_rows=rows, title_cols=cols)
 
     # ------------------------------------------------------------------------ sources
     def source(self, path: str) -> str:
@@ -934,8 +960,9 @@ class _Book:
             _number_header(ws, _YEAR_ROW, c, k)
         wbb.header_row(ws, _YEAR_ROW, ["Sum", "Present value", "Note"], start_col=c_sum)
         wbb.freeze(ws, f"{_col(_FIRST_COL)}{_YEAR_ROW + 1}")
-        wbb.set_widths(ws, {"A": 50, "B": 24, **{c: 11 for c in cols}, c_sum: 13, c_pv: 14,
+        wbb.set_widths(ws, {"A": 50, "B": 24, **{c: 11 for c in cols}, c_sum: 14, c_pv: 15,
                             c_note: 50})
+        wbb.set_widths(ws, {_FIRST_COL: 15})  # also holds the single figures below
         first, last = _col(_FIRST_COL), _col(_FIRST_COL + N)
         second = _col(_FIRST_COL + 1)
 
@@ -1816,8 +1843,7 @@ class _Book:
             for key, ok, text in texts:
                 safe_text(ws.cell(row=row, column=1), f"  {key}")
                 safe_text(ws.cell(row=row, column=2), "ok" if ok else "check")
-                c = safe_text(ws.cell(row=row, column=3), text)
-                c.alignment = Alignment(wrap_text=False, vertical="top")
+                self._wrapped(row, 3, 4 + len(self.trucks), text)
                 row += 1
         return row
 
@@ -1828,9 +1854,17 @@ class _Book:
         _section(ws, row, title)
         row += 1
         for t in texts:
-            safe_text(ws.cell(row=row, column=1), t)
+            self._wrapped(row, 1, 4 + len(self.trucks), t)
             row += 1
         return row
+
+    def _wrapped(self, row: int, c0: int, c1: int, text) -> None:
+        """Long text on the Summary sheet: merged over columns c0..c1, wrapped, and the
+        row made tall enough (so it prints within the page width)."""
+        ws = self.ws_su
+        c = safe_text(ws.cell(row=row, column=c0), text)
+        c.alignment = _WRAP
+        ws.merge_cells(start_row=row, start_column=c0, end_row=row, end_column=c1)
 
     def _cumulative_chart(self, row: int) -> None:
         ws = self.ws_su
@@ -1891,9 +1925,10 @@ class _Book:
                 vals = [b.get("input"), b.get("key"), _unit_text(b.get("unit"), cur),
                         b.get("base_value"), b.get("low_value"), b.get("high_value"),
                         b.get("low"), b.get("high"), b.get("swing"), b.get("source")]
+                unit_fmt = wbb.MONEY if vals[2] == cur else "#,##0.0000"
                 for k, v in enumerate(vals):
                     write_value(ws.cell(row=row, column=1 + k), v,
-                                "#,##0.0000" if 3 <= k <= 5 else wbb.MONEY)
+                                unit_fmt if 3 <= k <= 5 else wbb.MONEY)
             if bars:
                 wbb.add_chart(ws, "bar", data_ws=ws, header_row=head, first_row=head + 1,
                               last_row=row, cat_col=1, first_col=7, last_col=8,
@@ -1913,8 +1948,10 @@ class _Book:
                     row += 1
                     vals = [b.get("input"), b.get("key"), _unit_text(b.get("unit"), cur),
                             b.get("value"), b.get("base_value"), b.get("factor"), b.get("note")]
+                    unit_fmt = wbb.MONEY if vals[2] == cur else "#,##0.0000"
                     for k, v in enumerate(vals):
-                        write_value(ws.cell(row=row, column=1 + k), v, "#,##0.0000")
+                        write_value(ws.cell(row=row, column=1 + k), v,
+                                    "0.000" if k == 5 else unit_fmt)
                 row += 2
         for note in unc.get("notes") or []:
             safe_text(ws.cell(row=row, column=1), note)

@@ -34,7 +34,8 @@ __all__ = [
     "MONEY", "MONEY_CENTS", "PERCENT", "ENERGY", "ENERGY_RATE", "MASS", "INTEGER", "YEAR",
     "HEADER_FONT", "HEADER_FILL", "INPUT_FILL", "INPUT_COLUMNS", "MAX_CELL_CHARS",
     "safe_text", "write_value", "header_row", "freeze", "set_widths", "input_header",
-    "add_named_input", "add_chart", "check_name",
+    "add_named_input", "add_chart", "check_name", "print_setup", "fit_row_heights",
+    "money_format",
 ]
 
 # ---- number formats (currency-neutral: the currency code goes into the column header) --
@@ -333,3 +334,122 @@ def add_chart(ws, kind: str, *, data_ws, header_row: int, first_row: int, last_r
     chart.width, chart.height = width, height
     ws.add_chart(chart, anchor)
     return chart
+
+
+# ---- printing ----------------------------------------------------------------------
+#: Points per line of wrapped 11-point text (the default row height is 15 pt).
+_LINE_PT = 15.0
+#: Characters of 11-point text per unit of column width (measured on LibreOffice's PDF
+#: of the demo: about 1.2; a column width counts the widest digit).
+_CHARS_PER_WIDTH = 1.2
+
+
+def _width(ws, letter: str) -> float:
+    d = ws.column_dimensions.get(letter)
+    return float(d.width) if d is not None and d.width else 8.43
+
+
+def fit_row_heights(ws) -> None:
+    """Give every row with wrapped text the height its longest cell needs.
+
+    Spreadsheet programs grow a row for wrapped text only when they lay the row out
+    themselves; a written height (or none, for a file that is never re-laid out, as
+    LibreOffice treats an xlsx on load) leaves wrapped text overlapping the next row. The
+    line count is estimated from the text length and the column width (common practice;
+    an estimate, so it errs toward a taller row).
+    """
+    from openpyxl.utils import get_column_letter as letter_of
+
+    merged = {}
+    for m in ws.merged_cells.ranges:
+        if m.min_row == m.max_row:
+            merged[(m.min_row, m.min_col)] = sum(
+                _width(ws, letter_of(k)) for k in range(m.min_col, m.max_col + 1))
+    for row in ws.iter_rows():
+        lines = 1
+        for c in row:
+            if not isinstance(c.value, str) or c.data_type == "f":
+                continue
+            if not (c.alignment is not None and c.alignment.wrap_text):
+                continue
+            width = merged.get((c.row, c.column)) or _width(ws, letter_of(c.column))
+            per_line = max(1.0, width * _CHARS_PER_WIDTH - 1)
+            n = sum(max(1, math.ceil(len(part) / per_line)) for part in c.value.split("\n"))
+            lines = max(lines, n)
+        if lines > 1:
+            ws.row_dimensions[row[0].row].height = _LINE_PT * lines + 2
+            for c in row:  # everything in a tall row starts at its top
+                if c.value is not None and (c.alignment is None
+                                            or c.alignment.vertical is None):
+                    c.alignment = Alignment(wrap_text=c.alignment.wrap_text
+                                            if c.alignment is not None else None,
+                                            horizontal=c.alignment.horizontal
+                                            if c.alignment is not None else None,
+                                            vertical="top")
+
+
+def _header_text(text: str) -> str:
+    """Text for a page header: ``&`` starts a code there, so it is doubled."""
+    text = ILLEGAL_CHARACTERS_RE.sub("", str(text)).replace("&", "&&")
+    return text[:200]
+
+
+def print_setup(ws, study: str, *, title_rows: str | None = None,
+                title_cols: str | None = None, landscape: bool | None = None) -> None:
+    """Page setup of a sheet: A4, one page wide, repeated titles, header and footer.
+
+    Parameters
+    ----------
+    ws : Worksheet
+    study : str
+        Study name for the page header (literal text; ``&`` codes are escaped).
+    title_rows : str, optional
+        Rows repeated at the top of every page, e.g. ``"1:3"``.
+    title_cols : str, optional
+        Columns repeated at the left of every page, e.g. ``"A:B"``.
+    landscape : bool, optional
+        Orientation; default: landscape when the used columns are wider than about 110
+        characters, portrait otherwise.
+    """
+    from openpyxl.utils import get_column_letter as letter_of
+    from openpyxl.worksheet.properties import PageSetupProperties
+
+    if landscape is None:
+        total = sum(_width(ws, letter_of(c)) for c in range(1, ws.max_column + 1))
+        landscape = total > 110
+    ws.page_setup.orientation = "landscape" if landscape else "portrait"
+    ws.page_setup.paperSize = ws.PAPERSIZE_A4
+    ws.sheet_properties.pageSetUpPr = PageSetupProperties(fitToPage=True)
+    ws.page_setup.fitToWidth = 1
+    ws.page_setup.fitToHeight = 0  # as many pages down as needed
+    ws.page_margins.left = ws.page_margins.right = 0.4
+    ws.page_margins.top = ws.page_margins.bottom = 0.6
+    ws.page_margins.header = ws.page_margins.footer = 0.25
+    ws.print_options.gridLines = False
+    if title_rows:
+        ws.print_title_rows = title_rows
+    if title_cols:
+        ws.print_title_cols = title_cols
+    ws.oddHeader.left.text = _header_text(study)
+    ws.oddHeader.right.text = "&A"  # sheet name
+    ws.oddFooter.center.text = "Page &P of &N"
+    ws.oddFooter.right.text = "&D"
+    fit_row_heights(ws)
+
+
+def money_format(currency: str, digits: int = 0) -> str:
+    """A number format showing the ISO 4217 code after the amount (as the PDF report
+    does: ``244,534 EUR``), negatives in red with a minus sign.
+
+    Parameters
+    ----------
+    currency : str
+        Three-letter code; anything else is left out of the format (a format string
+        must not carry user text).
+    digits : int
+        Decimals shown.
+    """
+    body = "#,##0" + ("." + "0" * digits if digits else "")
+    code = currency if re.fullmatch(r"[A-Z]{3}", str(currency or "")) else ""
+    suffix = f' "{code}"' if code else ""
+    return f"{body}{suffix};[Red]-{body}{suffix}"
