@@ -45,8 +45,9 @@ WTW (or TTW) divided by payload-distance or distance.
 
 Comparison: avoided emissions of truck ``k`` in year ``y`` are
 ``WTW_ref(y) − WTW_k(y)``; the abatement cost is ``ΔPV / Σ_y avoided(y) · w_y`` with
-``ΔPV = PV cost_k − PV cost_ref`` from the cash-flow model and ``w_y = 1`` (default,
-undiscounted tonnes) or ``(1 + i)^-(y − y0 + 1)``.
+``ΔPV = PV cost_k − PV cost_ref`` from the cash-flow model and
+``w_y = (1 + i)^-(y − y0 + 1)`` (default: tonnes discounted like the costs, as a levelized
+cost discounts both) or ``w_y = 1`` (undiscounted tonnes); both are reported.
 
 References
 ----------
@@ -916,7 +917,10 @@ class EmissionsResult:
         ``truck, reference, year, basis, avoided_kg, cumulative_avoided_kg``.
     abatement : dict
         Truck to ``{"cost_difference", "tonnes_location", "tonnes_market",
-        "cost_per_tonne_location", "cost_per_tonne_market"}`` [currency, t, currency/t].
+        "cost_per_tonne_location", "cost_per_tonne_market"}`` [currency, t, currency/t]
+        on the chosen convention, and the same keys suffixed ``_discounted`` and
+        ``_undiscounted`` for both conventions (NaN for the discounted one when no
+        discount rate was given).
     lifecycle : pandas.DataFrame or None
         Life-cycle add-on (outside all scopes): ``truck, manufacturing_kg, extra_kg,
         payback_distance_m, payback_years``.
@@ -988,7 +992,8 @@ def evaluate(settings: "EmissionsSettings", operations: Sequence["AnnualOperatio
         Present-value cost of each truck minus that of the reference, from the cash-flow
         model [currency]; a float when there is one truck besides the reference.
     discount_rate : float, optional
-        Needed when ``settings.discount_tonnes`` is true. [-/yr]
+        Needed when ``settings.discount_tonnes`` is true; when given, the figures on
+        discounted tonnes are reported whichever convention is chosen. [-/yr]
 
     Returns
     -------
@@ -999,15 +1004,17 @@ def evaluate(settings: "EmissionsSettings", operations: Sequence["AnnualOperatio
     names = [op.truck for op in operations]
     if len(set(names)) != len(names):
         raise InputError("truck names must be unique", where="trucks")
-    if settings.discount_tonnes and discount_rate is None:
+    if settings.discount_tonnes and discount_rate is None and cost_difference is not None:
         raise InputError("discount_tonnes is true but no discount rate was given",
                          where="emissions.discount_tonnes")
     params, prov, notes = _resolve(settings)
     arrays = compute(params, operations, years)
     years_l = [int(y) for y in np.asarray(years)]
     ref = pick_reference(operations, reference)
+    # without a rate (and then without a cost difference) tonnes stay undiscounted
     rate = discount_rate if settings.discount_tonnes else None
-    comparison, abatement = _compare(arrays, years_l, ref, cost_difference, rate)
+    comparison, abatement = _compare(arrays, years_l, ref, cost_difference, rate,
+                                     discount_rate)
     lifecycle = _lifecycle(settings.lifecycle, operations, arrays, ref)
     intensity, intensity_total = _intensities(arrays, years_l)
     settings_out = {
@@ -1067,7 +1074,7 @@ def _intensities(arrays, years: list[int]) -> tuple[pd.DataFrame, pd.DataFrame]:
             pd.DataFrame(whole, columns=["truck", *cols]))
 
 
-def _compare(arrays, years: list[int], ref: str, cost_difference, rate):
+def _compare(arrays, years: list[int], ref: str, cost_difference, rate, discount_rate=None):
     """Avoided emissions per year and abatement cost of each truck against the reference."""
     others = [n for n in arrays if n != ref]
     if cost_difference is not None and not isinstance(cost_difference, Mapping):
@@ -1089,6 +1096,18 @@ def _compare(arrays, years: list[int], ref: str, cost_difference, rate):
             entry[f"tonnes_{basis}"] = float((av * w).sum() / 1000)
             entry[f"cost_per_tonne_{basis}"] = math.nan if dc is None \
                 else abatement_cost(dc, av, rate)
+            # both conventions side by side (the discounted one needs a rate)
+            entry[f"tonnes_{basis}_undiscounted"] = float(av.sum() / 1000)
+            entry[f"cost_per_tonne_{basis}_undiscounted"] = math.nan if dc is None \
+                else abatement_cost(dc, av, None)
+            if discount_rate is None:
+                entry[f"tonnes_{basis}_discounted"] = math.nan
+                entry[f"cost_per_tonne_{basis}_discounted"] = math.nan
+            else:
+                wd = tonne_weights(len(years), discount_rate)
+                entry[f"tonnes_{basis}_discounted"] = float((av * wd).sum() / 1000)
+                entry[f"cost_per_tonne_{basis}_discounted"] = math.nan if dc is None \
+                    else abatement_cost(dc, av, discount_rate)
         abatement[truck] = entry
     comparison = pd.DataFrame(rows, columns=["truck", "reference", "year", "basis",
                                              "avoided_kg", "cumulative_avoided_kg"])
@@ -1119,11 +1138,13 @@ def _cautions(settings: "EmissionsSettings", rate, lifecycle: bool) -> list[str]
     """Plain-language cautions for the report, the verification caution first."""
     out = [VERIFY_CAUTION]
     if rate is None:
-        out.append("Avoided tonnes are not discounted in the abatement cost: a tonne counts "
-                   "the same in every year.")
+        out.append("Abatement cost = present-value cost difference ÷ tonnes avoided, not "
+                   "discounted (a tonne counts the same in every year); the figure on "
+                   "discounted tonnes is shown beside it.")
     else:
-        out.append(f"Avoided tonnes are discounted at {rate:.4g} per year in the abatement "
-                   "cost: later tonnes count less.")
+        out.append("Abatement cost = present-value cost difference ÷ tonnes avoided "
+                   f"discounted at the same {rate:.2%} a year as the costs; the figure on "
+                   "undiscounted tonnes is shown beside it.")
     if settings.supplier_intensity is None and settings.renewable_share == 0:
         out.append("The market-based Scope 2 figure equals the location-based one: no "
                    "supplier-specific factor or contracted renewable share was given (the GHG "
@@ -1205,7 +1226,10 @@ def emissions_summary(result) -> dict:
           ``{location, market}`` (lists), ``cost_difference`` [currency],
           ``tonnes_avoided`` ``{location, market}`` (discounted if ``tonnes_discounted``),
           ``abatement_cost_per_tonne`` ``{location, market}`` [currency/t CO2e],
-          ``tonnes_discounted`` (bool)
+          ``tonnes_discounted`` (bool); and both conventions side by side (summary
+          schema 1.1): ``tonnes_avoided_discounted``, ``tonnes_avoided_undiscounted``,
+          ``abatement_cost_per_tonne_discounted_tonnes``,
+          ``abatement_cost_per_tonne_undiscounted_tonnes`` (each ``{location, market}``)
         - ``lifecycle`` : null, or ``{name: {manufacturing_kg, extra_kg,
           payback_distance_km, payback_years}}`` — outside all operational totals
         - ``factors`` : list of ``{parameter, value, unit, source, status}``
@@ -1259,6 +1283,12 @@ def emissions_summary(result) -> dict:
             "location": _num(ab["cost_per_tonne_location"]),
             "market": _num(ab["cost_per_tonne_market"])}
         entry["tonnes_discounted"] = bool(r.settings["tonnes_discounted"])
+        for conv in ("discounted", "undiscounted"):  # schema 1.1: both conventions
+            entry[f"tonnes_avoided_{conv}"] = {
+                b: _num(ab.get(f"tonnes_{b}_{conv}", math.nan)) for b in ("location", "market")}
+            entry[f"abatement_cost_per_tonne_{conv}_tonnes"] = {
+                b: _num(ab.get(f"cost_per_tonne_{b}_{conv}", math.nan))
+                for b in ("location", "market")}
         comp[truck] = entry
     out["comparison"] = comp
     if r.lifecycle is None:

@@ -463,7 +463,7 @@ def test_override_errors():
 
 # ------------------------------------------------------------------ comparison
 def test_avoided_and_abatement_cost_undiscounted():
-    s = EmissionsSettings(grid_change=-5)
+    s = EmissionsSettings(grid_change=-5, discount_tonnes=False)
     ops = [diesel_truck(), electric_truck()]
     r = em.evaluate(s, ops, YEARS, cost_difference=25_000.0)
     t = r.totals.set_index(["truck", "frame", "year"]).kg_co2e
@@ -532,7 +532,7 @@ def test_payback_not_reached_and_zero():
 # ------------------------------------------------------------------ summary
 def test_summary_is_json_with_stable_keys():
     r = em.evaluate(EmissionsSettings(), [diesel_truck(), electric_truck()], YEARS,
-                    cost_difference={"electric": 12_000.0})
+                    cost_difference={"electric": 12_000.0}, discount_rate=0.07)
     summ = em.emissions_summary(r)
     text = json.dumps(summ, allow_nan=False)
     assert json.loads(text) == summ
@@ -545,7 +545,9 @@ def test_summary_is_json_with_stable_keys():
                           "g_co2e_per_km", "yearly"}
     assert set(summ["comparison"]["electric"]) == {
         "avoided_kg_total", "avoided_kg_yearly", "cost_difference", "tonnes_avoided",
-        "abatement_cost_per_tonne", "tonnes_discounted"}
+        "abatement_cost_per_tonne", "tonnes_discounted", "tonnes_avoided_discounted",
+        "tonnes_avoided_undiscounted", "abatement_cost_per_tonne_discounted_tonnes",
+        "abatement_cost_per_tonne_undiscounted_tonnes"}
     assert summ["cautions"][0] == em.VERIFY_CAUTION
     assert summ["lifecycle"] is None
 
@@ -662,3 +664,40 @@ def test_scenario_section_does_not_import_the_model():
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                          check=True)
     assert out.stdout.strip() == "False"
+
+
+def test_abatement_cost_both_conventions_by_hand():
+    """Default: present-value cost over discounted tonnes, the undiscounted figure beside
+    it. Hand case: ΔPV = 10,000; 20 t avoided in each of 3 years at 10 %:
+    discounted tonnes 20/1.1 + 20/1.21 + 20/1.331 = 49.737 t → 201.06 per t;
+    undiscounted 60 t → 166.67 per t (hand)."""
+    assert EmissionsSettings().discount_tonnes is True
+    avoided = np.full(3, 20_000.0)
+    disc = 20 / 1.1 + 20 / 1.21 + 20 / 1.331
+    assert round(disc, 3) == 49.737
+    assert round(10_000 / disc, 2) == 201.06
+    assert em.abatement_cost(10_000.0, avoided, 0.10) == pytest.approx(10_000 / disc)
+    assert em.abatement_cost(10_000.0, avoided) == pytest.approx(10_000 / 60)
+    years = [2030, 2031, 2032]
+    ops = [diesel_truck(), electric_truck()]
+    r = em.evaluate(EmissionsSettings(), ops, years, cost_difference=10_000.0,
+                    discount_rate=0.10)
+    t = r.totals.set_index(["truck", "frame", "year"]).kg_co2e
+    av = t["diesel", "wtw"].values - t["electric", "wtw"].values
+    want_d = 10_000 / (sum(a / 1.1 ** (k + 1) for k, a in enumerate(av)) / 1000)
+    want_u = 10_000 / (av.sum() / 1000)
+    summ = em.emissions_summary(r)["comparison"]["electric"]
+    assert summ["tonnes_discounted"] is True
+    assert summ["abatement_cost_per_tonne"]["location"] == pytest.approx(want_d, rel=1e-12)
+    assert summ["abatement_cost_per_tonne_discounted_tonnes"]["location"] == \
+        pytest.approx(want_d, rel=1e-12)
+    assert summ["abatement_cost_per_tonne_undiscounted_tonnes"]["location"] == \
+        pytest.approx(want_u, rel=1e-12)
+    assert summ["tonnes_avoided_undiscounted"]["location"] == pytest.approx(av.sum() / 1000)
+    # the other convention as headline: the same two figures, swapped
+    r2 = em.evaluate(EmissionsSettings(discount_tonnes=False), ops, years,
+                     cost_difference=10_000.0, discount_rate=0.10)
+    s2 = em.emissions_summary(r2)["comparison"]["electric"]
+    assert s2["abatement_cost_per_tonne"]["location"] == pytest.approx(want_u, rel=1e-12)
+    assert s2["abatement_cost_per_tonne_discounted_tonnes"]["location"] == \
+        pytest.approx(want_d, rel=1e-12)

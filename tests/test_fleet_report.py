@@ -175,10 +175,11 @@ def test_plan_saving_equals_npv_of_the_yearly_savings(summary):
     assert npf.npv(rate, saving) == pytest.approx(plan["pv_saving"], rel=1e-9)
     assert summary["yearly_totals"]["pv_saving"] == pytest.approx(npf.npv(rate, saving),
                                                                   rel=1e-12)
-    # the demo does not discount tonnes: the plan's tonnes are the yearly tonnes summed
-    assert not plan["tonnes_discounted"]
+    # tonnes are discounted by default (emissions.discount_tonnes): the plan's tonnes are
+    # the yearly tonnes discounted like the savings (numpy_financial.npv, year 0 first)
+    assert plan["tonnes_discounted"]
     assert plan["avoided_t"] == pytest.approx(
-        sum(r["avoided_t"] for r in summary["yearly"]), rel=1e-12)
+        npf.npv(rate, [r["avoided_t"] for r in summary["yearly"]]), rel=1e-9)
     assert plan["abatement_cost_per_t"] == pytest.approx(-plan["pv_saving"]
                                                          / plan["avoided_t"], rel=1e-12)
     cum = np.cumsum(saving)
@@ -360,7 +361,10 @@ def test_workbook_structure_formulas_and_literal_inputs(book, summary):
         assert routes.cell(row, col["PV current [EUR]"]).value == lit(r["pv_current"])
         assert routes.cell(row, col["PV candidate [EUR]"]).value == lit(r["pv_candidate"])
         assert routes.cell(row, col["PV saving [EUR]"]).value == f"=N{row}-O{row}"
-        assert routes.cell(row, col["Avoided [t CO2e]"]).value == f"=U{row}-V{row}"
+        if summary["plan"]["tonnes_discounted"]:  # discounted tonnes: not a difference
+            assert routes.cell(row, col["Avoided [t CO2e]"]).value == lit(r["avoided_t"])
+        else:
+            assert routes.cell(row, col["Avoided [t CO2e]"]).value == f"=U{row}-V{row}"
         assert routes.cell(row, col["Well-to-wheel, current [t CO2e]"]).value == \
             lit(r["wtw_current_t"])
     ny = len(summary["yearly"])

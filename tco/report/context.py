@@ -255,10 +255,17 @@ def _key_figures(result, u: DisplayUnits, summary: dict) -> list[dict]:
                     "value": f"{fmt_number(None if avoided is None else avoided / 1000)} t CO2e",
                     "note": f"well-to-wheel, location-based, {cf.analysis_years} years"})
         ab = (e.get("abatement_cost_per_tonne") or {}).get("location")
+        disc = bool(e.get("tonnes_discounted"))
+        other = (e.get("abatement_cost_per_tonne_"
+                       + ("undiscounted_tonnes" if disc else "discounted_tonnes")) or {}
+                 ).get("location")
         out.append({"label": "Abatement cost",
                     "value": f"{fmt_number(ab)} {cur}/t CO2e" if ab is not None else "–",
-                    "note": "PV cost difference ÷ tonnes avoided (tonnes "
-                    + ("discounted)" if e.get("tonnes_discounted") else "not discounted)")})
+                    "note": "PV cost difference ÷ tonnes avoided "
+                    + ("discounted like the costs" if disc else "not discounted")
+                    + (f"; {fmt_number(other)} {cur}/t on "
+                       + ("undiscounted" if disc else "discounted") + " tonnes"
+                       if other is not None else "")})
     for name, tr in result.trucks.items():
         if tr.powertrain == "electric":
             value, note = _feasible_short(tr)
@@ -730,7 +737,10 @@ METHOD_NOTES = [
     ("Emissions", "Diesel litres times the selected factor set (CO2, CH4 and N2O with the "
      "chosen GWP set, upstream), DEF urea CO2 by the IPCC 2006 equation; electricity at "
      "the meter times the grid intensity of each year (matched hour by hour when a profile "
-     "is given), plus upstream and grid losses.",
+     "is given), plus upstream and grid losses. The abatement cost divides the "
+     "present-value cost difference by the tonnes avoided discounted at the same rate "
+     "(unless emissions.discount_tonnes is false); the figure on undiscounted tonnes is "
+     "shown beside it.",
      "E = V_d f_d + m_DEF·w·(12/60)(44/12) + E_grid·I(y)·(1 + L/(1−L))",
      r"E = V_d f_d + m_{DEF}\, w \,\frac{12}{60}\frac{44}{12} + E_{grid} I(y)"),
 ]

@@ -354,7 +354,8 @@ def _verdict(s: dict) -> str:
     dep = s["depot"]
     return (f"{n} of {total} {routes} can be run by {own} electric candidate. Electrifying "
             f"{them} {word} {fmt_money(abs(p['pv_saving']), cur)}{tail} in present value over "
-            f"{years} years and avoids {_n(p['avoided_t'])} t CO2e well-to-wheel; the depot "
+            f"{years} years and avoids {_n(p['avoided_t'])} t CO2e well-to-wheel"
+            f"{' (discounted tonnes)' if p.get('tonnes_discounted') else ''}; the depot "
             f"needs {p['chargers']} charger{'s' if p['chargers'] != 1 else ''} of "
             f"{_n(dep['charger_kW'])} kW and a peak of {_n(p['peak_kW'])} kW.")
 

@@ -177,8 +177,11 @@ class EmissionsSettings(Section):
         0.0, "g/kWh", "Upstream (fuel supply of power plants) emissions per kWh at the meter, "
         "Scope 3 category 3", ASSUMPTION + ": not counted unless you give a figure")
     discount_tonnes: bool = mfield(
-        False, "", "Discount avoided tonnes at the finance discount rate in the abatement "
-        "cost", "common practice: tonnes undiscounted")
+        True, "", "Abatement cost on discounted tonnes (present-value cost over tonnes "
+        "discounted at the finance discount rate); false: over undiscounted tonnes. Both are "
+        "reported; this picks the headline",
+        "common practice in cost-effectiveness analysis: a levelized cost per unit discounts "
+        "cost and quantity alike, as the levelized cost per km does (from memory)")
     lifecycle: LifecycleAddon = Field(
         default_factory=LifecycleAddon,
         description="Optional life-cycle add-on (manufacturing), apart from operational "
