@@ -41,8 +41,16 @@ def vehicle_parameters(truck, ambient, mean_elevation: float) -> roadload.Vehicl
         drag_coefficient=b.drag_coefficient, frontal_area=b.frontal_area,
         crr=b.rolling_resistance, crr_speed=b.rolling_resistance_speed,
         rotating_mass_factor=b.rotating_mass_factor, air_density=rho,
-        headwind=ambient.headwind,
+        **wind_parameters(ambient),
     ).checked()
+
+
+def wind_parameters(ambient) -> dict:
+    """The kernel's wind fields from the ambient section: ``headwind`` (on every leg) or
+    ``wind_averaged`` (direction averaged over all directions). [m/s]"""
+    if getattr(ambient, "wind_treatment", "headwind") == "headwind":
+        return {"headwind": ambient.headwind, "wind_averaged": 0.0}
+    return {"headwind": 0.0, "wind_averaged": abs(ambient.headwind)}
 
 
 def diesel_parameters(d) -> DieselPowertrain:

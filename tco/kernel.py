@@ -104,6 +104,7 @@ _JIT_EXACT = {"cache": True, "nogil": True, "error_model": "numpy"}
 _cos_sin = njit(inline="always")(_roadload._cos_sin)
 _mean_speed_accel = njit(inline="always")(_roadload._mean_speed_accel)
 _aero_force = njit(inline="always")(_roadload._aero_force)
+_aero_slope = njit(inline="always")(_roadload._aero_slope)
 _rolling_force = njit(inline="always")(_roadload._rolling_force)
 _grade_force = njit(inline="always")(_roadload._grade_force)
 _inertia_force = njit(inline="always")(_roadload._inertia_force)
@@ -204,7 +205,7 @@ def _road_load_pass(sp, gr, dt, mass, veh, pw, hold, acc):
         vm, a = _mean_speed_accel(sp[i], sp[i + 1], dt)
         cos, sin = _cos_sin(gr[i])
         fa = _aero_force(vm, veh.air_density, veh.drag_coefficient, veh.frontal_area,
-                         veh.headwind)
+                         veh.headwind, veh.wind_averaged)
         fr = _rolling_force(vm, mass, cos, veh.crr, veh.crr_speed)
         fg = _grade_force(mass, sin)
         fi = _inertia_force(mass, a, veh.rotating_mass_factor)
@@ -391,14 +392,15 @@ def _road_power_and_slope(v, mass, cos, sin, veh):
     """Steady road power v·F(v) [W] and its derivative d(v·F)/dv [W/(m/s)].
 
     F = aero + rolling + grade force (the reference formulas). The derivative,
-    F + v·(rho·Cd·A·|v + v_w| + crr_speed·m·g·cos), is the one formula written here
-    only: Newton's method needs it, and the reference solves with brentq instead.
+    F + v·(dF_aero/dv + crr_speed·m·g·cos), is used here only: Newton's method needs
+    it, and the reference solves with brentq instead.
     """
     f = (_aero_force(v, veh.air_density, veh.drag_coefficient, veh.frontal_area,
-                     veh.headwind)
+                     veh.headwind, veh.wind_averaged)
          + _rolling_force(v, mass, cos, veh.crr, veh.crr_speed) + _grade_force(mass, sin))
-    rho_cda = veh.air_density * veh.drag_coefficient * veh.frontal_area
-    slope = f + v * (rho_cda * abs(v + veh.headwind) + veh.crr_speed * (mass * G) * cos)
+    d_aero = _aero_slope(v, veh.air_density, veh.drag_coefficient, veh.frontal_area,
+                         veh.headwind, veh.wind_averaged)
+    slope = f + v * (d_aero + veh.crr_speed * (mass * G) * cos)
     return v * f, slope
 
 

@@ -9,6 +9,7 @@ drift apart; tests check that the kernel's totals equal what these functions giv
 Forces on a vehicle of mass ``m`` at speed ``v`` on a road of grade ``s`` (rise/run)::
 
     F_aero    = 0.5 * rho * Cd * A * (v + v_w) * |v + v_w|      (v_w: headwind)
+              = 0.5 * rho * Cd * A * w**2 * f((v + v_w) / w)    (w: wind averaged over directions)
     F_rolling = (crr + crr_speed * v) * m * g * cos(theta)
     F_grade   = m * g * sin(theta)
     F_inertia = f_rot * m * a
@@ -99,6 +100,10 @@ class Vehicle(NamedTuple):
         [kg/m³]
     headwind : float
         Wind speed against the direction of travel (negative: tailwind). [m/s]
+    wind_averaged : float
+        Speed of a wind whose direction relative to the truck is averaged over all
+        directions (evenly spread); adds to ``headwind``. See :func:`aerodynamic_force`.
+        [m/s]
     """
 
     drag_coefficient: float
@@ -108,6 +113,7 @@ class Vehicle(NamedTuple):
     rotating_mass_factor: float = 1.0
     air_density: float = 1.225
     headwind: float = 0.0
+    wind_averaged: float = 0.0
 
     def checked(self) -> Vehicle:
         """Return a copy with every field a float, after checking the values.
@@ -135,6 +141,8 @@ class Vehicle(NamedTuple):
             )
         if vals["air_density"] <= 0:
             raise ValueError(f"vehicle air_density must be > 0, got {vals['air_density']}")
+        if vals["wind_averaged"] < 0:
+            raise ValueError(f"vehicle wind_averaged must be >= 0, got {vals['wind_averaged']}")
         return Vehicle(**vals)
 
 
@@ -177,6 +185,9 @@ def _check_finite(name, value):
 
 
 # ----------------------------------------------------------------------------- shared formulas
+#: Averaged wind speed below which there is no wind (keeps |x|/w finite). [m/s]
+WIND_NEGLIGIBLE = 1e-6
+
 # These private formulas are written once, with plain arithmetic and numpy ufuncs, so that
 # they work elementwise on numpy arrays here and on scalars inside the compiled loop of
 # tco.kernel (which wraps them with numba.njit). Keep them branch-free.
@@ -191,9 +202,35 @@ def _mean_speed_accel(v_start, v_end, dt):
     return 0.5 * (v_start + v_end), (v_end - v_start) / dt
 
 
-def _aero_force(speed, air_density, drag_coefficient, frontal_area, headwind):
-    v_air = speed + headwind
-    return 0.5 * air_density * drag_coefficient * frontal_area * v_air * np.abs(v_air)
+def _aero_force(speed, air_density, drag_coefficient, frontal_area, headwind,
+                wind_averaged=0.0):
+    """Aerodynamic force [N]: ½ρC_dA times x·|x|, x = v + v_w, or, with a wind of speed
+    w from evenly spread directions, its mean over the direction: with a = min(|x|, w)/w,
+    sign(x)·(2/π)·[arcsin(a)·(x² + w²/2) + 1.5·w²·a·√(1 − a²)] (= x|x| + sign(x)·w²/2
+    for |x| ≥ w). a is clamped after the division, so where |x| is well above w it is
+    exactly 1 (arcsin is steep at 1); a wind below WIND_NEGLIGIBLE counts as none.
+    """
+    x = speed + headwind
+    k = 0.5 * air_density * drag_coefficient * frontal_area
+    if wind_averaged < WIND_NEGLIGIBLE:
+        return k * x * np.abs(x)
+    w2 = wind_averaged * wind_averaged
+    a = np.minimum(np.abs(x) / wind_averaged, 1.0)
+    f = (2.0 / np.pi) * (np.arcsin(a) * (x * x + 0.5 * w2) + 1.5 * w2 * a * np.sqrt(1.0 - a * a))
+    return k * np.copysign(f, x)
+
+
+def _aero_slope(speed, air_density, drag_coefficient, frontal_area, headwind,
+                wind_averaged=0.0):
+    """Derivative of :func:`_aero_force` with respect to speed [N/(m/s)]:
+    ρC_dA·|x|, or with the averaged wind ½ρC_dA·(4/π)·[w·√(1 − a²) + |x|·arcsin(a)]."""
+    x = speed + headwind
+    k = 0.5 * air_density * drag_coefficient * frontal_area
+    if wind_averaged < WIND_NEGLIGIBLE:
+        return 2.0 * k * np.abs(x)
+    ax = np.abs(x)
+    a = np.minimum(ax / wind_averaged, 1.0)
+    return k * (4.0 / np.pi) * (wind_averaged * np.sqrt(1.0 - a * a) + ax * np.arcsin(a))
 
 
 def _rolling_force(speed, mass, cos, crr, crr_speed):
@@ -209,10 +246,11 @@ def _inertia_force(mass, acceleration, rotating_mass_factor):
 
 
 def _resistance_force(speed, mass, cos, sin, air_density, drag_coefficient, frontal_area,
-                      headwind, crr, crr_speed):
+                      headwind, crr, crr_speed, wind_averaged=0.0):
     """Aerodynamic + rolling + grade force at a steady speed [N]."""
     return (
-        _aero_force(speed, air_density, drag_coefficient, frontal_area, headwind)
+        _aero_force(speed, air_density, drag_coefficient, frontal_area, headwind,
+                    wind_averaged)
         + _rolling_force(speed, mass, cos, crr, crr_speed)
         + _grade_force(mass, sin)
     )
@@ -331,10 +369,17 @@ def air_density(altitude, temperature=None):
 
 
 # ----------------------------------------------------------------------------- forces
-def aerodynamic_force(speed, air_density, drag_coefficient, frontal_area, headwind=0.0):
+def aerodynamic_force(speed, air_density, drag_coefficient, frontal_area, headwind=0.0,
+                      wind_averaged=0.0):
     """Aerodynamic drag force.
 
     .. math:: F = \\tfrac12 \\rho C_d A (v + v_w) |v + v_w|
+
+    or, with a wind of speed w whose direction relative to the truck is averaged over all
+    directions, the mean over the angle φ of that force with v_w + w·cos φ along the road:
+
+    .. math:: F = \\tfrac12 \\rho C_d A\\, w^2 f\\!\\left(\\frac{v + v_w}{w}\\right),
+       \\quad f(u) = u^2 + \\tfrac12 \\ (|u| \\ge 1)
 
     Parameters
     ----------
@@ -348,6 +393,8 @@ def aerodynamic_force(speed, air_density, drag_coefficient, frontal_area, headwi
         Frontal area. [m²]
     headwind : float, array or Series
         Wind against the direction of travel (negative: tailwind). [m/s]
+    wind_averaged : float
+        Wind speed averaged over evenly spread directions (0: none). [m/s]
 
     Returns
     -------
@@ -356,7 +403,12 @@ def aerodynamic_force(speed, air_density, drag_coefficient, frontal_area, headwi
 
     Notes
     -----
-    Wind is taken along the road only; crosswind drag increase is not modelled.
+    Wind is taken along the road only; the rise of the drag coefficient with yaw angle
+    in a crosswind is not modelled. Averaged over directions, a steady wind w adds
+    ½ρC_dA·w²/2 at speeds above w (its along-road component w·cos φ averages out and
+    its square averages to w²/2), instead of the ½ρC_dA·(2vw + w²) of a headwind on
+    every leg. For |u| < 1 (the truck slower than the wind) f is the exact integral
+    (2/π)·[arcsin(u)(u² + ½) + 1.5·u·√(1 − u²)], continuous with u² + ½ at u = 1.
 
     Examples
     --------
@@ -372,7 +424,9 @@ def aerodynamic_force(speed, air_density, drag_coefficient, frontal_area, headwi
     _check_nonnegative("drag_coefficient", drag_coefficient)
     _check_nonnegative("frontal_area", frontal_area)
     _check_positive("air_density", rho)
-    return restore(_aero_force(v, rho, float(drag_coefficient), float(frontal_area), w))
+    _check_nonnegative("wind_averaged", wind_averaged)
+    return restore(_aero_force(v, rho, float(drag_coefficient), float(frontal_area), w,
+                               float(wind_averaged)))
 
 
 def rolling_force(speed, mass, grade, crr, crr_speed=0.0):
@@ -636,7 +690,7 @@ def _interval_forces(speed, grade, dt, mass, vehicle, leg_starts):
     vm, a = _mean_speed_accel(v[:-1], v[1:], float(dt))
     cos, sin = _cos_sin(s[:-1])
     f_aero = _aero_force(vm, vehicle.air_density, vehicle.drag_coefficient,
-                         vehicle.frontal_area, vehicle.headwind)
+                         vehicle.frontal_area, vehicle.headwind, vehicle.wind_averaged)
     f_roll = _rolling_force(vm, m, cos, vehicle.crr, vehicle.crr_speed)
     f_grade = _grade_force(m, sin)
     f_inertia = _inertia_force(m, a, vehicle.rotating_mass_factor)
@@ -748,7 +802,7 @@ def _steady_speed_one(power, grade, mass, veh):
     def surplus(v):  # road power needed at v minus the power available
         return v * _resistance_force(v, mass, cos, sin, veh.air_density,
                                      veh.drag_coefficient, veh.frontal_area, veh.headwind,
-                                     veh.crr, veh.crr_speed) - power
+                                     veh.crr, veh.crr_speed, veh.wind_averaged) - power
 
     if veh.drag_coefficient * veh.frontal_area == 0.0 and veh.crr_speed == 0.0:
         f0 = _resistance_force(0.0, mass, cos, sin, veh.air_density, 0.0, 0.0, 0.0,

@@ -22,7 +22,8 @@ page_size = "A4"                         # A4 | Letter
 [ambient]
 temperature = 12        # [degC] drives air density and cabin heating/cooling
 altitude = 0            # [m] start elevation of synthetic routes
-headwind = 0            # [km/h] mean headwind (negative: tailwind)
+headwind = 0            # [km/h] wind speed (negative: tailwind with wind_treatment = "headwind")
+wind_treatment = "average_over_directions"   # or "headwind": against the truck on every leg
 
 [route]
 trips_per_day = 1       # trips per operating day

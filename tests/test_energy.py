@@ -252,3 +252,18 @@ def test_parked_idle_share_one_idles_the_whole_dwell(tmp_path):
     off = write_dwell_case(tmp_path, 0.0).trucks["D"].summary
     assert on["fuel_volume"] - off["fuel_volume"] == pytest.approx(
         2400 * 2.42e-3 / 3600, rel=1e-9)
+
+
+@pytest.mark.parametrize("treatment", ["average_over_directions", "headwind"])
+def test_wind_treatment_through_the_pipeline(tmp_path, treatment):
+    # 22 m/s on the flat in a 5 m/s wind (18 km/h), by hand: a headwind on every leg
+    # makes the air speed 27 m/s; averaged over all directions the drag is
+    # ½ρCdA·(v² + w²/2). Air: 1976 standard atmosphere at 0 m, 15 °C (fluids).
+    loaded = write_case(tmp_path)
+    loaded.scenario.ambient.headwind = 5.0
+    loaded.scenario.ambient.wind_treatment = treatment
+    d = evaluate(loaded).trucks["D"].summary
+    rho = ATMOSPHERE_1976(0.0).rho
+    v2 = (V + 5.0) ** 2 if treatment == "headwind" else V**2 + 12.5
+    assert d["wheel_energy"]["aerodynamic"] == pytest.approx(
+        0.5 * rho * CD * AREA * v2 * V * (N - 1), rel=1e-6)

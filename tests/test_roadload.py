@@ -104,6 +104,36 @@ def test_aerodynamic_force_with_wind():
     assert rl.aerodynamic_force(2.0, 1.2, 0.6, 10.0, headwind=-5.0) == pytest.approx(-32.4)
 
 
+@pytest.mark.parametrize("v, w, head", [(25.0, 5.0, 0.0), (3.0, 5.0, 0.0), (5.0, 5.0, 0.0),
+                                         (0.0, 5.0, 0.0), (10.0, 4.0, -13.0),
+                                         (22.0, 1.4, 2.0)])
+def test_aerodynamic_force_averaged_over_directions_matches_quadrature(v, w, head):
+    # Independent reference: the mean over an evenly spread wind direction φ of
+    # ½ρCdA·x|x|, x = v + v_w + w·cos φ, integrated numerically by scipy.integrate.quad.
+    from scipy.integrate import quad
+
+    k = 0.5 * 1.2 * 0.6 * 10.0
+    mean, _ = quad(lambda phi: (v + head + w * np.cos(phi)) * abs(v + head + w * np.cos(phi)),
+                   0.0, 2 * np.pi, epsabs=1e-12, limit=200)
+    expected = k * mean / (2 * np.pi)
+    got = rl.aerodynamic_force(v, 1.2, 0.6, 10.0, headwind=head, wind_averaged=w)
+    assert got == pytest.approx(expected, rel=1e-9, abs=1e-9)
+    if abs(v + head) >= w:  # hand form above the wind speed: ½ρCdA·(x² + w²/2)
+        x = v + head
+        assert got == pytest.approx(np.sign(x) * k * (x * x + w * w / 2), rel=1e-12)
+
+
+def test_averaged_wind_cancels_over_a_round_trip_but_a_headwind_does_not():
+    # Out and back at 80 km/h in a 5 km/h wind, by hand: a headwind on both legs costs
+    # (v+w)² against v² (+13 %); averaged over directions it costs v² + w²/2 (+0.2 %).
+    v, w = 80 / 3.6, 5 / 3.6
+    still = rl.aerodynamic_force(v, 1.2, 0.6, 10.0)
+    head = rl.aerodynamic_force(v, 1.2, 0.6, 10.0, headwind=w)
+    avg = rl.aerodynamic_force(v, 1.2, 0.6, 10.0, wind_averaged=w)
+    assert head / still == pytest.approx((85 / 80) ** 2, rel=1e-12)      # 1.1289
+    assert avg / still == pytest.approx(1 + 0.5 * (5 / 80) ** 2, rel=1e-12)  # 1.00195
+
+
 def test_inertia_force():
     assert rl.inertia_force(40000.0, 0.5, 1.05) == pytest.approx(21000.0)
 
@@ -213,20 +243,35 @@ def test_inertia_and_grade_work_are_exact():
 
 
 @settings(max_examples=60, deadline=None)
-@given(st.integers(2, 60), st.integers(0, 2**32 - 1))
-def test_energy_identity(n, seed):
-    # Conservation identity: traction − braking = sum of the components.
+@given(st.integers(2, 60), st.integers(0, 2**32 - 1), st.floats(-6.0, 6.0))
+def test_wheel_energy_balance_by_hand(n, seed, wind):
+    # Work–energy theorem, written out here with trigonometry (θ = arctan s) instead of
+    # the module's algebraic cos/sin, and without its force helpers: the net wheel work
+    # (traction − braking) is the change of kinetic energy (with the rotating-mass
+    # factor) plus the work against gravity, rolling resistance and air. Each interval
+    # runs at its mean speed v̄ = (v_i + v_{i+1})/2 for dt, covering v̄·dt.
     rng = np.random.default_rng(seed)
     v = rng.uniform(0, 35, n)
     s = rng.normal(0, 0.05, n)
-    e = rl.energy_components(v, s, 1.0, rng.uniform(5e3, 5e4), VEH)
-    parts = sum(e[k] for k in ("aerodynamic_energy", "rolling_energy", "climbing_energy",
-                               "descending_energy", "acceleration_energy",
-                               "deceleration_energy"))
-    scale = sum(abs(e[k]) for k in rl.ENERGY_KEYS[2:])
-    assert e["traction_energy"] - e["braking_energy"] == pytest.approx(parts, abs=1e-12 * scale)
-    assert e["descending_energy"] <= 0 <= e["climbing_energy"]
-    assert e["braking_energy"] >= 0 and e["deceleration_energy"] <= 0
+    m = rng.uniform(5e3, 5e4)
+    veh = VEH._replace(headwind=wind)
+    e = rl.energy_components(v, s, 1.0, m, veh)
+    vm = 0.5 * (v[:-1] + v[1:])
+    d = vm * 1.0
+    theta = np.arctan(s[:-1])
+    air = vm + wind
+    kinetic = veh.rotating_mass_factor * m * (v[-1] ** 2 - v[0] ** 2) / 2
+    gravity = np.sum(m * 9.80665 * np.sin(theta) * d)
+    rolling = np.sum((veh.crr + veh.crr_speed * vm) * m * 9.80665 * np.cos(theta) * d)
+    aero = np.sum(0.5 * veh.air_density * veh.drag_coefficient * veh.frontal_area
+                  * air * np.abs(air) * d)
+    scale = abs(kinetic) + abs(gravity) + rolling + abs(aero) + 1.0
+    assert e["traction_energy"] - e["braking_energy"] == pytest.approx(
+        kinetic + gravity + rolling + aero, abs=1e-9 * scale)
+    assert e["rolling_energy"] == pytest.approx(rolling, rel=1e-12, abs=1e-9)
+    assert e["aerodynamic_energy"] == pytest.approx(aero, rel=1e-12, abs=1e-9 * scale)
+    assert e["climbing_energy"] + e["descending_energy"] == pytest.approx(
+        gravity, abs=1e-9 * scale)
 
 
 def test_wheel_power_series_and_legs():

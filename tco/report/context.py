@@ -707,7 +707,9 @@ def _financing_table(cashflow: dict, cur: str) -> dict | None:
 METHOD_NOTES = [
     ("Road load", "Wheel force on each time step from aerodynamic drag (air density from "
      "the 1976 standard atmosphere at the trip's mean elevation and the ambient "
-     "temperature), rolling resistance, grade with the exact slope angle, and inertia with "
+     "temperature; by default the wind's direction is averaged over all directions, "
+     "adding ½ρC_dA·w²/2, or with ambient.wind_treatment = \"headwind\" it blows against "
+     "the truck on every leg), rolling resistance, grade with the exact slope angle, and inertia with "
      "an equivalent rotating-mass factor. Speeds are averaged over each step, so kinetic "
      "and potential energy balance exactly.",
      "F = ½ρC_dA(v+v_w)|v+v_w| + C_rr m g cosθ + m g sinθ + f_r m a",

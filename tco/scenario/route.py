@@ -78,8 +78,19 @@ class Ambient(Section):
         "traces bring their own elevation)", ASSUMPTION
     )
     headwind: Qty("km/h", ge=-100, le=100) = qfield(
-        0.0, "km/h", "Mean headwind along the direction of travel (negative: tailwind)",
+        0.0, "km/h", "Wind speed. With wind_treatment 'average_over_directions' (default) "
+        "its direction relative to the truck is averaged over all directions, as over "
+        "the changing headings of a trip; with 'headwind' it blows against the truck on "
+        "every leg (negative: tailwind)",
         ASSUMPTION + " (still air)"
+    )
+    wind_treatment: Literal["average_over_directions", "headwind"] = mfield(
+        "average_over_directions", "", "How the wind acts on the truck: averaged over all "
+        "directions (a steady wind largely cancels over a round trip; adds ½ρC_dA·w²/2 "
+        "to the drag) or as a headwind on every leg (the worst case)",
+        "common practice (from memory): direction-averaged wind for a route with changing "
+        "headings "
+        "(the wind-averaged drag idea of SAE J1252, without its yaw correction)"
     )
 
 
