@@ -54,9 +54,10 @@ Conventions
 
 After-tax view (``finance.after_tax.enabled``): tax effects fall in the year of the flow
 (the business is assumed to have enough taxable profit). Deductible: energy, running
-costs, lease payments, depot maintenance and battery replacements (expensed). Loan
-interest gives its own shield. The truck's basis (price + taxes and fees − grant, or a
-lease buy-out) is depreciated by the chosen method from the year after purchase; depot
+costs, lease payments and depot maintenance. Loan interest gives its own shield. The
+truck's basis (price + taxes and fees − grant, or a lease buy-out) is depreciated by the
+chosen method from the year after purchase, and so is each battery replacement (a
+capitalised component) from the year after it is fitted; depot
 equipment (with the grid connection) straight-line over its life. At the end of the
 period, and when charger hardware ends its life, assets are treated as sold at their
 residual value: the gain over the remaining tax book value is taxed (a loss saves tax).
@@ -166,7 +167,8 @@ LINES: tuple[LineSpec, ...] = (
     LineSpec("charging_driver_time", "Driver time lost at en-route chargers", "running", True),
     LineSpec("extra_trips_driver_time", "Driver time of the extra trips caused by lower "
              "payload", "running", True),
-    LineSpec("battery_replacement", "Traction battery replacement", "battery", True),
+    LineSpec("battery_replacement", "Traction battery replacement (capitalised and "
+             "depreciated for tax)", "battery"),
     LineSpec("battery_remaining_life", "Unused life of a replacement battery at the end "
              "(negative)", "end"),
     LineSpec("residual_value", "Residual value of the truck at the end (negative)", "end"),
@@ -1190,10 +1192,13 @@ class _Context:
             driver, self.q(i, "extra_trips") * self.q(i, "trip_duration") * wage)
 
         # battery -------------------------------------------------------------------------
-        L.update(self._battery(i, t, c, op))
+        battery = self._battery(i, t, c, op)
+        L.update(battery)
 
         # taxes ---------------------------------------------------------------------------
         if inputs.finance.after_tax.enabled:
+            if "battery_replacement" in battery:  # capitalised: depreciated like the truck
+                assets += self._replacement_assets(_dense(battery["battery_replacement"]))
             L.update(self._taxes(L, interest, assets))
         return L
 
@@ -1283,6 +1288,18 @@ class _Context:
                 f"after the {N}-year period: no replacement counted")
         if credit_on:
             out["battery_remaining_life"] = _Outer(self.eN, -credit)
+        return out
+
+    def _replacement_assets(self, cost: np.ndarray) -> list:
+        """Each year's battery replacements as an asset for tax depreciation: placed in
+        service in that year, depreciated with the truck's schedule from the next."""
+        cost = np.asarray(cost, dtype=float)
+        out = []
+        for yr in range(1, self.N + 1):
+            row = cost[yr]
+            if np.any(row != 0):
+                out.append((row if row.size > 1 else float(row[0]), yr,
+                            self._tax_fractions()))
         return out
 
     def _taxes(self, L: _Lines, interest, assets: list) -> dict:

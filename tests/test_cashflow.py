@@ -876,3 +876,29 @@ def test_leased_truck_without_price_is_refused_in_the_unlevered_view():
     f = Finance(valuation="as_financed")
     res = evaluate(two_trucks(finance=f, e_costs=e), break_evens=False)
     assert res.financing.trucks == []
+
+
+def test_battery_replacement_capitalised_and_depreciated_for_tax():
+    """A battery replaced at the end of year 4 for 60,000 (no escalation), tax 25 %,
+    straight line over 5 years: it is not deducted in year 4 (capitalised) but depreciated
+    12,000 a year in years 5..8, a shield of 3,000 a year; at year 8 it has 60,000 − 4 ×
+    12,000 = 12,000 of book value left. Its unused life credited at year 8,
+    1 − (8 − 4)/4 = 0 here, so the sale is a loss of 12,000, saving 3,000 of tax
+    (common practice: a replaced major component is capitalised; hand)."""
+    f = Finance(analysis_years=8, discount_rate=0.07,
+                after_tax=dict(enabled=True, tax_rate=0.25, depreciation="straight_line",
+                               depreciation_years=5))
+    e = TruckCosts(purchase_price=200_000, battery_replacement=dict(when="year", year=4,
+                                                                    cost=60_000))
+    d = TruckCosts(purchase_price=200_000)
+    with_b = compute(two_trucks(finance=f, e_costs=e)).lines[1]
+    without = compute(two_trucks(finance=f, e_costs=d)).lines[1]
+    assert with_b["battery_replacement"][4] == pytest.approx(60_000)
+    # the operating shield does not include the battery
+    np.testing.assert_allclose(with_b["tax_shield_operating"],
+                               without["tax_shield_operating"], atol=1e-9)
+    extra = with_b["tax_shield_depreciation"] - without["tax_shield_depreciation"]
+    np.testing.assert_allclose(extra, [0, 0, 0, 0, 0, -3_000, -3_000, -3_000, -3_000],
+                               atol=1e-9)
+    sale = with_b["tax_on_sale"] - without["tax_on_sale"]
+    assert sale[8] == pytest.approx(-0.25 * 12_000)

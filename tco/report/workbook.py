@@ -869,10 +869,10 @@ class _Book:
                 return "0*tax_rate", False
             return f"-tax_rate*IF({y}>=1,{col}{rows['loan_interest']},0)", False
         if line == "tax_shield_depreciation":
-            return f"-tax_rate*({self._depreciation(i, y)})", True
+            return f"-tax_rate*({self._depreciation(i, y, rows)})", True
         if line == "tax_on_sale":
             cells = "+".join(f"{col}{r}" for name, r in rows.items() if name in self._proceeds)
-            return (f"tax_rate*(-({cells or 0})-IF({y}={N},{self._book_left(i)},0)"
+            return (f"tax_rate*(-({cells or 0})-IF({y}={N},{self._book_left(i, rows)},0)"
                     f"{self._defl(y)})"), False
         raise KeyError(line)
 
@@ -920,20 +920,30 @@ class _Book:
         return (f"((depot_chargers*depot_hardware_cost+depot_chargers*depot_installation_cost)"
                 f"*{GE}^({t})+IF({t}=0,depot_grid_connection_cost,0))/depot_trucks_served")
 
-    def _depreciation(self, i: int, y: str) -> str:
+    def _replacements(self, rows: dict) -> list[tuple[str, str]]:
+        """Battery replacements as tax assets (capitalised, depreciated like the truck):
+        (nominal cost of year t's replacements, t), read from the battery row."""
+        if "battery_replacement" not in rows:
+            return []
+        r = rows["battery_replacement"]
+        inflate = (lambda t: f"*(1+inflation)^{t}") if self.real else (lambda t: "")
+        return [(f"{_col(_FIRST_COL + t)}${r}{inflate(t)}", str(t))
+                for t in range(1, self.N + 1)]
+
+    def _depreciation(self, i: int, y: str, rows: dict | None = None) -> str:
         parts = []
         fr, n = "tax_depreciation_fractions", "COUNT(tax_depreciation_fractions)"
-        for basis, s in self._assets(i):
+        for basis, s in self._assets(i) + self._replacements(rows or {}):
             parts.append(f"IF(AND({y}>{s},{y}-{s}<={n}),{basis}*INDEX({fr},{y}-{s}),0)")
         if "depot_chargers" in self.lines[i]:
             t = f"depot_life*INT(({y}-1)/depot_life)"
             parts.append(f"IF({y}>=1,{self._depot_basis(t)}/depot_life,0)")
         return "+".join(parts) or "0"
 
-    def _book_left(self, i: int) -> str:
+    def _book_left(self, i: int, rows: dict | None = None) -> str:
         N = "analysis_years"
         parts = []
-        for basis, s in self._assets(i):
+        for basis, s in self._assets(i) + self._replacements(rows or {}):
             parts.append(f"{basis}*(1-SUMIF(tax_depreciation_years,\"<=\"&({N}-{s}),"
                          f"tax_depreciation_fractions))")
         if "depot_chargers" in self.lines[i]:
@@ -1383,7 +1393,8 @@ class _Book:
         if line == "tax_shield_operating":
             return "−tax rate × the deductible lines above"
         if line == "tax_shield_depreciation":
-            return "depreciation fractions from the Inputs sheet"
+            return ("depreciation fractions from the Inputs sheet (the truck and each battery "
+                    "replacement, capitalised)")
         if line == "tax_on_sale":
             return "tax rate × (end proceeds − tax book value left)"
         return ""

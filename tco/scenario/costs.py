@@ -118,8 +118,10 @@ class AfterTax(Section):
     )
     macrs_class: Literal[3, 5, 7] = mfield(3, "yr", "MACRS GDS property class", IRS_PUB_946_B1)
     deduct_operating_costs: bool = mfield(
-        True, "", "Operating costs, lease payments and battery replacements are deductible "
-        "in the year paid", "common practice: ordinary business expenses are deductible"
+        True, "", "Operating costs and lease payments are deductible in the year paid "
+        "(battery replacements are capitalised and depreciated with the truck's schedule)",
+        "common practice: ordinary business expenses are deductible; a major component "
+        "replaced is a capital expense (IRS Publication 946, from memory)"
     )
 
 
