@@ -24,7 +24,7 @@ import math
 import numpy as np
 import pandas as pd
 
-from tco import dutycycle, electric, kernel, operation, roadload
+from tco import dutycycle, electric, kernel, operation, powerlimit, roadload
 from tco.diesel import DieselPowertrain
 from tco.electric import ElectricPowertrain
 from tco.operation import AnnualOperation
@@ -119,15 +119,21 @@ def simulate(truck, scenario, trip: pd.DataFrame) -> TruckResult:
     TruckResult
     """
     route, ambient = scenario.route, scenario.ambient
-    day, n_trips = operating_day(trip, route.trips_per_day)
     n_legs = len(route.legs)
     requested, carried, capacity = leg_payloads(scenario, truck)
-    starts = dutycycle.leg_starts(day)
-    leg_mass = truck.body.curb_mass + np.tile(carried, n_trips)[: len(starts)]
-    veh = vehicle_parameters(truck, ambient, float(day["elevation"].mean()))
+    veh = vehicle_parameters(truck, ambient, float(trip["elevation"].mean()))
     is_e = truck.powertrain == "electric"
     die = diesel_parameters(truck.diesel) if not is_e else NO_DIESEL
     ele = electric_parameters(truck.electric, ambient.temperature) if is_e else NO_ELECTRIC
+    slowed = {"time_added": 0.0, "slowed_distance": 0.0, "speed_deficit_max": 0.0}
+    if getattr(route, "slow_when_power_limited", True):
+        trip_legs = dutycycle.leg_starts(trip)
+        trip_mass = truck.body.curb_mass + np.resize(carried, len(trip_legs))
+        limit = ele.motor_power if is_e else die.rated_wheel_power
+        trip, slowed = powerlimit.slow_trace(trip, trip_mass, veh, limit, route.max_accel)
+    day, n_trips = operating_day(trip, route.trips_per_day)
+    starts = dutycycle.leg_starts(day)
+    leg_mass = truck.body.curb_mass + np.tile(carried, n_trips)[: len(starts)]
     speed = day["speed"].to_numpy(dtype=float)
     grade = day["grade"].to_numpy(dtype=float)
     run = kernel.run_trace(speed, grade, route.time_step, starts, leg_mass, veh, die, ele,
@@ -159,6 +165,7 @@ def simulate(truck, scenario, trip: pd.DataFrame) -> TruckResult:
         "trips_simulated": n_trips,
         "trip_distance": trip_distance,
         "trip_duration": trip_duration,
+        "power_limit_slowing": slowed,
         "day_distance": tot["distance"],
         "day_duration": tot["duration"],
         "payload_capacity": capacity,
@@ -214,7 +221,7 @@ def simulate(truck, scenario, trip: pd.DataFrame) -> TruckResult:
             "engine_energy": tot["diesel_engine_energy"] / n_trips,
             "fuel_per_distance": fuel_trip / trip_distance,
         })
-        feas["power"] = _power_limit(tot, "diesel", "engine", truck.name, warnings)
+        feas["power"] = _power_limit(tot, "diesel", "engine", truck.name, warnings, slowed)
         op = AnnualOperation(
             truck=truck.name, powertrain="diesel", operating_days=annual_days, trips=trips,
             extra_trips=x_trips, distance=trips * trip_distance,
@@ -328,11 +335,23 @@ def _leg_distances(trip: pd.DataFrame, n_legs: int) -> np.ndarray:
     return out
 
 
-def _power_limit(tot, prefix: str, what: str, name: str, warnings: list[str]) -> dict:
+def _power_limit(tot, prefix: str, what: str, name: str, warnings: list[str],
+                 slowed: dict | None = None) -> dict:
     t = tot[f"{prefix}_limited_time"]
     info = {"ok": t <= 0, "limited_time": t, "limited_distance": tot[f"{prefix}_limited_distance"],
             "speed_deficit_max": tot[f"{prefix}_speed_deficit_max"],
             "speed_deficit_mean": tot[f"{prefix}_speed_deficit_mean"]}
+    if slowed and slowed["time_added"] > 0:
+        info.update({"ok": True, "slowed_time_added": slowed["time_added"],
+                     "slowed_distance": slowed["slowed_distance"],
+                     "slowed_speed_deficit_max": slowed["speed_deficit_max"]})
+        info["text"] = (
+            f"{name}: where the cycle asks for more than the rated {what} power the truck "
+            f"slows to the speed its power holds (up to "
+            f"{slowed['speed_deficit_max'] * 3.6:.0f} km/h below the trace over "
+            f"{slowed['slowed_distance'] / 1000:.2f} km); each trip takes "
+            f"{slowed['time_added'] / 60:.1f} min longer, counted in its time and energy.")
+        return info
     if t > 0 and info["speed_deficit_max"] * 3.6 >= 1.0:
         info["text"] = (
             f"{name}: the cycle asks for more than the rated {what} power for {t:.0f} s "
@@ -369,7 +388,8 @@ def _electric_day(truck, scenario, tot, n_trips, summary, feas, warnings, ele) -
         "usable_capacity_eol": cap_eol, "aux_power": ele.aux_power,
         "battery_per_distance": net_day / tot["distance"] if tot["distance"] else 0.0,
     })
-    feas["power"] = _power_limit(tot, "electric", "motor", truck.name, warnings)
+    feas["power"] = _power_limit(tot, "electric", "motor", truck.name, warnings,
+                                 summary.get("power_limit_slowing"))
 
     verdicts = {}
     for label, cap in (("new", cap_new), ("end_of_life", cap_eol)):

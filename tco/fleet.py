@@ -453,7 +453,8 @@ def route_status(e: RouteEnergy, shortfall: float = 0.0) -> dict:
     away = (r.arrive - r.depart) % depot_model.DAY if r.arrive is not None and \
         r.depart is not None else depot_model.DAY
     away = away or depot_model.DAY
-    driving = e.trips_per_day * e.trip_duration
+    # the candidate's own trip: a power-limited truck is slowed on climbs (tco.powerlimit)
+    driving = e.trips_per_day * float(e.summaries[cand].get("trip_duration", e.trip_duration))
     enroute = bat["new"]["enroute_time"] if bat and not ok_battery else 0.0
     if driving + enroute > away * (1 + 1e-9):
         ok_enroute = ok_battery = False

@@ -267,3 +267,23 @@ def test_wind_treatment_through_the_pipeline(tmp_path, treatment):
     v2 = (V + 5.0) ** 2 if treatment == "headwind" else V**2 + 12.5
     assert d["wheel_energy"]["aerodynamic"] == pytest.approx(
         0.5 * rho * CD * AREA * v2 * V * (N - 1), rel=1e-6)
+
+
+def test_power_limited_climb_is_slowed_and_the_fuel_follows(tmp_path):
+    # 22 m/s up 5 % with a 250 kW engine: the trace asks for about 470 kW at the wheel,
+    # so the engine runs at rated power throughout. Constant BSFC 200 g/kWh: the fuel is
+    # 200 g/kWh × 250 kW × the time driven. Capped at the trace speed the truck would take
+    # 1800 s; slowed, the trip lasts longer and every added second burns rated fuel.
+    loaded = write_case(tmp_path, grade_percent=5.0)
+    loaded.scenario.trucks[0].diesel.engine_power = 250e3
+    slowed = evaluate(loaded).trucks["D"].summary
+    loaded.scenario.route.slow_when_power_limited = False
+    capped = evaluate(loaded).trucks["D"].summary
+    bsfc = 200e-3 / 3.6e6  # kg/J
+    assert capped["trip_duration"] == pytest.approx(N, abs=1e-9)
+    assert capped["fuel_volume"] == pytest.approx(bsfc * 250e3 * (N - 1) / 832.0, rel=1e-9)
+    added = slowed["trip_duration"] - capped["trip_duration"]
+    assert added > 600  # about 470/250 of the time: a much slower climb
+    assert slowed["fuel_volume"] - capped["fuel_volume"] == pytest.approx(
+        bsfc * 250e3 * added / 832.0, rel=2e-3)
+    assert slowed["trip_distance"] == pytest.approx(capped["trip_distance"], rel=1e-3)

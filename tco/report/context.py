@@ -719,8 +719,9 @@ METHOD_NOTES = [
      "fuel follows the Willans line (or a constant BSFC). Fuel is cut on overrun; idling "
      "burns the idle rate at traffic stops, while a parked truck (loading, unloading) is "
      "switched off except for the parked-idle share (route.parked_idle_share), which also "
-     "sets the electric truck's auxiliaries while parked. Demand above rated power is "
-     "capped and reported.",
+     "sets the electric truck's auxiliaries while parked. Where the trace asks for more than "
+     "rated power the truck slows to the speed its power holds, so the time and fuel of "
+     "the slower climb are counted (route.slow_when_power_limited).",
      "ṁ_f = (P_e + P_0) / (η_m · LHV)",
      r"\dot m_f = \frac{P_e + P_0}{\eta_m \, LHV}"),
     ("Battery and charging", "Battery power is wheel power through the drivetrain plus "

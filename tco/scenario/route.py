@@ -158,6 +158,12 @@ class Route(Section):
         "stops always idle",
         "common practice: trucks are switched off while parked (anti-idling rules)"
     )
+    slow_when_power_limited: bool = mfield(
+        True, "", "Where the trace asks for more power than a truck has, the truck slows to "
+        "the speed its power holds (time and energy follow); false keeps the trace speed "
+        "and caps the power (work the truck cannot do is then not counted)",
+        "first principles: a truck at full power on a climb slows to its steady speed"
+    )
     time_step: Qty("s", gt=0, le=10) = qfield(1.0, "s", "Simulation time step", ASSUMPTION)
     smoothing_window: Qty("m", ge=0, le=5000) = qfield(
         250.0, "m", "Elevation smoothing window for CSV and GPX traces (0 = off)", ASSUMPTION
