@@ -44,11 +44,16 @@ DEFAULT_SLOT = 60.0          # [s] simulation step
 DEFAULT_DEMAND_INTERVAL = 900.0  # [s] common practice: 15-minute demand intervals
 RULES = ("first_come", "spread")
 N_DAYS = 3  # identical days simulated; the middle one (index 1) is the steady state
+#: Days simulated under ``first_come`` while the queue has not settled: a day that starts
+#: with trucks still plugged in from the day before can differ from the first day, so
+#: the simulation is lengthened until two consecutive days draw the same (see
+#: :func:`_first_come_steady`).
+SETTLE_DAYS = (3, 6, 12, 24, 48)
 
 
 @dataclass(frozen=True)
 class DepotSchedule:
-    """The depot's daily charging schedule in steady state (the middle simulated day).
+    """The depot's daily charging schedule in steady state (a settled simulated day).
 
     Attributes
     ----------
@@ -201,6 +206,38 @@ def _first_come(a, stay, need, k, per_slot, n_days, day_slots):
     return drawn, short
 
 
+def _first_come_steady(a, stay, need, k, per_slot, day_slots):
+    """Unmanaged charging on a repeating day, once the queue has settled.
+
+    The first simulated day starts with no truck plugged in; later days start with the
+    stays that run past midnight. The queue can take more than one day to settle (a truck
+    served a minute later each day until the pattern repeats), so days are simulated
+    until two consecutive ones draw the same power in every slot and leave the same
+    shortfalls, and the earlier of the two is returned. Energy is then conserved: what a
+    day's clock window draws equals what that day's arrivals take.
+
+    Returns
+    -------
+    day : numpy.ndarray
+        (trucks, day_slots) energy drawn in each slot of the settled day, past-midnight
+        draws of the day before included. [J]
+    shortfall : numpy.ndarray
+        Energy each truck leaves without on the settled day. [J]
+    """
+    tol = 1e-9 * per_slot  # the rounding bound of _first_come
+    for n_days in SETTLE_DAYS:
+        drawn, short = _first_come(a, stay, need, k, per_slot, n_days, day_slots)
+        r = n_days - 2
+        day = drawn[:, r * day_slots:(r + 1) * day_slots]
+        nxt = drawn[:, (r + 1) * day_slots:(r + 2) * day_slots]
+        if (np.allclose(day, nxt, rtol=0.0, atol=tol)
+                and np.allclose(short[r], short[r + 1], rtol=0.0, atol=tol)):
+            break
+    # not settled after the longest run (a queue that cycles): the last full day is the
+    # best estimate of a long run of days
+    return day, short[r]
+
+
 def _spread(a, stay, need, per_slot, n_days, day_slots):
     """Managed charging: each truck draws need/stay in every slot of its stay."""
     n = len(a)
@@ -286,16 +323,17 @@ def schedule(arrive, depart, energy, charger_power, rule: str = "first_come",
         if chargers is not None and k < k_needed:
             raise ValueError(f"the spread rule needs {k_needed} chargers (one per truck "
                              f"present); {k} given")
+        # periodic from the first day: the middle day is the steady state
+        day = drawn[:, day_slots:2 * day_slots]  # past-midnight draws included
+        shortfall = short[1]
     else:
         if chargers is None:
-            k = _fewest(a, stay, energy, per_slot, n_days, day_slots)
+            k = _fewest(a, stay, energy, per_slot, day_slots)
         else:
             k = int(chargers)
         if k < 0:
             raise ValueError("chargers must be >= 0")
-        drawn, short = _first_come(a, stay, energy, k, per_slot, n_days, day_slots)
-
-    day = drawn[:, day_slots:2 * day_slots]  # the middle day, past-midnight draws included
+        day, shortfall = _first_come_steady(a, stay, energy, k, per_slot, day_slots)
     truck_power = day / slot
     power = truck_power.sum(axis=0)
     per_int = int(demand_interval / slot)
@@ -312,7 +350,6 @@ def schedule(arrive, depart, energy, charger_power, rule: str = "first_come",
     occupied = present if rule == "spread" else day > 0
     occupancy = occupied.sum(axis=1) * slot
     delivered = day.sum(axis=1)
-    shortfall = short[1]
     cost_share = _shares(occupancy)
     demand_share = _shares(contrib)
     hourly = day.reshape(n, 24, -1).sum(axis=2)
@@ -340,7 +377,7 @@ def _shares(x: np.ndarray) -> np.ndarray:
     return np.asarray(x, dtype=float) / total
 
 
-def _fewest(a, stay, need, per_slot, n_days, day_slots) -> int:
+def _fewest(a, stay, need, per_slot, day_slots) -> int:
     """Fewest chargers that serve every truck in full under ``first_come``.
 
     Bisection between a lower bound (energy over a day of one charger) and one charger per
@@ -354,8 +391,7 @@ def _fewest(a, stay, need, per_slot, n_days, day_slots) -> int:
         return 0
 
     def short_total(k):
-        _, short = _first_come(a, stay, need, k, per_slot, n_days, day_slots)
-        return float(short[1].sum())
+        return float(_first_come_steady(a, stay, need, k, per_slot, day_slots)[1].sum())
 
     best = short_total(users)
     lo = max(1, math.ceil(float(need.sum()) / (per_slot * day_slots) - 1e-9))
