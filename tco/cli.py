@@ -98,6 +98,10 @@ def _parser() -> argparse.ArgumentParser:
     init.add_argument("path", nargs="?", default="scenario.toml",
                       help="where to write it (default: scenario.toml)")
     init.add_argument("--force", action="store_true", help="overwrite an existing file")
+    init.add_argument("--xlsx", metavar="NAME.xlsx",
+                      help="write a starter input workbook instead: one row per input with "
+                           "unit, description, source and default; sheets Inputs, Route "
+                           "and Trucks (read it with tco check / tco run NAME.xlsx)")
     return p
 
 
@@ -270,6 +274,8 @@ def _cmd_telematics(args) -> int:
 def _cmd_init(args) -> int:
     from tco.starter import STARTER
 
+    if args.xlsx:
+        return _init_xlsx(Path(args.xlsx), args.force)
     path = Path(args.path)
     if path.exists() and not args.force:
         raise InputError("already exists; use --force to overwrite", file=path)
@@ -277,6 +283,26 @@ def _cmd_init(args) -> int:
 
     try:
         write_text_atomic(path, STARTER)
+    except OSError as exc:
+        raise InputError(f"cannot write: {exc.strerror}", file=path) from None
+    print(f"wrote {path}; edit it, then run: tco check {path} && tco run {path}")
+    return EXIT_OK
+
+
+def _init_xlsx(path: Path, force: bool) -> int:
+    import tomllib
+
+    from tco.scenario import parse_scenario
+    from tco.scenario.xlsx import write_starter_workbook
+    from tco.starter import STARTER
+
+    if path.suffix.lower() != ".xlsx":
+        raise InputError("the starter workbook must be named .xlsx", file=path)
+    if path.exists() and not force:
+        raise InputError("already exists; use --force to overwrite", file=path)
+    raw = tomllib.loads(STARTER)
+    try:
+        write_starter_workbook(path, parse_scenario(raw), raw)
     except OSError as exc:
         raise InputError(f"cannot write: {exc.strerror}", file=path) from None
     print(f"wrote {path}; edit it, then run: tco check {path} && tco run {path}")

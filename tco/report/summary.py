@@ -15,7 +15,7 @@ import numpy as np
 from tco import __version__
 from tco.units import from_si, mpg_us
 
-SCHEMA_VERSION = "1.1"
+SCHEMA_VERSION = "1.2"
 KWH = 3.6e6
 _L = 1e-3
 
@@ -193,7 +193,9 @@ def build_summary(result) -> dict:
         "scenario": {
             "name": s.study.name, "slug": loaded.slug,
             "file": loaded.path.name if loaded.path else None,
-            "fingerprint_sha256": loaded.fingerprint, "currency": s.study.currency,
+            "fingerprint_sha256": loaded.fingerprint,
+            "inputs_fingerprint_sha256": getattr(loaded, "inputs_fingerprint", None),
+            "currency": s.study.currency,
             "units": s.study.units, "start_year": s.study.start_year,
             "analysis_years": s.finance.analysis_years,
         },

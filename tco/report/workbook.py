@@ -730,20 +730,15 @@ class _Book:
                       "(tco.emissions.hour_matching_factor)", _FACTOR)
 
     def _all_fields(self) -> None:
-        ws = self.ws_in
-        self._sec("Every scenario field (for reference; the named rows above are the ones "
-                  "the formulas use)")
-        wbb.header_row(ws, self.row, ["Field", "", "Value", "Unit", "Source"])
-        self.row += 1
-        for r in self.summary.get("assumptions", []):
-            v = r.get("value")
-            safe_text(ws.cell(row=self.row, column=1), r.get("field"))
-            if isinstance(v, (list, tuple, dict)):
-                v = str(v)
-            write_value(ws.cell(row=self.row, column=3), v)
-            safe_text(ws.cell(row=self.row, column=4), r.get("unit"))
-            safe_text(ws.cell(row=self.row, column=5), r.get("source"))
-            self.row += 1
+        """The scenario as run, as a field table ``tco run THIS_WORKBOOK`` reads back."""
+        from tco.scenario.xlsx import field_rows, write_field_table
+
+        self._sec("The scenario as run: every field (empty value: the default). Edit the "
+                  "values here, then rerun the whole model with: tco run THIS_WORKBOOK.xlsx "
+                  "(the named rows above drive this workbook's formulas only)")
+        raw = getattr(getattr(self.result, "loaded", None), "raw", None) or {}
+        self.row = write_field_table(self.ws_in, self.row, field_rows(self.s, raw),
+                                     widths=False, wrap=False)
 
     # ------------------------------------------------------------------------ Cash flow
     def _g(self, esc: str) -> str:

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import difflib
 import hashlib
+import json
 import tomllib
 from pathlib import Path
 from typing import Literal
@@ -94,13 +95,18 @@ class LoadedScenario:
         The TOML as written (for the assumptions table and the fingerprint).
     fingerprint : str
         SHA-256 of the scenario file's bytes and every trace file it uses.
+    inputs_fingerprint : str or None
+        SHA-256 of the parsed inputs and the traces' contents (:func:`inputs_fingerprint`):
+        the same for a TOML file and the workbook made from it.
     """
 
-    def __init__(self, scenario: Scenario, path: Path | None, raw: dict, fingerprint: str):
+    def __init__(self, scenario: Scenario, path: Path | None, raw: dict, fingerprint: str,
+                 inputs_fingerprint: str | None = None):
         self.scenario = scenario
         self.path = path
         self.raw = raw
         self.fingerprint = fingerprint
+        self.inputs_fingerprint = inputs_fingerprint
 
     @property
     def base_dir(self) -> Path:
@@ -159,8 +165,30 @@ def parse_scenario(data: dict, path: Path | None = None) -> Scenario:
         raise InputError(msg, file=path, where=where) from None
 
 
+def inputs_fingerprint(scenario: Scenario, traces: list[bytes]) -> str:
+    """SHA-256 of a scenario's parsed inputs and its traces' contents.
+
+    Unlike the file fingerprint it does not depend on how the inputs were written (TOML
+    or workbook, ``36 t`` or ``36000 kg``, comments, order): it hashes the validated model
+    as canonical JSON (SI values, sorted keys) and then each trace file's bytes.
+
+    Parameters
+    ----------
+    scenario : Scenario
+    traces : list of bytes
+        The trace files the legs name, in leg order.
+    """
+    blob = json.dumps(scenario.model_dump(mode="json"), sort_keys=True,
+                      separators=(",", ":"), ensure_ascii=False).encode("utf-8")
+    h = hashlib.sha256(b"tco-inputs-1\n" + blob)
+    for t in traces:
+        h.update(hashlib.sha256(t).digest())
+    return h.hexdigest()
+
+
 def load_scenario(path: str | Path) -> LoadedScenario:
-    """Read and validate a scenario TOML file.
+    """Read and validate a scenario: a TOML file, or a workbook's field table
+    (:mod:`tco.scenario.xlsx`).
 
     Parameters
     ----------
@@ -177,6 +205,10 @@ def load_scenario(path: str | Path) -> LoadedScenario:
         When the file is missing, is not valid TOML, or a field is wrong.
     """
     path = Path(path)
+    from tco.scenario.xlsx import is_workbook, load_workbook_scenario
+
+    if is_workbook(path):
+        return load_workbook_scenario(path)
     if not path.is_file():
         raise InputError("file not found", file=path)
     blob = path.read_bytes()
@@ -188,11 +220,14 @@ def load_scenario(path: str | Path) -> LoadedScenario:
         raise InputError(f"not valid TOML: {exc}", file=path) from None
     scenario = parse_scenario(raw, path)
     h = hashlib.sha256(blob)
+    traces = []
     for i, leg in enumerate(scenario.route.legs):
         if leg.file:
             trace = (path.parent / leg.file)
             if not trace.is_file():
                 raise InputError(f"trace file '{leg.file}' not found", file=path,
                                  where=f"route.legs[{i}].file")
-            h.update(trace.read_bytes())
-    return LoadedScenario(scenario, path.resolve(), raw, h.hexdigest())
+            traces.append(trace.read_bytes())
+            h.update(traces[-1])
+    return LoadedScenario(scenario, path.resolve(), raw, h.hexdigest(),
+                          inputs_fingerprint(scenario, traces))
