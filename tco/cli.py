@@ -61,6 +61,10 @@ def _parser() -> argparse.ArgumentParser:
     fl.add_argument("--jobs", type=int, help="processes to use (default: every core)")
     fl.add_argument("--out", default="out", help="output folder (default: ./out)")
     fl.add_argument("--json-only", action="store_true", help="write fleet.json only")
+    fl.add_argument("--plan", help="transition plan settings (plan.toml: budget, grid, "
+                    "carbon price, target); default: plan.toml beside the fleet file, if any")
+    fl.add_argument("--no-plan", action="store_true",
+                    help="skip the transition plan even if plan.toml is there")
     fl.add_argument("--quiet", action="store_true", help="print only the output paths")
 
     bt = sub.add_parser("batch", help="run every scenario in a folder (one per client)",
@@ -178,13 +182,19 @@ def _cmd_fleet(args) -> int:
     if not args.base and not base.is_file():
         raise InputError("no base scenario: give --base (or put base.toml beside the fleet "
                          "file)", file=fleet, where="--base")
+    plan_file = None if args.no_plan else Path(args.plan) if args.plan else \
+        (fleet.parent / "plan.toml" if (fleet.parent / "plan.toml").is_file() else None)
     with Steps(quiet=args.quiet) as steps:
         steps.start("reading the fleet")
         loaded = load_scenario(base)
         rows = read_fleet(fleet)
+        settings = None
+        if plan_file is not None:
+            from tco.plan import load_plan_settings
+            settings = load_plan_settings(plan_file)
         check_writable(Path(args.out) / loaded.slug)
         result = evaluate_fleet(loaded, rows, fleet, rule=args.rule, jobs=jobs,
-                                progress=steps)
+                                progress=steps, plan=settings, plan_file=plan_file)
         steps.start("writing outputs")
         from tco.report.fleet_report import write_fleet_outputs
 
@@ -198,6 +208,15 @@ def _cmd_fleet(args) -> int:
         print(f"{len(result.plan)} of {len(result.routes)} routes feasible; the plan {money} "
               f"(present value), avoids {avo:,.0f} t CO2e well-to-wheel, "
               f"needs {plan.chargers} chargers and {plan.peak_power / 1000:,.0f} kW peak")
+        tr = result.transition
+        if tr is not None:
+            sch = tr.schedule
+            n_e = int((sch["decision"] == "electric").sum())
+            print(f"transition plan: {n_e} of {len(sch)} vehicles go electric; present "
+                  f"value {tr.present_value:,.0f} {cur} against {tr.present_value_diesel:,.0f} "
+                  f"{cur} staying diesel")
+            for note in tr.notes[:-1]:
+                print(f"  {note}")
     for f in written:
         print(f)
     return EXIT_OK

@@ -26,6 +26,13 @@ column               required   meaning
                                 depot's charging start hour)
 ``depart``           no         clock time leaving the depot (default: the base depot's
                                 charging end hour)
+``age``              no [yr]    age of the current truck today (transition plan)
+``replacement_year`` no         calendar year the current truck is due to be replaced
+                                (transition plan; default: when it reaches the plan's
+                                service life)
+``resale_value``     no         what the current truck would sell for today, in the base
+                                scenario's currency (default: its price × its residual
+                                share at its age)
 ==================== ========== ===========================================================
 
 The flow: each row becomes a two-truck scenario (current against candidate) and its energy
@@ -34,8 +41,10 @@ to :func:`tco.depot.schedule`, which sizes the shared chargers and peak and sets
 truck's share of the depot costs and its charging hours; then each row's cash flows and
 emissions are computed with that share, and the routes are ranked.
 
-Simplifications (stated in the report): the whole fleet changes over in year 1 (no phased
-roll-out); trucks outside the plan keep their current truck; the depot's charger power and
+Simplifications (stated in the report): the routes table and the electrification order
+compare each route changing over in year 1 (the phased roll-out, year by year under a
+budget, grid and target, is the transition plan of :mod:`tco.plan`, run when plan
+settings are given); trucks outside the plan keep their current truck; the depot's charger power and
 costs are the base scenario's ``[depot]``.
 """
 from __future__ import annotations
@@ -66,8 +75,10 @@ COLUMNS: dict[str, tuple[bool, str | None]] = {
     "vehicle": (True, None), "cycle": (True, None), "current": (True, None),
     "candidate": (True, None), "route": (False, None), "annual_distance": (False, "km"),
     "payload": (False, "t"), "days_per_year": (False, ""), "arrive": (False, None),
-    "depart": (False, None),
+    "depart": (False, None), "age": (False, "yr"), "replacement_year": (False, None),
+    "resale_value": (False, None),
 }
+_YEAR_S = 365.25 * 86400.0  # the unit registry's (Julian) year [s]
 _HEADER = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_ ]*?)\s*(?:\[(.*)\])?\s*$")
 _CLOCK = re.compile(r"^\s*(\d{1,2}):(\d{2})(?::00)?\s*$")  # a workbook time adds ":00"
 
@@ -91,6 +102,12 @@ class FleetRow:
         [1/yr]
     arrive, depart : float or None
         Clock times at the depot. [s after midnight]
+    age : float or None
+        Age of the current truck today (plan years are whole years). [yr]
+    replacement_year : int or None
+        Calendar year the current truck is due to be replaced.
+    resale_value : float or None
+        Value of the current truck if sold today. [currency]
     """
 
     row: int
@@ -104,6 +121,9 @@ class FleetRow:
     days_per_year: float | None = None
     arrive: float | None = None
     depart: float | None = None
+    age: float | None = None
+    replacement_year: int | None = None
+    resale_value: float | None = None
 
 
 # --------------------------------------------------------------------------- reading
@@ -248,6 +268,29 @@ def read_fleet(path: str | Path) -> list[FleetRow]:
             text = cell(name)
             if text:
                 extra[name] = _clock(text, path, f"{where}, {name}")
+        text = cell("age")
+        if text:
+            try:
+                v = to_si(float(text), cols["age"][1]) if _is_number(text) else \
+                    to_si(text, cols["age"][1])
+            except (UnitError, ValueError) as exc:
+                raise InputError(str(exc), file=path, where=f"{where}, age") from None
+            if not math.isfinite(v) or v < 0:
+                raise InputError("must be ≥ 0", file=path, where=f"{where}, age")
+            extra["age"] = v / _YEAR_S
+        text = cell("replacement_year")
+        if text:
+            if not re.fullmatch(r"\d{4}(\.0)?", text):
+                raise InputError(f"'{text}' is not a calendar year", file=path,
+                                 where=f"{where}, replacement_year")
+            extra["replacement_year"] = int(float(text))
+        text = cell("resale_value")
+        if text:
+            v = float(text) if _is_number(text) else math.nan
+            if not math.isfinite(v) or v < 0:
+                raise InputError(f"'{text}' is not an amount ≥ 0", file=path,
+                                 where=f"{where}, resale_value")
+            extra["resale_value"] = v
         out.append(FleetRow(row=line, vehicle=vid, cycle=cyc.resolve(),
                             current=vals["current"], candidate=vals["candidate"],
                             route=cell("route"), **extra))
@@ -509,6 +552,7 @@ class RouteMoney:
     abatement_cost: float | None
     ttw_t: dict
     wtw_t: dict
+    plan_flows: dict | None = None  # tco.plan.option_flows, when a plan is asked for
 
 
 def _route_money_task(args) -> RouteMoney:
@@ -516,7 +560,7 @@ def _route_money_task(args) -> RouteMoney:
 
 
 def _route_money(e: RouteEnergy, base: LoadedScenario, ops: list, chargers: int,
-                 served: int) -> RouteMoney:
+                 served: int, plan: bool = False) -> RouteMoney:
     from tco import cashflow, emissions
     from tco.pipeline import cost_inputs, service_years
 
@@ -543,11 +587,16 @@ def _route_money(e: RouteEnergy, base: LoadedScenario, ops: list, chargers: int,
     wtw_t = {t: float(wtw[wtw["truck"] == t]["kg_co2e"].sum() / 1000) for t in (cur, cand)}
     ab = em.abatement.get(cand, {})
     avoided = float(ab.get("tonnes_location", wtw_t[cur] - wtw_t[cand]))
+    flows = None
+    if plan:
+        from tco.plan import option_flows
+        flows = option_flows(inputs, cf, tot)
     return RouteMoney(
         vehicle=e.row.vehicle, present_value=pv, levelized_cost=lc, difference=diff,
         simple_payback=comp.simple_payback_year, irr=comp.irr, yearly_cost=yc,
         yearly_emissions=wtw, avoided_t=avoided,
-        abatement_cost=ab.get("cost_per_tonne_location"), ttw_t=ttw_t, wtw_t=wtw_t)
+        abatement_cost=ab.get("cost_per_tonne_location"), ttw_t=ttw_t, wtw_t=wtw_t,
+        plan_flows=flows)
 
 
 # --------------------------------------------------------------------------- the fleet
@@ -595,6 +644,7 @@ class FleetResult:
     money: list = field(repr=False, default_factory=list)
     warnings: list = field(default_factory=list)
     timings: dict = field(default_factory=dict)
+    transition: object = None  # tco.plan.FleetPlan when plan settings were given
 
     @property
     def currency(self) -> str:
@@ -641,8 +691,8 @@ def _schedule(energies, base, vehicles, rule):
 
 
 def evaluate_fleet(base: LoadedScenario, rows: list[FleetRow], fleet_file: Path,
-                   rule: str | None = None, jobs: int | None = None, progress=None
-                   ) -> FleetResult:
+                   rule: str | None = None, jobs: int | None = None, progress=None,
+                   plan=None, plan_file: Path | None = None) -> FleetResult:
     """Evaluate a fleet: energy per row, shared depot, money and emissions, the order.
 
     Parameters
@@ -659,6 +709,10 @@ def evaluate_fleet(base: LoadedScenario, rows: list[FleetRow], fleet_file: Path,
     jobs : int, optional
         Processes for the energy simulation (default: every core).
     progress : tco.progress.Steps, optional
+    plan : tco.plan.PlanSettings, optional
+        Work out the transition plan (:func:`tco.plan.plan_fleet`) with these settings.
+    plan_file : Path, optional
+        The file the settings came from (named in errors).
 
     Returns
     -------
@@ -672,13 +726,15 @@ def evaluate_fleet(base: LoadedScenario, rows: list[FleetRow], fleet_file: Path,
     jobs = jobs or os.cpu_count() or 1
     pool = _pool(jobs, len(rows))
     try:
-        return _evaluate(base, rows, fleet_file, rule, pool, jobs, steps, timings)
+        return _evaluate(base, rows, fleet_file, rule, pool, jobs, steps, timings, plan,
+                         plan_file)
     finally:
         if pool is not None:
             pool.shutdown(cancel_futures=True)
 
 
-def _evaluate(base, rows, fleet_file, rule, pool, jobs, steps, timings) -> FleetResult:
+def _evaluate(base, rows, fleet_file, rule, pool, jobs, steps, timings, plan_settings=None,
+              plan_file=None) -> FleetResult:
     import time
 
     t0 = time.perf_counter()
@@ -704,10 +760,12 @@ def _evaluate(base, rows, fleet_file, rule, pool, jobs, steps, timings) -> Fleet
     for k, e in enumerate(energies):
         if k in pos_plan:  # in the plan: its share of the plan's depot
             ops = _with_depot(e.operations, 1, sched_plan, pos_plan[k])
-            work.append((e, base, ops, sched_plan.chargers, len(idx_plan)))
+            work.append((e, base, ops, sched_plan.chargers, len(idx_plan),
+                         plan_settings is not None))
         else:  # outside it: as if every candidate went electric
             ops = _with_depot(e.operations, 1, sched_all, pos_all.get(k))
-            work.append((e, base, ops, sched_all.chargers, len(idx_all)))
+            work.append((e, base, ops, sched_all.chargers, len(idx_all),
+                         plan_settings is not None))
     money = _map(_route_money_task, work, pool, jobs)
     timings["money"] = time.perf_counter() - t0
 
@@ -715,13 +773,24 @@ def _evaluate(base, rows, fleet_file, rule, pool, jobs, steps, timings) -> Fleet
     order = _order(routes, energies, base, rule)
     yearly = _yearly(energies, money, set(plan), sched_plan, base)
     warnings = [f"{e.row.vehicle}: {w}" for e in energies for w in e.warnings]
+    transition = None
+    if plan_settings is not None:
+        from tco.plan import plan_fleet
+
+        steps.start("transition plan (mixed-integer programme)")
+        t0 = time.perf_counter()
+        transition = plan_fleet(base, energies, money, routes, sched_plan,
+                                [energies[k].row.vehicle for k in idx_plan], plan_settings,
+                                where=plan_file)
+        timings["plan"] = time.perf_counter() - t0
     return FleetResult(base=base, fleet_file=Path(fleet_file), rule=rule, routes=routes,
                        order=order, yearly=yearly, depot_all=sched_all,
                        depot_plan=sched_plan, plan=plan,
                        depot_all_vehicles=[energies[k].row.vehicle for k in idx_all],
                        depot_plan_vehicles=[energies[k].row.vehicle for k in idx_plan],
                        energies=energies,
-                       money=money, warnings=warnings, timings=timings)
+                       money=money, warnings=warnings, timings=timings,
+                       transition=transition)
 
 
 def _routes_table(energies, status, money, sched_all, sched_plan, pos_all, pos_plan):

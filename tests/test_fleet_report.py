@@ -131,7 +131,7 @@ def test_summary_is_strict_json_with_schema_and_fingerprints(fleet, summary):
     text = dumps(summary)
     back = json.loads(text, parse_constant=_reject)  # NaN / Infinity would raise
     assert back == summary
-    assert summary["schema"] == SCHEMA == "tco.fleet.summary/1"
+    assert summary["schema"] == SCHEMA == "tco.fleet.summary/1.1"
     assert summary["created"] == CREATED
     inputs = summary["inputs"]
     assert inputs["base_fingerprint_sha256"] == fleet.base.fingerprint

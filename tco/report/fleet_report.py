@@ -48,6 +48,7 @@ from tco.report import workbook_base as wbb
 from tco.report.atomic import staged_output
 from tco.report.context import DisplayUnits, fmt_money
 from tco.report.context import fmt_number as _n
+from tco.report.fleet_plan import add_transition_sheets, transition_context
 from tco.report.fleet_summary import (build_fleet_summary, depot_vehicles, dumps,
                                       interval_means, table_interval)
 from tco.report.html import PAGE_SIZES, STYLESHEET, environment
@@ -588,6 +589,7 @@ def build_fleet_context(result, summary: dict) -> dict:
         "routes": _routes_tables(s, u),
         "yearly": _yearly_table(s),
         "depot": _depot_section(result, s),
+        "transition": transition_context(s),
         "warnings": list(s["warnings"]),
         "method_notes": [{"title": t, "text": x, "equation": eq} for t, x, eq in METHOD_NOTES],
         "cautions": list(s["cautions"]),
@@ -692,6 +694,7 @@ class _FleetBook:
         self._yearly(wb.create_sheet(SHEETS[2]))
         self._depot(wb.create_sheet(SHEETS[3]))
         self._notes(wb.create_sheet(SHEETS[4]))
+        add_transition_sheets(wb, self.s)  # the transition plan, when there is one
         # openpyxl stores formulas without results: compute everything on opening.
         wb.calculation = CalcProperties(fullCalcOnLoad=True)
         return wb

@@ -1,6 +1,6 @@
 """``fleet.json``: the machine-readable result of a fleet, with stable key names.
 
-Schema id :data:`SCHEMA` (``"tco.fleet.summary/1"``). Units are in the key names
+Schema id :data:`SCHEMA` (``"tco.fleet.summary/1.1"``; 1.1 added ``transition``). Units are in the key names
 (``_km``, ``_kWh``, ``_kW``, ``_L``, ``_t``, ``_h``); money is in the base scenario's
 ISO 4217 currency (``currency``), present values at the base scenario's discount rate;
 shares are fractions (0.25 = 25 %). NaN and infinity are written as null.
@@ -35,6 +35,11 @@ Top-level keys
 ``routes``, ``order``, ``yearly``
     Records (lists of dicts), see :func:`route_records`, :func:`order_records`,
     :func:`yearly_records`; ``yearly_totals`` holds their sums and present values.
+``transition``
+    The fleet transition plan (null when no plan settings were given): schedule by
+    vehicle and year, capital against budget, chargers, depot peak and grid capacity,
+    emissions by scope against the target, the marginal abatement cost curve and shadow
+    prices; keys in :mod:`tco.report.fleet_plan`.
 ``warnings``, ``cautions``, ``assumptions``
     Plain-word lists; ``assumptions`` lists every input of the base scenario with its
     value (display unit), unit and source.
@@ -50,12 +55,13 @@ import numpy as np
 
 from tco import __version__
 from tco.depot import DEFAULT_DEMAND_INTERVAL
+from tco.report.fleet_plan import transition_summary
 from tco.report.summary import clean_json, dumps
 
 __all__ = ["SCHEMA", "build_fleet_summary", "dumps", "file_sha256", "depot_vehicles",
            "interval_means", "route_records", "order_records", "yearly_records", "clock"]
 
-SCHEMA = "tco.fleet.summary/1"
+SCHEMA = "tco.fleet.summary/1.1"
 J_PER_KWH = 3.6e6
 W_PER_KW = 1e3
 M_PER_KM = 1e3
@@ -402,6 +408,7 @@ def build_fleet_summary(result, created: str | None = None) -> dict:
         "order": order_records(result),
         "yearly": yearly,
         "yearly_totals": _yearly_totals(yearly, s.finance.discount_rate),
+        "transition": transition_summary(result),
         "warnings": list(result.warnings),
         "cautions": cautions(),
         "assumptions": _assumptions(loaded),

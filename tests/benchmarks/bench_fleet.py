@@ -8,6 +8,17 @@ fleet run to a floor measured in the same run: reading the same trace files with
 alone.
 
 Run: python tests/benchmarks/bench_fleet.py [--routes 1000] [--jobs 2] [--keep DIR]
+
+The transition plan (``--plan-only``): the mixed-integer programme of
+:mod:`tco.plan` for ``--routes`` vehicles × ``--years`` plan years (default 1,000 × 10),
+built from invented but plausible option values (seeded): present values, capital in the
+year bought, emissions falling when a vehicle goes electric, charger needs, peak
+contributions, a yearly capital budget, a grid capacity with an upgrade and a Scope 1 + 2
+target. Prints the solve time (target: within 60 s on two cores), the solver's status and
+gap, and the ratio to a floor measured in the same run: the LP relaxation of the same
+programme solved by HiGHS (scipy.optimize.linprog).
+
+Run: python tests/benchmarks/bench_fleet.py --plan-only [--routes 1000] [--years 10]
 """
 from __future__ import annotations
 
@@ -96,12 +107,94 @@ class DescendantPeaks:
                     continue
 
 
+def plan_problem(V: int, N: int, seed: int = 11):
+    """An invented fleet plan of V vehicles and N years (see the module docstring)."""
+    from tco.plan import PlanProblem
+
+    rng = np.random.default_rng(seed)
+    O = N + 1
+    y = np.arange(N)
+    disc = 1.07 ** -np.arange(1, N + 1)
+    diesel_pv = rng.uniform(1.5e5, 7e5, V)
+    gain = rng.normal(0.05, 0.12, V) * diesel_pv        # electric from year 0: saving
+    pv = np.empty((V, O))
+    pv[:, 0] = diesel_pv
+    # later electric: less of the saving, less early resale
+    pv[:, 1:] = diesel_pv[:, None] - gain[:, None] * (1 - y / N)[None, :] ** 1.2
+    price = rng.uniform(1.8e5, 2.7e5, V)
+    repl = rng.integers(0, N + 3, V)                      # due year (past N: not due)
+    capex = np.zeros((V, O, N))
+    for v in range(V):
+        if repl[v] < N:
+            capex[v, 0, repl[v]] = 0.5 * price[v]
+        capex[v, 1 + np.arange(N), y] = price[v]
+    allowed = np.zeros((V, O), dtype=bool)
+    allowed[:, 0] = True
+    feasible = rng.random(V) < 0.85
+    for v in range(V):
+        last = min(repl[v], N - 1)
+        allowed[v, 1:last + 2] = feasible[v]
+    e_d = rng.uniform(40, 160, V)                          # t a year diesel
+    em = np.repeat(e_d[:, None, None], O, axis=1) * np.ones((1, 1, N))
+    for t in range(N):
+        em[:, 1 + t, t:] = (e_d * rng.uniform(0.15, 0.35, V))[:, None] * 0.94 ** y[t:]
+    limit = 0.55 * e_d.sum()
+    return PlanProblem(
+        vehicles=[f"V{v}" for v in range(V)], pv=pv, capex=capex, emissions=em,
+        allowed=allowed, discount=disc, carbon_price=50.0,
+        charger_need=rng.choice([0.25, 0.33, 0.5], V), charger_pv=70_000 * 0.97 ** y,
+        charger_capex=80_000 * np.ones(N), connection_pv=250_000 * 1.07 ** -y,
+        connection_capex=250_000 * np.ones(N), peak=rng.uniform(15, 60, V),
+        grid_capacity=0.35 * 40 * V, upgrade_kw=0.4 * 40 * V,
+        upgrade_pv=1.5e6 * 1.07 ** -y, upgrade_capex=1.5e6 * np.ones(N), upgrade_lead=2,
+        budget=np.full(N, 0.16 * price.sum()), target_limit=limit, target_from=min(6, N))
+
+
+def bench_plan(V: int, N: int, time_limit: float) -> None:
+    from scipy.optimize import linprog
+
+    from tco.plan import _Model, solve
+
+    t0 = time.perf_counter()
+    pb = plan_problem(V, N)
+    t_build = time.perf_counter() - t0
+    m = _Model(pb, elastic=False)
+    lb, ub = m.bounds()
+    fin_hi, fin_lo = np.isfinite(m.hi), np.isfinite(m.lo)
+    from scipy.sparse import vstack
+    t0 = time.perf_counter()
+    lp = linprog(m.cost(), A_ub=vstack([m.A[fin_hi], -m.A[fin_lo]]).tocsr(),
+                 b_ub=np.concatenate([m.hi[fin_hi], -m.lo[fin_lo]]),
+                 bounds=list(zip(lb, ub)), method="highs")
+    t_floor = time.perf_counter() - t0
+    t0 = time.perf_counter()
+    sol = solve(pb, gap=1e-4, time_limit=time_limit, shadow=True)
+    t_solve = time.perf_counter() - t0
+    n_e = int((sol.choice > 0).sum())
+    print(f"plan: {V} vehicles x {N} years ({pb.V * (N + 1)} vehicle-year choices), built "
+          f"in {t_build:.2f} s")
+    print(f"plan solve (HiGHS, mip_rel_gap 1e-4, time limit {time_limit:.0f} s per solve, "
+          f"with what-binds and shadow prices): {t_solve:.1f} s; status {sol.status}; "
+          f"gap {sol.mip_gap:.2e}; target met {sol.target_met}; {n_e} electric; "
+          f"{len(sol.shadow)} shadow-price rows")
+    print(f"floor (LP relaxation, linprog HiGHS, status {lp.status}): {t_floor:.2f} s; "
+          f"ratio plan / floor = {t_solve / t_floor:.1f}")
+
+
 def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--routes", type=int, default=1000)
     ap.add_argument("--jobs", type=int, default=2)
     ap.add_argument("--keep", help="write the data here and keep it")
+    ap.add_argument("--plan-only", action="store_true",
+                    help="benchmark only the transition plan's solve (invented options)")
+    ap.add_argument("--years", type=int, default=10, help="plan years (--plan-only)")
+    ap.add_argument("--time-limit", type=float, default=60.0,
+                    help="seconds per integer solve (--plan-only)")
     args = ap.parse_args()
+    if args.plan_only:
+        bench_plan(args.routes, args.years, args.time_limit)
+        return
 
     from tco.fleet import evaluate_fleet, read_fleet
     from tco.resources import inputs_dir
