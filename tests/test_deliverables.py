@@ -105,3 +105,50 @@ def test_hostile_scenario_text_does_not_leak(tmp_path):
                     assert cell.data_type == "s", (ws.title, cell.coordinate, v)
                     found += 1
     assert found >= 2
+
+
+def _write_marker(path):
+    import os
+
+    path.write_text(str(os.getpid()), encoding="utf-8")
+    return 7
+
+
+def _fail_in_child():
+    from tco.errors import InputError
+
+    raise InputError("bad cell", file="book.xlsx", where="B2")
+
+
+def test_background_job_writes_returns_and_raises(tmp_path):
+    """The workbook's background process: what it writes is there after result(), its
+    value comes back, and an InputError raised in it keeps its message, file and field;
+    discard() waits for it. Without a second chart worker (a batch worker) the job runs
+    in this process when its result is asked for."""
+    from tco.errors import InputError
+    from tco.report import context
+    from tco.report.deliverables import _Background
+
+    import multiprocessing as mp
+    import os
+
+    job = _Background(lambda: _write_marker(tmp_path / "a.txt"))
+    assert job.result() == 7
+    if "fork" in mp.get_all_start_methods() and (os.cpu_count() or 1) > 1:
+        assert (tmp_path / "a.txt").read_text(encoding="utf-8") != str(os.getpid())
+    with pytest.raises(InputError) as err:
+        _Background(_fail_in_child).result()
+    assert (err.value.message, str(err.value.file), err.value.where) == \
+        ("bad cell", "book.xlsx", "B2")
+    other = _Background(lambda: _write_marker(tmp_path / "b.txt"))
+    other.discard()
+    assert (tmp_path / "b.txt").exists()
+    saved = context.CHART_WORKERS
+    try:
+        context.CHART_WORKERS = 1
+        late = _Background(lambda: _write_marker(tmp_path / "c.txt"))
+        assert not (tmp_path / "c.txt").exists()
+        assert late.result() == 7
+        assert (tmp_path / "c.txt").read_text(encoding="utf-8") == str(os.getpid())
+    finally:
+        context.CHART_WORKERS = saved
