@@ -264,13 +264,17 @@ def _run_one(path: Path, loaded, batch_dir: Path, json_only: bool) -> ScenarioOu
                            seconds=time.perf_counter() - t0, **base)
 
 
-def _worker_init(started=None) -> None:
+def _worker_init(started=None, allowed=()) -> None:
     """Set up a worker process: charts drawn in the worker, no pool inside the pool.
 
     ``started`` (a shared counter) counts the workers that came up, so the caller can
-    tell a pool that never started from a scenario that killed its worker.
+    tell a pool that never started from a scenario that killed its worker. ``allowed``:
+    the folders allowed with ``--allow-folder`` (a worker does not inherit them).
     """
     from tco.report import context
+    from tco.scenario.files import allow_folders
+
+    allow_folders(allowed)
 
     context.CHART_WORKERS = 1
     if started is not None:
@@ -308,8 +312,10 @@ def _pool_pass(tasks, workers, batch_dir, json_only, done):
     lost = []
     ctx = _mp_context()
     started = ctx.Value("i", 0)
+    from tco.scenario.files import allowed_folders
+
     pool = ProcessPoolExecutor(workers, mp_context=ctx, initializer=_worker_init,
-                               initargs=(started,))
+                               initargs=(started, tuple(allowed_folders())))
     try:
         futures = {pool.submit(_run_one, path, loaded, batch_dir, json_only): (path, loaded)
                    for path, loaded in tasks}

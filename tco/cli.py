@@ -1,12 +1,14 @@
 """The command line: parse, call, print, exit code. No modelling happens here.
 
 Exit codes: 0 success, 2 bad input (one line naming file, field or row, and the problem),
-1 internal error.
+1 internal error, 130 interrupted (Ctrl-C), 143 terminated (SIGTERM); an interrupted or
+terminated run leaves the previous outputs as they were and removes its staging folder.
 """
 from __future__ import annotations
 
 import argparse
 import os
+import signal
 import sys
 from pathlib import Path
 
@@ -97,6 +99,11 @@ def _parser() -> argparse.ArgumentParser:
     tm.add_argument("--out", default="out", help="output folder (default: ./out)")
     tm.add_argument("--quiet", action="store_true", help="print only the output paths")
 
+    for sp in (run, chk, fl, bt, tm):
+        sp.add_argument("--allow-folder", action="append", default=[], metavar="FOLDER",
+                        help="also read trace, factor and profile files from FOLDER (by "
+                        "default only from the scenario's own folder); repeatable")
+
     init = sub.add_parser("init", help="write a commented starter scenario",
                           description="Write a commented starter scenario to PATH.")
     init.add_argument("path", nargs="?", default="scenario.toml",
@@ -127,9 +134,9 @@ def _cmd_run(args) -> int:
             loaded.scenario.study.page_size = "A4" if args.page_size.lower() == "a4" \
                 else "Letter"
         if args.draws is not None:
-            if args.draws < 0:
-                raise InputError("must be zero or more", where="--draws")
-            loaded.scenario.uncertainty.draws = args.draws
+            from tco.budget import check_draws
+
+            loaded.scenario.uncertainty.draws = check_draws(args.draws, where="--draws")
         from tco.report.atomic import check_writable
 
         check_writable(Path(args.out) / loaded.slug)
@@ -147,16 +154,19 @@ def _cmd_run(args) -> int:
 
 
 def _cmd_check(args) -> int:
-    from tco.pipeline import build_traces
+    from tco.pipeline import validate
     from tco.scenario import load_scenario
+    from tco.text import one_line
 
     loaded = load_scenario(args.scenario)
-    traces = build_traces(loaded)
+    result = validate(loaded)  # every check `tco run` makes
     s = loaded.scenario
-    total = sum(float(t["distance"].iloc[-1]) for t in traces)
-    print(f"{args.scenario}: valid — '{s.study.name}', {len(s.trucks)} trucks "
-          f"({', '.join(t.name for t in s.trucks)}), {len(s.route.legs)} legs, "
-          f"{total / 1000:.1f} km per trip")
+    total = float(result.route["distance"].iloc[-1] - result.route["distance"].iloc[0])
+    print(one_line(f"{args.scenario}: valid — '{s.study.name}', {len(s.trucks)} trucks "
+                   f"({', '.join(t.name for t in s.trucks)}), {len(s.route.legs)} legs, "
+                   f"{total / 1000:.1f} km per trip", limit=None))
+    for w in result.warnings:
+        print(one_line(f"warning: {w}", limit=None))
     return EXIT_OK
 
 
@@ -328,6 +338,14 @@ def _init_xlsx(path: Path, force: bool) -> int:
     return EXIT_OK
 
 
+class Terminated(KeyboardInterrupt):
+    """SIGTERM, raised like Ctrl-C so that every ``finally`` (staging folders) runs."""
+
+
+def _on_sigterm(signum, frame):
+    raise Terminated()
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = _parser()
     args = parser.parse_args(argv)
@@ -338,19 +356,42 @@ def main(argv: list[str] | None = None) -> int:
                "fleet": _cmd_fleet, "batch": _cmd_batch,
                "telematics": _cmd_telematics}[args.command]
     try:
+        previous = signal.signal(signal.SIGTERM, _on_sigterm)
+    except ValueError:  # not the main thread (main() called from a thread): leave it
+        previous = None
+    try:
+        if getattr(args, "allow_folder", None):
+            from tco.scenario.files import allow_folders
+
+            allow_folders(args.allow_folder)
         return handler(args)
     except InputError as exc:
         print(f"tco: error: {exc.line()}", file=sys.stderr)
         return EXIT_INPUT
+    except RecursionError:  # a structure nested deeper than any reader handles
+        print("tco: error: input nested too deeply (tables, arrays or XML elements)",
+              file=sys.stderr)
+        return EXIT_INPUT
+    except Terminated:
+        print("tco: terminated; previous outputs left as they were", file=sys.stderr)
+        return 143
     except KeyboardInterrupt:
         print("tco: interrupted; previous outputs left as they were", file=sys.stderr)
         return 130
     except Exception as exc:  # noqa: BLE001 - the one place internal errors are reported
         if os.environ.get("TCO_DEBUG"):
             raise
-        print(f"tco: internal error: {type(exc).__name__}: {exc} "
-              "(set TCO_DEBUG=1 for a traceback)", file=sys.stderr)
+        from tco.text import one_line
+
+        print(one_line(f"tco: internal error: {type(exc).__name__}: {exc} "
+                       "(set TCO_DEBUG=1 for a traceback)"), file=sys.stderr)
         return EXIT_INTERNAL
+    finally:
+        if previous is not None:
+            signal.signal(signal.SIGTERM, previous)
+        from tco.scenario.files import allow_folders
+
+        allow_folders([])
 
 
 if __name__ == "__main__":

@@ -391,6 +391,9 @@ def _resample_arrays(
         raise InputError(
             f"the trace lasts {span:g} s, less than one time step (dt = {dt:g} s)", where="dt"
         )
+    from tco.budget import check_samples
+
+    check_samples(span / dt + 1, dt, what="this trace")  # before allocating the grid
     n = max(1, int(math.ceil(span / dt - 1e-9)))
     if speed is not None and speed[-1] == 0.0 and n * dt > span:
         # Ends at rest: standing a little longer changes nothing, so pad instead of stretching.
@@ -600,7 +603,9 @@ def _drive(
     lengths = np.diff(knot_s)
     total = float(knot_s[-1] - knot_s[0])
     step = max(step, total / _MAX_FINE_POINTS)
-    cells = np.maximum(1, np.ceil(lengths / step - 1e-9).astype(np.int64))
+    # At least two cells per interval: a stretch shorter than the step between two stops
+    # still has a moving middle (one cell would have zero speed at both ends).
+    cells = np.maximum(2, np.ceil(lengths / step - 1e-9).astype(np.int64))
     first = np.concatenate(([0], np.cumsum(cells)[:-1]))
     j = np.repeat(np.arange(lengths.size), cells)
     i_within = np.arange(j.size) - first[j]
@@ -816,6 +821,19 @@ def from_segments(
 
 
 # ============================================================================ CSV
+#: Fastest speed accepted in a recorded trace: above any truck's governed top speed, with
+#: room for GPS jitter; a faster sample is a broken record (a bad coordinate or clock). [m/s]
+MAX_TRACE_SPEED = 200 / 3.6
+
+
+def _check_trace_speed(v: np.ndarray, where, path) -> None:
+    """Refuse a recorded speed no truck reaches, naming the first such sample."""
+    i = _first_bad(~(v <= MAX_TRACE_SPEED))
+    if i is not None:
+        raise InputError(f"speed {v[i] * 3.6:,.0f} km/h is more than a truck can reach (the "
+                         f"limit is {MAX_TRACE_SPEED * 3.6:.0f} km/h)", file=path,
+                         where=where(i))
+
 _HEADER = re.compile(r"^\s*([A-Za-z_][A-Za-z_ ]*?)\s*(?:\[\s*(.*?)\s*\])?\s*$")
 
 
@@ -828,17 +846,19 @@ def _csv_unit_factor(kind: str, unit_text: str, file: Path, where: str) -> float
     try:
         q = ureg.parse_expression(u)
     except Exception:  # pint raises several unrelated types for an unknown unit
-        raise InputError(f"unknown unit '{unit_text}'", file=file, where=where) from None
+        raise InputError("unknown unit in the column header", file=file, where=where) from None
     expected = ureg.parse_expression(CSV_DEFAULT_UNITS[kind]).dimensionality
     dim = getattr(q, "dimensionality", ureg.parse_expression("dimensionless").dimensionality)
     if dim != expected:
         raise InputError(
-            f"unit '{unit_text}' is not a {_KIND_WORDS[kind]}", file=file, where=where
+            f"the unit in the column header is not a {_KIND_WORDS[kind]}", file=file,
+            where=where
         )
     try:
         return to_si(1.0, u)
     except UnitError as exc:
-        raise InputError(str(exc), file=file, where=where) from None
+        raise InputError("cannot read the unit in the column header", file=file,
+                         where=where) from None
 
 
 def _read_csv_table(path: Path) -> tuple[dict[str, np.ndarray], dict[str, str], np.ndarray, int]:
@@ -879,7 +899,7 @@ def _read_csv_table_any(path: Path, fast):
     except UnicodeDecodeError:
         raise InputError("not a UTF-8 text file", file=path) from None
     except csv.Error as exc:
-        raise InputError(f"cannot read as CSV ({exc})", file=path) from None
+        raise InputError("cannot read as CSV", file=path) from None
     if header is None:
         raise InputError("empty trace: no header and no data", file=path)
     while header and not header[-1].strip():
@@ -895,7 +915,7 @@ def _read_csv_table_any(path: Path, fast):
         name = m.group(1).strip().lower() if m else None
         if name not in CSV_DEFAULT_UNITS:
             raise InputError(
-                f"unknown column '{cell.strip()}'; known columns are time, speed, grade, "
+                "unknown column header; known columns are time, speed, grade, "
                 "elevation, distance (each with an optional [unit])",
                 file=path,
                 where=where,
@@ -903,7 +923,7 @@ def _read_csv_table_any(path: Path, fast):
         if name in texts:
             raise InputError(f"column '{name}' appears twice", file=path, where=where)
         unit = m.group(2) if m.group(2) is not None else CSV_DEFAULT_UNITS[name]
-        where = f"line {header_line}, column '{cell.strip()}'"
+        where = f"line {header_line}, column '{name}'"
         factors.append(_csv_unit_factor(name, unit, path, where))
         names.append(name)
         texts[name] = cell.strip()
@@ -928,16 +948,16 @@ def _read_csv_table_any(path: Path, fast):
                 f"{len(row)} cells but only {ncol} columns", file=path, where=f"line {ln}"
             )
         for c in range(ncol):
-            where = f"line {ln}, column '{texts[names[c]]}'"
+            where = f"line {ln}, column '{names[c]}'"
             text = row[c].strip() if c < len(row) else ""
             if not text:
                 raise InputError("blank cell", file=path, where=where)
             try:
                 value = float(text)
             except ValueError:
-                raise InputError(f"'{text}' is not a number", file=path, where=where) from None
+                raise InputError("not a number", file=path, where=where) from None
             if not math.isfinite(value):
-                raise InputError(f"'{text}' is not a finite number", file=path, where=where)
+                raise InputError("not a finite number", file=path, where=where)
             data[r, c] = value
     columns = {name: data[:, c] * factors[c] for c, name in enumerate(names)}
     return columns, texts, np.array(lines), header_line
@@ -1078,7 +1098,7 @@ def read_csv_trace(
     hwhere = f"line {header_line}"
 
     def cell_where(name: str, i: int) -> str:
-        return f"line {lines[i]}, column '{texts[name]}'"
+        return f"line {lines[i]}, column '{name}'"
 
     def nearest_line(s_rows: np.ndarray) -> Callable[[float], str]:
         def locate(x: float) -> str:
@@ -1110,6 +1130,7 @@ def read_csv_trace(
         i = _first_bad(v < 0)
         if i is not None:
             raise InputError("negative speed", file=path, where=cell_where("speed", i))
+        _check_trace_speed(v, lambda k: cell_where("speed", k), path)
         s = np.concatenate(([0.0], np.cumsum(0.5 * (v[1:] + v[:-1]) * np.diff(t))))
         if "grade" in names:
             g = cols["grade"]
@@ -1148,6 +1169,7 @@ def read_csv_trace(
             i = _first_bad(v < 0)
             if i is not None:
                 raise InputError("negative speed", file=path, where=cell_where("speed", i))
+            _check_trace_speed(v, lambda k: cell_where("speed", k), path)
             i = _first_bad((v[1:] == 0) & (v[:-1] == 0))
             if i is not None:
                 raise InputError("speed is 0 on two rows in a row: the truck never gets there",
@@ -1266,7 +1288,7 @@ def read_gpx_trace(
     if not path.is_file():
         raise InputError("file not found", file=path)
     try:
-        with path.open(encoding="utf-8") as fh:
+        with path.open(encoding="utf-8-sig") as fh:  # a byte-order mark is allowed
             gpx = gpxpy.parse(fh)
     except (gpxpy.gpx.GPXException, UnicodeDecodeError, ValueError) as exc:
         raise InputError(f"not a readable GPX file ({type(exc).__name__})", file=path) from None
@@ -1287,6 +1309,17 @@ def read_gpx_trace(
             raise InputError("track point has no timestamp", file=path, where=label)
         if p.elevation is None:
             raise InputError("track point has no elevation", file=path, where=label)
+        # coordinates on the globe; an elevation between the deepest dry land and above
+        # the highest road (about -430 m to 5,800 m, from memory), with margin
+        if not (math.isfinite(p.latitude) and -90 <= p.latitude <= 90):
+            raise InputError("latitude must be between -90 and 90 degrees", file=path,
+                             where=label)
+        if not (math.isfinite(p.longitude) and -180 <= p.longitude <= 180):
+            raise InputError("longitude must be between -180 and 180 degrees", file=path,
+                             where=label)
+        if not (math.isfinite(p.elevation) and -1000 <= p.elevation <= 9000):
+            raise InputError("elevation must be between -1,000 and 9,000 m", file=path,
+                             where=label)
     t0 = points[0].time
     try:
         t = np.array([(p.time - t0).total_seconds() for p in points])
@@ -1298,6 +1331,8 @@ def read_gpx_trace(
         raise InputError(f"time {word}", file=path, where=labels[i + 1])
     steps = [0.0] + [points[k].distance_2d(points[k - 1]) for k in range(1, len(points))]
     s = np.cumsum(steps)
+    _check_trace_speed(np.concatenate(([0.0], np.diff(s) / np.diff(t))),
+                       lambda k: f"{labels[k]} (speed from the point before)", path)
     z = np.array([p.elevation for p in points], dtype=float)
     prof_d, prof_z = _smooth_profile(s, z, smoothing_window)
 

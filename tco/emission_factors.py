@@ -74,7 +74,7 @@ def _unit_si(unit: str) -> tuple[float, str]:
     q = Q_(1.0, cleaned if cleaned else "").to_base_units()
     dim = str(q.dimensionality) if str(q.dimensionality) != "dimensionless" else "dimensionless"
     if dim not in _BASES:
-        raise ValueError(f"unit '{unit}' is not a factor unit (dimension {dim})")
+        raise ValueError(f"the unit is not a factor unit (dimension {dim})")
     return float(q.magnitude), _BASES[dim]
 
 
@@ -121,8 +121,10 @@ def _read_factor_table(path: Path) -> pd.DataFrame:
     try:
         raw = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True)
     except Exception as exc:  # pandas raises several parser errors
-        raise InputError(f"cannot read as CSV ({type(exc).__name__}: {exc})", file=path) \
-            from None
+        # never quote the parser's message: it can hold a line of the file
+        found = re.search(r"line (\d+)", str(exc))
+        raise InputError(f"cannot read as CSV ({type(exc).__name__})", file=path,
+                         where=f"row {found.group(1)}" if found else None) from None
     raw.columns = [str(c).strip() for c in raw.columns]
     missing = [c for c in REQUIRED_COLUMNS if c not in raw.columns]
     if missing:
@@ -136,37 +138,37 @@ def _read_factor_table(path: Path) -> pd.DataFrame:
         rec = {k: str(v).strip() for k, v in rec.items()}
         name, quantity = rec["set"], rec["quantity"]
         if not _SET_NAME.match(name):
-            raise InputError(f"set name '{name}' must be letters, digits, '_', '-' or '.'",
-                             file=path, where=where)
+            raise InputError("a set name must be letters, digits, '_', '-' or '.'",
+                             file=path, where=f"{where}, column set")
         if quantity not in QUANTITIES:
-            raise InputError(f"unknown quantity '{quantity}' (known: "
-                             f"{', '.join(QUANTITIES)})", file=path, where=where)
+            raise InputError(f"unknown quantity (known: {', '.join(QUANTITIES)})",
+                             file=path, where=f"{where}, column quantity")
         try:
             value = float(rec["value"])
         except ValueError:
-            raise InputError(f"value '{rec['value']}' is not a number", file=path,
-                             where=where) from None
+            raise InputError("not a number", file=path,
+                             where=f"{where}, column value") from None
         if not math.isfinite(value) or value < 0:
-            raise InputError(f"value {rec['value']} must be a finite number, zero or more",
-                             file=path, where=where)
+            raise InputError("must be a finite number, zero or more",
+                             file=path, where=f"{where}, column value")
         try:
             scale, basis = _unit_si(rec["unit"])
         except Exception as exc:
             msg = str(exc) if isinstance(exc, ValueError) and "factor unit" in str(exc) \
-                else f"cannot read unit '{rec['unit']}'"
-            raise InputError(msg, file=path, where=where) from None
+                else "cannot read the unit"
+            raise InputError(msg, file=path, where=f"{where}, column unit") from None
         if basis not in QUANTITIES[quantity]:
-            raise InputError(f"unit '{rec['unit']}' gives a {basis} basis; {quantity} accepts "
+            raise InputError(f"the unit gives a {basis} basis; {quantity} accepts "
                              f"{', '.join(sorted(QUANTITIES[quantity]))}", file=path,
-                             where=where)
+                             where=f"{where}, column unit")
         if not rec["source"]:
             raise InputError("source is empty; every factor needs a citation", file=path,
                              where=where)
         try:
             year = int(float(rec["year"]))
         except ValueError:
-            raise InputError(f"year '{rec['year']}' is not a year", file=path,
-                             where=where) from None
+            raise InputError("not a year", file=path,
+                             where=f"{where}, column year") from None
         if not 1800 <= year <= 2200:
             raise InputError(f"year {year} is out of range", file=path, where=where)
         key = (name, quantity)

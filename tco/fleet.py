@@ -65,6 +65,9 @@ import pandas as pd
 
 from tco import depot as depot_model
 from tco.errors import InputError
+from tco.scenario.base import TEXT_LIMIT
+from tco.scenario.files import input_file
+from tco.text import clean_text
 from tco.scenario import LoadedScenario, parse_scenario
 from tco.units import UnitError, to_si
 
@@ -228,7 +231,11 @@ def read_fleet(path: str | Path) -> list[FleetRow]:
             if name not in cols:
                 return ""
             j = cols[name][0]
-            return str(r[j]).strip() if j < len(r) and r[j] is not None else ""
+            text = str(r[j]).strip() if j < len(r) and r[j] is not None else ""
+            if len(text) > TEXT_LIMIT:  # names and labels: bounded, like scenario text
+                raise InputError(f"is {len(text):,} characters long; the limit is "
+                                 f"{TEXT_LIMIT}", file=path, where=f"{where}, {name}")
+            return clean_text(text)  # control characters replaced (see tco.text)
 
         vals: dict = {}
         for name in ("vehicle", "cycle", "current", "candidate"):
@@ -240,14 +247,11 @@ def read_fleet(path: str | Path) -> list[FleetRow]:
             raise InputError(f"duplicate vehicle id '{vid}' (also on row {seen[vid]})",
                              file=path, where=where)
         seen[vid] = line
-        cyc = Path(vals["cycle"])
-        cyc = cyc if cyc.is_absolute() else path.parent / cyc
-        if cyc.suffix.lower() not in (".csv", ".gpx", ".toml"):
-            raise InputError(f"cycle '{vals['cycle']}' must be a .csv or .gpx trace or a "
-                             ".toml scenario", file=path, where=f"{where}, cycle")
-        if not cyc.is_file():
-            raise InputError(f"cycle file '{vals['cycle']}' not found", file=path,
-                             where=f"{where}, cycle")
+        try:  # inside the fleet file's folder (or an allowed one), see tco.scenario.files
+            cyc = input_file(vals["cycle"], path.parent, (".csv", ".gpx", ".toml"),
+                             "cycle file")
+        except InputError as exc:
+            raise exc.located(file=path, where=f"{where}, cycle") from None
         extra: dict = {}
         for name in ("annual_distance", "payload", "days_per_year"):
             text = cell(name)
@@ -310,9 +314,14 @@ def _cycle_route(row: FleetRow) -> dict:
     """The ``[route]`` table of a row's cycle, with files made absolute."""
     if row.cycle.suffix.lower() == ".toml":
         try:
-            raw = tomllib.loads(row.cycle.read_text(encoding="utf-8"))
-        except (UnicodeDecodeError, tomllib.TOMLDecodeError) as exc:
+            raw = tomllib.loads(row.cycle.read_text(encoding="utf-8-sig"))
+        except UnicodeDecodeError:
+            raise InputError("not a UTF-8 text file", file=row.cycle) from None
+        except tomllib.TOMLDecodeError as exc:
             raise InputError(f"not valid TOML: {exc}", file=row.cycle) from None
+        except RecursionError:
+            raise InputError("not valid TOML: tables or arrays nested too deeply",
+                             file=row.cycle) from None
         if "route" not in raw:
             raise InputError("a cycle scenario needs a [route] section", file=row.cycle)
         route = copy.deepcopy(raw["route"])
@@ -448,7 +457,11 @@ def _pool(jobs: int, n_items: int):
     ctx = mp.get_context("forkserver" if "forkserver" in methods else "spawn")
     if ctx.get_start_method() == "forkserver":
         ctx.set_forkserver_preload(_PRELOAD)
-    return ProcessPoolExecutor(min(jobs, n_items), mp_context=ctx)
+    from tco.scenario.files import allow_folders, allowed_folders
+
+    # workers do not inherit the folders allowed with --allow-folder
+    return ProcessPoolExecutor(min(jobs, n_items), mp_context=ctx, initializer=allow_folders,
+                               initargs=(tuple(allowed_folders()),))
 
 
 def _map(fn, items, pool, jobs: int, progress=None):

@@ -27,7 +27,10 @@ def _leg_trace(loaded: LoadedScenario, i: int) -> pd.DataFrame:
     route = s.route
     where = f"route.legs[{i}]"
     if leg.file:
-        path = loaded.resolve(leg.file)
+        try:
+            path = loaded.resolve(leg.file)
+        except InputError as exc:
+            raise exc.located(file=loaded.shown, where=f"{where}.file") from None
         window = route.smoothing_window or None
         try:
             if path.suffix.lower() == ".gpx":
@@ -48,7 +51,7 @@ def _leg_trace(loaded: LoadedScenario, i: int) -> pd.DataFrame:
                 segs, dt=route.time_step, max_accel=route.max_accel,
                 max_decel=route.max_decel, start_elevation=s.ambient.altitude)
         except InputError as exc:
-            raise exc.located(file=loaded.path, where=f"{where}.segments") from None
+            raise exc.located(file=loaded.shown, where=f"{where}.segments") from None
     if leg.dwell_end > 0:
         trace = _append_dwell(trace, leg.dwell_end, route.time_step)
     return trace
@@ -79,8 +82,22 @@ def _append_dwell(trace: pd.DataFrame, dwell: float, dt: float) -> pd.DataFrame:
 
 
 def build_traces(loaded: LoadedScenario) -> list[pd.DataFrame]:
-    """The trace of each leg of one trip (validated, resampled to the time step)."""
-    return [_leg_trace(loaded, i) for i in range(len(loaded.scenario.route.legs))]
+    """The trace of each leg of one trip (validated, resampled to the time step).
+
+    The trip is held to the trace budget (:mod:`tco.budget`): synthetic legs and dwells are
+    estimated before anything is built, legs read from files when they are read, and the
+    running total after each leg.
+    """
+    from tco import budget
+
+    s = loaded.scenario
+    budget.check_trip(s, file=loaded.shown)
+    legs, total = [], 0
+    for i in range(len(s.route.legs)):
+        legs.append(_leg_trace(loaded, i))
+        total += len(legs[-1])
+        budget.check_samples(total, s.route.time_step, file=loaded.shown, where="route")
+    return legs
 
 
 def build_trip(loaded: LoadedScenario) -> pd.DataFrame:
@@ -227,7 +244,7 @@ def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
         try:
             out = fn(*a, **k)
         except InputError as exc:  # name the scenario file when the model did not
-            raise exc.located(file=loaded.path) from None
+            raise exc.located(file=loaded.shown) from None
         timings[name] = time.perf_counter() - t0
         return out
 
@@ -260,7 +277,7 @@ def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
             unc = uncertainty.evaluate(s.uncertainty, inputs, s.emissions, service_years(s),
                                        progress=advance)
         except InputError as exc:
-            raise exc.located(file=loaded.path) from None
+            raise exc.located(file=loaded.shown) from None
         timings["uncertainty"] = time.perf_counter() - t0
 
     warnings = unusual_values(s)
@@ -274,3 +291,29 @@ def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
         timings=timings,
     )
 
+
+#: Monte Carlo draws made when only validating (``tco check``): enough to read and check
+#: every distribution and correlation the way a full run does. [-]
+VALIDATION_DRAWS = 16
+
+
+def validate(loaded: LoadedScenario) -> Result:
+    """Every check :func:`evaluate` makes, for ``tco check``.
+
+    The whole chain runs (duty cycle, energy, cash flows, emissions, uncertainty set-up), so
+    whatever ``tco run`` would refuse is refused here too; only the Monte Carlo draws are
+    cut to :data:`VALIDATION_DRAWS` (the scenario's own number has passed its budget check
+    when the scenario was read). Nothing is written.
+
+    Returns
+    -------
+    Result
+        The result of the short run (its warnings are the run's warnings).
+    """
+    u = loaded.scenario.uncertainty
+    saved = u.draws
+    u.draws = min(saved, VALIDATION_DRAWS)
+    try:
+        return evaluate(loaded)
+    finally:
+        u.draws = saved

@@ -140,6 +140,10 @@ def test_fleet_bad_row_is_one_line_exit_2_nothing_written(capsys, tmp_path):
     fleet.write_text(text.replace("cycles/", str(src / "cycles") + "/"))
     code, out, err = run(capsys, "fleet", str(fleet), "--base", str(src / "base.toml"),
                          "--out", str(tmp_path / "out"))
+    assert code == 2  # the cycles lie outside the fleet file's folder
+    assert "outside the scenario's folder" in err and len(err.splitlines()) == 1
+    code, out, err = run(capsys, "fleet", str(fleet), "--base", str(src / "base.toml"),
+                         "--out", str(tmp_path / "out"), "--allow-folder", str(src))
     assert code == 2
     assert err.strip() == (f"tco: error: {fleet}: row 5: duplicate vehicle id 'MF-101' "
                            "(also on row 4)")

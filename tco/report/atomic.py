@@ -3,10 +3,17 @@
 A failed or interrupted run leaves the previous outputs as they were, and the tool never
 deletes a file it did not write: files are replaced one by one with ``os.replace`` (atomic
 on one filesystem), other files in the output folder are left alone.
+
+The staging folder is ``.<target>.<pid>.<random>.part`` beside the target. It is removed
+on success, on any error and on Ctrl-C or SIGTERM (the command line turns SIGTERM into the
+same interruption). A process killed outright (SIGKILL, out of memory) cannot clean up, so
+each run first removes staging folders of its target whose process is no longer alive
+(:func:`remove_stale_stages`).
 """
 from __future__ import annotations
 
 import os
+import re
 import shutil
 import tempfile
 from contextlib import contextmanager
@@ -53,6 +60,51 @@ def check_writable(folder: Path) -> None:
                          where="--out")
 
 
+def _alive(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except OSError:  # exists, owned by someone else
+        return True
+    return True
+
+
+def remove_stale_stages(target: Path) -> list[Path]:
+    """Remove staging folders of ``target`` left by runs that no longer exist.
+
+    Only folders named like this module's staging folders for ``target``
+    (``.<name>.<pid>.<random>.part``) whose process is gone are removed; a live run's
+    staging folder and every other file are left alone.
+
+    Returns
+    -------
+    list of Path
+        The folders removed.
+    """
+    target = Path(target)
+    pattern = re.compile(rf"^\.{re.escape(target.name)}\.(\d+)\.[^.]+\.part$")
+    removed = []
+    try:
+        candidates = list(target.parent.glob(f".{glob_escape(target.name)}.*.part"))
+    except OSError:
+        return removed
+    for stage in candidates:
+        m = pattern.match(stage.name)
+        if not m or not stage.is_dir() or stage.is_symlink():
+            continue
+        pid = int(m.group(1))
+        if pid != os.getpid() and not _alive(pid):
+            shutil.rmtree(stage, ignore_errors=True)
+            removed.append(stage)
+    return removed
+
+
+def glob_escape(text: str) -> str:
+    """``text`` with glob wildcards escaped."""
+    return re.sub(r"([*?\[])", r"[\1]", text)
+
+
 @contextmanager
 def staged_output(target: Path):
     """Yield a temporary folder; on success move its files into ``target``.
@@ -69,7 +121,8 @@ def staged_output(target: Path):
     check_writable(target)
     try:
         target.parent.mkdir(parents=True, exist_ok=True)
-        stage = Path(tempfile.mkdtemp(prefix=f".{target.name}.", suffix=".part",
+        remove_stale_stages(target)
+        stage = Path(tempfile.mkdtemp(prefix=f".{target.name}.{os.getpid()}.", suffix=".part",
                                       dir=target.parent))
     except OSError as exc:
         raise InputError(f"output folder cannot be written ({exc.strerror})",

@@ -34,7 +34,9 @@ from __future__ import annotations
 import base64
 import io
 import math
+import warnings
 from contextlib import contextmanager
+from functools import lru_cache
 
 import matplotlib
 import numpy as np
@@ -73,6 +75,27 @@ _GRID = "#D9D9D9"
 #: Width of the report's text column. [inch] (A4 with 18 mm margins: 174 mm ≈ 6.85 in)
 _WIDTH = 6.7
 
+#: Fonts tried, in order, for characters DejaVu Sans lacks (emoji, scripts of names); only
+#: those installed are used (matplotlib 3.6+ falls back glyph by glyph).
+FALLBACK_FONTS = ("Noto Sans", "Noto Sans Hebrew", "Noto Sans Arabic", "Noto Sans CJK JP",
+                  "Noto Color Emoji", "Noto Emoji", "Symbola", "OpenSymbol")
+
+
+@lru_cache(maxsize=1)
+def font_families() -> list[str]:
+    """DejaVu Sans, then every installed font of :data:`FALLBACK_FONTS`."""
+    from matplotlib import font_manager
+
+    installed = {f.name for f in font_manager.fontManager.ttflist}
+    return ["DejaVu Sans"] + [f for f in FALLBACK_FONTS if f in installed]
+
+
+# A character no installed font has is drawn as a box in the chart (the SVG keeps the text
+# itself, so the report's own fonts may still show it); matplotlib's warning per glyph
+# would only flood the terminal, even with --quiet.
+warnings.filterwarnings("ignore", message=r"Glyph \d+ .*missing from (current )?font",
+                        category=UserWarning)
+
 _RC = {
     "svg.hashsalt": "tco-report",
     "svg.fonttype": "none",
@@ -105,7 +128,7 @@ _RC = {
 
 @contextmanager
 def chart_style():
-    with matplotlib.rc_context(_RC):
+    with matplotlib.rc_context({**_RC, "font.family": font_families()}):
         yield
 
 

@@ -24,6 +24,7 @@ from tco.errors import InputError
 from tco.scenario.base import Section, field_sources, mfield
 from tco.scenario.costs import Depot, Finance, Prices, TruckCosts
 from tco.scenario.emissions import EmissionsSettings
+from tco.scenario.files import MAX_SCENARIO_BYTES, input_file
 from tco.scenario.route import Ambient, Leg, Route, Segment, Study
 from tco.scenario.uncertainty import UncertaintySettings
 from tco.scenario.vehicle import Body, Diesel, Electric, EnRoute
@@ -90,7 +91,7 @@ class LoadedScenario:
     scenario : Scenario
         The validated model (SI quantities).
     path : Path or None
-        The scenario file; trace files are resolved relative to its folder.
+        The scenario file (absolute); trace files are resolved relative to its folder.
     raw : dict
         The TOML as written (for the assumptions table and the fingerprint).
     fingerprint : str
@@ -98,15 +99,18 @@ class LoadedScenario:
     inputs_fingerprint : str or None
         SHA-256 of the parsed inputs and the traces' contents (:func:`inputs_fingerprint`):
         the same for a TOML file and the workbook made from it.
+    shown : Path or None
+        The scenario file as the user gave it: errors name files in this style.
     """
 
     def __init__(self, scenario: Scenario, path: Path | None, raw: dict, fingerprint: str,
-                 inputs_fingerprint: str | None = None):
+                 inputs_fingerprint: str | None = None, shown: Path | None = None):
         self.scenario = scenario
         self.path = path
         self.raw = raw
         self.fingerprint = fingerprint
         self.inputs_fingerprint = inputs_fingerprint
+        self.shown = Path(shown) if shown is not None else path
 
     @property
     def base_dir(self) -> Path:
@@ -121,9 +125,13 @@ class LoadedScenario:
             or "scenario"
 
     def resolve(self, name: str) -> Path:
-        """Absolute path of a file named in the scenario."""
-        p = Path(name)
-        return p if p.is_absolute() else self.base_dir / p
+        """A trace file named in the scenario, in the user's path style.
+
+        Confined to the scenario's folder (and ``--allow-folder`` folders), see
+        :func:`tco.scenario.files.input_file`.
+        """
+        base = self.shown.parent if self.shown is not None else None
+        return input_file(name, base, (".csv", ".gpx"), "trace file")
 
 
 def _loc(loc: tuple) -> str:
@@ -190,6 +198,10 @@ def load_scenario(path: str | Path) -> LoadedScenario:
     """Read and validate a scenario: a TOML file, or a workbook's field table
     (:mod:`tco.scenario.xlsx`).
 
+    UTF-8 with or without a byte-order mark; at most
+    :data:`tco.scenario.files.MAX_SCENARIO_BYTES`; trace files must lie in the scenario's
+    folder (or an allowed one) and are checked to exist.
+
     Parameters
     ----------
     path : str or Path
@@ -205,29 +217,41 @@ def load_scenario(path: str | Path) -> LoadedScenario:
         When the file is missing, is not valid TOML, or a field is wrong.
     """
     path = Path(path)
+    if path.is_dir():
+        raise InputError("is a folder, not a scenario file", file=path)
     from tco.scenario.xlsx import is_workbook, load_workbook_scenario
 
     if is_workbook(path):
         return load_workbook_scenario(path)
     if not path.is_file():
         raise InputError("file not found", file=path)
+    size = path.stat().st_size
+    if size > MAX_SCENARIO_BYTES:
+        raise InputError(f"is {size / 2**20:.1f} MiB; a scenario file may be at most "
+                         f"{MAX_SCENARIO_BYTES / 2**20:.0f} MiB", file=path)
     blob = path.read_bytes()
     try:
-        raw = tomllib.loads(blob.decode("utf-8"))
+        raw = tomllib.loads(blob.decode("utf-8-sig"))  # a byte-order mark is allowed
     except UnicodeDecodeError:
         raise InputError("not a UTF-8 text file", file=path) from None
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"not valid TOML: {exc}", file=path) from None
-    scenario = parse_scenario(raw, path)
+    except RecursionError:
+        raise InputError("not valid TOML: tables or arrays nested too deeply", file=path) \
+            from None
+    try:
+        scenario = parse_scenario(raw, path)
+    except RecursionError:
+        raise InputError("values nested too deeply", file=path) from None
     h = hashlib.sha256(blob)
     traces = []
     for i, leg in enumerate(scenario.route.legs):
         if leg.file:
-            trace = (path.parent / leg.file)
-            if not trace.is_file():
-                raise InputError(f"trace file '{leg.file}' not found", file=path,
-                                 where=f"route.legs[{i}].file")
+            try:
+                trace = input_file(leg.file, path.parent, (".csv", ".gpx"), "trace file")
+            except InputError as exc:
+                raise exc.located(file=path, where=f"route.legs[{i}].file") from None
             traces.append(trace.read_bytes())
             h.update(traces[-1])
     return LoadedScenario(scenario, path.resolve(), raw, h.hexdigest(),
-                          inputs_fingerprint(scenario, traces))
+                          inputs_fingerprint(scenario, traces), shown=path)

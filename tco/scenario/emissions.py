@@ -39,15 +39,17 @@ GRID_DEFAULT_SOURCE = (
 
 
 def _resolve_path(value, info: ValidationInfo) -> Path | None:
+    """A named CSV file, confined to the scenario's folder (see :mod:`tco.scenario.files`)."""
     if value is None:
         return None
-    path = Path(value).expanduser()
+    from tco.scenario.files import input_file
+
     base = (info.context or {}).get("base_dir") if info.context else None
-    if not path.is_absolute() and base is not None:
-        path = Path(base) / path
-    if not path.is_file():
-        raise ValueError(f"file not found: {path}")
-    return path.resolve()
+    what = {"factor_file": "factor file"}.get(info.field_name, "profile file")
+    try:
+        return input_file(value, base, (".csv",), what)
+    except InputError as exc:
+        raise ValueError(exc.message) from None
 
 
 def read_hourly_profile(path: str | Path) -> np.ndarray:
@@ -61,9 +63,26 @@ def read_hourly_profile(path: str | Path) -> np.ndarray:
         Naming the file and the row of a value that is not a number.
     """
     path = Path(path)
+    try:
+        values = _read_profile_rows(path)
+    except UnicodeDecodeError:
+        raise InputError("not a UTF-8 text file", file=path) from None
+    except csv.Error:
+        raise InputError("cannot read as CSV", file=path) from None
+    try:
+        hourly_profile_24(values)
+    except ValueError as exc:
+        raise InputError(str(exc), file=path) from None
+    return np.asarray(values)
+
+
+def _read_profile_rows(path: Path) -> list[float]:
     values: list[float] = []
-    with path.open(newline="", encoding="utf-8-sig") as fh:
+    with path.open(newline="", encoding="utf-8-sig", errors="strict") as fh:
         for i, row in enumerate(csv.reader(fh)):
+            if i > 10_000:
+                raise InputError("more than 10,000 rows; an hourly profile has 24, 8760 or "
+                                 "8784 values", file=path)
             cells = [c.strip() for c in row if c.strip()]
             if not cells:
                 continue
@@ -72,17 +91,13 @@ def read_hourly_profile(path: str | Path) -> np.ndarray:
             except ValueError:
                 if i == 0:
                     continue  # header
-                raise InputError(f"'{cells[-1]}' is not a number", file=path,
+                raise InputError("not a number", file=path,
                                  where=f"row {i + 1}") from None
             if not math.isfinite(v) or v < 0:
-                raise InputError(f"value {cells[-1]} must be a finite number, zero or more",
+                raise InputError("must be a finite number, zero or more",
                                  file=path, where=f"row {i + 1}")
             values.append(v)
-    try:
-        hourly_profile_24(values)
-    except ValueError as exc:
-        raise InputError(str(exc), file=path) from None
-    return np.asarray(values)
+    return values
 
 
 class LifecycleAddon(Section):

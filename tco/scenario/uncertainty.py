@@ -38,6 +38,7 @@ not of its logarithm).
 """
 from __future__ import annotations
 
+import difflib
 import math
 from typing import Literal
 
@@ -259,10 +260,11 @@ class UncertaintySettings(Section):
     """
 
     enabled: bool = mfield(True, "", "Run the uncertainty studies", ASSUMPTION)
-    draws: int = mfield(10_000, "", "Monte Carlo draws (0: tornado and break-even only)",
+    draws: int = mfield(10_000, "", "Monte Carlo draws (0: tornado and break-even only; at "
+                        "most 1,000,000, see tco.budget)",
                         "derived: at 10,000 draws a probability near 10 % has a standard "
                         "error of √(0.1 × 0.9 / 10,000) = 0.3 percentage points",
-                        ge=0, le=10_000_000)
+                        ge=0)
     seed: int = mfield(12345, "", "Seed of the random number generator; the same seed "
                        "gives the same draws", ASSUMPTION + ": a fixed seed so that repeated "
                        "runs agree", ge=0)
@@ -290,6 +292,16 @@ class UncertaintySettings(Section):
         "distributions; unnamed pairs are independent [-]",
         json_schema_extra={"unit": "", "source": "none: independent inputs"})
 
+    @field_validator("draws")
+    @classmethod
+    def _draws_budget(cls, value: int) -> int:
+        from tco.budget import draws_problem
+
+        problem = draws_problem(value)
+        if problem:
+            raise ValueError(problem)
+        return value
+
     @field_validator("tornado")
     @classmethod
     def _unique_tornado(cls, value: list[TornadoInput]) -> list[TornadoInput]:
@@ -313,8 +325,13 @@ class UncertaintySettings(Section):
         for k, c in enumerate(value):
             for name in c.inputs:
                 if name not in names:
+                    # The usual cause is a misspelt distribution input: name that one, so
+                    # the message points at the input that is wrong, not at this one.
+                    close = difflib.get_close_matches(name, names, n=1, cutoff=0.6)
+                    hint = (f" (distributions[{names.index(close[0])}] names '{close[0]}': "
+                            "is one of the two misspelt?)") if close else ""
                     raise ValueError(f"[{k}]: '{name}' has no distribution; correlations "
-                                     "join inputs of distributions")
+                                     f"join inputs of distributions{hint}")
             key = frozenset(c.inputs)
             if key in pairs:
                 raise ValueError(f"[{k}]: the pair is already correlated in [{pairs[key]}]")

@@ -1,0 +1,568 @@
+"""Hostile and odd input: every case ends with exit 2, one line on stderr, no traceback,
+nothing written and earlier outputs untouched.
+
+The cases are written from the classes of problems described for this check (wrong
+dimension, absurd values, unbounded time and memory, huge or control-laden text, staging
+left behind, files outside the scenario's folder, byte-order marks, misleading messages).
+The commands run through :func:`tco.cli.main` in this process (fast) or, for signals, as a
+subprocess.
+"""
+from __future__ import annotations
+
+import copy
+import json
+import math
+import os
+import signal
+import subprocess
+import sys
+import time
+import tomllib
+from pathlib import Path
+
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from tco.cli import main
+from tco.errors import InputError
+from tco.resources import demo_path
+from tco.scenario import load_scenario, parse_scenario
+
+ROOT = Path(__file__).resolve().parent.parent
+DEMO = tomllib.loads(demo_path().read_text(encoding="utf-8"))
+SECRET = "TOP-SECRET-LINE do not echo"
+
+
+# --------------------------------------------------------------------------- helpers
+def _toml_value(v) -> str:
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    if isinstance(v, float):
+        if math.isnan(v):
+            return "nan"
+        if math.isinf(v):
+            return "inf" if v > 0 else "-inf"
+        return repr(v)
+    if isinstance(v, int):
+        return str(v)
+    if isinstance(v, str):
+        return json.dumps(v)  # a JSON string is a valid TOML basic string
+    if isinstance(v, list):
+        return "[" + ", ".join(_toml_value(x) for x in v) + "]"
+    if isinstance(v, dict):
+        return "{" + ", ".join(f"{json.dumps(k)} = {_toml_value(x)}" for k, x in v.items()) \
+            + "}"
+    raise TypeError(type(v))
+
+
+def dump_toml(data: dict) -> str:
+    """A minimal TOML writer: every top-level table as inline tables (enough here)."""
+    return "".join(f"{json.dumps(k)} = {_toml_value(v)}\n" for k, v in data.items())
+
+
+def demo() -> dict:
+    return copy.deepcopy(DEMO)
+
+
+def write(folder: Path, data: dict | str, name: str = "case.toml", bom: bool = False) -> Path:
+    text = data if isinstance(data, str) else dump_toml(data)
+    path = folder / name
+    path.write_bytes((b"\xef\xbb\xbf" if bom else b"") + text.encode("utf-8"))
+    return path
+
+
+@pytest.fixture
+def out(tmp_path):
+    """An output folder holding earlier outputs (sentinels) that must survive."""
+    folder = tmp_path / "out"
+    for slug in ("demo", "case"):
+        (folder / slug).mkdir(parents=True)
+        (folder / slug / "summary.json").write_text('{"earlier": true}')
+    return folder
+
+
+def snapshot(folder: Path) -> dict:
+    return {str(p.relative_to(folder)): p.read_bytes() if p.is_file() else None
+            for p in sorted(folder.rglob("*"))} if folder.exists() else {}
+
+
+def run_cli(argv, capsys) -> tuple[int, str, str]:
+    rc = main([str(a) for a in argv])
+    captured = capsys.readouterr()
+    return rc, captured.out, captured.err
+
+
+def assert_refused(argv, capsys, out: Path | None = None, *fragments: str) -> str:
+    """Exit 2, exactly one stderr line, no traceback, ``out`` untouched; returns the line."""
+    before = snapshot(out) if out is not None else None
+    rc, _, err = run_cli(argv, capsys)
+    lines = err.splitlines()
+    assert rc == 2, err
+    assert len(lines) == 1, err
+    assert "Traceback" not in err and "internal error" not in err
+    assert lines[0].startswith("tco: error: ")
+    for f in fragments:
+        assert f in lines[0], lines[0]
+    if out is not None:
+        assert snapshot(out) == before
+    return lines[0]
+
+
+def set_in(data: dict, path: str, value) -> dict:
+    """Set ``a.b[0].c`` in a nested dict."""
+    keys: list = []
+    for part in path.split("."):
+        name, _, rest = part.partition("[")
+        keys.append(name)
+        while rest:
+            idx, _, rest = rest.partition("]")
+            keys.append(int(idx))
+            rest = rest.lstrip("[")
+    node = data
+    for k in keys[:-1]:
+        if isinstance(k, str) and k not in node:
+            node[k] = {}
+        node = node[k]
+    node[keys[-1]] = value
+    return data
+
+
+# --------------------------------------------------------------------------- 1. dimensions
+@pytest.mark.parametrize("field, value, unit_given, expected", [
+    ("route.legs[0].segments[0].length", "6 %", "%", "km"),
+    ("trucks[1].electric.battery_capacity", "560 %", "%", "kWh"),
+    ("route.legs[0].payload", "3 percent", "%", "t"),
+    ("trucks[0].body.curb_mass", "5 km", "km", "t"),
+    ("prices.diesel", "8 %", "%", "1/L"),
+    ("finance.discount_rate", "8 km", "km", "'%'"),
+])
+def test_a_unit_of_the_wrong_dimension_is_one_line(tmp_path, capsys, out, field, value,
+                                                   unit_given, expected):
+    path = write(tmp_path, set_in(demo(), field, value))
+    line = assert_refused(["check", path], capsys, out, field, f"'{unit_given}'", expected)
+    assert_refused(["run", path, "--out", out, "--json-only"], capsys, out, field)
+    assert "ZeroDivisionError" not in line
+
+
+# --------------------------------------------------------------------------- 2. bounds
+@pytest.mark.parametrize("field, value, fragment", [
+    ("finance.discount_rate", 100, "the limit is 100%"),
+    ("finance.inflation", 8.0, "the limit is 100%"),
+    ("prices.escalation.diesel", 100, "the limit is 100%"),
+    ("trucks[0].costs.escalation.tyres", -1.5, "above -100 %"),
+    ("trucks[0].costs.purchase_price", math.inf, "finite"),
+    ("trucks[0].costs.purchase_price", 1e308, "ceiling"),
+    ("trucks[0].costs.registration", 1e308, "ceiling"),
+    ("prices.electricity.fixed_fee", math.inf, "finite"),
+    ("prices.diesel", 1e20, "ceiling"),
+    ("trucks[1].electric.battery_capacity", "1e9 kWh", "at most"),
+    ("route.legs[0].segments[0].speed", "900 km/h", "at most 150"),
+    ("route.legs[0].payload", "1e6 t", "at most 500"),
+    ("trucks[0].diesel.engine_power", "1e7 kW", "at most"),
+    ("depot.chargers", 10**12, "less than or equal"),
+    ("emissions.grid_intensity", "1e6 g/kWh", "at most"),
+])
+def test_absurd_values_are_refused_by_check_and_run(tmp_path, capsys, out, field, value,
+                                                    fragment):
+    path = write(tmp_path, set_in(demo(), field, value))
+    assert_refused(["check", path], capsys, out, field, fragment)
+    assert_refused(["run", path, "--out", out, "--json-only"], capsys, out, field)
+
+
+def test_a_value_outside_the_usual_range_is_a_warning_not_an_error(tmp_path, capsys):
+    path = write(tmp_path, set_in(demo(), "finance.discount_rate", 0.45))
+    rc, stdout, err = run_cli(["check", path], capsys)
+    assert rc == 0, err
+    assert "warning: finance.discount_rate = 0.45 is outside the usual range" in stdout
+
+
+def test_check_refuses_what_run_refuses(tmp_path, capsys, out):
+    """A missing diesel price used to pass `check` (traces only) and fail `run`."""
+    data = demo()
+    del data["prices"]["diesel"]
+    path = write(tmp_path, data)
+    line = assert_refused(["check", path], capsys, out)
+    assert "diesel" in line
+
+
+def _gpx(points) -> str:
+    pts = "".join(f'<trkpt lat="{la}" lon="{lo}"><ele>100</ele>'
+                  f"<time>2026-01-01T08:00:{k:02d}Z</time></trkpt>"
+                  for k, (la, lo) in enumerate(points))
+    return ('<?xml version="1.0" encoding="UTF-8"?><gpx version="1.1" creator="test" '
+            'xmlns="http://www.topografix.com/GPX/1/1"><trk><trkseg>' + pts +
+            "</trkseg></trk></gpx>")
+
+
+def _with_trace(data: dict, name: str) -> dict:
+    leg = data["route"]["legs"][0]
+    leg.pop("segments")
+    leg["file"] = name
+    return data
+
+
+@pytest.mark.parametrize("points, fragment", [
+    ([(45.0, 7.0), (1000.0, 7.0), (45.0, 7.0)], "latitude"),
+    ([(45.0, 7.0), (45.0, 700.0), (45.0, 7.0)], "longitude"),
+    # 0.1 degree of latitude (about 11 km) in one second: about 40,000 km/h
+    ([(45.0, 7.0), (45.1, 7.0), (45.1001, 7.0)], "more than a truck can reach"),
+])
+def test_gpx_points_off_the_globe_or_too_fast(tmp_path, capsys, out, points, fragment):
+    (tmp_path / "t.gpx").write_text(_gpx(points))
+    path = write(tmp_path, _with_trace(demo(), "t.gpx"))
+    line = assert_refused(["check", path], capsys, out, fragment)
+    assert "t.gpx" in line
+
+
+# --------------------------------------------------------------------------- 3. budgets
+@pytest.mark.parametrize("field, value, fragment", [
+    ("route.legs[0].segments[0].stops", 1e9, "less than or equal to 10000"),
+    ("route.time_step", "0.0001 s", "samples at 0.0001 s"),
+    ("route.legs[0].dwell_end", "1e9 min", "samples at 1 s"),
+    ("uncertainty.draws", 10**9, "the limit is 1,000,000 draws"),
+])
+def test_runs_too_big_are_refused_before_building(tmp_path, capsys, out, field, value,
+                                                  fragment):
+    path = write(tmp_path, set_in(demo(), field, value))
+    t0 = time.perf_counter()
+    assert_refused(["check", path], capsys, out, fragment)
+    assert_refused(["run", path, "--out", out, "--json-only"], capsys, out, fragment)
+    assert time.perf_counter() - t0 < 120  # not a speed check: a guard against a hang
+
+
+def test_the_sample_budget_names_the_size_and_the_limit(tmp_path, capsys):
+    path = write(tmp_path, set_in(demo(), "route.time_step", "0.0001 s"))
+    line = assert_refused(["check", path], capsys)
+    # first leg: 85 km at 40–85 km/h plus 40 min at the dock is far above 3e6 samples at
+    # 0.1 ms (1 h alone is 3.6e7); the message states the size in bytes and the limit
+    assert "GiB" in line and "the limit is 3,000,000 samples" in line
+
+
+def test_draws_option_is_capped_like_the_scenario(tmp_path, capsys, out):
+    assert_refused(["run", demo_path(), "--draws", "1000000000", "--out", out,
+                    "--json-only"], capsys, out, "--draws", "the limit is 1,000,000")
+    assert_refused(["run", demo_path(), "--draws", "-1", "--out", out, "--json-only"],
+                   capsys, out, "--draws")
+
+
+@pytest.mark.parametrize("command", ["check", "run"])
+def test_csv_whose_clock_jumps_a_billion_seconds(tmp_path, capsys, out, command):
+    (tmp_path / "t.csv").write_text("time [s],speed [km/h],grade [%]\n0,0,0\n10,30,0\n"
+                                    "1000000000,30,0\n1000000010,0,0\n")
+    path = write(tmp_path, _with_trace(demo(), "t.csv"))
+    argv = [command, path] + (["--out", out, "--json-only"] if command == "run" else [])
+    assert_refused(argv, capsys, out, "samples", "t.csv")
+
+
+@pytest.mark.parametrize("text", [
+    "x = " + "[" * 5000 + "]" * 5000 + "\n",
+    "x = " + "{a = " * 3000 + "1" + "}" * 3000 + "\n",
+])
+def test_toml_nested_thousands_deep(tmp_path, capsys, out, text):
+    path = write(tmp_path, text)
+    assert_refused(["check", path], capsys, out)
+    assert_refused(["run", path, "--out", out, "--json-only"], capsys, out)
+
+
+# --------------------------------------------------------------------------- 4. text
+@pytest.mark.parametrize("field, value, fragment", [
+    ("study.notes", "word " * 200_000, "the limit is 20,000"),
+    ("trucks[0].name", "T" * 100_000, "the limit is 80"),
+    ("study.name", "N" * 5_000, "the limit is 200"),
+    ("route.legs[0].name", "L" * 1_000, "the limit is 80"),
+])
+def test_huge_text_is_refused_quickly(tmp_path, capsys, out, field, value, fragment):
+    path = write(tmp_path, set_in(demo(), field, value))
+    line = assert_refused(["check", path], capsys, out, field, fragment)
+    assert len(line) < 700
+
+
+@pytest.mark.parametrize("data", [
+    # a line break inside an unknown key and inside an echoed value
+    lambda d: set_in(d, "study.na\nme", 1),
+    lambda d: set_in(d, "study.currency", "EU\nR"),
+    lambda d: set_in(d, "study.slug", "demo\x1b[2J\x1b[31m"),
+    lambda d: set_in(d, "emissions.diesel_factors", "nope\r\n\x07\x00"),
+])
+def test_every_error_is_one_line_without_control_characters(tmp_path, capsys, out, data):
+    path = write(tmp_path, data(demo()))
+    line = assert_refused(["check", path], capsys, out)
+    assert not any(ord(c) < 32 or 0x7f <= ord(c) < 0xa0 for c in line), repr(line)
+
+
+def test_control_characters_never_reach_outputs_or_the_terminal(tmp_path, capsys):
+    data = set_in(demo(), "trucks[1].name", "Electric\x00\x1b[31m\x07 tractor")
+    data = set_in(data, "study.notes", "first line\nsecond\x1b]0;title\x07 line")
+    data["uncertainty"]["draws"] = 0
+    path = write(tmp_path, data)
+    rc, stdout, err = run_cli(["run", path, "--out", tmp_path / "o", "--json-only"], capsys)
+    assert rc == 0, err
+    text = (tmp_path / "o" / "demo" / "summary.json").read_text(encoding="utf-8")
+    summary = json.loads(text)
+    names = [t["name"] for t in summary["trucks"]] if isinstance(summary.get("trucks"), list) \
+        else list(summary.get("trucks", {}))
+    for s in [stdout, err, json.dumps(summary, ensure_ascii=False), *names]:
+        assert not any(c in s for c in "\x00\x1b\x07"), repr(s)[:200]
+    assert "Electric\ufffd\ufffd[31m\ufffd tractor" in text
+
+
+def test_names_in_other_scripts_are_kept(tmp_path):
+    data = set_in(demo(), "trucks[1].name", "שלום 🚚 مرحبا")
+    s = parse_scenario(data)
+    assert s.trucks[1].name == "שלום 🚚 مرحبا"
+
+
+# --------------------------------------------------------------------------- 5. staging
+def test_a_run_removes_staging_folders_left_by_dead_runs(tmp_path, capsys):
+    out = tmp_path / "o"
+    out.mkdir()
+    dead = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"],
+                          capture_output=True, text=True).stdout.strip()
+    stale = out / f".demo.{dead}.abcd1234.part"
+    stale.mkdir()
+    (stale / "report.pdf").write_bytes(b"x" * 1000)
+    mine = out / f".demo.{os.getpid()}.live0000.part"  # a live process: left alone
+    mine.mkdir()
+    other = out / ".notes.txt"
+    other.write_text("keep")
+    data = demo()
+    data["uncertainty"]["draws"] = 0
+    path = write(tmp_path, data, name="demo.toml")
+    rc, _, err = run_cli(["run", path, "--out", out, "--json-only"], capsys)
+    assert rc == 0, err
+    assert not stale.exists()
+    assert mine.exists() and other.read_text() == "keep"
+
+
+def test_a_renderer_crash_leaves_no_staging_folder(tmp_path, capsys, monkeypatch, out):
+    import tco.report.pdf as pdf
+
+    def crash(*a, **k):
+        raise MemoryError("renderer")
+
+    monkeypatch.setattr(pdf, "render_pdf", crash)
+    data = demo()
+    data["uncertainty"]["draws"] = 0
+    path = write(tmp_path, data, name="demo.toml")
+    before = snapshot(out)
+    rc, _, err = run_cli(["run", path, "--out", out], capsys)
+    assert rc == 1 and len(err.splitlines()) == 1
+    assert snapshot(out) == before
+    assert not list(out.glob(".*.part"))
+
+
+@pytest.mark.slow
+def test_sigterm_is_handled_like_ctrl_c(tmp_path):
+    out = tmp_path / "o"
+    (out / "demo").mkdir(parents=True)
+    (out / "demo" / "summary.json").write_text("earlier")
+    env = {**os.environ, "PYTHONPATH": str(ROOT)}
+    proc = subprocess.Popen([sys.executable, "-m", "tco", "run", "--out", str(out),
+                             "--quiet"], stdout=subprocess.PIPE, stderr=subprocess.PIPE,
+                            text=True, env=env)
+    deadline = time.time() + 120
+    while time.time() < deadline and not list(out.glob(".demo.*.part")):
+        time.sleep(0.05)  # wait until the run is writing
+    proc.send_signal(signal.SIGTERM)
+    _, err = proc.communicate(timeout=120)
+    assert proc.returncode in (143, 0), err  # 0 only if it finished first
+    if proc.returncode == 143:
+        assert err.splitlines() == ["tco: terminated; previous outputs left as they were"]
+        assert (out / "demo" / "summary.json").read_text() == "earlier"
+    assert not list(out.glob(".*.part"))
+
+
+# --------------------------------------------------------------------------- 6. files
+def _outside(tmp_path) -> Path:
+    far = tmp_path / "elsewhere"
+    far.mkdir()
+    f = far / "secret.csv"
+    f.write_text(f"{SECRET}\n{SECRET}\n")
+    return f
+
+
+@pytest.mark.parametrize("field", ["emissions.factor_file", "emissions.hourly_profile_file"])
+@pytest.mark.parametrize("how", ["relative", "absolute", "symlink"])
+def test_named_files_stay_in_the_scenario_folder(tmp_path, capsys, out, field, how):
+    secret = _outside(tmp_path)
+    folder = tmp_path / "scen"
+    folder.mkdir()
+    if how == "relative":
+        name = "../elsewhere/secret.csv"
+    elif how == "absolute":
+        name = str(secret)
+    else:
+        (folder / "link.csv").symlink_to(secret)
+        name = "link.csv"
+    path = write(folder, set_in(demo(), field, name))
+    line = assert_refused(["check", path], capsys, out, field, "outside the scenario's folder")
+    assert SECRET not in line
+    # allowed explicitly: the file is read (and then fails as a table), still no contents
+    rc, _, err = run_cli(["check", path, "--allow-folder", secret.parent], capsys)
+    assert rc == 2 and "outside" not in err and SECRET not in err
+
+
+@pytest.mark.parametrize("how", ["symlink", "relative"])
+def test_trace_files_stay_in_the_scenario_folder(tmp_path, capsys, out, how):
+    secret = _outside(tmp_path)
+    folder = tmp_path / "scen"
+    folder.mkdir()
+    if how == "symlink":
+        (folder / "t.csv").symlink_to(secret)
+        name = "t.csv"
+    else:
+        name = "../elsewhere/secret.csv"
+    path = write(folder, _with_trace(demo(), name))
+    line = assert_refused(["check", path], capsys, out, "outside the scenario's folder")
+    assert SECRET not in line
+
+
+@pytest.mark.parametrize("field, name", [
+    ("emissions.factor_file", "table.txt"),
+    ("emissions.hourly_profile_file", "profile.json"),
+])
+def test_named_files_need_the_expected_extension(tmp_path, capsys, out, field, name):
+    (tmp_path / name).write_text(SECRET)
+    path = write(tmp_path, set_in(demo(), field, name))
+    line = assert_refused(["check", path], capsys, out, field, ".csv")
+    assert SECRET not in line
+
+
+@pytest.mark.parametrize("content", [
+    f"{SECRET}\n1,2,3\n",                        # unknown header
+    "time [s],speed [km/h],grade [%]\n0,0,0\n1," + SECRET + ",0\n",  # a bad cell
+    "time [s],speed [" + SECRET + "],grade [%]\n0,0,0\n1,5,0\n",     # a bad unit
+])
+def test_trace_errors_name_row_and_column_never_contents(tmp_path, capsys, out, content):
+    (tmp_path / "t.csv").write_text(content)
+    path = write(tmp_path, _with_trace(demo(), "t.csv"))
+    line = assert_refused(["check", path], capsys, out, "t.csv")
+    assert SECRET not in line
+
+
+def test_profile_and_factor_errors_never_quote_contents(tmp_path, capsys, out):
+    (tmp_path / "p.csv").write_text("value\n" + "\n".join(["1"] * 5) + f"\n{SECRET}\n")
+    path = write(tmp_path, set_in(demo(), "emissions.hourly_profile_file", "p.csv"))
+    line = assert_refused(["check", path], capsys, out, "row 7")
+    assert SECRET not in line
+    (tmp_path / "f.csv").write_text("set,quantity,value,unit,source,year\n"
+                                    f"x,diesel.co2,{SECRET},kg/L,s,2024\n")
+    path = write(tmp_path, set_in(demo(), "emissions.factor_file", "f.csv"))
+    line = assert_refused(["check", path], capsys, out, "row 2, column value")
+    assert SECRET not in line
+
+
+# --------------------------------------------------------------------------- 7. BOM
+def test_toml_with_a_byte_order_mark_is_read(tmp_path):
+    text = demo_path().read_text(encoding="utf-8")
+    path = write(tmp_path, text, bom=True)
+    assert load_scenario(path).scenario.study.name == DEMO["study"]["name"]
+
+
+def test_csv_trace_and_profile_with_a_byte_order_mark(tmp_path, capsys):
+    (tmp_path / "t.csv").write_bytes(
+        b"\xef\xbb\xbftime [s],speed [km/h],grade [%]\r\n0,0,0\r\n"
+        + b"".join(f"{k},{min(50, 5 * k)},0\r\n".encode() for k in range(1, 200))
+        + b"200,0,0\r\n")
+    (tmp_path / "p.csv").write_bytes(b"\xef\xbb\xbf" + "\r\n".join(["1"] * 24).encode())
+    data = _with_trace(demo(), "t.csv")
+    data["emissions"] = {**data.get("emissions", {}), "hourly_profile_file": "p.csv"}
+    path = write(tmp_path, data)
+    rc, _, err = run_cli(["check", path], capsys)
+    assert rc == 0, err
+
+
+# --------------------------------------------------------------------------- 8. messages
+def test_trace_path_that_is_a_folder_says_so(tmp_path, capsys, out):
+    (tmp_path / "t.csv").mkdir()
+    path = write(tmp_path, _with_trace(demo(), "t.csv"))
+    assert_refused(["check", path], capsys, out, "is a folder")
+
+
+def test_very_long_segment_names_the_length(tmp_path, capsys, out):
+    path = write(tmp_path, set_in(demo(), "route.legs[0].segments[0].length", "1e7 km"))
+    line = assert_refused(["check", path], capsys, out, "segments[0].length", "at most 5000 km")
+    assert "speed is zero" not in line
+
+
+def test_many_stops_close_together_are_driven(tmp_path, capsys):
+    """10,000 stops on 6 km (0.6 m apart) used to say 'the speed is zero … near 0 m'."""
+    data = set_in(demo(), "route.legs[0].segments[0].stops", 10_000)
+    data = set_in(data, "route.legs[0].segments[0].dwell", "0 s")
+    s = parse_scenario(data)
+    from tco.pipeline import build_traces
+    from tco.scenario import LoadedScenario
+
+    legs = build_traces(LoadedScenario(s, None, data, ""))
+    assert legs[0]["speed"].max() > 0
+
+
+def test_a_misspelt_distribution_input_is_named(tmp_path, capsys, out):
+    data = demo()
+    data["uncertainty"]["distributions"][0]["input"] = "prices.diesl"
+    path = write(tmp_path, data)
+    assert_refused(["check", path], capsys, out, "prices.diesl")
+
+
+def test_paths_in_errors_are_as_the_user_gave_them(tmp_path, capsys, monkeypatch, out):
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "sub").mkdir()
+    (tmp_path / "sub" / "t.csv").write_text("time [s],speed [km/h],grade [%]\n0,0,0\n1,x,0\n")
+    write(tmp_path / "sub", _with_trace(demo(), "t.csv"))
+    line = assert_refused(["check", "sub/case.toml"], capsys, out)
+    assert line.startswith("tco: error: sub/t.csv: ") and str(tmp_path) not in line
+    data = set_in(demo(), "prices.diesel", "8 %")
+    write(tmp_path / "sub", data, name="b.toml")
+    line = assert_refused(["check", "sub/b.toml"], capsys, out)
+    assert line.startswith("tco: error: sub/b.toml: ")
+
+
+# --------------------------------------------------------------------------- hypothesis
+def _leaves(node, prefix=""):
+    """Paths of every value of a scenario dict: tables, lists and scalars."""
+    if prefix:
+        yield prefix
+    if isinstance(node, dict):
+        for k, v in node.items():
+            yield from _leaves(v, f"{prefix}.{k}" if prefix else k)
+    elif isinstance(node, list) and node and all(isinstance(v, dict) for v in node):
+        for i, v in enumerate(node):
+            yield from _leaves(v, f"{prefix}[{i}]")
+
+
+LEAVES = sorted(set(_leaves(DEMO)))
+WRONG = st.one_of(
+    st.booleans(), st.integers(min_value=-(2**70), max_value=2**70),
+    st.floats(allow_nan=True, allow_infinity=True),
+    st.text(max_size=30),
+    st.sampled_from(["6 %", "560 %", "1e308 km", "inf km", "nan", "-0 s", "12 kg", "3 km/h",
+                     "5 $", "1e9 min", "0.0001 s", "-1e308", "1 / gal", "10 degC", "", " ",
+                     "\x00", "a\nb", "%", "km", "1e400 t", "2**2000"]),
+    st.lists(st.integers(-5, 30), max_size=4),
+    st.dictionaries(st.text(max_size=5), st.integers(), max_size=2),
+    st.lists(st.dictionaries(st.text(max_size=5), st.floats(), max_size=2), max_size=2),
+)
+
+
+@settings(max_examples=300, deadline=None,
+          suppress_health_check=[HealthCheck.function_scoped_fixture,
+                                 HealthCheck.too_slow])
+@given(st.lists(st.tuples(st.sampled_from(LEAVES), WRONG), min_size=1, max_size=3))
+def test_wrong_values_give_input_error_or_success(tmp_path, changes):
+    """Random wrong-type and wrong-dimension values: InputError or success, nothing else."""
+    data = demo()
+    for field, value in changes:
+        try:
+            set_in(data, field, value)
+        except (LookupError, TypeError):  # an earlier change replaced the parent table
+            pass
+    path = tmp_path / "h.toml"
+    try:
+        path.write_text(dump_toml(data), encoding="utf-8")
+    except UnicodeEncodeError:  # lone surrogates cannot be written as UTF-8 at all
+        return
+    try:
+        load_scenario(path)
+    except InputError as exc:
+        assert "\n" not in exc.line()
