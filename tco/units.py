@@ -51,7 +51,22 @@ def _si_factor(unit: str) -> tuple[float, float, str]:
     return q.magnitude - zero, zero, str(q.units)
 
 
+#: Longest quantity string read ("1.3 kWh/km", "823.1 lb/MWh" ...). [characters]
+MAX_QUANTITY_TEXT = 100
+_POWER = re.compile(r"(\*\*|\^)\s*\(?\s*([-+]?[\d.]+)")
+
+
 def _parse_string(text: str) -> pint.Quantity:
+    if len(text) > MAX_QUANTITY_TEXT:
+        raise UnitError(f"a quantity is at most {MAX_QUANTITY_TEXT} characters (got "
+                        f"{len(text):,})")
+    # a power is a unit's exponent (m^2, m**3): refuse big ones before pint evaluates them
+    # (2**2000 is an integer too large for a float; 9**9**9 would take hours)
+    if text.count("**") + text.count("^") > 3 or any(
+            abs(float(m.group(2))) > 4 for m in _POWER.finditer(text)
+            if m.group(2).strip(".")):
+        raise UnitError(f"cannot read '{_short(text)}' as a quantity (exponents of units "
+                        "are at most 4)")
     if _CURRENCY_SIGNS.search(text):
         raise UnitError(
             f"'{text}' has a currency sign; write money as a plain number in the "
@@ -98,14 +113,20 @@ def to_si(value: float | int | str, unit: str) -> float:
         raise UnitError("expected a number or a quantity string, got true/false")
     if isinstance(value, (int, float, np.integer, np.floating)):
         scale, offset, _ = _si_factor(unit)
-        out = float(value) * scale + offset
+        try:
+            out = float(value) * scale + offset
+        except OverflowError:  # an integer beyond the range of a float
+            raise UnitError("is too large to be a number") from None
     elif isinstance(value, str):
         q = _parse_string(value)
         target = ureg.parse_expression(unit) if "(" in unit else Q_(1.0, unit)
         if q.dimensionality != target.dimensionality:
             if not q._units:  # pint's unitless is true for "%" too; this is "no unit at all"
                 # a bare number inside a string ("12"): read it in the default unit
-                return to_si(float(q.magnitude), unit)
+                try:
+                    return to_si(float(q.magnitude), unit)
+                except OverflowError:
+                    raise UnitError(f"'{_short(value)}' is too large to be a number") from None
             # A unit of the wrong dimension, including a dimensionless one such as "%" on
             # a length: never guess what was meant.
             expected = f"a unit like '{unit}'" if unit else "a plain number or a '%'"
@@ -113,7 +134,10 @@ def to_si(value: float | int | str, unit: str) -> float:
                 f"'{_short(value)}' is not {_a(_dimension_name(unit))}: its unit "
                 f"'{_unit_text(q)}' is {_given_dimension(q)}; expected {expected}"
             )
-        out = float(q.to_base_units().magnitude)
+        try:
+            out = float(q.to_base_units().magnitude)
+        except OverflowError:
+            raise UnitError(f"'{_short(value)}' is too large to be a number") from None
     else:
         raise UnitError(f"expected a number or a quantity string, got {type(value).__name__}")
     if not np.isfinite(out):
