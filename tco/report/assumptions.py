@@ -261,7 +261,7 @@ def build_appendix(rows: list[dict], scenario, units: str = "metric") -> dict:
                     cells.append(text + sources.mark(r))
                 table_rows.append(cells)
             route["tables"].append({
-                "title": f"Leg {i + 1}: {name}", "note": "; ".join(facts).capitalize(),
+                "kind": "leg", "title": f"Leg {i + 1}: {name}", "note": "; ".join(facts).capitalize(),
                 "columns": ["Segment"] + [c for _, c in seg_cols] if table_rows else [],
                 "rows": table_rows})
     if truck_rows:

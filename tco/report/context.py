@@ -433,9 +433,9 @@ def _uncertainty_tables(result, cur: str, system: str = "metric") -> list[dict]:
     t = unc.tornado
     key = "key" if "key" in t.columns else "input"
     if not t.empty:
-        rows = [[r.input, _tornado_input_value(r.low_value, r.unit, getattr(r, key), cur, system)
-                 + " – " + _tornado_input_value(r.high_value, r.unit, getattr(r, key), cur,
-                                                system),
+        rows = [[r.input, fm.range_text(
+                    _tornado_input_value(r.low_value, r.unit, getattr(r, key), cur, system),
+                    _tornado_input_value(r.high_value, r.unit, getattr(r, key), cur, system)),
                  fmt_number(r.low), fmt_number(r.high), fmt_number(r.swing)]
                 for r in t.itertuples()]
         tables.append({"title": "Sensitivity, one input at a time",

@@ -27,7 +27,7 @@ from tco.units import from_si
 __all__ = [
     "DASH", "number", "money", "signed_money", "percent", "unit_price", "per_unit_label",
     "quantity", "Units", "input_value", "label_from_description", "field_label", "hours_text",
-    "irr_text", "EXCEL_FORMATS",
+    "irr_text", "range_text", "EXCEL_FORMATS",
 ]
 
 #: Shown for a missing or non-finite figure.
@@ -324,6 +324,8 @@ def label_from_description(description: str) -> str:
     text = text.split("; ")[0].strip()
     if text.count("(") > text.count(")"):  # a parenthesis cut by the semicolon
         text = text[:text.rindex("(")].strip()
+    if len(text) > 70:  # long: the parenthetical detail stays in the workbook's notes
+        text = re.sub(r"\s*\([^()]*\)", "", text).strip()
     return text[:1].upper() + text[1:] if text else text
 
 
@@ -346,6 +348,20 @@ def hours_text(hours) -> str:
     if len(runs) > 1 and runs[0][0] == 0 and runs[-1][1] == 24:  # wraps past midnight
         runs = [(runs[-1][0], runs[0][1])] + runs[1:-1]
     return ", ".join(f"{a:02d}:00–{b % 24:02d}:00" for a, b in runs)
+
+
+def range_text(low: str, high: str) -> str:
+    """Two formatted values as a range with their unit written once.
+
+    ``range_text("1.18 EUR/L", "1.78 EUR/L")`` → ``'1.18 – 1.78 EUR/L'``.
+    """
+    a, b = low.split(" "), high.split(" ")
+    k = 0
+    while k < min(len(a), len(b)) - 1 and a[-1 - k] == b[-1 - k]:
+        k += 1
+    if k == 0:
+        return f"{low} – {high}"
+    return f"{' '.join(a[:-k])} – {high}"
 
 
 def irr_text(irr, reason: str | None = None) -> str:
