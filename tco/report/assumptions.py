@@ -235,8 +235,8 @@ def build_appendix(rows: list[dict], scenario, units: str = "metric") -> dict:
     if leg_rows:
         route = section(SECTION_TITLES["route"])
         u = fm.Units(units)
-        seg_cols = [("length", f"Length [{u.dist}]"), ("speed", f"Speed [{u.speed}]"),
-                    ("grade", "Grade"), ("stops", "Stops"), ("dwell", "Dwell per stop")]
+        seg_cols = [("length", f"Length [{u.dist}]"), ("speed", f"Speed [{u.speed}]"),  # noqa
+                    ("grade", "Grade"), ("stops", "Stops"), ("dwell", "Dwell")]
         for i in sorted(leg_rows):
             leg = leg_rows[i]
             name = leg["fields"].get("name", {}).get("value") or f"leg {i + 1}"

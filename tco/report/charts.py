@@ -684,7 +684,12 @@ def equation(tex: str, *, fontsize: float = 11.0) -> str:
     ValueError
         ``tex`` is not valid mathtext.
     """
-    with chart_style(), matplotlib.rc_context({"mathtext.fontset": "dejavuserif"}):
+    # Glyphs as outlines ("path"), from the DejaVu Serif that ships inside matplotlib:
+    # the PDF then needs no font of its own for them, so an accent such as the dot of
+    # ṁ can never fall back to a placeholder glyph (tests/test_report_layout.py checks
+    # the font has every glyph and the SVG no text).
+    with chart_style(), matplotlib.rc_context({"mathtext.fontset": "dejavuserif",
+                                               "svg.fonttype": "path"}):
         fig = Figure(figsize=(0.1, 0.1))
         fig.text(0, 0, f"${tex}$", fontsize=fontsize, color=INK)
         buf = io.BytesIO()

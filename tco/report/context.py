@@ -723,7 +723,7 @@ METHOD_NOTES = [
      "rated power the truck slows to the speed its power holds, so the time and fuel of "
      "the slower climb are counted (route.slow_when_power_limited).",
      "ṁ_f = (P_e + P_0) / (η_m · LHV)",
-     r"\dot m_f = \frac{P_e + P_0}{\eta_m \, LHV}"),
+     r"\dot m_f = \dfrac{P_e + P_0}{\eta_m \, LHV}"),
     ("Battery and charging", "Battery power is wheel power through the drivetrain plus "
      "auxiliaries (heating and cooling grow with the distance from the comfort band); "
      "braking energy is regenerated within the motor and battery limits and never above a "

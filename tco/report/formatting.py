@@ -296,6 +296,7 @@ CHOICE_LABELS = {
     "hourly_profile_kind": "Hourly profile kind", "beyond_period":
     "Loan or lease running past the period", "units": "Unit system",
     "depreciation": "Tax depreciation method", "lease_end": "At the end of the lease",
+    "study.currency": "Currency (ISO 4217 code) of every amount",
 }
 _CURRENCY_PAREN = re.compile(r"\s*\((currency per [^)]*)\)")
 

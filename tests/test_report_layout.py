@@ -1,0 +1,278 @@
+"""The demo's PDF as a reader gets it, read back with poppler's ``pdftotext -bbox-layout``
+(word boxes in PostScript points): nothing past the right margin, no word broken inside,
+no heading left alone at the foot of a page, the Monte Carlo cells under their own
+headers, no placeholder units or scientific notation, and the page counts of the board
+pack (body at most 12 pages, the whole PDF at most 18)."""
+from __future__ import annotations
+
+import re
+import shutil
+import subprocess
+import xml.etree.ElementTree as ET
+from html.parser import HTMLParser
+
+import pytest
+
+pytestmark = [pytest.mark.slow,
+              pytest.mark.skipif(shutil.which("pdftotext") is None,
+                                 reason="needs poppler-utils (pdftotext)")]
+
+# A4 in points (ISO 216: 210 mm × 297 mm; 1 pt = 1/72 in) and the report's margins
+# (report.css: @page margin 20mm 18mm 18mm 18mm).
+MM = 72 / 25.4
+PAGE_W = 210 * MM
+MARGIN_LEFT = MARGIN_RIGHT = 18 * MM
+MARGIN_TOP, MARGIN_BOTTOM = 20 * MM, 18 * MM
+PAGE_H = 297 * MM
+NS = "{http://www.w3.org/1999/xhtml}"
+
+
+@pytest.fixture(scope="module")
+def demo_pdf(tmp_path_factory):
+    from tco.pipeline import evaluate
+    from tco.report.context import build_context
+    from tco.report.html import render_html
+    from tco.report.pdf import render_pdf
+    from tco.report.summary import build_summary
+    from tco.resources import demo_path
+    from tco.scenario import load_scenario
+
+    loaded = load_scenario(demo_path())
+    loaded.scenario.uncertainty.draws = 2000  # the tables have the same shape at 10,000
+    result = evaluate(loaded)
+    ctx = build_context(result, build_summary(result))
+    html = render_html(ctx, for_print=True, page_size="A4")
+    folder = tmp_path_factory.mktemp("layout")
+    pdf = render_pdf(html, folder / "report.pdf")
+    bbox = folder / "bbox.html"
+    subprocess.run(["pdftotext", "-bbox-layout", str(pdf.path), str(bbox)], check=True)
+    pages = ET.parse(bbox).getroot().findall(f".//{NS}page")
+    text = subprocess.run(["pdftotext", str(pdf.path), "-"], check=True,
+                          capture_output=True, text=True).stdout
+    return {"ctx": ctx, "html": html, "pages": pages, "text": text, "count": pdf.pages}
+
+
+def _words(page):
+    for w in page.iter(f"{NS}word"):
+        yield (w.text or "", float(w.get("xMin")), float(w.get("yMin")),
+               float(w.get("xMax")), float(w.get("yMax")))
+
+
+def _lines(page):
+    """Visual lines of the page body (running header and footer left out), top to
+    bottom: words whose baselines (yMax) agree within 1 pt, left to right. Table cells
+    are separate blocks for pdftotext, so its own lines do not span a table row."""
+    words = [(t, x0, y0, x1, y1) for t, x0, y0, x1, y1 in _words(page)
+             if y0 >= MARGIN_TOP - 1 and y1 <= PAGE_H - MARGIN_BOTTOM + 1]
+    words.sort(key=lambda w: (w[4], w[1]))
+    out: list[tuple[float, float, list]] = []
+    for t, x0, y0, x1, y1 in words:
+        if out and abs(out[-1][1] - y1) <= 1.0:
+            out[-1][2].append((t, x0, x1))
+        else:
+            out.append((y0, y1, [(t, x0, x1)]))
+    for line in out:
+        line[2].sort(key=lambda w: w[1])
+    return out
+
+
+class _Text(HTMLParser):
+    """Visible text of the HTML and the headings, by element."""
+
+    def __init__(self):
+        super().__init__()
+        self.stack: list[str] = []
+        self.text: list[str] = []
+        self.headings: list[str] = []
+        self._h: list[str] | None = None
+
+    def handle_starttag(self, tag, attrs):
+        self.stack.append(tag)
+        if tag in ("h1", "h2", "h3", "h4"):
+            self._h = []
+
+    def handle_endtag(self, tag):
+        if tag in ("h1", "h2", "h3", "h4") and self._h is not None:
+            self.headings.append(" ".join("".join(self._h).split()))
+            self._h = None
+        while self.stack and self.stack.pop() != tag:
+            pass
+
+    def handle_data(self, data):
+        if "style" in self.stack or "title" in self.stack:
+            return
+        self.text.append(data)
+        if self._h is not None:
+            self._h.append(data)
+
+
+def _chart_words(html: str) -> set[str]:
+    import base64
+
+    out: set[str] = set()
+    for b64 in re.findall(r"data:image/svg\+xml;base64,([A-Za-z0-9+/=]+)", html):
+        svg = ET.fromstring(base64.b64decode(b64))
+        for el in svg.iter():
+            for piece in (el.text, el.tail):
+                if piece:
+                    out.update(piece.split())
+    return out
+
+
+def test_page_counts_within_the_board_pack_targets(demo_pdf):
+    pages = demo_pdf["pages"]
+    first_appendix = next(i for i, p in enumerate(pages)
+                          if any(t == "Appendix:" for t, *_ in _words(p))
+                          and i > 1)  # the contents page names it too
+    body = first_appendix  # cover, contents, summary ... cautions
+    assert body <= 12, f"body is {body} pages"
+    assert demo_pdf["count"] <= 18
+
+
+def test_no_word_beyond_the_margins(demo_pdf):
+    right = PAGE_W - MARGIN_RIGHT + 0.5  # half a point for glyph side bearings
+    for n, page in enumerate(demo_pdf["pages"], start=1):
+        for text, x0, y0, x1, y1 in _words(page):
+            assert x1 <= right, f"page {n}: '{text}' ends at {x1:.1f} pt (> {right:.1f})"
+            assert x0 >= MARGIN_LEFT - 0.5, f"page {n}: '{text}' starts at {x0:.1f} pt"
+
+
+def test_no_word_broken_inside(demo_pdf):
+    """Every word of the PDF is a word of the HTML (or a part of one after a hyphen,
+    slash or dash, where a line may break): a word cut in two ("demonstratio n") would
+    leave fragments that are in neither."""
+    p = _Text()
+    p.feed(demo_pdf["html"])
+    tokens = set(" ".join(p.text).split())
+    chart_text = "".join(_chart_words(demo_pdf["html"]))  # SVG text stays text in the PDF
+    tokens |= {t.upper() for t in tokens}  # text-transform: uppercase (kicker, labels)
+    tokens.add("•")  # list markers
+    allowed = set(tokens)
+    for t in tokens:  # a line may break after a hyphen, slash, dash or middle dot
+        cuts = [m.end() for m in re.finditer(r"[-/–·—]", t)]
+        for a in [0] + cuts:
+            for b in cuts + [len(t)]:
+                if b > a:
+                    allowed.add(t[a:b])
+    generated = re.compile(r"^(Page|of|\d+|·)$")  # running footer and contents numbers
+    bad = []
+    for n, page in enumerate(demo_pdf["pages"], start=1):
+        for text, *_ in _words(page):
+            if text in allowed or generated.match(text) or text in chart_text:
+                continue
+            if set(text) <= set(chart_text):  # typeset equations: glyphs placed one by one
+                continue
+            bad.append((n, text))
+    assert not bad, bad[:20]
+
+
+def test_no_heading_ends_a_page(demo_pdf):
+    p = _Text()
+    p.feed(demo_pdf["html"])
+    headings = {h for h in p.headings if h}
+    for n, page in enumerate(demo_pdf["pages"][:-1], start=1):
+        lines = _lines(page)
+        if not lines:
+            continue
+        last = " ".join(w for w, *_ in lines[-1][2])
+        assert last not in headings, f"page {n} ends with the heading '{last}'"
+
+
+def _table_columns(pages, header_words: list[str]):
+    """The header line holding ``header_words`` and the lines under it on that page."""
+    for page in pages:
+        lines = _lines(page)
+        for k, (y0, y1, words) in enumerate(lines):
+            texts = [w for w, *_ in words]
+            if all(h in texts for h in header_words):
+                return words, lines[k + 1:]
+    raise AssertionError(f"no line with {header_words}")
+
+
+def test_monte_carlo_cells_sit_under_their_headers(demo_pdf):
+    # statistics: every row's three numbers are right-aligned under P10, P50, P90
+    header, below = _table_columns(demo_pdf["pages"], ["Quantity", "P10", "P50", "P90"])
+    right_edges = [x1 for w, x0, x1 in header if w in ("P10", "P50", "P90")]
+    rows = 0
+    for y0, y1, words in below:
+        number = r"[-−]?[\d,]+(\.\d+)?"
+        if not re.fullmatch(number, words[-1][0]):
+            break  # past the table (its note)
+        numbers = [(w, x1) for w, x0, x1 in words if re.fullmatch(number, w)]
+        for (w, x1), edge in zip(numbers[-3:], right_edges):
+            assert x1 == pytest.approx(edge, abs=1.5), (w, x1, edge)
+        rows += 1
+    assert rows >= 3
+    # probabilities: the probability and its standard error in their own columns
+    header, below = _table_columns(demo_pdf["pages"], ["Probability", "Standard", "error"])
+    edges = {w: x1 for w, x0, x1 in header}
+    checked = 0
+    for y0, y1, words in below:
+        percents = [x1 for w, x0, x1 in words if w == "%"]
+        if len(percents) < 2:
+            if checked:
+                break
+            continue
+        assert percents[0] == pytest.approx(edges["Probability"], abs=1.5)
+        assert percents[1] == pytest.approx(edges["error"], abs=1.5)
+        checked += 1
+    assert checked >= 1
+
+
+def test_no_placeholder_units_or_scientific_notation(demo_pdf):
+    text = demo_pdf["text"]
+    assert not re.search(r"\d[eE][+-]\d", text), re.findall(r"\S*\d[eE][+-]\d\S*", text)
+    for bad in ("1/L", "1/km", "1/kWh", "1/kW", "1/h"):
+        assert not re.search(rf"(?<![\w/]){re.escape(bad)}\b", text), bad
+    assert "currency" not in text  # money is always named by its ISO code
+    assert "Page size" not in text
+    # the unit prices and rates a reader expects
+    assert "EUR/L" in text and "EUR/kWh" in text and "EUR/kW·month" in text
+    assert re.search(r"\d %", text)
+
+
+def test_contents_page_lists_sections_with_their_pages(demo_pdf):
+    pages = demo_pdf["pages"]
+    contents = " ".join(w for w, *_ in _words(pages[1]))
+    assert contents.startswith("Contents") or "Contents" in contents
+    found = re.findall(r"Cautions (\d+)", contents)
+    assert found
+    n = int(found[0])
+    assert "Cautions" in [w for w, *_ in _words(pages[n - 1])]
+
+
+
+def test_equations_are_drawn_with_a_font_that_has_their_glyphs():
+    """The method-note equations are typeset by matplotlib's mathtext in the DejaVu Serif
+    that matplotlib ships; every character they use is in that font's character map
+    (read with fontTools), and the SVG carries outlines, not text for a PDF font to
+    substitute (the dot of ṁ once printed as a placeholder glyph)."""
+    import base64
+
+    from fontTools.ttLib import TTFont
+    from matplotlib import font_manager
+
+    from tco.report import charts
+    from tco.report.context import METHOD_NOTES
+
+    path = font_manager.findfont(font_manager.FontProperties(family="DejaVu Serif"),
+                                 fallback_to_default=False)
+    assert "matplotlib" in path  # the font that ships with matplotlib
+    cmap = TTFont(path).getBestCmap()
+    for title, text, plain, tex in METHOD_NOTES:
+        svg = base64.b64decode(charts.equation(tex).split(",", 1)[1]).decode()
+        assert "<text" not in svg and "<path" in svg, title
+        for ch in plain.replace(" ", ""):
+            if ch == "ṁ":  # U+1E41, and its parts m + combining dot above (U+0307)
+                assert 0x1E41 in cmap and ord("m") in cmap and 0x0307 in cmap
+                continue
+            if ch in "_^{}":  # plain-text sub/superscript markers, not glyphs
+                continue
+            assert ord(ch) in cmap or ord(ch) in _dejavu_sans_cmap(), (title, ch)
+
+
+def _dejavu_sans_cmap():
+    from fontTools.ttLib import TTFont
+    from matplotlib import font_manager
+
+    return TTFont(font_manager.findfont("DejaVu Sans")).getBestCmap()
