@@ -124,7 +124,8 @@ def test_page_counts_within_the_board_pack_targets(demo_pdf):
     first_appendix = next(i for i, p in enumerate(pages)
                           if any(t == "Appendix:" for t, *_ in _words(p))
                           and i > 1)  # the contents page names it too
-    body = first_appendix  # cover, contents, summary ... cautions
+    body = first_appendix  # cover, contents, summary ... cautions; then the appendices
+    # (method notes, assumptions)
     assert body <= 12, f"body is {body} pages"
     assert demo_pdf["count"] <= 18
 

@@ -112,7 +112,7 @@ def test_pdf_has_every_section_and_input(rendered):
     text = _squash("\n".join(pages))
     for heading in ("Summary", "Cost of ownership", "Energy and duty cycle", "Emissions",
                     "Uncertainty", "Feasibility and warnings", "Detailed figures",
-                    "Contents", "Appendix: assumptions", "Method notes", "Cautions"):
+                    "Contents", "Appendix: assumptions", "Appendix: method notes", "Cautions"):
         assert _squash(heading) in text
     for sec in ctx["assumptions"]["sections"]:
         for row in sec["rows"] + [r for t in sec["tables"] for r in t["rows"]]:
