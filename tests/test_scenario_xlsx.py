@@ -241,3 +241,17 @@ def test_macros_and_huge_sheets_are_refused(tmp_path):
     with pytest.raises(InputError, match="not an .xlsx"):
         (tmp_path / "fake.xlsx").write_text("hello")
         load_scenario(tmp_path / "fake.xlsx")
+
+
+def test_an_edited_named_input_is_not_silently_ignored(delivered, tmp_path):
+    """The named rows at the top of a delivered Inputs sheet drive the formulas; a rerun
+    reads the field table. A named input changed there is refused, naming the cell."""
+    _, _, wb_path = delivered
+    wb = openpyxl.load_workbook(wb_path)
+    sheet, coord = next(iter(wb.defined_names["diesel_price"].destinations))
+    wb[sheet][coord.replace("$", "")].value = 1.6
+    edited = tmp_path / "edited.xlsx"
+    wb.save(edited)
+    with pytest.raises(InputError, match="diesel_price") as e:
+        load_scenario(edited)
+    assert e.value.where == f"Inputs!{coord.replace('$', '')}"

@@ -82,6 +82,8 @@ _TITLE_FONT = Font(bold=True, size=14, color="0B3954")
 _BOLD = Font(bold=True)
 _WRAP = Alignment(wrap_text=True, vertical="top")
 _NOT_LIVE = "model figure (not live)"
+#: Hidden column of the Inputs sheet holding each named input's value as written.
+_AS_WRITTEN_COL = 8
 #: Factor on a break-even input in the workings that measure the present value's slope.
 _BUMP = 1.01
 
@@ -282,6 +284,9 @@ class _Book:
     def _inp(self, name, label, value, unit, source, fmt=None) -> str:
         wbb.add_named_input(self.wb, self.ws_in, self.row, name, label, value, unit, source,
                             number_format=fmt)
+        # the value as written, in a hidden column: a rerun from this workbook reads the
+        # scenario table, and refuses a named input edited here (it would be ignored)
+        write_value(self.ws_in.cell(row=self.row, column=_AS_WRITTEN_COL), value)
         self.row += 1
         return name
 
@@ -739,6 +744,8 @@ class _Book:
         raw = getattr(getattr(self.result, "loaded", None), "raw", None) or {}
         self.row = write_field_table(self.ws_in, self.row, field_rows(self.s, raw),
                                      widths=False, wrap=False)
+        self.ws_in.column_dimensions[_col(_AS_WRITTEN_COL)].hidden = True
+        safe_text(self.ws_in.cell(row=1, column=_AS_WRITTEN_COL), "as written")
 
     # ------------------------------------------------------------------------ Cash flow
     def _g(self, esc: str) -> str:

@@ -388,16 +388,20 @@ def load_workbook_scenario(path):
                 raise InputError(f"sheet '{ws.title}' is too large for a scenario "
                                  f"({ws.max_row} rows × {ws.max_column} columns; at most "
                                  f"{MAX_ROWS} × {MAX_COLUMNS})", file=path)
-            inside = False
-            for r, cells in enumerate(ws.iter_rows(max_col=7), start=1):
+            inside = named = False
+            for r, cells in enumerate(ws.iter_rows(max_col=8), start=1):
                 if r > MAX_ROWS:
                     raise InputError(f"sheet '{ws.title}' is too large for a scenario",
                                      file=path)
-                vals = [c.value if c is not None else None for c in cells] + [None] * 7
+                vals = [c.value if c is not None else None for c in cells] + [None] * 8
+                if r == 1:
+                    named = vals[7] == "as written"  # a delivered workbook's Inputs sheet
                 if tuple(vals[:4]) == FIELD_HEADER[:4]:
                     inside = found = True
                     continue
                 if not inside:
+                    if named and r > 1:
+                        _check_named_input(ws.title, r, vals, path)
                     continue
                 field, kind, value = vals[0], vals[1], vals[2]
                 if field is None or (isinstance(field, str) and not field.strip()):
@@ -437,6 +441,21 @@ def load_workbook_scenario(path):
                          where=_cell_of(exc.where, where_of)) from None
     fp, inputs_fp = _fingerprints(path, scenario)
     return LoadedScenario(scenario, path.resolve(), data, fp, inputs_fp)
+
+
+def _check_named_input(sheet: str, r: int, vals: list, path: Path) -> None:
+    """A delivered workbook's named input (above the field table) must be as written: a
+    rerun reads the field table, so an edit there would be silently ignored."""
+    name, value, written = vals[1], vals[2], vals[7]
+    if not isinstance(name, str) or written is None or isinstance(written, str):
+        return
+    same = isinstance(value, (int, float)) and not isinstance(value, bool) and \
+        math.isclose(float(value), float(written), rel_tol=1e-12, abs_tol=0.0)
+    if not same:
+        raise InputError(f"the named input '{name}' was changed here, but a rerun reads the "
+                         "scenario table at the foot of this sheet: change the field there "
+                         "(the named rows drive this workbook's formulas only)", file=path,
+                         where=f"{sheet}!C{r}")
 
 
 def _compact(data) -> None:
