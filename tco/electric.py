@@ -536,10 +536,23 @@ def depot_charger_power(grid_energy, window_seconds):
     return restore(e / t)
 
 
-def enroute_charging_time(deficit_energy, charger_power, efficiency):
+def enroute_charging_time(deficit_energy, charger_power, efficiency, capacity=None,
+                          arrival_soc=0.0, taper_start_soc=1.0, share_at_full=1.0):
     """Time at an en-route charger to make up a battery energy deficit.
 
-    .. math:: t = E_{deficit} / (P_{charger}\\, \\eta)
+    Flat (no ``capacity`` given): :math:`t = E_{deficit} / (P_{charger}\\, \\eta)`.
+
+    With a charging-power curve: the battery takes :math:`P\\,\\eta\\,k(s)` at state of
+    charge s, where the share k is 1 up to ``taper_start_soc`` and falls linearly to
+    ``share_at_full`` at a full battery (the constant-current / constant-voltage shape
+    of lithium-ion charging). Charging from ``arrival_soc`` by :math:`\\Delta s =
+    E_{deficit}/C`,
+
+    .. math:: t = \\frac{C}{P\\,\\eta} \\int_{s_0}^{s_0+\\Delta s} \\frac{ds}{k(s)},
+
+    in closed form on each linear piece (:math:`\\int ds/(a + b s) = \\ln(a + b s)/b`).
+    A deficit beyond one fill (to a full battery) takes several stops, each from
+    ``arrival_soc``.
 
     Parameters
     ----------
@@ -549,6 +562,14 @@ def enroute_charging_time(deficit_energy, charger_power, efficiency):
         Power the charger draws from the grid. [W]
     efficiency : float
         Grid-to-battery efficiency, in (0, 1]. [-]
+    capacity : float, optional
+        Usable battery capacity; without it the power is flat. [J]
+    arrival_soc : float
+        State of charge when charging starts, in [0, 1). [-]
+    taper_start_soc : float
+        State of charge where the charging power starts to fall, in (0, 1]. [-]
+    share_at_full : float
+        Share of the charger power still taken at a full battery, in (0, 1]. [-]
 
     Returns
     -------
@@ -559,10 +580,95 @@ def enroute_charging_time(deficit_energy, charger_power, efficiency):
     --------
     >>> enroute_charging_time(3.6e8, 400e3, 0.9)
     1000.0
+    >>> # 80 % → 100 % of 100 kWh at 100 kW, power falling from 100 % to 20 %:
+    >>> # t = (20 kWh / 100 kW) · ln(1/0.2) / 0.8 = 0.2 h · 2.0118 = 1448.5 s
+    >>> round(float(enroute_charging_time(7.2e7, 100e3, 1.0, 3.6e8, 0.8, 0.8, 0.2)), 1)
+    1448.5
     """
     (e,), restore = _inputs(deficit_energy)
     _check_finite("deficit_energy", e)
     _check_positive("charger_power", charger_power)
     if not 0.0 < efficiency <= 1.0:
         raise ValueError(f"efficiency must be in (0, 1], got {efficiency}")
-    return restore(np.maximum(e, 0.0) / (float(charger_power) * float(efficiency)))
+    e = np.maximum(e, 0.0)
+    rate = float(charger_power) * float(efficiency)
+    if capacity is None:
+        return restore(e / rate)
+    cap = float(capacity)
+    s0, s1, k1 = float(arrival_soc), float(taper_start_soc), float(share_at_full)
+    if not (cap > 0 and 0.0 <= s0 < 1.0 and 0.0 < s1 <= 1.0 and 0.0 < k1 <= 1.0):
+        raise ValueError("capacity must be > 0, arrival_soc in [0, 1), taper_start_soc and "
+                         "share_at_full in (0, 1]")
+
+    def to(s):  # charging time per unit of C/rate from state of charge 0 to s
+        flat = np.minimum(s, s1)
+        x = np.maximum(s - s1, 0.0)
+        span = 1.0 - s1
+        if span <= 0.0:
+            return flat
+        slope = (k1 - 1.0) / span  # k(s) = 1 + slope·(s − s1) above s1
+        if abs(slope) < 1e-12:
+            return flat + x
+        return flat + np.log1p(slope * x) / slope
+
+    fill = 1.0 - s0
+    n_full = np.floor(e / cap / fill + 1e-12)
+    rest = np.maximum(e / cap - n_full * fill, 0.0)
+    t = n_full * (to(1.0) - to(s0)) + to(np.minimum(s0 + rest, 1.0)) - to(s0)
+    return restore(cap / rate * t)
+
+
+def enroute_stops(deficit_energy, capacity, arrival_soc=0.0):
+    """Charging stops needed for a deficit, each from ``arrival_soc`` to at most full. [-]
+
+    Examples
+    --------
+    >>> enroute_stops(np.array([0.0, 1.0, 9.0, 10.0]), 10.0, 0.1)
+    array([0., 1., 1., 2.])
+    """
+    e = np.maximum(np.asarray(deficit_energy, dtype=float), 0.0)
+    fill = float(capacity) * (1.0 - float(arrival_soc))
+    return np.maximum(np.ceil(e / fill - 1e-12), 0.0) + 0.0
+
+
+def driver_time_beyond_breaks(charging_time, stops, overhead, driving_time, break_after,
+                              break_duration):
+    """Driver time lost to en-route charging beyond the breaks the driver must take anyway.
+
+    .. math:: t_{lost} = n\\,t_{overhead} + \\max(0,\\ t_{charge} - b\\,t_{break}),
+       \\qquad b = \\lfloor t_{driving} / t_{after} \\rfloor
+
+    Charging overlaps the required breaks (the truck charges while the driver rests);
+    the overhead of each stop (detour, plugging in) is always lost.
+
+    Parameters
+    ----------
+    charging_time : float or array
+        Time charging in the day. [s]
+    stops : float or array
+        Charging stops in the day. [-]
+    overhead : float
+        Time lost per stop besides charging. [s]
+    driving_time : float
+        Driving time of the day. [s]
+    break_after : float
+        Driving time after which a break is required; ``inf`` for no rule. [s]
+    break_duration : float
+        Length of a required break. [s]
+
+    Returns
+    -------
+    float or array
+        Driver time lost. [s]
+
+    Examples
+    --------
+    >>> # 9 h driving, a 45 min break after every 4.5 h: 2 breaks cover 90 min of charging
+    >>> float(driver_time_beyond_breaks(6000.0, 1, 600.0, 9 * 3600.0, 4.5 * 3600.0, 2700.0))
+    1200.0
+    """
+    breaks = np.floor(float(driving_time) / float(break_after) + 1e-12) \
+        if np.isfinite(break_after) and break_after > 0 else 0.0
+    covered = breaks * float(break_duration)
+    return (np.asarray(stops, dtype=float) * float(overhead)
+            + np.maximum(np.asarray(charging_time, dtype=float) - covered, 0.0))

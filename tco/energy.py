@@ -166,6 +166,8 @@ def simulate(truck, scenario, trip: pd.DataFrame) -> TruckResult:
         "trip_distance": trip_distance,
         "trip_duration": trip_duration,
         "power_limit_slowing": slowed,
+        "day_driving_time": float(np.count_nonzero(
+            0.5 * (speed[1:] + speed[:-1]) >= die.stop_speed)) * route.time_step,
         "day_distance": tot["distance"],
         "day_duration": tot["duration"],
         "payload_capacity": capacity,
@@ -368,8 +370,31 @@ def _power_limit(tot, prefix: str, what: str, name: str, warnings: list[str],
     return info
 
 
+def enroute_time(e, usable_capacity: float, deficit: float) -> tuple[float, int]:
+    """Charging time [s] and stops [-] for a day's en-route deficit [J] of a scenario
+    electric section, with its charging-power curve, from the arrival state of charge
+    (default: the reserve)."""
+    r = e.enroute
+    arrival = e.reserve if r.arrival_soc is None else r.arrival_soc
+    t = float(electric.enroute_charging_time(deficit, r.power, r.efficiency, usable_capacity,
+                                             arrival, r.taper_start_soc,
+                                             r.power_share_at_full))
+    return t, int(electric.enroute_stops(deficit, usable_capacity, arrival))
+
+
+def driver_time_lost(e, charging_time: float, stops: int, driving_time: float) -> float:
+    """Driver time the en-route charging costs [s]: with ``charge_during_breaks``, only
+    the charging beyond the required breaks, plus each stop's overhead."""
+    r = e.enroute
+    if not r.charge_during_breaks:
+        return charging_time + stops * r.overhead
+    return float(electric.driver_time_beyond_breaks(
+        charging_time, stops, r.overhead, driving_time, r.break_after, r.break_duration))
+
+
 def _electric_day(truck, scenario, tot, n_trips, summary, feas, warnings, ele) -> dict:
     e = truck.electric
+    driving_time = summary["day_driving_time"]
     depot = scenario.depot
     cap_new = ele.usable_capacity
     cap_eol = cap_new * e.eol_state_of_health
@@ -397,11 +422,13 @@ def _electric_day(truck, scenario, tot, n_trips, summary, feas, warnings, ele) -
         deficit = max(drawdown - available, 0.0)
         v = {"ok": deficit <= 0, "usable_capacity": cap, "available": available,
              "needed": drawdown, "deficit": deficit, "enroute_energy": 0.0,
-             "enroute_time": 0.0}
+             "enroute_time": 0.0, "enroute_stops": 0, "driver_time_lost": 0.0}
         if deficit > 0 and e.enroute.power > 0:
             v["enroute_energy"] = deficit
-            v["enroute_time"] = float(electric.enroute_charging_time(
-                deficit, e.enroute.power, e.enroute.efficiency)) + e.enroute.overhead
+            charge_t, stops = enroute_time(e, cap, deficit)
+            v["enroute_time"] = charge_t + stops * e.enroute.overhead
+            v["enroute_stops"] = stops
+            v["driver_time_lost"] = driver_time_lost(e, charge_t, stops, driving_time)
             v["text"] = (f"With the {label.replace('_', '-')} battery the day needs "
                          f"{deficit / J_PER_KWH:.0f} kWh of en-route charging: "
                          f"{v['enroute_time'] / 60:.0f} min a day at "
@@ -450,7 +477,7 @@ def _electric_day(truck, scenario, tot, n_trips, summary, feas, warnings, ele) -
                     "grid_per_distance": (grid_depot + grid_public) / tot["distance"]})
     return {
         "day": {"battery": net_day, "grid_depot": grid_depot, "grid_public": grid_public,
-                "time_lost": verdicts["new"]["enroute_time"]},
+                "time_lost": verdicts["new"]["driver_time_lost"]},
         "depot_power": power,
         "profile": profile if profile.sum() > 0 else np.full(24, 1 / 24),
     }

@@ -188,3 +188,48 @@ def test_charging_helpers():
 def test_parameter_errors(field, value):
     with pytest.raises(ValueError, match=field):
         ELE._replace(**{field: value}).checked()
+
+
+# ----------------------------------------------------------------------------- en-route curve
+@pytest.mark.parametrize("arrival, deficit_kwh", [(0.1, 50.0), (0.1, 400.0), (0.5, 240.0),
+                                                  (0.85, 70.0)])
+def test_enroute_taper_matches_quadrature(arrival, deficit_kwh):
+    # Independent reference: t = ∫ C ds / (P·η·k(s)) from s0 to s0 + E/C, with k = 1 up
+    # to 80 % and linear to 20 % at 100 % (scipy.integrate.quad). 500 kWh at 350 kW, 92 %.
+    from scipy.integrate import quad
+
+    cap, p, eta = 500 * 3.6e6, 350e3, 0.92
+
+    def k(s):
+        return 1.0 if s <= 0.8 else 1.0 - 0.8 * (s - 0.8) / 0.2
+
+    s1 = arrival + deficit_kwh * 3.6e6 / cap
+    assert s1 <= 1.0
+    ref, _ = quad(lambda s: cap / (p * eta * k(s)), arrival, s1, points=[0.8], epsabs=1e-9)
+    got = el.enroute_charging_time(deficit_kwh * 3.6e6, p, eta, cap, arrival, 0.8, 0.2)
+    assert got == pytest.approx(ref, rel=1e-9)
+    if s1 <= 0.8:  # below the taper: the flat formula, E / (P·η)
+        assert got == pytest.approx(deficit_kwh * 3.6e6 / (p * eta), rel=1e-12)
+
+
+def test_enroute_deficit_beyond_one_fill_takes_two_stops():
+    # 100 kWh usable, from 10 %: one fill is 90 kWh. 120 kWh = one full fill + 30 kWh.
+    # Flat curve (no taper): time = 120 kWh / (100 kW · 1.0) = 1.2 h, two stops.
+    cap = 100 * 3.6e6
+    t = el.enroute_charging_time(120 * 3.6e6, 100e3, 1.0, cap, 0.1, 1.0, 1.0)
+    assert t == pytest.approx(1.2 * 3600, rel=1e-12)
+    assert el.enroute_stops(120 * 3.6e6, cap, 0.1) == 2
+    assert el.enroute_stops(90 * 3.6e6, cap, 0.1) == 1
+
+
+def test_driver_time_beyond_breaks_by_the_break_rule():
+    # Regulation (EC) No 561/2006, Art. 7: 45 min break after 4.5 h of driving. With 9.5 h
+    # driving there are two breaks (90 min); 100 min of charging costs 10 min of driver
+    # time plus 2 × 10 min of stop overhead; with 4 h driving there is no break.
+    h, mn = 3600.0, 60.0
+    assert el.driver_time_beyond_breaks(100 * mn, 2, 10 * mn, 9.5 * h, 4.5 * h, 45 * mn) == \
+        pytest.approx(30 * mn)
+    assert el.driver_time_beyond_breaks(100 * mn, 1, 10 * mn, 4 * h, 4.5 * h, 45 * mn) == \
+        pytest.approx(110 * mn)
+    assert el.driver_time_beyond_breaks(30 * mn, 1, 10 * mn, 5 * h, 4.5 * h, 45 * mn) == \
+        pytest.approx(10 * mn)

@@ -287,3 +287,25 @@ def test_power_limited_climb_is_slowed_and_the_fuel_follows(tmp_path):
     assert slowed["fuel_volume"] - capped["fuel_volume"] == pytest.approx(
         bsfc * 250e3 * added / 832.0, rel=2e-3)
     assert slowed["trip_distance"] == pytest.approx(capped["trip_distance"], rel=1e-3)
+
+
+def test_enroute_charging_overlaps_the_required_breaks(tmp_path):
+    # 1800 s of driving; a break rule of 1 min after every 15 min of driving gives two
+    # breaks (120 s) that the charging may use. Charging time by hand, E / (P·η) (the
+    # deficit stays below the taper), overhead 600 s always lost.
+    loaded = write_case(tmp_path)
+    e = loaded.scenario.trucks[1].electric
+    e.battery_capacity = 40 * 3.6e6
+    e.enroute.power = 300e3
+    e.enroute.overhead = 600.0
+    e.enroute.break_after = 900.0
+    e.enroute.break_duration = 60.0
+    ev = evaluate(loaded).trucks["E"]
+    new = ev.feasibility["battery"]["new"]
+    charge = new["deficit"] / (300e3 * e.enroute.efficiency)
+    assert charge > 120.0
+    assert new["driver_time_lost"] == pytest.approx(600.0 + charge - 120.0, rel=1e-9)
+    assert ev.operation.charging_time_lost == pytest.approx((480.0 + charge) * 250, rel=1e-9)
+    e.enroute.charge_during_breaks = False
+    ev = evaluate(loaded).trucks["E"]
+    assert ev.operation.charging_time_lost == pytest.approx((charge + 600.0) * 250, rel=1e-9)

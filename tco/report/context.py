@@ -727,7 +727,11 @@ METHOD_NOTES = [
     ("Battery and charging", "Battery power is wheel power through the drivetrain plus "
      "auxiliaries (heating and cooling grow with the distance from the comfort band); "
      "braking energy is regenerated within the motor and battery limits and never above a "
-     "full battery. Grid energy is battery energy divided by the charging efficiency.",
+     "full battery. Grid energy is battery energy divided by the charging efficiency. "
+     "En-route charging follows a power curve (full power up to a state of charge, then "
+     "falling linearly) from the reserve, and may coincide with the driver's required "
+     "breaks: only charging beyond the breaks, plus each stop's overhead, costs driver "
+     "time.",
      "E_{k+1} = min(E_max, E_k − P_b Δt);  E_grid = E_b / η_ch",
      r"E_{k+1} = \min(E_{max}, E_k - P_b \Delta t), \quad E_{grid} = E_b/\eta_{ch}"),
     ("Cost of ownership", "Yearly cash flows per cost line, escalated per line, discounted "

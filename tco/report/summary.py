@@ -119,7 +119,10 @@ def _feasibility(tr) -> dict:
                     "available_kWh": v["available"] / KWH, "needed_kWh": v["needed"] / KWH,
                     "deficit_kWh": v["deficit"] / KWH,
                     "enroute_kWh": v["enroute_energy"] / KWH,
-                    "enroute_minutes": v["enroute_time"] / 60, "text": v["text"]}
+                    "enroute_minutes": v["enroute_time"] / 60,
+                    "enroute_stops": v.get("enroute_stops", 0),
+                    "driver_minutes_lost": v.get("driver_time_lost", 0.0) / 60,
+                    "text": v["text"]}
             for label, v in f["battery"].items()}
         d = f["depot_charger"]
         out["depot_charger"] = {"ok": d["ok"], "required_kW": d["required_power"] / 1000,

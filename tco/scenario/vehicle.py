@@ -5,7 +5,7 @@ from typing import Literal
 
 from pydantic import Field, model_validator
 
-from tco.scenario.base import ASSUMPTION, Qty, Section, qfield
+from tco.scenario.base import ASSUMPTION, Qty, Section, mfield, qfield
 
 EU_TYRE_LABEL = (
     "Regulation (EU) 2020/740, Annex I Part A: C3 (truck) tyre rolling-resistance classes "
@@ -111,6 +111,33 @@ class EnRoute(Section):
     overhead: Qty("min", ge=0, le=1440) = qfield(
         10.0, "min", "Time lost per en-route charging stop besides charging (detour, plugging)",
         ASSUMPTION, usual=(None, 120)
+    )
+    taper_start_soc: Qty("", gt=0, le=1) = qfield(
+        0.8, "", "State of charge above which the charging power falls (linearly to "
+        "power_share_at_full at a full battery)",
+        "from memory: lithium-ion fast charging holds near full power to about 80 % state "
+        "of charge, then tapers (constant current, then constant voltage)"
+    )
+    power_share_at_full: Qty("", gt=0, le=1) = qfield(
+        0.2, "", "Share of the charger power still taken when the battery is full",
+        "from memory: a few tens of percent of peak power near full charge"
+    )
+    arrival_soc: Qty("", ge=0, lt=1) | None = qfield(
+        None, "", "State of charge when en-route charging starts; default: the reserve",
+        "the battery's reserve (the truck charges when it must)"
+    )
+    charge_during_breaks: bool = mfield(
+        True, "", "En-route charging may coincide with the driver's required breaks; the "
+        "driver-time cost then counts only charging time beyond them (stop overhead always)",
+        "common practice: trucks charge at rest areas during the required break"
+    )
+    break_after: Qty("h", gt=0, le=24) = qfield(
+        4.5, "h", "Driving time after which the driver must take a break",
+        "Regulation (EC) No 561/2006, Art. 7: a break after 4.5 h of driving"
+    )
+    break_duration: Qty("min", ge=0, le=600) = qfield(
+        45.0, "min", "Length of the required break",
+        "Regulation (EC) No 561/2006, Art. 7: at least 45 min"
     )
 
 
