@@ -37,9 +37,11 @@ Conventions
 -----------
 * Amounts are costs: positive = money out, negative = money in (grant, loan received,
   residual value, tax savings). Each year's total is the net cash out.
-* Every price is today's (year 0) price. A running cost of year y is priced at
-  ``price × (1 + e)^(y-1)`` (the first year at today's price); a one-off bought at the end
-  of year t (a battery, a charger) at ``price × (1 + e)^t``.
+* Every price is today's (year 0) price, and one price index serves every flow: an amount
+  booked at the end of year y — a running cost of year y or a one-off bought then (a
+  battery, a charger) — is priced at ``price × (1 + e)^y``. The same index, with the
+  inflation rate, deflates the real money basis, so a price that does not change in real
+  terms is the same real amount in every year.
 * Physical quantities are those of :class:`~tco.operation.AnnualOperation`, scaled by
   ``days_per_year / operating_days`` and by ``trips_per_day`` over the operation's own
   ``(trips - extra_trips) / operating_days``, so that the annual distance can be varied
@@ -975,9 +977,9 @@ class _Context:
         return (1.0 + e) * (1.0 + self.p("finance.inflation")) - 1.0 if self.real else e
 
     def running(self, path: str) -> np.ndarray:
-        """(1 + e)^(y-1) in years 1..N, 0 in year 0 (years counted from today)."""
-        return self.op_mask * (1.0 + self.esc(path)) ** (np.maximum(self.y - 1.0, 0.0)
-                                                         + self.t0)
+        """(1 + e)^y in years 1..N, 0 in year 0 (years counted from today): the running
+        cost of year y, booked at its end, at that moment's price (as a one-off)."""
+        return self.op_mask * (1.0 + self.esc(path)) ** (self.y + self.t0)
 
     def one_off(self, path: str) -> np.ndarray:
         """(1 + e)^t for a one-off bought at the end of year t (counted from today)."""

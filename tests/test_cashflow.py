@@ -141,17 +141,17 @@ def test_three_year_loan_case_worked_by_hand():
     3     1,727.96   28,799.40  0
     ====  =========  =========  =========
 
-    Diesel 20,000 L × 1.50 = 30,000.00, rising 4 %: 31,200.00, 32,448.00.
+    Diesel 20,000 L × 1.50 = 30,000.00 at today's price, rising 4 % a year and booked at
+    the end of each year (one price index, (1 + e)^y): 31,200.00, 32,448.00, 33,745.92.
     Maintenance 50,000 km × 0.10 = 5,000.00 a year; insurance 1,000.00 a year.
     Residual value after 3 years, declining balance 20 %: 100,000 × 0.8³ = 51,200.00.
 
     Net cost: year 0 = 100,000 + 2,000 − 81,600 = 20,400.00;
-    year 1 = 30,527.36 + 30,000 + 5,000 + 1,000 = 66,527.36;
-    year 2 = 30,527.36 + 31,200 + 6,000 = 67,727.36;
-    year 3 = 30,527.36 + 32,448 + 6,000 − 51,200 = 17,775.36.
+    year 1 = 30,527.36 + 31,200 + 5,000 + 1,000 = 67,727.36;
+    year 2 = 30,527.36 + 32,448 + 6,000 = 68,975.36;
+    year 3 = 30,527.36 + 33,745.92 + 6,000 − 51,200 = 19,073.28.
     PV at 10 % with the unrounded instalment A = 30,527.3607:
-    20,400 + 66,527.3607/1.1 + 67,727.3607/1.21 + 17,775.3607/1.331 = 150,207.34
-    (the instalment rounded to 30,527.36 first would give 150,207.33).
+    20,400 + 67,727.3607/1.1 + 68,975.3607/1.21 + 19,073.2807/1.331 = 153,304.80.
     """
     cf = compute(hand_case(), view="as_financed")
     lines = cf.lines[0]
@@ -159,12 +159,12 @@ def test_three_year_loan_case_worked_by_hand():
     assert cents(lines["loan_interest"]) == [0.0, 4896.00, 3358.12, 1727.96]
     assert cents(lines["loan_principal"]) == [0.0, 25631.36, 27169.24, 28799.40]
     assert cents(lines["loan_drawdown"]) == [-81600.0, 0.0, 0.0, 0.0]
-    assert cents(lines["diesel"]) == [0.0, 30000.00, 31200.00, 32448.00]
+    assert cents(lines["diesel"]) == [0.0, 31200.00, 32448.00, 33745.92]
     assert cents(lines["maintenance"]) == [0.0, 5000.0, 5000.0, 5000.0]
     assert cents(lines["insurance"]) == [0.0, 1000.0, 1000.0, 1000.0]
     assert cents(lines["residual_value"]) == [0.0, 0.0, 0.0, -51200.00]
-    assert cents(cf.total(0)) == [20400.00, 66527.36, 67727.36, 17775.36]
-    assert round(cf.present_value(0), 2) == 150207.34
+    assert cents(cf.total(0)) == [20400.00, 67727.36, 68975.36, 19073.28]
+    assert round(cf.present_value(0), 2) == 153304.80
 
 
 def test_model_flows_through_numpy_financial():
@@ -190,16 +190,18 @@ def test_model_flows_through_numpy_financial():
 # --------------------------------------------------------------------------- lines by hand
 def test_time_of_use_energy_demand_and_fixed_charges():
     """Charging profile 5/6 in the night band (0.11) and 1/6 at the flat price (0.22):
-    weighted 0.1283.. per kWh; 125,000 kWh → 16,041.67 in year 1, +1 % a year.
-    Demand: 12 per kW·month × 12 months × 110 kW (two trucks × 110 kW = 220 kW, under the
-    2 × 150 kW chargers) / 2 trucks × 2 = 15,840. Fixed: 80 × 12 / 2 = 480 (hand)."""
+    weighted 0.1283.. per kWh; 125,000 kWh → 16,041.67 at today's prices, +1 % a year
+    from today (year y × 1.01^y). Demand: 12 per kW·month × 12 months × 110 kW (two
+    trucks × 110 kW = 220 kW, under the 2 × 150 kW chargers) / 2 trucks × 2 = 15,840.
+    Fixed: 80 × 12 / 2 = 480; both × 1.01 in year 1 (hand)."""
     cf = compute(rich_case())
     e = cf.lines[1]
     price = 5 / 6 * 0.11 + 1 / 6 * 0.22
-    assert e["electricity_energy"][1] == pytest.approx(125_000 * price, rel=1e-12)
-    assert e["electricity_energy"][2] == pytest.approx(125_000 * price * 1.01, rel=1e-12)
-    assert e["electricity_demand"][1] == pytest.approx(12 * 12 * 110, rel=1e-12)
-    assert e["electricity_fixed"][1] == pytest.approx(480.0, rel=1e-12)
+    assert e["electricity_energy"][1] == pytest.approx(125_000 * price * 1.01, rel=1e-12)
+    assert e["electricity_energy"][2] == pytest.approx(125_000 * price * 1.01 ** 2,
+                                                       rel=1e-12)
+    assert e["electricity_demand"][1] == pytest.approx(12 * 12 * 110 * 1.01, rel=1e-12)
+    assert e["electricity_fixed"][1] == pytest.approx(480.0 * 1.01, rel=1e-12)
     assert "electricity_energy" not in cf.lines[0]
 
 
@@ -215,7 +217,7 @@ def test_depot_cost_is_shared_and_replaced_at_end_of_life():
     assert e["depot_grid_connection"][0] == pytest.approx(20_000)
     assert e["depot_residual"][7] == pytest.approx(-5_000)
     assert e["depot_residual"][12] == pytest.approx(-50_000 * 1.01 ** 7 * (1 - 0.9 * 5 / 7))
-    assert e["depot_maintenance"][1] == pytest.approx(1_000)
+    assert e["depot_maintenance"][1] == pytest.approx(1_000 * 1.01)  # today's price × 1.01¹
     assert "depot_chargers" not in cf.lines[0]
 
 
@@ -251,13 +253,14 @@ def test_battery_replacement_in_a_given_year():
 
 
 def test_payload_and_charging_driver_time():
-    """Extra trips: 20 a year × 4 h × 35 per hour = 2,800; charging: 90 h × 35 = 3,150;
-    both +2 % a year (hand). Diesel truck: no such lines."""
+    """Extra trips: 20 a year × 4 h × 35 per hour = 2,800; charging: 90 h × 35 = 3,150
+    at today's wage; both +2 % a year from today, × 1.02^y in year y (hand). Diesel
+    truck: no such lines."""
     cf = compute(rich_case())
     e = cf.lines[1]
-    assert e["extra_trips_driver_time"][1] == pytest.approx(2_800)
-    assert e["extra_trips_driver_time"][2] == pytest.approx(2_800 * 1.02)
-    assert e["charging_driver_time"][1] == pytest.approx(3_150)
+    assert e["extra_trips_driver_time"][1] == pytest.approx(2_800 * 1.02)
+    assert e["extra_trips_driver_time"][2] == pytest.approx(2_800 * 1.02 ** 2)
+    assert e["charging_driver_time"][1] == pytest.approx(3_150 * 1.02)
     assert np.all(cf.lines[0]["extra_trips_driver_time"] == 0)
 
 
@@ -788,18 +791,18 @@ def test_headline_is_unlevered_and_the_loan_is_shown_apart():
     """The hand case of test_three_year_loan_case_worked_by_hand with the headline on
     unlevered flows (the truck paid in cash), worked by hand:
 
-    year 0 = 100,000 + 2,000 = 102,000; year 1 = 30,000 + 5,000 + 1,000 = 36,000;
-    year 2 = 31,200 + 6,000 = 37,200; year 3 = 32,448 + 6,000 − 51,200 = −12,752.
-    PV at 10 % = 102,000 + 36,000/1.1 + 37,200/1.21 − 12,752/1.331 = 155,890.31.
+    year 0 = 100,000 + 2,000 = 102,000; year 1 = 31,200 + 5,000 + 1,000 = 37,200;
+    year 2 = 32,448 + 6,000 = 38,448; year 3 = 33,745.92 + 6,000 − 51,200 = −11,454.08.
+    PV at 10 % = 102,000 + 37,200/1.1 + 38,448/1.21 − 11,454.08/1.331 = 158,987.77.
 
-    The equity view (flows as financed) keeps the hand figure 150,207.34 of that test. The
+    The equity view (flows as financed) keeps the hand figure 153,304.80 of that test. The
     loan's own flows (financed − cash) are −81,600 then three instalments of 30,527.36;
     at the loan's own 6 % they are worth 0 (a loan at its own rate has zero NPV; checked
     with numpy_financial.npv)."""
     res = evaluate(hand_case(), break_evens=False)
-    pv = 102_000 + 36_000 / 1.1 + 37_200 / 1.21 - 12_752 / 1.331
+    pv = 102_000 + 37_200 / 1.1 + 38_448 / 1.21 - 11_454.08 / 1.331
     assert res.trucks[0].present_value == pytest.approx(pv, abs=0.005)
-    assert round(pv, 2) == 155_890.31
+    assert round(pv, 2) == 158_987.77
     assert "loan_interest" not in set(res.table.line)
     f = res.financing
     assert f.valuation == "unlevered"
@@ -810,7 +813,7 @@ def test_headline_is_unlevered_and_the_loan_is_shown_apart():
     np.testing.assert_allclose(t.flows, [-81_600, a, a, a], rtol=1e-12)
     assert npf.npv(0.06, t.flows) == pytest.approx(0.0, abs=1e-6)
     assert t.present_value_at_cost_of_debt == pytest.approx(0.0, abs=1e-6)
-    assert round(t.present_value_as_financed, 2) == 150_207.34
+    assert round(t.present_value_as_financed, 2) == 153_304.80
     assert t.present_value_unlevered == pytest.approx(pv, abs=0.005)
 
 
@@ -902,3 +905,17 @@ def test_battery_replacement_capitalised_and_depreciated_for_tax():
                                atol=1e-9)
     sale = with_b["tax_on_sale"] - without["tax_on_sale"]
     assert sale[8] == pytest.approx(-0.25 * 12_000)
+
+
+def test_one_price_index_running_costs_and_one_offs():
+    """One convention for every flow: an amount of year y is today's price × (1 + e)^y.
+    In the real money basis a price with 0 % real escalation is then the same real amount
+    in every year (was today's price / (1 + inflation) when running costs used
+    (1 + e)^(y − 1)). Hand: diesel 20,000 L × 1.50 = 30,000 a year, inflation 3 %,
+    real escalation 0: 30,000 in every year, real money of year 0."""
+    inputs = hand_case()
+    inputs.finance = Finance(analysis_years=3, discount_rate=0.05, money_basis="real",
+                             inflation=0.03)
+    inputs.prices = Prices(diesel=1.50)
+    lines = compute(inputs, view="unlevered").lines[0]
+    np.testing.assert_allclose(lines["diesel"], [0.0, 30_000, 30_000, 30_000], rtol=1e-12)

@@ -28,27 +28,28 @@ def test_hand_case_bought_in_year_two_of_five():
 
     Same loan (the price does not escalate: equipment escalation 0): year 2 pays
     100,000 + 2,000 − 81,600 = 20,400.00; instalments 30,527.36 in years 3, 4, 5.
-    Diesel at year-2 prices: 20,000 L × 1.50 × 1.04² = 32,448.00, then 33,745.92,
-    35,095.76 (4 % a year, to the cent). Maintenance 5,000 and insurance 1,000 a year from year 3.
+    Diesel in year y at today's price × 1.04^y (one price index): 20,000 L × 1.50 ×
+    1.04³ = 33,745.92 in year 3, then 35,095.76, 36,499.59 (4 % a year, to the cent).
+    Maintenance 5,000 and insurance 1,000 a year from year 3.
     Residual at the end of year 5, age 3: 100,000 × 0.8³ = 51,200.00.
 
     year 0: 0; year 1: 0; year 2: 20,400.00;
-    year 3: 30,527.36 + 32,448.00 + 6,000 = 68,975.36;
-    year 4: 30,527.36 + 33,745.92 + 6,000 = 70,273.28;
-    year 5: 30,527.36 + 35,095.76 + 6,000 − 51,200 = 20,423.12.
+    year 3: 30,527.36 + 33,745.92 + 6,000 = 70,273.28;
+    year 4: 30,527.36 + 35,095.76 + 6,000 = 71,623.12;
+    year 5: 30,527.36 + 36,499.59 + 6,000 − 51,200 = 21,826.95.
     """
     cf = compute(_later(hand_case(), 5, 2), view="as_financed")
     cents = lambda a: np.round(a, 2).tolist()  # noqa: E731
     lines = cf.lines[0]
-    assert cents(lines["diesel"]) == [0.0, 0.0, 0.0, 32448.00, 33745.92, 35095.76]
+    assert cents(lines["diesel"]) == [0.0, 0.0, 0.0, 33745.92, 35095.76, 36499.59]
     assert cents(lines["loan_drawdown"]) == [0.0, 0.0, -81600.0, 0.0, 0.0, 0.0]
     assert cents(lines["residual_value"]) == [0.0, 0.0, 0.0, 0.0, 0.0, -51200.0]
-    assert cents(cf.total(0)) == [0.0, 0.0, 20400.00, 68975.36, 70273.28, 20423.12]
+    assert cents(cf.total(0)) == [0.0, 0.0, 20400.00, 70273.28, 71623.12, 21826.95]
     assert cents(cf.distance[0]) == [0.0, 0.0, 0.0, 5e7, 5e7, 5e7]
     # PV at 10 % of the unrounded flows above, each discounted from its own year.
     a = 81_600 * 0.06 / (1 - 1.06 ** -3)
-    flows = [20_400, a + 32_448 + 6_000, a + 33_745.92 + 6_000,
-             a + 32_448 * 1.04 ** 2 + 6_000 - 51_200]
+    flows = [20_400, a + 33_745.92 + 6_000, a + 35_095.7568 + 6_000,
+             a + 36_499.587072 + 6_000 - 51_200]
     pv = sum(f / 1.1 ** (k + 2) for k, f in enumerate(flows))
     assert cf.present_value(0) == pytest.approx(pv, rel=1e-12)
 
