@@ -422,7 +422,15 @@ def _resolve(settings: "EmissionsSettings") -> tuple[dict[str, float], list[dict
         _P + "def_urea_share": settings.def_urea_share,
         _P + "renewable_share": settings.renewable_share,
         _P + "td_loss": settings.td_loss,
-        _P + "electricity_upstream": settings.electricity_upstream,
+        _P + "electricity_upstream": (settings.electricity_upstream
+                                      if settings.electricity_upstream is not None else 0.0),
+        _P + "electricity_upstream_share": (0.0 if settings.electricity_upstream is not None
+                                            else settings.electricity_upstream_share),
+        _P + "diesel_blend_share": settings.diesel_blend_share,
+        _P + "biodiesel_co2": settings.biodiesel_co2,
+        _P + "biodiesel_upstream": float(settings.biodiesel_upstream
+                                         if settings.biodiesel_upstream is not None
+                                         else upstream),
     }
     add("def_density", settings.def_density / 1000, "kg/L", src("def_density"))
     add("def_urea_share", settings.def_urea_share * 100, "%", src("def_urea_share"))
@@ -460,8 +468,31 @@ def _resolve(settings: "EmissionsSettings") -> tuple[dict[str, float], list[dict
         add("supplier_intensity", settings.supplier_intensity * 3.6e9, "g/kWh", "user")
     add("renewable_share", settings.renewable_share * 100, "%", src("renewable_share"))
     add("td_loss", settings.td_loss * 100, "%", src("td_loss"))
-    add("electricity_upstream", settings.electricity_upstream * 3.6e9, "g/kWh",
-        src("electricity_upstream"))
+    if settings.electricity_upstream is not None:
+        add("electricity_upstream", settings.electricity_upstream * 3.6e9, "g/kWh",
+            src("electricity_upstream"))
+    else:
+        add("electricity_upstream_share", settings.electricity_upstream_share * 100,
+            "% of the grid intensity", src("electricity_upstream_share"),
+            "" if "electricity_upstream_share" in settings.model_fields_set
+            else "from memory")
+    if settings.residual_mix_intensity is not None:
+        # the residual mix follows the grid's path in proportion to its first-year value
+        first = p[_P + "grid_intensity"]
+        p[_P + "residual_mix_ratio"] = (settings.residual_mix_intensity / first
+                                        if first > 0 else 1.0)
+        add("residual_mix_intensity", settings.residual_mix_intensity * 3.6e9, "g/kWh",
+            f"user: {settings.residual_mix_source}")
+    else:
+        p[_P + "residual_mix_ratio"] = 1.0
+    add("diesel_blend_share", settings.diesel_blend_share * 100, "% by volume",
+        src("diesel_blend_share"))
+    if settings.diesel_blend_share > 0:
+        add("biodiesel_co2", settings.biodiesel_co2 / 1000, "kg CO2/L (biogenic)",
+            src("biodiesel_co2"),
+            "" if "biodiesel_co2" in settings.model_fields_set else "from memory")
+        add("biodiesel_upstream", p[_P + "biodiesel_upstream"] / 1000, "kg CO2e/L",
+            src("biodiesel_upstream"))
     lc = settings.lifecycle
     if lc.include:
         p[_P + "lifecycle.vehicle_diesel"] = lc.vehicle_diesel
@@ -535,7 +566,7 @@ def _merge(params: Mapping[str, Any], overrides: Mapping[str, Any] | None) -> di
         if _used(key) and np.ndim(value) > 1:
             raise InputError("a parameter must be a number or a 1-D array of draws", where=key)
     for key, lo, hi in (("renewable_share", 0, 1), ("td_loss", 0, 0.999999),
-                        ("def_urea_share", 0, 1)):
+                        ("def_urea_share", 0, 1), ("diesel_blend_share", 0, 1)):
         v = np.asarray(p.get(_P + key, 0.0), dtype=float)
         if np.any((v < lo) | (v > hi)):
             raise InputError(f"must be within {lo * 100:g}–{hi * 100:g} %", where=_P + key)
@@ -651,7 +682,7 @@ def totals(params: Mapping[str, Any], operations: Sequence["AnnualOperation"], y
     True
     """
     unknown = [n for n in names if n not in (*LINE_NAMES, *FRAMES, "distance",
-                                             "payload_distance")]
+                                             "payload_distance", "biogenic_co2")]
     if unknown:
         raise ValueError(f"unknown line or frame {unknown[0]!r}")
     p, years, lead, table = _prepare(params, operations, years, overrides)
@@ -722,11 +753,15 @@ def _truck_lines(p: Mapping[str, Any], op: "AnnualOperation", q: dict, grid: np.
     shape of the intensity."""
     supplier = p.get(_P + "supplier_intensity")
     share = _col(p[_P + "renewable_share"])
+    residual = _col(p.get(_P + "residual_mix_ratio", 1.0))  # residual mix / grid average
+    blend = _col(p.get(_P + "diesel_blend_share", 0.0))
+    fossil = q["diesel_volume"] * (1.0 - blend)
+    bio = q["diesel_volume"] * blend
     loss = _col(p[_P + "td_loss"])
     e_total = q["grid_energy_depot"] + q["grid_energy_public"]
     match = _col(hour_matching_factor(op.charging_profile, shape24))
     lines: dict[str, np.ndarray] = {}
-    lines["diesel_co2"] = q["diesel_volume"] * _col(p[_P + "diesel_co2"])
+    lines["diesel_co2"] = fossil * _col(p[_P + "diesel_co2"])
     ch4 = q["diesel_volume"] * _col(p[_P + "diesel_ch4_n2o"])
     if op.powertrain == "diesel":
         ch4 = ch4 + q["distance"] * _col(p[_P + "diesel_ch4_n2o_distance"])
@@ -736,10 +771,17 @@ def _truck_lines(p: Mapping[str, Any], op: "AnnualOperation", q: dict, grid: np.
     loc = (q["grid_energy_depot"] * match + q["grid_energy_public"]) * grid
     lines["electricity_location"] = loc
     depot = q["grid_energy_depot"] * (_col(supplier) if supplier is not None
-                                      else match * grid)
-    lines["electricity_market"] = (1.0 - share) * depot + q["grid_energy_public"] * grid
-    lines["diesel_upstream"] = q["diesel_volume"] * _col(p[_P + "diesel_upstream"])
-    lines["electricity_upstream"] = e_total * _col(p[_P + "electricity_upstream"])
+                                      else match * grid * residual)
+    lines["electricity_market"] = ((1.0 - share) * depot
+                                   + q["grid_energy_public"] * grid * residual)
+    lines["diesel_upstream"] = (fossil * _col(p[_P + "diesel_upstream"])
+                                + bio * _col(p.get(_P + "biodiesel_upstream",
+                                                   p[_P + "diesel_upstream"])))
+    lines["electricity_upstream"] = (e_total * _col(p[_P + "electricity_upstream"])
+                                     + loc * _col(p.get(_P + "electricity_upstream_share",
+                                                        0.0)))
+    # biogenic CO2 of the biodiesel in the blend: reported apart, in no scope or frame
+    lines["biogenic_co2"] = bio * _col(p.get(_P + "biodiesel_co2", 0.0))
     lines["electricity_td_losses"] = loc * loss / (1.0 - loss)
     return lines
 
@@ -932,6 +974,9 @@ class EmissionsResult:
         Plain-language cautions for the report.
     reference : str
         The reference truck of the comparison.
+    biogenic : dict of str to list of float
+        Per truck, biogenic CO2 of the biodiesel in the diesel blend by year, reported
+        outside the scopes and frames (GHG Protocol). [kg CO2/yr]
     """
 
     years: list[int]
@@ -947,6 +992,7 @@ class EmissionsResult:
     settings: dict[str, Any]
     cautions: list[str]
     reference: str
+    biogenic: dict[str, list[float]] = field(default_factory=dict)
 
 
 #: The first caution of every result.
@@ -1029,6 +1075,11 @@ def evaluate(settings: "EmissionsSettings", operations: Sequence["AnnualOperatio
         "tonnes_discounted": rate is not None,
         "discount_rate": rate,
         "lifecycle": lifecycle is not None,
+        "residual_mix": settings.residual_mix_intensity is not None,
+        "residual_mix_source": settings.residual_mix_source,
+        "electricity_upstream_basis": "absolute" if settings.electricity_upstream is not None
+        else "share_of_grid",
+        "diesel_blend_share": float(settings.diesel_blend_share),
     }
     return EmissionsResult(
         years=years_l, powertrains={op.truck: op.powertrain for op in operations},
@@ -1037,7 +1088,9 @@ def evaluate(settings: "EmissionsSettings", operations: Sequence["AnnualOperatio
         abatement=abatement, lifecycle=lifecycle,
         factors=pd.DataFrame(prov, columns=["parameter", "value", "unit", "source", "status"]),
         settings=settings_out, cautions=_cautions(settings, rate, lifecycle is not None) + notes,
-        reference=ref)
+        reference=ref,
+        biogenic={t: [float(v) for v in np.asarray(a["biogenic_co2"])] for t, a in
+                  arrays.items()})
 
 
 def _tidy(arrays, years: list[int], names: Sequence[str]) -> pd.DataFrame:
@@ -1145,24 +1198,41 @@ def _cautions(settings: "EmissionsSettings", rate, lifecycle: bool) -> list[str]
         out.append("Abatement cost = present-value cost difference ÷ tonnes avoided "
                    f"discounted at the same {rate:.2%} a year as the costs; the figure on "
                    "undiscounted tonnes is shown beside it.")
-    if settings.supplier_intensity is None and settings.renewable_share == 0:
+    if settings.residual_mix_intensity is not None:
+        out.append("Market-based Scope 2: electricity bought without a contractual "
+                   "instrument is counted at the residual-mix factor "
+                   f"({settings.residual_mix_source}), following the grid's path in "
+                   "proportion.")
+    elif settings.supplier_intensity is None and settings.renewable_share == 0:
         out.append("The market-based Scope 2 figure equals the location-based one: no "
-                   "supplier-specific factor or contracted renewable share was given (the GHG "
-                   "Protocol Scope 2 Guidance asks for a residual-mix factor where one "
-                   "exists).")
+                   "supplier-specific factor, contracted renewable share or residual-mix "
+                   "factor was given (the GHG Protocol Scope 2 Guidance asks for a "
+                   "residual-mix factor where one exists).")
     elif settings.supplier_intensity is None:
         out.append("The market-based figure applies the renewable share to the grid average; "
-                   "a residual-mix factor for the rest would be more correct.")
+                   "give residual_mix_intensity for the rest, as the GHG Protocol Scope 2 "
+                   "Guidance asks.")
     absolute = settings.hourly_values() is not None and settings.hourly_profile_kind == \
         "absolute"
     if "grid_intensity" not in settings.model_fields_set and not settings.grid_table \
             and not absolute:
         out.append("The grid intensity is the shipped default (US EPA eGRID2022 national "
                    "average, CO2 only, at generation); use your grid's figure.")
-    if settings.electricity_upstream == 0:
+    if settings.electricity_upstream is None:
+        out.append("Upstream emissions of electricity (well-to-tank of the power plants' "
+                   f"fuels) are taken as {settings.electricity_upstream_share:.0%} of the grid "
+                   "intensity"
+                   + (" (a default from memory); give your grid's published figure."
+                      if "electricity_upstream_share" not in settings.model_fields_set
+                      else "."))
+    elif settings.electricity_upstream == 0:
         out.append("Upstream emissions of electricity (fuel supply of power plants) are not "
                    "counted (factor 0) while diesel upstream is: this favours the electric "
                    "truck.")
+    if settings.diesel_blend_share > 0:
+        out.append(f"The diesel holds {settings.diesel_blend_share:.0%} biodiesel by volume: "
+                   "its CO2 is biogenic and reported apart, outside the scopes (GHG "
+                   "Protocol); the fossil part carries the diesel factors.")
     if "td_loss" not in settings.model_fields_set:
         out.append("The grid loss share is an assumption; use your grid operator's published "
                    "figure, or 0 if the intensity already includes losses.")
@@ -1219,7 +1289,9 @@ def emissions_summary(result) -> dict:
             years
           - ``yearly`` : ``{year, scope_1, scope_2_location, scope_2_market, scope_3_cat3,
             total_location, total_market, cumulative_total_location,
-            cumulative_total_market}``, lists in year order [kg]
+            cumulative_total_market, biogenic_co2}``, lists in year order [kg]
+          - ``biogenic_co2_kg`` (schema 1.1): CO2 of the biodiesel in the diesel blend over
+            all years, outside the scopes and frames [kg]
 
         - ``comparison`` : ``{name: {...}}`` for each truck other than the reference:
           ``avoided_kg_total`` ``{location, market}``, ``avoided_kg_yearly``
@@ -1255,8 +1327,11 @@ def emissions_summary(result) -> dict:
                                                .cumulative_kg_co2e]
         yearly["cumulative_total_market"] = [_num(v) for v in by["total_market"]
                                              .cumulative_kg_co2e]
+        bio = list(getattr(r, "biogenic", {}).get(truck, []))
+        yearly["biogenic_co2"] = [_num(v) for v in bio] if bio else [0.0] * len(yearly["year"])
         trucks[truck] = {
             "powertrain": pt,
+            "biogenic_co2_kg": _num(sum(bio)) if bio else 0.0,
             "total_kg": {f: _num(by[f].kg_co2e.sum()) for f in (
                 "scope_1", "scope_2_location", "scope_2_market", "scope_3_cat3",
                 "total_location", "total_market", "ttw", "wtt", "wtw", "wtw_market")},

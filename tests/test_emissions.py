@@ -542,7 +542,7 @@ def test_summary_is_json_with_stable_keys():
     assert summ["reference"] == "diesel"
     truck = summ["trucks"]["electric"]
     assert set(truck) == {"powertrain", "total_kg", "lines_kg", "g_co2e_per_tkm",
-                          "g_co2e_per_km", "yearly"}
+                          "g_co2e_per_km", "yearly", "biogenic_co2_kg"}
     assert set(summ["comparison"]["electric"]) == {
         "avoided_kg_total", "avoided_kg_yearly", "cost_difference", "tonnes_avoided",
         "abatement_cost_per_tonne", "tonnes_discounted", "tonnes_avoided_discounted",
@@ -701,3 +701,56 @@ def test_abatement_cost_both_conventions_by_hand():
     assert s2["abatement_cost_per_tonne"]["location"] == pytest.approx(want_u, rel=1e-12)
     assert s2["abatement_cost_per_tonne_discounted_tonnes"]["location"] == \
         pytest.approx(want_d, rel=1e-12)
+
+
+def test_residual_mix_prices_electricity_without_instruments():
+    """GHG Protocol Scope 2 Guidance: market-based electricity without a contractual
+    instrument is counted at the residual mix. Hand case, grid flat 300 g/kWh, residual mix
+    450 g/kWh, 40 % renewable at the depot: depot 100,000 kWh, public 10,000 kWh a year →
+    market 0.6 × 100,000 × 0.45 + 10,000 × 0.45 = 31,500 kg; location
+    110,000 × 0.30 = 33,000 kg (hand)."""
+    from tco.operation import AnnualOperation
+
+    op = AnnualOperation("E", "electric", 250.0, 500.0, 0.0, 1e8, 2e12,
+                         grid_energy_depot=100_000 * 3.6e6, grid_energy_public=10_000 * 3.6e6)
+    s = EmissionsSettings(grid_intensity="300 g/kWh", renewable_share="40 %",
+                          residual_mix_intensity="450 g/kWh",
+                          residual_mix_source="invented for the test", td_loss=0,
+                          electricity_upstream=0)
+    out = em.compute(em.flat_params(s), [op], [2030, 2031])["E"]
+    np.testing.assert_allclose(out["electricity_market"], [31_500, 31_500], rtol=1e-12)
+    np.testing.assert_allclose(out["electricity_location"], [33_000, 33_000], rtol=1e-12)
+    prov = em.factor_provenance(s)
+    row = prov[prov.parameter == "residual_mix_intensity"].iloc[0]
+    assert row.value == pytest.approx(450) and "invented for the test" in row.source
+    with pytest.raises(ValidationError, match="residual_mix_source"):
+        EmissionsSettings(residual_mix_intensity="450 g/kWh")
+
+
+def test_electricity_upstream_share_and_diesel_blend_by_hand():
+    """Electricity upstream 10 % (the default share) of a flat 300 g/kWh grid on
+    100,000 kWh at the meter: 3,000 kg. Diesel 10,000 L with 7 % biodiesel by volume and
+    pure-diesel factors 2.67 / 0.57 kg/L (all gases, per litre; invented for the test):
+    fossil CO2e 9,300 × 2.67 = 24,831 kg in Scope 1; biogenic CO2 700 × 2.50 = 1,750 kg
+    reported apart; upstream 10,000 × 0.57 = 5,700 kg (hand)."""
+    from tco.operation import AnnualOperation
+
+    e = AnnualOperation("E", "electric", 250.0, 500.0, 0.0, 1e8, 2e12,
+                        grid_energy_depot=100_000 * 3.6e6)
+    d = AnnualOperation("D", "diesel", 250.0, 500.0, 0.0, 1e8, 2e12, diesel_volume=10.0)
+    s = EmissionsSettings(grid_intensity="300 g/kWh", td_loss=0,
+                          diesel_blend_share="7 %", diesel_upstream="0.57 kg/L")
+    p = em.flat_params(s)
+    p["emissions.diesel_co2"], p["emissions.diesel_ch4_n2o"] = 2670.0, 0.0
+    p["emissions.diesel_ch4_n2o_distance"] = 0.0
+    out = em.compute(p, [d, e], [2030])
+    assert out["E"]["electricity_upstream"][0] == pytest.approx(3_000, rel=1e-12)
+    assert out["D"]["diesel_co2"][0] == pytest.approx(24_831, rel=1e-12)
+    assert out["D"]["biogenic_co2"][0] == pytest.approx(1_750, rel=1e-12)
+    assert out["D"]["diesel_upstream"][0] == pytest.approx(5_700, rel=1e-12)
+    assert out["D"]["scope_1"][0] == pytest.approx(24_831, rel=1e-12)  # biogenic not in
+    r = em.evaluate(s, [d, e], [2030])
+    summ = em.emissions_summary(r)
+    assert summ["trucks"]["D"]["biogenic_co2_kg"] == pytest.approx(1_750,
+                                                                   rel=1e-12)
+    assert summ["settings"]["diesel_blend_share"] == pytest.approx(0.07)

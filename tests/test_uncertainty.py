@@ -281,9 +281,10 @@ def test_linear_in_a_normal_diesel_price_gives_the_known_normal(inputs, em_setti
 
 def test_avoided_emissions_linear_in_a_normal_grid_intensity(inputs, em_settings):
     """Avoided WTW emissions fall linearly with the grid intensity I: avoided(I) = WTW_D −
-    E·N·I/(1 − L) (Scope 2 location plus T&D losses, no upstream; emissions module
-    docstring), E the depot energy, L the loss share. With I normal the Monte Carlo mean and
-    sd match the linear transform within five standard errors."""
+    E·N·I·(1/(1 − L) + u) (Scope 2 location plus T&D losses plus the upstream share u of
+    the grid intensity; emissions module docstring), E the depot energy, L the loss share.
+    With I normal the Monte Carlo mean and sd match the linear transform within five
+    standard errors."""
     mu = em_settings.grid_intensity
     sigma = 0.1 * mu
     s = UncertaintySettings(
@@ -294,7 +295,8 @@ def test_avoided_emissions_linear_in_a_normal_grid_intensity(inputs, em_settings
     out = emissions.compute(emissions.flat_params(em_settings), inputs.operations, YEARS)
     wtw_d = out["Diesel"]["wtw"].sum()
     e = inputs.operations[1].grid_energy_depot
-    k = e * N_YEARS / (1 - em_settings.td_loss)
+    assert em_settings.electricity_upstream is None  # the share applies
+    k = e * N_YEARS * (1 / (1 - em_settings.td_loss) + em_settings.electricity_upstream_share)
     x = r.samples["avoided_kg_location"].to_numpy()
     assert abs(x.mean() - (wtw_d - k * mu)) < mean_tol(k * sigma, x.size)
     assert abs(x.std(ddof=1) - k * sigma) < 5 * k * sigma / math.sqrt(2 * (x.size - 1))

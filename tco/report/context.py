@@ -738,7 +738,10 @@ METHOD_NOTES = [
      "at the discount rate; the levelized cost is discounted cost over discounted distance. "
      "The present values, levelized costs, payback and IRR are on unlevered flows (every "
      "truck paid in cash) unless the scenario sets finance.valuation = 'as_financed'; a loan "
-     "or lease is judged apart, against paying cash at the after-tax cost of debt.",
+     "or lease is judged apart, against paying cash at the after-tax cost of debt. Every "
+     "amount of year y, running cost or one-off, is today's price × (1 + escalation)^y. In "
+     "the after-tax view battery replacements are capitalised and depreciated with the "
+     "truck's tax schedule.",
      "PV = Σ_y C_y (1+r)^−y;  LCC = PV / Σ_y d_y (1+r)^−y",
      r"PV = \sum_y C_y (1+r)^{-y}, \quad LCC = PV \,/\, \sum_y d_y (1+r)^{-y}"),
     ("Emissions", "Diesel litres times the selected factor set (CO2, CH4 and N2O with the "

@@ -19,7 +19,7 @@ day count, a grant) and see the present values move. Sheets:
 ``Cash flow``
     Per truck, one row per cost line the model computes for it (years 0..N in columns),
     each cell a formula following the conventions of :mod:`tco.cashflow` (running costs
-    ``× (1 + e)^(y−1)``, one-offs ``× (1 + e)^t``, loan interest and principal by
+    ``× (1 + e)^y``, one-offs ``× (1 + e)^t`` (one index), loan interest and principal by
     ``CUMIPMT``/``CUMPRINC``, depot costs shared, taxes from the deductible rows); total,
     cumulative and distance rows; present value ``NPV(rate, years 1..N) + year 0``,
     levelized cost and the differences to the baseline truck.
@@ -690,6 +690,12 @@ class _Book:
                       for f in prov if ".co2e_w" in str(f["parameter"])))
         self._inp("ef_diesel_wtt", "Diesel, well-to-tank (upstream)",
                   e[k + "diesel_upstream"] * _M3_PER_L, "kg/L", up_src, "0.0000")
+        self._inp("diesel_blend_share", "Biodiesel share of the diesel by volume (its CO2 "
+                  "is biogenic, reported apart)", e[k + "diesel_blend_share"], "-",
+                  src("emissions.diesel_blend_share"), _RATE)
+        self._inp("ef_biodiesel_wtt", "Biodiesel, well-to-tank (upstream)",
+                  e[k + "biodiesel_upstream"] * _M3_PER_L, "kg/L",
+                  src("emissions.biodiesel_upstream"), "0.0000")
         self._inp("def_density", "Diesel exhaust fluid density", e[k + "def_density"] * _M3_PER_L,
                   "kg/L", src("emissions.def_density"), "0.000")
         self._inp("def_urea_share", "Urea mass share of diesel exhaust fluid",
@@ -724,6 +730,14 @@ class _Book:
         self._inp("ef_electricity_upstream", "Electricity upstream per kWh at the meter",
                   e[k + "electricity_upstream"] * g, "g/kWh",
                   src("emissions.electricity_upstream"), wbb.ENERGY)
+        self._inp("ef_electricity_upstream_share", "Electricity upstream as a share of the "
+                  "location-based grid intensity (when no figure per kWh is given)",
+                  e[k + "electricity_upstream_share"], "-",
+                  src("emissions.electricity_upstream_share"), _RATE)
+        self._inp("residual_mix_ratio", "Residual mix ÷ grid average (market-based, "
+                  "electricity without a contractual instrument; 1 when no residual mix is "
+                  "given)", e[k + "residual_mix_ratio"], "-",
+                  src("emissions.residual_mix_intensity"), "0.0000")
         from tco.emissions import hour_matching_factor
 
         shape = np.array([e[f"{k}hourly_shape.{h:02d}"] for h in range(24)])
@@ -753,8 +767,8 @@ class _Book:
         return f"((1+{esc})*(1+inflation))" if self.real else f"(1+{esc})"
 
     def _run(self, expr: str, esc: str, y: str) -> str:
-        """A running cost: expr × (1 + e)^(y−1) in years 1..N, 0 in year 0."""
-        return f"IF({y}>=1,({expr})*{self._g(esc)}^({y}-1),0)"
+        """A running cost: expr × (1 + e)^y in years 1..N, 0 in year 0."""
+        return f"IF({y}>=1,({expr})*{self._g(esc)}^({y}),0)"
 
     def _defl(self, y: str) -> str:
         return f"/(1+inflation)^{y}" if self.real else ""
@@ -964,7 +978,8 @@ class _Book:
         safe_text(ws.cell(row=2, column=1),
                   "Costs positive, money in negative. Every amount is a formula over the "
                   "named inputs of the Inputs sheet; year 0 = purchase, year y = end of year "
-                  "y. Running costs: today's price × (1 + escalation)^(y − 1).")
+                  "y. Every amount of year y (running cost or one-off): today's price × "
+                  "(1 + escalation)^y.")
         cols = list(range(_FIRST_COL, _FIRST_COL + N + 1))
         c_sum, c_pv, c_note = _FIRST_COL + N + 1, _FIRST_COL + N + 2, _FIRST_COL + N + 3
         wbb.header_row(ws, _YEAR_ROW, ["Cost line", "Key"])
@@ -1555,7 +1570,7 @@ class _Book:
         S = f"{P}scale"  # emissions follow days and trips like the costs
         grid = f"{_col(c)}${self.grid_row}/1000"  # kg/kWh
         if line == "diesel_co2":
-            return f"{P}diesel_L*{S}*ef_diesel_ttw"
+            return f"{P}diesel_L*{S}*(1-diesel_blend_share)*ef_diesel_ttw"
         if line == "diesel_ch4_n2o":
             f = f"{P}diesel_L*{S}*ef_diesel_ch4_n2o"
             if self.powertrains[i] == "diesel":
@@ -1568,12 +1583,16 @@ class _Book:
             return f"({P}depot_kwh*{S}*{P}hour_match+{P}public_kwh*{S})*{grid}"
         if line == "electricity_market":
             depot = ("supplier_intensity/1000" if "supplier_intensity" in self.wb.defined_names
-                     else f"{P}hour_match*{grid}")
-            return (f"(1-renewable_share)*{P}depot_kwh*{S}*{depot}+{P}public_kwh*{S}*{grid}")
+                     else f"{P}hour_match*{grid}*residual_mix_ratio")
+            return (f"(1-renewable_share)*{P}depot_kwh*{S}*{depot}+{P}public_kwh*{S}*{grid}"
+                    "*residual_mix_ratio")
         if line == "diesel_upstream":
-            return f"{P}diesel_L*{S}*ef_diesel_wtt"
+            return (f"{P}diesel_L*{S}*((1-diesel_blend_share)*ef_diesel_wtt"
+                    "+diesel_blend_share*ef_biodiesel_wtt)")
         if line == "electricity_upstream":
-            return f"({P}depot_kwh+{P}public_kwh)*{S}*ef_electricity_upstream/1000"
+            return (f"({P}depot_kwh+{P}public_kwh)*{S}*ef_electricity_upstream/1000"
+                    f"+{_col(c)}{blk.rows['electricity_location']}"
+                    "*ef_electricity_upstream_share")
         if line == "electricity_td_losses":
             return f"{_col(c)}{blk.rows['electricity_location']}*td_loss/(1-td_loss)"
         raise KeyError(line)

@@ -180,6 +180,16 @@ class EmissionsSettings(Section):
         None, "g/kWh", "Market-based: your depot supplier's contractual emission factor "
         "(held constant over the years; public charging stays at the grid intensity)",
         "none: the market-based figure uses the grid intensity")
+    residual_mix_intensity: Qty("g/kWh", ge=0, le=MAX_GRID_G_PER_KWH) | None = qfield(
+        None, "g/kWh", "Market-based: residual-mix emission factor, for electricity bought "
+        "without a contractual instrument (depot electricity not covered by the supplier "
+        "factor or the renewable share, and public charging), in the year of grid_intensity; "
+        "it follows the grid intensity's path in proportion",
+        "none: the market-based figure falls back on the grid average (a caution says so; the "
+        "GHG Protocol Scope 2 Guidance asks for a residual mix where one is published)")
+    residual_mix_source: str | None = mfield(
+        None, "", "Where the residual-mix factor comes from (publisher, year, table; at most "
+        "200 characters); needed with residual_mix_intensity", "none", text_limit=200)
     renewable_share: Qty("percent", ge=0, le=100) = qfield(
         0.0, "percent", "Market-based: share of depot electricity covered by contracted "
         "renewable supply with certificates (counted at zero)",
@@ -188,9 +198,30 @@ class EmissionsSettings(Section):
         5.0, "percent", "Transmission-and-distribution loss share of the grid, for Scope 3 "
         "category 3; 0 when the grid intensity already includes losses",
         ASSUMPTION + ": a typical order of magnitude for national grids")
-    electricity_upstream: Qty("g/kWh", ge=0, le=MAX_GRID_G_PER_KWH) = qfield(
-        0.0, "g/kWh", "Upstream (fuel supply of power plants) emissions per kWh at the meter, "
-        "Scope 3 category 3", ASSUMPTION + ": not counted unless you give a figure")
+    electricity_upstream: Qty("g/kWh", ge=0, le=MAX_GRID_G_PER_KWH) | None = qfield(
+        None, "g/kWh", "Upstream (well-to-tank of the power plants' fuels) emissions per kWh "
+        "at the meter, Scope 3 category 3; empty: electricity_upstream_share of the grid "
+        "intensity", "none: electricity_upstream_share is used")
+    electricity_upstream_share: Qty("percent", ge=0, le=100) = qfield(
+        10.0, "percent", "Upstream emissions of electricity as a share of the grid intensity "
+        "of each year, used when electricity_upstream is empty (ISO 14083 well-to-wheel "
+        "includes them)",
+        "from memory: national factor sets (e.g. the UK government conversion factors) put "
+        "the well-to-tank of grid electricity generation at roughly a tenth of the "
+        "generation factor; replace with your grid's published figure")
+    diesel_blend_share: Qty("percent", ge=0, le=100) = qfield(
+        0.0, "percent", "Biodiesel (FAME) share of the diesel by volume; its CO2 is biogenic "
+        "and reported apart from the scopes",
+        ASSUMPTION + ": pure fossil diesel (road diesel is often a blend with up to 7 % "
+        "biodiesel by volume, EN 590; from memory)")
+    biodiesel_co2: Qty("kg/L", ge=0, le=20) = qfield(
+        2.50, "kg/L", "Biogenic CO2 from burning a litre of biodiesel (FAME), reported "
+        "outside the scopes",
+        "from memory: rapeseed methyl ester about 0.88 kg/L and 77 % carbon by mass, "
+        "× 44/12 = 2.5 kg CO2/L")
+    biodiesel_upstream: Qty("kg/L", ge=0, le=20) | None = qfield(
+        None, "kg/L", "Well-to-tank emissions of a litre of biodiesel, CO2e (Scope 3 "
+        "category 3); empty: the diesel upstream factor", ASSUMPTION + ": as fossil diesel")
     discount_tonnes: bool = mfield(
         True, "", "Abatement cost on discounted tonnes (present-value cost over tonnes "
         "discounted at the finance discount rate); false: over undiscounted tonnes. Both are "
@@ -248,6 +279,9 @@ class EmissionsSettings(Section):
             self._profile = read_hourly_profile(self.hourly_profile_file)
         elif self.hourly_profile is not None:
             self._profile = np.asarray(self.hourly_profile, dtype=float)
+        if self.residual_mix_intensity is not None and not self.residual_mix_source:
+            raise ValueError("residual_mix_intensity needs residual_mix_source (publisher, "
+                             "year, table)")
         if self.grid_table is not None:
             clash = [n for n in ("grid_intensity", "grid_change", "grid_floor") if n in given]
             if clash:
