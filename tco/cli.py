@@ -65,6 +65,9 @@ def _parser() -> argparse.ArgumentParser:
     fl.add_argument("--json-only", action="store_true", help="write fleet.json only")
     fl.add_argument("--plan", help="transition plan settings (plan.toml: budget, grid, "
                     "carbon price, target); default: plan.toml beside the fleet file, if any")
+    fl.add_argument("--telematics", metavar="FOLDER",
+                    help="tco telematics output (vehicle_days.csv): logged vehicles take "
+                    "their distance, energy per distance and depot return time from the logs")
     fl.add_argument("--no-plan", action="store_true",
                     help="skip the transition plan even if plan.toml is there")
     fl.add_argument("--quiet", action="store_true", help="print only the output paths")
@@ -198,6 +201,11 @@ def _cmd_fleet(args) -> int:
         steps.start("reading the fleet")
         loaded = load_scenario(base)
         rows = read_fleet(fleet)
+        logged_notes = []
+        if args.telematics:
+            from tco.fleet_telematics import apply_logged_duty, read_logged_duty
+            rows, logged_notes = apply_logged_duty(rows, read_logged_duty(args.telematics),
+                                                   loaded, source=Path(args.telematics))
         settings = None
         if plan_file is not None:
             from tco.plan import load_plan_settings
@@ -218,6 +226,8 @@ def _cmd_fleet(args) -> int:
         print(f"{len(result.plan)} of {len(result.routes)} routes feasible; the plan {money} "
               f"(present value), avoids {avo:,.0f} t CO2e well-to-wheel, "
               f"needs {plan.chargers} chargers and {plan.peak_power / 1000:,.0f} kW peak")
+        for note in logged_notes:
+            print(f"  {note}")
         tr = result.transition
         if tr is not None:
             sch = tr.schedule

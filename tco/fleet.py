@@ -111,6 +111,10 @@ class FleetRow:
         Calendar year the current truck is due to be replaced.
     resale_value : float or None
         Value of the current truck if sold today. [currency]
+    logged : tuple or None
+        Logged energy per distance, ``(truck, quantity, value)`` with quantity
+        ``diesel_per_m`` [m³/m], ``battery_per_m`` or ``grid_per_m`` [J/m]
+        (:mod:`tco.fleet_telematics`); None: the cycle's simulated energy.
     """
 
     row: int
@@ -127,6 +131,7 @@ class FleetRow:
     age: float | None = None
     replacement_year: int | None = None
     resale_value: float | None = None
+    logged: tuple | None = None
 
 
 # --------------------------------------------------------------------------- reading
@@ -401,6 +406,7 @@ class RouteEnergy:
 def _row_energy(args) -> RouteEnergy:
     base, row, fleet_file = args
     from tco import energy
+    from tco.fleet_telematics import logged_for, rescale_operation
     from tco.pipeline import build_trip
 
     raw = row_scenario(base, row, fleet_file)
@@ -429,7 +435,9 @@ def _row_energy(args) -> RouteEnergy:
     return RouteEnergy(
         row=row, scenario=s, trip_distance=trip_distance,
         trip_duration=float(trucks[0].summary["trip_duration"]),
-        trips_per_day=float(s.route.trips_per_day), operations=[t.operation for t in trucks],
+        trips_per_day=float(s.route.trips_per_day),
+        operations=[t.operation for t in trucks] if row.logged is None else
+        [rescale_operation(t.operation, logged_for(row, t.name)) for t in trucks],
         summaries={t.name: t.summary for t in trucks},
         feasibility={t.name: t.feasibility for t in trucks},
         warnings=[w for t in trucks for w in t.warnings])

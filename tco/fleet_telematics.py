@@ -1,0 +1,202 @@
+"""Logged duty for a fleet: ``tco telematics`` output as the vehicles' duty in ``tco fleet``.
+
+``tco fleet --telematics FOLDER`` reads ``FOLDER/vehicle_days.csv`` (written by
+``tco telematics``: one row per vehicle, UTC day and scenario truck) and, for every fleet
+row whose ``vehicle`` id was logged, replaces the row's duty by the logs:
+
+* **distance**: the mean logged distance per day × the row's operating days a year (the
+  row's ``days_per_year``, else its cycle's, else the base scenario's), through the row's
+  ``annual_distance``, which sets its trips per day;
+* **energy**: each truck's diesel, battery and grid energy per distance as logged (the
+  simulated year of the row's cycle is rescaled to the logged figures per metre, so the
+  cost lines, emissions and the depot's nightly energy follow the logs);
+* **depot dwell**: when the row gives no arrival time, the truck is taken back at the
+  depot after its mean logged span of the day (driving time plus parked gaps) from its
+  departure (the row's ``depart``, or the base depot's charging end hour).
+
+Rows whose vehicle has no logs keep their cycle; a row whose vehicle was logged without
+one of its two trucks is an input error (run ``tco telematics`` with the same base
+scenario). The cycle file still gives the route's shape (speeds, grades) for the
+feasibility checks of a day, which use the simulated day, not the logged worst day.
+"""
+from __future__ import annotations
+
+import dataclasses
+import math
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from tco.errors import InputError
+
+__all__ = ["read_logged_duty", "apply_logged_duty", "rescale_operation"]
+
+_DAY_S = 86_400.0
+_M_PER_KM = 1000.0
+_M3_PER_L = 1e-3
+_J_PER_KWH = 3.6e6
+#: vehicle_days.csv header -> (SI name, factor to SI)
+_COLUMNS = {
+    "vehicle": ("vehicle", None), "truck": ("truck", None), "day (UTC)": ("day", None),
+    "distance [km]": ("distance_m", _M_PER_KM), "duration [h]": ("duration_s", 3600.0),
+    "gap time [h]": ("gap_time_s", 3600.0), "diesel [L]": ("diesel_m3", _M3_PER_L),
+    "battery energy [kWh]": ("battery_J", _J_PER_KWH),
+    "grid energy [kWh]": ("grid_J", _J_PER_KWH),
+}
+
+
+def read_logged_duty(folder) -> pd.DataFrame:
+    """Per vehicle and truck, the logged duty from ``tco telematics`` output.
+
+    Parameters
+    ----------
+    folder : str or Path
+        The output folder of ``tco telematics`` (with ``vehicle_days.csv``), or that file.
+
+    Returns
+    -------
+    pandas.DataFrame
+        ``vehicle, truck, days, distance_per_day_m`` [m], ``span_s`` (mean logged span of
+        a day: driving plus parked gaps) [s], ``diesel_per_m`` [m³/m], ``battery_per_m``,
+        ``grid_per_m`` [J/m].
+
+    Raises
+    ------
+    InputError
+        Missing file or column, a value that is not a number ≥ 0.
+    """
+    path = Path(folder)
+    f = path / "vehicle_days.csv" if path.is_dir() else path
+    if not f.is_file():
+        raise InputError("no vehicle_days.csv here (give the folder tco telematics wrote)",
+                         file=f)
+    try:
+        df = pd.read_csv(f, dtype={"vehicle": str, "truck": str})
+    except (pd.errors.ParserError, UnicodeDecodeError, pd.errors.EmptyDataError) as exc:
+        raise InputError(f"cannot read the table ({type(exc).__name__})", file=f) from None
+    missing = [c for c in _COLUMNS if c not in df.columns]
+    if missing:
+        raise InputError(f"missing column '{missing[0]}'", file=f, where="header")
+    out = pd.DataFrame()
+    for head, (name, factor) in _COLUMNS.items():
+        col = df[head]
+        if factor is None:
+            out[name] = col.astype(str)
+            continue
+        x = pd.to_numeric(col, errors="coerce").fillna(0.0 if name in
+                                                       ("diesel_m3", "battery_J", "grid_J",
+                                                        "gap_time_s") else np.nan)
+        bad = ~np.isfinite(x) | (x < 0)
+        if bad.any():
+            k = int(np.flatnonzero(bad.to_numpy())[0])
+            raise InputError(f"'{col.iloc[k]}' is not a number ≥ 0", file=f,
+                             where=f"row {k + 2}, {head}")
+        out[name] = x * factor
+    g = out.groupby(["vehicle", "truck"], sort=False)
+    agg = g.agg(days=("day", "nunique"), distance=("distance_m", "sum"),
+                duration=("duration_s", "sum"), gaps=("gap_time_s", "sum"),
+                diesel=("diesel_m3", "sum"), battery=("battery_J", "sum"),
+                grid=("grid_J", "sum")).reset_index()
+    with np.errstate(invalid="ignore", divide="ignore"):
+        res = pd.DataFrame({
+            "vehicle": agg["vehicle"], "truck": agg["truck"], "days": agg["days"],
+            "distance_per_day_m": agg["distance"] / agg["days"],
+            "span_s": (agg["duration"] + agg["gaps"]) / agg["days"],
+            "diesel_per_m": agg["diesel"] / agg["distance"],
+            "battery_per_m": agg["battery"] / agg["distance"],
+            "grid_per_m": agg["grid"] / agg["distance"],
+        })
+    return res
+
+
+def rescale_operation(op, logged: dict):
+    """An :class:`~tco.operation.AnnualOperation` with its energy per distance set to the
+    logged figures (``diesel_per_m`` [m³/m], ``battery_per_m``, ``grid_per_m`` [J/m]);
+    exhaust fluid follows diesel, public charging follows the grid in proportion."""
+    d = op.distance
+    if d <= 0:
+        return op
+    upd = {}
+    if op.diesel_volume > 0 and math.isfinite(logged.get("diesel_per_m", math.nan)):
+        k = logged["diesel_per_m"] * d / op.diesel_volume
+        upd.update(diesel_volume=op.diesel_volume * k, def_volume=op.def_volume * k)
+    grid = op.grid_energy_depot + op.grid_energy_public
+    if grid > 0 and math.isfinite(logged.get("grid_per_m", math.nan)):
+        k = logged["grid_per_m"] * d / grid
+        upd.update(grid_energy_depot=op.grid_energy_depot * k,
+                   grid_energy_public=op.grid_energy_public * k)
+    if op.battery_energy > 0 and math.isfinite(logged.get("battery_per_m", math.nan)):
+        upd.update(battery_energy=logged["battery_per_m"] * d)
+    return dataclasses.replace(op, **upd) if upd else op
+
+
+def apply_logged_duty(rows: list, logged: pd.DataFrame, base, source=None) -> tuple[list, list]:
+    """Fleet rows with the logged duty of their vehicles.
+
+    Parameters
+    ----------
+    rows : list of tco.fleet.FleetRow
+    logged : pandas.DataFrame
+        From :func:`read_logged_duty`.
+    base : LoadedScenario
+        The base scenario (operating days, the depot's default departure hour).
+    source : path, optional
+        The telematics file, named in errors.
+
+    Returns
+    -------
+    rows : list of FleetRow
+        With ``annual_distance``, ``arrive`` (when not given) and ``logged`` set for the
+        vehicles that were logged.
+    notes : list of str
+        One line per row: logged or not.
+    """
+    by = {(v, t): r for v, t, r in zip(logged["vehicle"], logged["truck"],
+                                      logged.to_dict("records"))}
+    vehicles = set(logged["vehicle"])
+    out, notes = [], []
+    dep = base.scenario.depot
+    for row in rows:
+        if row.vehicle not in vehicles:
+            out.append(row)
+            notes.append(f"{row.vehicle}: no logs; its cycle is used")
+            continue
+        recs = {}
+        for col in ("current", "candidate"):
+            truck = getattr(row, col)
+            r = by.get((row.vehicle, truck))
+            if r is None:
+                raise InputError(f"vehicle '{row.vehicle}' was logged without truck '{truck}' "
+                                 "(run tco telematics with the same base scenario)",
+                                 file=source, where=f"vehicle {row.vehicle}")
+            recs[truck] = r
+        cur = recs[row.current]
+        if not cur["distance_per_day_m"] > 0:
+            raise InputError(f"vehicle '{row.vehicle}' has no logged distance", file=source,
+                             where=f"vehicle {row.vehicle}")
+        days = row.days_per_year or _cycle_days(row) or base.scenario.route.days_per_year
+        upd = {"annual_distance": float(cur["distance_per_day_m"] * days),
+               "logged": tuple((t, k, float(r[k])) for t, r in recs.items()
+                               for k in ("diesel_per_m", "battery_per_m", "grid_per_m")
+                               if math.isfinite(float(r[k])))}
+        if row.arrive is None:
+            depart = row.depart if row.depart is not None else dep.charging_end_hour * 3600.0
+            upd["arrive"] = float((depart + cur["span_s"]) % _DAY_S)
+        out.append(dataclasses.replace(row, **upd))
+        notes.append(f"{row.vehicle}: logged duty of {int(cur['days'])} day(s), "
+                     f"{cur['distance_per_day_m'] / 1000:,.1f} km a day")
+    return out, notes
+
+
+def _cycle_days(row) -> float | None:
+    """Operating days a year of the row's cycle scenario, if it says. [1/yr]"""
+    from tco.fleet import _cycle_route
+
+    days = _cycle_route(row).get("days_per_year")
+    return float(days) if isinstance(days, (int, float)) and days > 0 else None
+
+
+def logged_for(row, truck: str) -> dict:
+    """The logged figures of one truck of a row (empty when none)."""
+    return {k: v for t, k, v in (row.logged or ()) if t == truck}
