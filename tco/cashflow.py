@@ -235,6 +235,10 @@ class CostInputs:
         Prices are those of year t: today's prices grown by their escalations (the truck's
         price by ``prices.escalation.equipment``). Years before t carry no flows. 0 (the
         default) is the purchase now. [yr]
+    end_year : int, optional
+        Year the trucks leave the fleet at the end of their own life, sold at their
+        residual value then (age ``end_year − purchase_year``); no flows after it. None
+        (the default): held to the end of the period. [yr]
     """
 
     finance: Finance
@@ -245,6 +249,7 @@ class CostInputs:
     days_per_year: float | None = None
     trips_per_day: float | None = None
     purchase_year: int = 0
+    end_year: int | None = None
 
 
 def _base_trips_per_day(op: AnnualOperation) -> float:
@@ -265,6 +270,11 @@ def _baseline_index(inputs: CostInputs) -> int:
     return 0
 
 
+def _end_year(inputs: CostInputs) -> int:
+    """Year the trucks leave: their own end of life, or the end of the period."""
+    return inputs.finance.analysis_years if inputs.end_year is None else inputs.end_year
+
+
 def check_inputs(inputs: CostInputs, view: str = "as_financed") -> None:
     """Cross-section checks the section models cannot make alone.
 
@@ -275,10 +285,14 @@ def check_inputs(inputs: CostInputs, view: str = "as_financed") -> None:
         that ends before the period; a leased truck without a purchase price in the
         unlevered view; an unknown baseline truck; operations that do not match the trucks.
     """
-    n = inputs.finance.analysis_years - inputs.purchase_year  # years owned in the period
+    end = _end_year(inputs)
+    n = end - inputs.purchase_year  # years owned in the period
     if not 0 <= inputs.purchase_year < inputs.finance.analysis_years:
         raise InputError(f"purchase year {inputs.purchase_year} is outside 0.."
                          f"{inputs.finance.analysis_years - 1}", where="purchase_year")
+    if not inputs.purchase_year < end <= inputs.finance.analysis_years:
+        raise InputError(f"end year {end} is not after the purchase year "
+                         f"{inputs.purchase_year} and within the period", where="end_year")
     if len(inputs.trucks) != len(inputs.operations):
         raise ValueError("one AnnualOperation per truck is needed, in the same order")
     for i, (t, op) in enumerate(zip(inputs.trucks, inputs.operations)):
@@ -616,12 +630,14 @@ def compute(inputs: CostInputs, overrides: dict | None = None,
         if ctx.real:
             deflator = ctx.deflator()
             lines = [{k: v * deflator for k, v in d.items()} for d in lines]
-    lines = [{k: _delayed(_as_first(v, ctx.N), ctx.t0) for k, v in d.items()} for d in lines]
+    total = inputs.finance.analysis_years
+    lines = [{k: _delayed(_as_first(v, ctx.N), ctx.t0, total) for k, v in d.items()}
+             for d in lines]
     rate = p("finance.discount_rate")
     return CashFlows(
-        years=np.arange(ctx.N + ctx.t0 + 1), trucks=[t.name for t in inputs.trucks],
+        years=np.arange(total + 1), trucks=[t.name for t in inputs.trucks],
         powertrains=[t.powertrain for t in inputs.trucks], by_year=lines,
-        distance_by_year=[_delayed(_as_first(ctx.distance(i), ctx.N), ctx.t0)
+        distance_by_year=[_delayed(_as_first(ctx.distance(i), ctx.N), ctx.t0, total)
                           for i in range(len(inputs.trucks))],
         discount_rate=rate, money_basis=inputs.finance.money_basis,
         baseline=_baseline_index(inputs), n_draws=p.n, assumptions=ctx.assumptions,
@@ -710,8 +726,9 @@ def compute_totals(inputs: CostInputs, overrides: dict | None = None,
     InputError
         As :func:`compute`.
     """
-    if inputs.purchase_year:
-        raise ValueError("compute_totals covers purchases in year 0; use compute")
+    if inputs.purchase_year or inputs.end_year is not None:
+        raise ValueError("compute_totals covers trucks held from year 0 to the end; use "
+                         "compute")
     ctx, made = _make_lines(inputs, overrides, params, keep=False, view=_view(inputs, view))
     p = ctx.p
     n = len(inputs.trucks)
@@ -723,12 +740,14 @@ def compute_totals(inputs: CostInputs, overrides: dict | None = None,
         baseline=_baseline_index(inputs), n_draws=p.n, assumptions=ctx.assumptions)
 
 
-def _delayed(v: np.ndarray, t0: int) -> np.ndarray:
-    """A years-first line of the years owned (0..N−t0) placed at years t0..N (zeros
-    before the purchase year)."""
-    if t0 == 0:
+def _delayed(v: np.ndarray, t0: int, total: int) -> np.ndarray:
+    """A years-first line of the years owned (0..end−t0) placed at years t0..end of a
+    ``total``-year period (zeros before the purchase year and after the end year)."""
+    after = total + 1 - t0 - v.shape[0]
+    if t0 == 0 and after == 0:
         return v
-    return np.concatenate([np.zeros((t0, v.shape[1])), v], axis=0)
+    return np.concatenate([np.zeros((t0, v.shape[1])), v, np.zeros((after, v.shape[1]))],
+                          axis=0)
 
 
 def _as_first(v, n_years: int) -> np.ndarray:
@@ -943,7 +962,7 @@ class _Context:
         # Bought in year t0: the arithmetic runs over the years owned, 0..N (N = the
         # period's years after the purchase), priced at year t0; compute() places them.
         self.t0 = inputs.purchase_year
-        self.N = inputs.finance.analysis_years - self.t0
+        self.N = _end_year(inputs) - self.t0
         self.y = np.arange(self.N + 1, dtype=float)[:, None]
         self.e0 = self.unit(0)
         self.eN = self.unit(self.N)

@@ -126,3 +126,19 @@ def test_purchase_year_outside_the_period_is_refused():
 def test_evaluate_reads_the_first_year_in_service():
     r = evaluate(_later(hand_case(), 5, 2), break_evens=False)
     assert r.trucks[0].annual_distance == pytest.approx(5e7)
+
+
+def test_sold_at_its_own_end_of_life():
+    """The hand case bought in year 1 and sold at the end of year 4 of a 6-year period
+    (its own 3-year life): the flows of years 1..4 are those of the 3-year case bought in
+    year 1 of a 4-year period, and years 5 and 6 are empty; residual at age 3:
+    100,000 × 0.8³ = 51,200.00 in year 4."""
+    held = compute(_later(hand_case(), 4, 1))
+    own = _later(hand_case(), 6, 1)
+    own = dataclasses.replace(own, end_year=4)
+    sold = compute(own)
+    np.testing.assert_allclose(sold.total(0)[:5], held.total(0), rtol=1e-12)
+    assert sold.total(0)[5:].tolist() == [0.0, 0.0]
+    assert round(sold.lines[0]["residual_value"][4], 2) == -51_200.00
+    with pytest.raises(InputError, match="end year"):
+        compute(dataclasses.replace(own, end_year=1))
