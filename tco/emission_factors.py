@@ -29,11 +29,11 @@ __all__ = [
 #: Folder of the shipped factor tables (package data).
 DATA_DIR = Path(__file__).with_name("data")
 #: The shipped emission factor tables (other models keep their own tables in the folder).
-SHIPPED_TABLES = ("us_epa_ghg_hub_2025.csv", "ipcc_2006_guidelines.csv", "en_16258_2012.csv",
-                  "ipcc_gwp.csv")
+SHIPPED_TABLES = ("desnz_2025.csv", "us_epa_ghg_hub_2025.csv", "ipcc_2006_guidelines.csv",
+                  "en_16258_2012.csv", "ipcc_gwp.csv")
 
 #: The set whose well-to-tank figure is used when the chosen diesel set has none.
-UPSTREAM_FALLBACK_SET = "en_16258_2012"
+UPSTREAM_FALLBACK_SET = "desnz_2025"
 
 
 # --------------------------------------------------------------------------- factor tables

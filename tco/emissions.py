@@ -55,6 +55,8 @@ References
    Energy, Ch. 1 (Tables 1.2, 1.4) and Ch. 3 Mobile Combustion (Table 3.2.2; urea-based
    catalytic converters, Eq. 3.2.2).
 .. [2] US EPA (2025), GHG Emission Factors Hub, Tables 2 and 4.
+.. [6] UK Department for Energy Security and Net Zero (2025), Greenhouse gas reporting:
+   conversion factors 2025 (Fuels; WTT- fuels).
 .. [3] CEN (2012), EN 16258:2012 Methodology for calculation and declaration of energy
    consumption and GHG emissions of transport services, Annex A.
 .. [4] WRI/WBCSD (2015), GHG Protocol Scope 2 Guidance; (2011) Corporate Value Chain
@@ -411,7 +413,7 @@ def _resolve(settings: "EmissionsSettings") -> tuple[dict[str, float], list[dict
         for r in fb.rows.itertuples(index=False):
             add(f"{UPSTREAM_FALLBACK_SET}:{r.quantity}", r.value, r.unit, r.source, r.status)
         notes.append(f"{settings.diesel_factors} gives no well-to-tank figure: diesel upstream "
-                     f"uses {UPSTREAM_FALLBACK_SET} (well-to-wheel − tank-to-wheel).")
+                     f"uses the well-to-tank figure of {UPSTREAM_FALLBACK_SET}.")
 
     p: dict[str, float] = {
         _P + "diesel_co2": d.co2,

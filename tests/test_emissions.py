@@ -132,10 +132,17 @@ def test_def_line_uses_density_and_purity():
 
 
 def test_from_memory_rows_say_so(table):
-    """references.md marks EN 16258 Annex A and the GWP values 'M': the tables must say it."""
+    """references.md marks EN 16258 Annex A and the GWP values 'M': the tables must say it
+    (the AR6 values were since found only in a third-party reproduction, and say so)."""
     m = table[(table["set"] == "en_16258_2012")
               | table.quantity.isin(["gwp.ch4", "gwp.n2o"])]
-    assert len(m) == 6 and (m.status == "from memory").all()
+    assert len(m) == 6
+    assert set(m.status) <= {"from memory", "third-party copy"}
+    assert (m[m["set"] == "en_16258_2012"].status == "from memory").all()
+    # every shipped factor says how it was checked, from the README's list
+    known = {"confirmed", "seen in a public copy", "third-party copy", "from memory",
+             "derived", "definition"}
+    assert set(table.status) <= known
     assert (table.source.str.len() > 0).all() and table.year.between(2000, 2030).all()
 
 
@@ -559,8 +566,8 @@ def test_summary_is_json_with_stable_keys():
 def test_provenance_names_sources():
     s = EmissionsSettings(diesel_factors="us_epa_ghg_hub_2025")
     f = em.factor_provenance(s)
-    up = f[f.parameter.str.startswith("en_16258_2012:")]
-    assert len(up) == 2 and (up.status == "from memory").all()  # upstream fallback shown
+    up = f[f.parameter.str.startswith("desnz_2025:")]  # the upstream fallback is shown
+    assert len(up) == 2 and (up.status == "third-party copy").all()
     g = f[f.parameter == "grid_intensity"].iloc[0]
     assert "eGRID2022" in g.source and g.value == pytest.approx(373.35, abs=0.01)
 
@@ -754,3 +761,19 @@ def test_electricity_upstream_share_and_diesel_blend_by_hand():
     assert summ["trucks"]["D"]["biogenic_co2_kg"] == pytest.approx(1_750,
                                                                    rel=1e-12)
     assert summ["settings"]["diesel_blend_share"] == pytest.approx(0.07)
+
+
+def test_default_diesel_set_is_current_and_ttw_wtt():
+    """The default set is the UK government conversion factors 2025 (GHG Protocol scopes,
+    the ISO 14083 tank-to-wheel / well-to-tank split), not EN 16258:2012 (superseded by
+    ISO 14083:2023). Values as published for 2025 and reproduced by third parties
+    (greencalculus.com diesel-combustion page; universal-converter.org): 100 % mineral
+    diesel 2.66155 kg CO2e/L; well-to-tank of the average blend 0.62665 kg CO2e/L;
+    well-to-wheel 3.2882 kg CO2e/L (third-party copy: not checked in the spreadsheet)."""
+    s = EmissionsSettings()
+    assert s.diesel_factors == "desnz_2025"
+    f = em.diesel_factors(em.factor_table(), "desnz_2025", "ipcc_ar6")
+    assert f.co2 / 1000 == pytest.approx(2.66155, rel=1e-12)
+    assert f.upstream / 1000 == pytest.approx(0.62665, rel=1e-12)
+    assert (f.co2 + f.upstream) / 1000 == pytest.approx(3.2882, rel=1e-12)
+    assert f.all_gas

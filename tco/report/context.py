@@ -671,6 +671,17 @@ def _tables(result, u: DisplayUnits, summary: dict) -> list[dict]:
     tables.append({"title": f"Emissions over {cf.analysis_years} years",
                    "columns": ["Frame"] + names, "rows": rows,
                    "note": "GHG Protocol scopes and ISO 14083 tank-to-wheel / well-to-wheel."})
+    factors = summary["emissions"].get("factors") or []
+    if factors:
+        tables.append({
+            "title": "Emission factors used", "columns": ["Factor", "Value", "Unit", "Source",
+                                                          "Status"],
+            "rows": [[str(f["parameter"]), f"{f['value']:.6g}" if f["value"] is not None
+                      else "–", str(f["unit"]), str(f["source"]), str(f["status"] or "–")]
+                     for f in factors],
+            "note": "Status: confirmed (in the source), seen in a public copy, third-party copy "
+                    "(only as reproduced by others: unconfirmed), from memory; blank: a "
+                    "scenario input or a tool default listed with the assumptions."})
     if result.uncertainty is not None:
         tables += _uncertainty_tables(result, cur, u.system)
     for t in tables:

@@ -684,7 +684,7 @@ class _Book:
                   e[k + "diesel_ch4_n2o_distance"] * _M_PER_KM, "kg/km",
                   f"{set_src}; GWP: {gwp_src}", "0.000000")
         up_src = ("user" if es.diesel_upstream is not None else
-                  "the diesel set's well-to-tank figure (or EN 16258:2012 WTW − TTW when the "
+                  "the diesel set's well-to-tank figure (or the DESNZ 2025 well-to-tank when the "
                   "set has none): " + "; ".join(
                       f"{f['parameter']} = {f['value']} {f['unit']} ({f['source']})"
                       for f in prov if ".co2e_w" in str(f["parameter"])))

@@ -134,19 +134,22 @@ class EmissionsSettings(Section):
         None, "", "Your own factor table (CSV in the format of tco/data/README.md); its sets "
         "can then be named in diesel_factors and gwp", "none: only the shipped tables")
     diesel_factors: str = mfield(
-        "us_epa_ghg_hub_2025", "",
-        "Diesel factor set: us_epa_ghg_hub_2025, ipcc_2006_guidelines, en_16258_2012, or a "
-        "set of your factor_file",
-        "US EPA GHG Emission Factors Hub (2025), Tables 2 and 4 (tco/data)")
+        "desnz_2025", "",
+        "Diesel factor set: desnz_2025 (tank-to-wheel and well-to-tank CO2e per litre), "
+        "us_epa_ghg_hub_2025, ipcc_2006_guidelines, en_16258_2012 (superseded by ISO "
+        "14083:2023; kept for comparison), or a set of your factor_file",
+        "UK DESNZ greenhouse gas reporting conversion factors 2025 (Scope 1 tank-to-wheel and "
+        "Scope 3 well-to-tank, all gases as CO2e, consistent with the GHG Protocol and the "
+        "ISO 14083 well-to-wheel split; tco/data/desnz_2025.csv gives each value's status)")
     gwp: str = mfield(
         "ipcc_ar5", "", "Global warming potential set for CH4 and N2O: ipcc_ar5, ipcc_ar6, or "
         "a set of your factor_file",
         "IPCC AR5 WG1 Ch. 8 Table 8.7 (GWP100), values from memory (tco/data/ipcc_gwp.csv)")
     diesel_upstream: Qty("kg/L", ge=0, le=20) | None = qfield(
         None, "kg/L", "Well-to-tank emissions of diesel per litre, CO2e; empty: the diesel "
-        "set's own figure, or EN 16258 when the set has none",
-        f"the diesel set; otherwise {UPSTREAM_FALLBACK_SET}: EN 16258:2012 Annex A Table A.1 "
-        "WTW 3.24 - TTW 2.67 kg CO2e/L (from memory)")
+        "set's own figure, or the DESNZ 2025 well-to-tank when the set has none",
+        f"the diesel set; otherwise {UPSTREAM_FALLBACK_SET} (UK DESNZ conversion factors "
+        "2025, WTT- fuels, diesel; tco/data/desnz_2025.csv)")
     def_density: Qty("kg/L", gt=0, le=3) = qfield(
         1.09, "kg/L", "Density of diesel exhaust fluid", "ISO 22241-1 (from memory)")
     def_urea_share: Qty("percent", ge=0, le=100) = qfield(
