@@ -19,7 +19,7 @@ physical quantities per truck::
         trips_per_day=scenario.route.trips_per_day,
     )
     result = evaluate(inputs)                    # scalar case: table, metrics, break-evens
-    summary["cashflow"] = cashflow_summary(result)
+    summary["cashflow"] = cashflow_summary(result)   # tco.report.summary_sections
 
     # uncertainty: every float input may be an array of draws
     params = flat_params(inputs)                 # {"prices.diesel": 1650.0, ...}  (SI)
@@ -100,7 +100,7 @@ from tco.scenario.costs import Depot, Finance, Prices, TruckCosts
 __all__ = [
     "LINES", "BREAK_EVEN_QUANTITIES", "CashFlows", "CashflowResult", "Comparison",
     "CostInputs", "CostTotals", "LineSpec", "TruckMetrics", "TruckSpec", "break_even",
-    "cashflow_summary", "check_inputs", "compute", "compute_totals", "evaluate",
+    "check_inputs", "compute", "compute_totals", "evaluate",
     "flat_params",
 ]
 
@@ -1775,148 +1775,3 @@ def financing_view(inputs: CostInputs, headline: CashFlows,
             entry[f"irr_note_{key}"] = note
         comps.append(entry)
     return FinancingResult(valuation=view, trucks=trucks, comparisons=comps)
-
-
-def _num(x) -> float | None:
-    return None if x is None or not np.isfinite(x) else float(x)
-
-
-#: Break-even keys in the summary and the factor from SI to the unit in the key's name.
-_BE_KEYS = {
-    "diesel_price": ("diesel_price_per_litre", _M3_PER_L),
-    "electricity_price": ("electricity_price_per_kwh", _J_PER_KWH),
-    "purchase_price": ("purchase_price", 1.0),
-    "annual_distance": ("annual_distance_km", 1.0 / _M_PER_KM),
-}
-
-
-def cashflow_summary(result: CashflowResult) -> dict:
-    """The purchase case as a JSON-able dict (for summary.json); stable key names.
-
-    Money is in the scenario currency, in the money basis given by ``money_basis``.
-    Missing values are ``null`` (never NaN).
-
-    Keys
-    ----
-    ``money_basis`` (str) "nominal" or "real" · ``discount_rate`` (float, per year) ·
-    ``analysis_years`` (int) · ``baseline`` (str, the reference truck's name) ·
-    ``lines`` (list of str, all line names in table order) ·
-    ``trucks`` (dict by truck name) of:
-
-    - ``powertrain`` (str)
-    - ``present_value`` (float) present value of all costs at year 0 [currency]
-    - ``undiscounted_total`` (float) sum of yearly net costs [currency]
-    - ``levelized_cost_per_km`` / ``levelized_cost_per_mile`` (float) [currency/km, /mi]
-    - ``annual_distance_km`` (float) distance in year 1 [km]
-    - ``yearly_totals`` (list of float, years 0..N) net cost by year [currency]
-    - ``present_value_by_line`` (dict line -> float) [currency]
-
-    ``comparisons`` (list, one per non-baseline truck) of:
-
-    - ``truck``, ``baseline`` (str)
-    - ``present_value_difference`` (float) truck − baseline; positive: the truck costs
-      more [currency]
-    - ``levelized_cost_difference_per_km`` / ``_per_mile`` (float)
-    - ``extra_upfront_cost`` (float) year-0 difference [currency]
-    - ``simple_payback_year`` / ``discounted_payback_year`` (int or null: not within the
-      period) first year from which the cumulative saving stays ≥ 0
-    - ``payback_note`` (str, "" when nothing to say)
-    - ``irr`` (float or null) IRR of the savings flows per year · ``irr_note`` (str)
-    - ``break_even`` (dict) with ``diesel_price_per_litre``, ``electricity_price_per_kwh``
-      (charging-profile-weighted depot price), ``purchase_price`` (of this truck),
-      ``annual_distance_km`` (of the baseline truck), each ``{"value": float or null,
-      "note": str}``
-
-    ``assumptions`` (list of str) statements on how the case was read.
-
-    ``valuation`` (str, schema 1.1) ``"unlevered"`` (default: every truck paid in cash in
-    the figures above) or ``"as_financed"``.
-
-    ``financing`` (dict, schema 1.1): loans and leases shown apart from the headline:
-
-    - ``trucks`` (dict by truck name, trucks with a loan or lease only) of ``method``,
-      ``cost_of_debt`` (pre-tax, nominal, per year), ``after_tax_cost_of_debt`` (per
-      year, money basis of the case), ``flows`` (list, years 0..N: financed minus cash
-      net cost) [currency], ``present_value_at_cost_of_debt`` (positive: the loan or
-      lease costs more than paying cash) [currency], ``present_value_unlevered`` and
-      ``present_value_as_financed`` (at the discount rate; the latter is the equity view)
-      [currency]
-    - ``comparisons`` (list, one per non-baseline truck) of ``truck``, ``baseline``,
-      ``present_value_difference_unlevered``, ``present_value_difference_as_financed``
-      [currency], ``irr_unlevered``, ``irr_as_financed`` (per year or null; the latter is
-      a return on equity), ``irr_note_unlevered``, ``irr_note_as_financed``
-
-    Parameters
-    ----------
-    result : CashflowResult
-
-    Returns
-    -------
-    dict
-    """
-    totals = result.yearly_totals()
-    trucks = {}
-    for m in result.trucks:
-        trucks[m.name] = {
-            "powertrain": m.powertrain,
-            "present_value": _num(m.present_value),
-            "undiscounted_total": _num(m.undiscounted_total),
-            "levelized_cost_per_km": _num(m.levelized_cost * _M_PER_KM),
-            "levelized_cost_per_mile": _num(m.levelized_cost * _M_PER_MILE),
-            "annual_distance_km": _num(m.annual_distance / _M_PER_KM),
-            "yearly_totals": [float(v) for v in totals[m.name]] if m.name in totals
-            else [0.0] * (result.analysis_years + 1),
-            "present_value_by_line": {k: float(v) for k, v in m.present_value_by_line.items()},
-        }
-    comps = []
-    for c in result.comparisons:
-        be = {}
-        for q, (key, factor) in _BE_KEYS.items():
-            b = c.break_even.get(q)
-            if b is None:
-                continue
-            be[key] = {"value": None if b.value is None else _num(b.value * factor),
-                       "note": b.note}
-        comps.append({
-            "truck": c.truck,
-            "baseline": c.baseline,
-            "present_value_difference": _num(c.present_value_difference),
-            "levelized_cost_difference_per_km": _num(c.levelized_cost_difference * _M_PER_KM),
-            "levelized_cost_difference_per_mile": _num(c.levelized_cost_difference
-                                                        * _M_PER_MILE),
-            "extra_upfront_cost": _num(c.extra_upfront_cost),
-            "simple_payback_year": c.simple_payback_year,
-            "discounted_payback_year": c.discounted_payback_year,
-            "payback_note": c.payback_note,
-            "irr": _num(c.irr),
-            "irr_note": c.irr_note,
-            "break_even": be,
-        })
-    return {
-        "money_basis": result.money_basis,
-        "discount_rate": float(result.discount_rate),
-        "analysis_years": int(result.analysis_years),
-        "baseline": result.baseline,
-        "lines": list(_LINE_NAMES),
-        "trucks": trucks,
-        "comparisons": comps,
-        "assumptions": list(result.assumptions),
-        "valuation": result.financing.valuation if result.financing else "as_financed",
-        "financing": _financing_summary(result.financing),
-    }
-
-
-def _financing_summary(f: FinancingResult | None) -> dict:
-    if f is None:
-        return {"trucks": {}, "comparisons": []}
-    trucks = {t.name: {
-        "method": t.method, "cost_of_debt": _num(t.cost_of_debt),
-        "after_tax_cost_of_debt": _num(t.after_tax_cost_of_debt),
-        "flows": [float(v) for v in t.flows],
-        "present_value_at_cost_of_debt": _num(t.present_value_at_cost_of_debt),
-        "present_value_unlevered": _num(t.present_value_unlevered),
-        "present_value_as_financed": _num(t.present_value_as_financed),
-    } for t in f.trucks}
-    comps = [{k: (_num(v) if isinstance(v, float) else v) for k, v in c.items()}
-             for c in f.comparisons]
-    return {"trucks": trucks, "comparisons": comps}

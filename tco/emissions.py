@@ -1248,142 +1248,10 @@ def _cautions(settings: "EmissionsSettings", rate, lifecycle: bool) -> list[str]
 
 
 # --------------------------------------------------------------------------- summary
-#: Version of the summary's key layout; raised when a key is renamed or removed.
+#: Version of the emissions section's key layout in summary.json
+#: (:func:`tco.report.summary_sections.emissions_summary`); raised when a key is renamed
+#: or removed.
 SUMMARY_SCHEMA = "tco.emissions.summary/1"
-
-_G_PER_TKM = 1e9   # kg/(kg·m) -> g/(t·km)
-_G_PER_KM = 1e6    # kg/m -> g/km
-
-
-def _num(x) -> float | None:
-    x = float(x)
-    return x if math.isfinite(x) else None
-
-
-def emissions_summary(result) -> dict:
-    """The emissions results as plain JSON-able data with stable key names.
-
-    Parameters
-    ----------
-    result : EmissionsResult or an object whose ``emissions`` attribute is one
-
-    Returns
-    -------
-    dict
-        Keys (stable; ``schema`` changes if any is renamed or removed). Masses in kg CO2e,
-        intensities in g CO2e per tonne-km and per km; NaN and infinity become null.
-
-        - ``schema`` : ``"tco.emissions.summary/1"``
-        - ``years`` : list of int
-        - ``reference`` : name of the reference truck
-        - ``settings`` : ``diesel_factors``, ``gwp``, ``factor_file``, ``grid_mode``
-          (``trajectory``/``table``), ``hourly_profile`` (null/``shape``/``absolute``),
-          ``market_basis`` (``none``/``supplier``/``renewable_share``),
-          ``tonnes_discounted`` (bool), ``discount_rate``, ``lifecycle`` (bool)
-        - ``trucks`` : ``{name: {...}}`` with
-
-          - ``powertrain``
-          - ``total_kg`` : ``{scope_1, scope_2_location, scope_2_market, scope_3_cat3,
-            total_location, total_market, ttw, wtt, wtw, wtw_market}`` over all years
-          - ``lines_kg`` : ``{<line item>: kg}`` over all years (the items of
-            :data:`LINES`)
-          - ``g_co2e_per_tkm`` and ``g_co2e_per_km`` : ``{ttw, wtw, wtw_market}`` over all
-            years
-          - ``yearly`` : ``{year, scope_1, scope_2_location, scope_2_market, scope_3_cat3,
-            total_location, total_market, cumulative_total_location,
-            cumulative_total_market, biogenic_co2}``, lists in year order [kg]
-          - ``biogenic_co2_kg`` (schema 1.1): CO2 of the biodiesel in the diesel blend over
-            all years, outside the scopes and frames [kg]
-
-        - ``comparison`` : ``{name: {...}}`` for each truck other than the reference:
-          ``avoided_kg_total`` ``{location, market}``, ``avoided_kg_yearly``
-          ``{location, market}`` (lists), ``cost_difference`` [currency],
-          ``tonnes_avoided`` ``{location, market}`` (discounted if ``tonnes_discounted``),
-          ``abatement_cost_per_tonne`` ``{location, market}`` [currency/t CO2e],
-          ``tonnes_discounted`` (bool); and both conventions side by side (summary
-          schema 1.1): ``tonnes_avoided_discounted``, ``tonnes_avoided_undiscounted``,
-          ``abatement_cost_per_tonne_discounted_tonnes``,
-          ``abatement_cost_per_tonne_undiscounted_tonnes`` (each ``{location, market}``)
-        - ``lifecycle`` : null, or ``{name: {manufacturing_kg, extra_kg,
-          payback_distance_km, payback_years}}`` — outside all operational totals
-        - ``factors`` : list of ``{parameter, value, unit, source, status}``
-        - ``cautions`` : list of str (the first says the figures must be verified)
-    """
-    r = result.emissions if hasattr(result, "emissions") else result
-    out: dict[str, Any] = {"schema": SUMMARY_SCHEMA, "years": list(r.years),
-                           "reference": r.reference, "settings": dict(r.settings)}
-    out["settings"]["discount_rate"] = None if r.settings["discount_rate"] is None \
-        else _num(r.settings["discount_rate"])
-    trucks: dict[str, Any] = {}
-    for truck, pt in r.powertrains.items():
-        tt = r.totals[r.totals.truck == truck]
-        by = {f: tt[tt.frame == f].sort_values("year") for f in FRAMES}
-        yl = r.yearly[r.yearly.truck == truck]
-        inten = r.intensity_total[r.intensity_total.truck == truck]
-        ii = {row.frame: row for row in inten.itertuples(index=False)}
-        yearly = {"year": [int(y) for y in by["scope_1"].year]}
-        for f in ("scope_1", "scope_2_location", "scope_2_market", "scope_3_cat3",
-                  "total_location", "total_market"):
-            yearly[f] = [_num(v) for v in by[f].kg_co2e]
-        yearly["cumulative_total_location"] = [_num(v) for v in by["total_location"]
-                                               .cumulative_kg_co2e]
-        yearly["cumulative_total_market"] = [_num(v) for v in by["total_market"]
-                                             .cumulative_kg_co2e]
-        bio = list(getattr(r, "biogenic", {}).get(truck, []))
-        yearly["biogenic_co2"] = [_num(v) for v in bio] if bio else [0.0] * len(yearly["year"])
-        trucks[truck] = {
-            "powertrain": pt,
-            "biogenic_co2_kg": _num(sum(bio)) if bio else 0.0,
-            "total_kg": {f: _num(by[f].kg_co2e.sum()) for f in (
-                "scope_1", "scope_2_location", "scope_2_market", "scope_3_cat3",
-                "total_location", "total_market", "ttw", "wtt", "wtw", "wtw_market")},
-            "lines_kg": {n: _num(yl[yl.quantity == n].kg_co2e.sum()) for n in LINE_NAMES},
-            "g_co2e_per_tkm": {f: _num(ii[f].kg_per_kg_m * _G_PER_TKM)
-                               for f in ("ttw", "wtw", "wtw_market")},
-            "g_co2e_per_km": {f: _num(ii[f].kg_per_m * _G_PER_KM)
-                              for f in ("ttw", "wtw", "wtw_market")},
-            "yearly": yearly,
-        }
-    out["trucks"] = trucks
-    comp: dict[str, Any] = {}
-    for truck, ab in r.abatement.items():
-        c = r.comparison[r.comparison.truck == truck]
-        entry: dict[str, Any] = {"avoided_kg_total": {}, "avoided_kg_yearly": {}}
-        for basis in ("location", "market"):
-            cb = c[c.basis == basis].sort_values("year")
-            entry["avoided_kg_total"][basis] = _num(cb.avoided_kg.sum())
-            entry["avoided_kg_yearly"][basis] = [_num(v) for v in cb.avoided_kg]
-        entry["cost_difference"] = _num(ab["cost_difference"])
-        entry["tonnes_avoided"] = {"location": _num(ab["tonnes_location"]),
-                                   "market": _num(ab["tonnes_market"])}
-        entry["abatement_cost_per_tonne"] = {
-            "location": _num(ab["cost_per_tonne_location"]),
-            "market": _num(ab["cost_per_tonne_market"])}
-        entry["tonnes_discounted"] = bool(r.settings["tonnes_discounted"])
-        for conv in ("discounted", "undiscounted"):  # schema 1.1: both conventions
-            entry[f"tonnes_avoided_{conv}"] = {
-                b: _num(ab.get(f"tonnes_{b}_{conv}", math.nan)) for b in ("location", "market")}
-            entry[f"abatement_cost_per_tonne_{conv}_tonnes"] = {
-                b: _num(ab.get(f"cost_per_tonne_{b}_{conv}", math.nan))
-                for b in ("location", "market")}
-        comp[truck] = entry
-    out["comparison"] = comp
-    if r.lifecycle is None:
-        out["lifecycle"] = None
-    else:
-        out["lifecycle"] = {
-            row.truck: {"manufacturing_kg": _num(row.manufacturing_kg),
-                        "extra_kg": _num(row.extra_kg),
-                        "payback_distance_km": _num(row.payback_distance_m / 1000),
-                        "payback_years": _num(row.payback_years)}
-            for row in r.lifecycle.itertuples(index=False)}
-    out["factors"] = [
-        {"parameter": str(f.parameter),
-         "value": _num(f.value),
-         "unit": str(f.unit), "source": str(f.source), "status": str(f.status)}
-        for f in r.factors.itertuples(index=False)]
-    out["cautions"] = list(r.cautions)
-    return out
 
 
 __all__ = [
@@ -1394,5 +1262,5 @@ __all__ = [
     "hour_matching_factor", "flat_params", "factor_provenance", "compute", "totals",
     "tonne_weights",
     "abatement_cost", "manufacturing_emissions", "payback", "pick_reference", "evaluate",
-    "emissions_summary", "SUMMARY_SCHEMA",
+    "SUMMARY_SCHEMA",
 ]

@@ -63,7 +63,7 @@ full models to rounding (the tests hold them equal draw by draw to a relative 1e
 Entry points
 ------------
 ``result = evaluate(settings, cost_inputs, emissions_settings, years, progress=None)``
-then ``uncertainty_summary(result)`` for summary.json. The pieces are public for tests and
+then ``tco.report.summary_sections.uncertainty_summary(result)`` for summary.json. The pieces are public for tests and
 benchmarks: :class:`Case`, :func:`resolve_input`, :func:`tornado`, :func:`break_even_table`,
 :func:`distribution`, :func:`sample`, :func:`resolve_distributions`,
 :func:`draw_overrides`, :func:`run_draws`, :func:`monte_carlo`.
@@ -114,7 +114,6 @@ __all__ = [
     "default_inputs",
     "distribution", "draw_overrides", "evaluate", "label_of", "monte_carlo",
     "resolve_distributions", "resolve_input", "run_draws", "sample", "tornado",
-    "uncertainty_summary",
 ]
 
 #: Version of the summary's key layout; raised when a key is renamed or removed.
@@ -1287,145 +1286,3 @@ def _empty_mc():
             pd.DataFrame(columns=["truck", "quantity", "unit", "mean", "sd", "p10", "p50",
                                   "p90"]),
             pd.DataFrame(columns=["truck", "event", "probability", "standard_error"]))
-
-
-# --------------------------------------------------------------------------- summary
-def _num(x) -> float | None:
-    if x is None:
-        return None
-    x = float(x)
-    return x if math.isfinite(x) else None
-
-
-def uncertainty_summary(result: UncertaintyResult | None) -> dict | None:
-    """The uncertainty results as JSON-able data with stable key names (for summary.json).
-
-    Money is in the scenario currency and money basis; NaN and infinity become null.
-
-    Parameters
-    ----------
-    result : UncertaintyResult or None
-        None (studies switched off) gives None.
-
-    Returns
-    -------
-    dict
-        Keys (stable; ``schema`` changes if one is renamed or removed):
-
-        - ``schema`` : ``"tco.uncertainty.summary/1"``
-        - ``baseline`` : name of the reference truck (differences are truck − baseline)
-        - ``draws`` (int, 0 when the Monte Carlo did not run), ``seed`` (int),
-          ``default_swing`` (share, e.g. 0.2)
-        - ``notes`` : list of str
-        - ``tornado`` : ``{truck: [bar, ...]}`` widest swing first; each bar ``{key,
-          input, unit, base_value, low_value, high_value, low, high, swing, source}`` —
-          values of the input in ``unit`` (its documented unit; ``×`` a factor on the
-          scenario's values), ``low``/``high`` the present-value difference with the input
-          at that value [currency], ``swing`` = |high − low| [currency]
-        - ``base`` : ``{truck: {present_value_difference [currency],
-          levelized_cost_difference_per_km [currency/km], discounted_payback_year (int or
-          null: not within the period), avoided_kg_location, avoided_kg_market [kg]}}``
-        - ``break_even`` : ``{truck: [{key, input, unit, value, base_value, factor,
-          note}, ...]}`` — ``value`` null with the reason in ``note`` ("none in range
-          (…)") when there is none
-        - ``inputs`` : list of ``{key, input, kind, scale, unit, base_value, parameters}``
-          (parameters converted: SI values or factors)
-        - ``correlations`` : list of ``{a, b, rank, pearson, achieved_rank}``
-        - ``monte_carlo`` : ``{truck: {...}}`` (empty when not run), each with
-
-          - ``present_value_difference`` : ``{mean, sd, p10, p50, p90}`` [currency]
-          - ``levelized_cost_per_km``, ``baseline_levelized_cost_per_km``,
-            ``levelized_cost_difference_per_km`` (and ``…_per_mile``) : ``{mean, sd, p10,
-            p50, p90}`` [currency/km, currency/mi]
-          - ``simple_payback_year``, ``discounted_payback_year`` : ``{p10, p50, p90}``
-            (whole years; null = not within the period)
-          - ``probability_cheaper`` : share of draws with ΔPV < 0, and
-            ``probability_cheaper_standard_error``
-          - ``probability_pays_back`` : ``{simple, discounted}`` within the period
-          - ``avoided_kg`` : ``{location, market}`` each ``{mean, sd, p10, p50, p90}``
-            [kg CO2e over the period, well-to-wheel, baseline − truck]
-          - ``probability_avoids_emissions`` : ``{location, market}`` (share of draws with
-            avoided > 0)
-    """
-    if result is None:
-        return None
-
-    def stat(df, q, factor=1.0, moments=True):
-        r = df[df.quantity == q]
-        if not len(r):
-            return None
-        r = r.iloc[0]
-        out = {k: _num(r[k] * factor) for k in ("p10", "p50", "p90")}
-        if not moments:  # payback years: whole years or null
-            return {k: None if v is None else int(v) for k, v in out.items()}
-        return {"mean": _num(r["mean"] * factor), "sd": _num(r["sd"] * factor), **out}
-
-    tor = {}
-    for t in result.trucks:
-        rows = result.tornado[result.tornado.truck == t]
-        tor[t] = [{"key": r.key, "input": r.input, "unit": r.unit,
-                   "base_value": _num(r.base_value), "low_value": _num(r.low_value),
-                   "high_value": _num(r.high_value), "low": _num(r.low), "high": _num(r.high),
-                   "swing": _num(r.swing), "source": r.source}
-                  for r in rows.itertuples(index=False)]
-    be = {t: [{"key": r.key, "input": r.input, "unit": r.unit, "value": _num(r.value),
-               "base_value": _num(r.base_value), "factor": _num(r.factor), "note": r.note}
-              for r in result.break_even[result.break_even.truck == t].itertuples(index=False)]
-          for t in result.trucks}
-    base = {}
-    for r in result.base.to_dict("records"):
-        dp = r.get("discounted_payback_year")
-        base[r["truck"]] = {
-            "present_value_difference": _num(r["present_value_difference"]),
-            "levelized_cost_difference_per_km": _num(r["levelized_cost_difference"]
-                                                     * _M_PER_KM),
-            "discounted_payback_year": int(dp) if dp is not None and math.isfinite(dp)
-            else None,
-            "avoided_kg_location": _num(r.get("avoided_kg_location")),
-            "avoided_kg_market": _num(r.get("avoided_kg_market")),
-        }
-    mc = {}
-    if result.draws:
-        for t in result.trucks:
-            s = result.statistics[result.statistics.truck == t]
-            p = result.probabilities[result.probabilities.truck == t].set_index("event")
-            prob = p.probability.to_dict()
-            prob = {e: _num(prob.get(e)) for e in _EVENTS}
-            entry = {"present_value_difference": stat(s, "present_value_difference")}
-            for q in ("levelized_cost", "baseline_levelized_cost", "levelized_cost_difference"):
-                entry[f"{q}_per_km"] = stat(s, q, _M_PER_KM)
-                entry[f"{q}_per_mile"] = stat(s, q, _M_PER_MILE)
-            entry["simple_payback_year"] = stat(s, "simple_payback_year", moments=False)
-            entry["discounted_payback_year"] = stat(s, "discounted_payback_year",
-                                                    moments=False)
-            entry["probability_cheaper"] = prob["cheaper"]
-            entry["probability_cheaper_standard_error"] = _num(
-                p.standard_error.get("cheaper"))
-            entry["probability_pays_back"] = {"simple": prob["pays_back_simple"],
-                                              "discounted": prob["pays_back_discounted"]}
-            entry["avoided_kg"] = {"location": stat(s, "avoided_kg_location"),
-                                   "market": stat(s, "avoided_kg_market")}
-            entry["probability_avoids_emissions"] = {
-                "location": prob["avoids_emissions_location"],
-                "market": prob["avoids_emissions_market"]}
-            mc[t] = entry
-    return {
-        "schema": SUMMARY_SCHEMA,
-        "baseline": result.baseline,
-        "draws": int(result.draws),
-        "seed": int(result.seed),
-        "default_swing": float(result.default_swing),
-        "notes": list(result.notes),
-        "tornado": tor,
-        "base": base,
-        "break_even": be,
-        "inputs": [{"key": r["key"], "input": r["input"], "kind": r["kind"],
-                    "scale": r["scale"], "unit": r["unit"], "base_value": _num(r["base_value"]),
-                    "parameters": {k: _num(v) for k, v in r["parameters"].items()}}
-                   for r in result.inputs.to_dict("records")],
-        "correlations": [{"a": r["a"], "b": r["b"], "rank": _num(r["rank"]),
-                          "pearson": _num(r["pearson"]),
-                          "achieved_rank": _num(r["achieved_rank"])}
-                         for r in result.correlations.to_dict("records")],
-        "monte_carlo": mc,
-    }

@@ -19,9 +19,10 @@ from pydantic import ValidationError
 
 from tco import finance as fin
 from tco.cashflow import (
-    LINES, CostInputs, TruckSpec, break_even, cashflow_summary, compute, compute_totals,
+    LINES, CostInputs, TruckSpec, break_even, compute, compute_totals,
     evaluate, flat_params,
 )
+from tco.report.summary_sections import cashflow_summary
 from tco.errors import InputError
 from tco.operation import AnnualOperation
 from tco.scenario.costs import Depot, Finance, Prices, TruckCosts

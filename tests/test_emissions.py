@@ -15,6 +15,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from pydantic import ValidationError
 
+from tco.report.summary_sections import emissions_summary
 from tco import emissions as em
 from tco.errors import InputError
 from tco.operation import AnnualOperation
@@ -340,7 +341,7 @@ def test_tonne_km_intensity_single_leg():
     per year (scenario inputs)."""
     op = diesel_truck(distance=1.0e8, payload_distance=20_000 * 1.0e8)
     r = em.evaluate(EmissionsSettings(), [op], YEARS)
-    summ = em.emissions_summary(r)["trucks"]["diesel"]
+    summ = emissions_summary(r)["trucks"]["diesel"]
     total = summ["total_kg"]["wtw"]
     tkm = 20 * 100_000 * len(YEARS)
     assert summ["g_co2e_per_tkm"]["wtw"] == pytest.approx(total * 1000 / tkm, rel=1e-12)
@@ -479,7 +480,7 @@ def test_avoided_and_abatement_cost_undiscounted():
     np.testing.assert_allclose(c.avoided_kg, avoided, rtol=1e-12)
     ab = r.abatement["electric"]
     assert ab["cost_per_tonne_location"] == pytest.approx(25_000 / (avoided.sum() / 1000))
-    summ = em.emissions_summary(r)
+    summ = emissions_summary(r)
     assert summ["settings"]["tonnes_discounted"] is False
     assert summ["comparison"]["electric"]["tonnes_discounted"] is False
     assert any("not discounted" in c for c in summ["cautions"])
@@ -523,7 +524,7 @@ def test_lifecycle_payback_by_hand_and_kept_apart():
     per_m = (t["diesel", "wtw"].iloc[0] - t["electric", "wtw"].iloc[0]) / 1.0e8
     assert row.payback_distance_m == pytest.approx(extra / per_m, rel=1e-12)
     assert row.payback_years == pytest.approx(extra / per_m / 1.0e8, rel=1e-12)
-    summ = em.emissions_summary(on)
+    summ = emissions_summary(on)
     assert summ["lifecycle"]["electric"]["payback_distance_km"] == pytest.approx(
         extra / per_m / 1000)
     assert any("life-cycle" in c for c in summ["cautions"])
@@ -540,7 +541,7 @@ def test_payback_not_reached_and_zero():
 def test_summary_is_json_with_stable_keys():
     r = em.evaluate(EmissionsSettings(), [diesel_truck(), electric_truck()], YEARS,
                     cost_difference={"electric": 12_000.0}, discount_rate=0.07)
-    summ = em.emissions_summary(r)
+    summ = emissions_summary(r)
     text = json.dumps(summ, allow_nan=False)
     assert json.loads(text) == summ
     assert set(summ) == {"schema", "years", "reference", "settings", "trucks", "comparison",
@@ -560,7 +561,7 @@ def test_summary_is_json_with_stable_keys():
 
     class Holder:  # the lead's Result carries the emissions result as an attribute
         emissions = r
-    assert em.emissions_summary(Holder()) == summ
+    assert emissions_summary(Holder()) == summ
 
 
 def test_provenance_names_sources():
@@ -693,7 +694,7 @@ def test_abatement_cost_both_conventions_by_hand():
     av = t["diesel", "wtw"].values - t["electric", "wtw"].values
     want_d = 10_000 / (sum(a / 1.1 ** (k + 1) for k, a in enumerate(av)) / 1000)
     want_u = 10_000 / (av.sum() / 1000)
-    summ = em.emissions_summary(r)["comparison"]["electric"]
+    summ = emissions_summary(r)["comparison"]["electric"]
     assert summ["tonnes_discounted"] is True
     assert summ["abatement_cost_per_tonne"]["location"] == pytest.approx(want_d, rel=1e-12)
     assert summ["abatement_cost_per_tonne_discounted_tonnes"]["location"] == \
@@ -704,7 +705,7 @@ def test_abatement_cost_both_conventions_by_hand():
     # the other convention as headline: the same two figures, swapped
     r2 = em.evaluate(EmissionsSettings(discount_tonnes=False), ops, years,
                      cost_difference=10_000.0, discount_rate=0.10)
-    s2 = em.emissions_summary(r2)["comparison"]["electric"]
+    s2 = emissions_summary(r2)["comparison"]["electric"]
     assert s2["abatement_cost_per_tonne"]["location"] == pytest.approx(want_u, rel=1e-12)
     assert s2["abatement_cost_per_tonne_discounted_tonnes"]["location"] == \
         pytest.approx(want_d, rel=1e-12)

@@ -25,6 +25,7 @@ from hypothesis import strategies as st
 from pydantic import ValidationError
 from scipy import stats
 
+from tco.report.summary_sections import uncertainty_summary
 from tco import cashflow, emissions
 from tco import finance as fin
 from tco import uncertainty as unc
@@ -570,7 +571,7 @@ def test_result_tables_and_summary(default_result):
         (r.samples.avoided_kg_location > 0).mean())
     assert any("triangular" in n for n in r.notes)
 
-    s = unc.uncertainty_summary(r)
+    s = uncertainty_summary(r)
     text = json.dumps(s, allow_nan=False)
     assert json.loads(text)["schema"] == unc.SUMMARY_SCHEMA
     mc = s["monte_carlo"]["Electric"]
@@ -589,14 +590,14 @@ def test_result_tables_and_summary(default_result):
 
 def test_disabled_returns_none(inputs, em_settings):
     assert unc.evaluate(UncertaintySettings(enabled=False), inputs, em_settings, YEARS) is None
-    assert unc.uncertainty_summary(None) is None
+    assert uncertainty_summary(None) is None
 
 
 def test_zero_draws_runs_tornado_only(inputs, em_settings):
     r = unc.evaluate(UncertaintySettings(draws=0), inputs, em_settings, YEARS,
                      break_evens=False)
     assert r.draws == 0 and r.samples.empty and len(r.tornado)
-    assert unc.uncertainty_summary(r)["monte_carlo"] == {}
+    assert uncertainty_summary(r)["monte_carlo"] == {}
 
 
 # ------------------------------------------------------------------ error paths
@@ -741,7 +742,7 @@ def test_residual_value_factor_above_the_price_is_refused(inputs, em_settings):
 
 
 def test_summary_payback_years_are_whole_years_or_null(default_result):
-    s = unc.uncertainty_summary(default_result)["monte_carlo"]["Electric"]
+    s = uncertainty_summary(default_result)["monte_carlo"]["Electric"]
     for kind in ("simple_payback_year", "discounted_payback_year"):
         assert set(s[kind]) == {"p10", "p50", "p90"}
         assert all(v is None or isinstance(v, int) for v in s[kind].values())

@@ -183,8 +183,7 @@ def depot_summary(result) -> dict | None:
 
 def build_summary(result) -> dict:
     """The summary.json content of a Result (JSON-safe)."""
-    from tco.cashflow import cashflow_summary
-    from tco.emissions import emissions_summary
+    from tco.report.summary_sections import cashflow_summary, emissions_summary
 
     s = result.scenario
     loaded = result.loaded
@@ -226,7 +225,7 @@ def build_summary(result) -> dict:
         "assumptions": _assumptions(result),
     }
     if result.uncertainty is not None:
-        from tco.uncertainty import uncertainty_summary
+        from tco.report.summary_sections import uncertainty_summary
 
         out["uncertainty"] = uncertainty_summary(result.uncertainty)
     return clean_json(out)
