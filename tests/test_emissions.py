@@ -758,7 +758,7 @@ def test_electricity_upstream_share_and_diesel_blend_by_hand():
     assert out["D"]["diesel_upstream"][0] == pytest.approx(5_700, rel=1e-12)
     assert out["D"]["scope_1"][0] == pytest.approx(24_831, rel=1e-12)  # biogenic not in
     r = em.evaluate(s, [d, e], [2030])
-    summ = em.emissions_summary(r)
+    summ = emissions_summary(r)
     assert summ["trucks"]["D"]["biogenic_co2_kg"] == pytest.approx(1_750,
                                                                    rel=1e-12)
     assert summ["settings"]["diesel_blend_share"] == pytest.approx(0.07)
