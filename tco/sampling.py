@@ -14,7 +14,7 @@ inverse CDFs in closed form or from a checked polynomial table:
   ``lognorm``: ``rng.standard_normal``; ``truncnorm``: the inverse CDF of
   ``rng.uniform``), so a seed gives the same draws as before, bit for bit, except for the
   truncated normal (its inverse CDF here agrees with SciPy's to about 1e-15).
-* **Copula inputs** (the copula hands over the normal variate ``z`` and ``u = Φ(z)``) —
+* **Copula inputs** (the copula hands over its normal variate ``z``; ``u = Φ(z)``) —
   normal and lognormal straight from ``z`` (``loc + scale·z``, ``scale·exp(s z)``: the
   exact values of ``F⁻¹(Φ(z))``, without the round trip through ``u``); uniform and
   triangular in closed form (SciPy's own formulas); truncated normal from
@@ -104,7 +104,8 @@ def standard_form(dist) -> tuple[str, tuple[float, ...], float, float] | None:
     return family.name, tuple(shapes), loc, scale
 
 
-def draw(dist, n: int, rng: np.random.Generator) -> np.ndarray:
+def draw(dist, n: int, rng: np.random.Generator, out: np.ndarray | None = None
+         ) -> np.ndarray:
     """``n`` independent draws of ``dist``, straight from the generator.
 
     The same generator calls and arithmetic as ``dist.rvs(size=n, random_state=rng)``
@@ -116,6 +117,8 @@ def draw(dist, n: int, rng: np.random.Generator) -> np.ndarray:
     n : int
         Number of draws.
     rng : numpy.random.Generator
+    out : numpy.ndarray of shape (n,), optional
+        Where to write the draws (saves a temporary array).
 
     Returns
     -------
@@ -124,7 +127,7 @@ def draw(dist, n: int, rng: np.random.Generator) -> np.ndarray:
     """
     form = standard_form(dist)
     if form is None:
-        return dist.rvs(size=n, random_state=rng)
+        return _into(dist.rvs(size=n, random_state=rng), out)
     name, shapes, loc, scale = form
     if name == "uniform":
         x = rng.uniform(0.0, 1.0, n)
@@ -139,29 +142,36 @@ def draw(dist, n: int, rng: np.random.Generator) -> np.ndarray:
     elif name == "truncnorm" and _truncnorm_plain(*shapes):
         x = truncnorm_ppf(rng.uniform(size=n), *shapes)
     else:
-        return dist.rvs(size=n, random_state=rng)
-    return x * scale + loc
+        return _into(dist.rvs(size=n, random_state=rng), out)
+    return _scaled(x, scale, loc, out)
 
 
-def inverse_cdf(dist, u: np.ndarray, z: np.ndarray) -> np.ndarray:
-    """``F⁻¹(u)`` for the copula, where ``u = Φ(z)``.
+def inverse_cdf(dist, z: np.ndarray, out: np.ndarray | None = None) -> np.ndarray:
+    """``F⁻¹(Φ(z))`` for the copula's standard normal variates ``z``.
+
+    Φ (:func:`scipy.special.ndtr`) is evaluated only for the families that need it:
+    normal and lognormal are taken from z itself.
 
     Parameters
     ----------
     dist : scipy.stats frozen distribution
-    u : numpy.ndarray
-        Probabilities, ``Φ(z)``. [-]
     z : numpy.ndarray
         The copula's standard normal variates. [-]
+    out : numpy.ndarray, optional
+        Where to write the values (saves a temporary array).
 
     Returns
     -------
     numpy.ndarray
-        Of the shape of ``u``. [unit of the distribution]
+        Of the shape of ``z``. [unit of the distribution]
     """
     form = standard_form(dist)
+    if form is not None and form[0] in ("norm", "lognorm"):
+        name, shapes, loc, scale = form
+        return _scaled(z if name == "norm" else np.exp(shapes[0] * z), scale, loc, out)
+    u = special.ndtr(z)
     if form is None:
-        return dist.ppf(u)
+        return _into(dist.ppf(u), out)
     name, shapes, loc, scale = form
     if name == "uniform":
         x = u
@@ -170,15 +180,27 @@ def inverse_cdf(dist, u: np.ndarray, z: np.ndarray) -> np.ndarray:
         x = np.where(u < c, np.sqrt(c * u), 1 - np.sqrt((1 - c) * (1 - u)))
     elif name == "beta":
         x = beta_ppf(u, *shapes)
-    elif name == "norm":
-        x = z
-    elif name == "lognorm":
-        x = np.exp(shapes[0] * z)
     elif name == "truncnorm" and _truncnorm_plain(*shapes):
         x = truncnorm_ppf(u, *shapes)
     else:
-        return dist.ppf(u)
-    return x * scale + loc
+        return _into(dist.ppf(u), out)
+    return _scaled(x, scale, loc, out)
+
+
+def _scaled(x: np.ndarray, scale: float, loc: float, out: np.ndarray | None) -> np.ndarray:
+    """``x * scale + loc`` (in that order, as scipy.stats), into ``out`` when given."""
+    if out is None:
+        return x * scale + loc
+    np.multiply(x, scale, out=out)
+    out += loc
+    return out
+
+
+def _into(x, out: np.ndarray | None) -> np.ndarray:
+    if out is None:
+        return x
+    out[...] = x
+    return out
 
 
 # --------------------------------------------------------------------------- beta

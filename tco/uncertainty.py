@@ -94,7 +94,7 @@ from typing import Any, Callable, Sequence
 
 import numpy as np
 import pandas as pd
-from scipy import special, stats
+from scipy import stats
 
 from tco import cashflow, emissions, sampling
 from tco import finance as fin
@@ -826,11 +826,10 @@ def sample(dists: Sequence, n: int, rng: np.random.Generator,
         linked = np.any(np.abs(pearson - np.eye(k)) > 0, axis=1)
         idx = np.flatnonzero(linked)
         z = _factor(pearson[np.ix_(idx, idx)]) @ rng.standard_normal((idx.size, n))
-        u = special.ndtr(z)
         for row, j in enumerate(idx):
-            out[j] = sampling.inverse_cdf(dists[j], u[row], z[row])
+            sampling.inverse_cdf(dists[j], z[row], out=out[j])
     for j in np.flatnonzero(~linked):
-        out[j] = sampling.draw(dists[j], n, rng)
+        sampling.draw(dists[j], n, rng, out=out[j])
     return out
 
 
@@ -1065,6 +1064,8 @@ def monte_carlo(case: Case, inputs: Sequence[Uncertain], pearson: np.ndarray | N
                              "truncate the distribution", where=owner) from None
         if progress is not None:
             progress(min(chunk_size, n - a))
+    if len(parts) == 1:  # one call over all draws: nothing to join
+        return draws, parts[0]
     outputs = {k: {q: np.concatenate([p[k][q] for p in parts]) for q in parts[0][k]}
                for k in case.compared}
     return draws, outputs
