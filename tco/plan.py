@@ -212,7 +212,7 @@ class PlanSolution:
         One per budget, grid or target row that binds, nearly binds (slack within
         :data:`NEAR_BINDING` of its right-hand side) or has a non-zero LP dual:
         ``constraint``, ``year`` (plan year; year of service for the target), ``slack``,
-        ``binding`` (slack ~ 0), ``dual`` (LP relaxation) [currency per unit], ``unit``,
+        ``binding`` (slack ~ 0), ``near`` (within :data:`NEAR_BINDING`), ``dual`` (LP relaxation) [currency per unit], ``unit``,
         ``step``, ``step_saving`` [currency] (None when not re-solved).
     mip_gap : float
         Relative gap HiGHS reports. [-]
@@ -422,7 +422,8 @@ def solve(pb: PlanProblem, gap: float = 1e-9, time_limit: float | None = None,
         extra = LinearConstraint(row[None, :], -np.inf, total_short * (1 + 1e-9) + 1e-7)
     res = _run_milp(model, c, lb, ub, extra=extra, gap=gap, time_limit=time_limit)
     _check(res)
-    x = np.round(res.x)
+    x = res.x.copy()
+    x[:model.i_s] = np.round(x[:model.i_s])  # integers within HiGHS' tolerance: exact
     V, N = pb.V, pb.N
     choice = np.argmax(x[:model.nx].reshape(V, N + 1), axis=1)
     if elastic:
@@ -432,7 +433,7 @@ def solve(pb: PlanProblem, gap: float = 1e-9, time_limit: float | None = None,
         choice=choice, chargers_bought=x[model.i_b:model.i_b + N].astype(int),
         connection=x[model.i_w:model.i_w + N].astype(int),
         upgrade=x[model.i_u:model.i_u + N].astype(int),
-        objective=float(c @ res.x), status="optimal" if res.status == 0 else res.message,
+        objective=float(c @ x), status="optimal" if res.status == 0 else res.message,
         target_met=not shortfall.any(), shortfall=shortfall, binds=binds,
         mip_gap=float(getattr(res, "mip_gap", 0.0) or 0.0))
     if shadow:
@@ -527,7 +528,8 @@ def _shadow_prices(pb, model: _Model, xsol, extra, gap, time_limit, objective) -
             year, unit, step = model.target_years[j] + 1, "t CO2e", \
                 0.01 * max(pb.target_limit, 1.0)
         rec = {"constraint": fam, "year": year, "slack": max(slack, 0.0), "dual": dual,
-               "binding": bool(binding), "unit": unit, "step": float(step),
+               "binding": bool(binding), "near": bool(near), "unit": unit,
+               "step": float(step),
                "step_saving": None}
         if pb.V <= STEP_RESOLVE_MAX and near:
             hi2 = model.hi.copy()
@@ -1087,11 +1089,11 @@ def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: P
         [{"constraint": r["constraint"],
           "calendar_year": start + r["year"] if r["constraint"] != "target"
           else start + r["year"] - 1,
-          "binding": r["binding"], "slack": r["slack"],
+          "binding": r["binding"], "near": r["near"], "slack": r["slack"],
           "dual": r["dual"], "unit": r["unit"], "step": r["step"],
           "step_saving": r["step_saving"]} for r in sol.shadow],
-        columns=["constraint", "calendar_year", "binding", "slack", "dual", "unit", "step",
-                 "step_saving"])
+        columns=["constraint", "calendar_year", "binding", "near", "slack", "dual", "unit",
+                 "step", "step_saving"])
 
     notes = []
     cur = s.study.currency

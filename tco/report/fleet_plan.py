@@ -23,7 +23,8 @@ scope_3_cat3_t, scope_1_2_t`` (Scope 1 + Scope 2 on the target's basis), ``targe
 ``shortfall_t``) · ``macc`` (records in order of cost per tonne: ``vehicle,
 cost_per_t, avoided_t, cumulative_t``) · ``shadow_prices`` (records: ``constraint``
 (budget, grid or target), ``calendar_year``, ``binding``, ``slack``, ``dual`` (LP
-relaxation, currency per unit of right-hand side), ``unit``, ``step``, ``step_saving``
+relaxation, currency per unit of right-hand side), ``near`` (slack within 5 % of the
+limit), ``unit``, ``step``, ``step_saving``
 (integer re-solve, currency)) · ``notes`` (list of str).
 """
 from __future__ import annotations
@@ -123,7 +124,8 @@ def transition_summary(result) -> dict | None:
                  for r in tp.macc.to_dict("records")],
         "shadow_prices": [{
             "constraint": r["constraint"], "calendar_year": int(r["calendar_year"]),
-            "binding": bool(r["binding"]), "slack": _f(r["slack"]), "dual": _f(r["dual"]),
+            "binding": bool(r["binding"]), "near": bool(r["near"]), "slack": _f(r["slack"]),
+            "dual": _f(r["dual"]),
             "unit": r["unit"], "step": _f(r["step"]), "step_saving": _f(r["step_saving"])}
             for r in tp.shadow.to_dict("records")],
         "notes": list(tp.notes),
@@ -131,6 +133,10 @@ def transition_summary(result) -> dict | None:
 
 
 # --------------------------------------------------------------------------- report
+def _binding(r: dict) -> str:
+    return "yes" if r["binding"] else "near" if r["near"] else "no"
+
+
 def _t(title, columns, align, rows, note=""):
     return {"title": title, "columns": columns, "align": list(align), "rows": rows,
             "foot": [], "note": note}
@@ -216,10 +222,10 @@ def transition_context(summary: dict) -> dict | None:
                 "Capital: truck prices with taxes and fees less grants, chargers, the grid "
                 "connection and upgrade, in the year bought (loans and resale proceeds not "
                 "netted). Emissions of the year's service; the target covers Scope 1 + 2.")
-    shadow = _t("Shadow prices of the binding and nearly binding constraints",
+    shadow = _t("Shadow prices of the budget, grid and target constraints",
                 ["Constraint", "Year", "Binding", "Slack", "Marginal value (LP)",
                  "Step", f"Saving of the step [{cur}]"], "lrlrrrr",
-                [[r["constraint"], str(r["calendar_year"]), "yes" if r["binding"] else "near",
+                [[r["constraint"], str(r["calendar_year"]), _binding(r),
                   _n(r["slack"], 1), "–" if r["dual"] is None else
                   f"{_n(-r['dual'], 3)} {cur} per {r['unit']}",
                   f"{_n(r['step'], 1)} {r['unit']}",
@@ -369,7 +375,7 @@ def add_transition_sheets(wb, summary: dict) -> None:
         row = 2 + i
         safe_text(ws.cell(row=row, column=1), r["constraint"])
         write_value(ws.cell(row=row, column=2), r["calendar_year"], wbb.YEAR)
-        safe_text(ws.cell(row=row, column=3), "yes" if r["binding"] else "near")
+        safe_text(ws.cell(row=row, column=3), _binding(r))
         write_value(ws.cell(row=row, column=4), r["slack"], wbb.MASS)
         safe_text(ws.cell(row=row, column=5), r["unit"])
         write_value(ws.cell(row=row, column=6), None if r["dual"] is None else -r["dual"],
