@@ -95,6 +95,15 @@ class ScenarioOutcome:
     outputs: list[str] = field(default_factory=list)
     seconds: float = 0.0
 
+    def __post_init__(self):
+        # A file name is user text too: no control characters in the index or terminal.
+        from tco.text import clean_text, one_line
+
+        if self.file:
+            self.file = clean_text(self.file)
+        if self.error:
+            self.error = one_line(self.error)
+
     @property
     def ok(self) -> bool:
         return self.status == "ok"
@@ -179,7 +188,9 @@ def scenario_files(folder: Path) -> list[Path]:
 
 
 def _one_line(text: str) -> str:
-    return " ".join(str(text).splitlines())
+    from tco.text import one_line
+
+    return one_line(" ".join(str(text).splitlines()))
 
 
 def _internal(path: Path, exc: BaseException | str) -> str:

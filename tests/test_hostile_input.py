@@ -47,7 +47,7 @@ def _toml_value(v) -> str:
     if isinstance(v, int):
         return str(v)
     if isinstance(v, str):
-        return json.dumps(v)  # a JSON string is a valid TOML basic string
+        return json.dumps(v, ensure_ascii=False)  # a JSON string is a TOML basic string
     if isinstance(v, list):
         return "[" + ", ".join(_toml_value(x) for x in v) + "]"
     if isinstance(v, dict):
@@ -566,3 +566,52 @@ def test_wrong_values_give_input_error_or_success(tmp_path, changes):
         load_scenario(path)
     except InputError as exc:
         assert "\n" not in exc.line()
+
+
+def test_templates_print_no_control_characters():
+    from markupsafe import Markup
+
+    from tco.report.html import environment
+
+    env = environment()
+    out = env.from_string("{{ a }}|{{ b }}|{{ c }}").render(
+        a="x\x1b[31m<y>\x00", b=Markup("<b>\x07</b>"), c=3)
+    assert out == "x\ufffd[31m&lt;y&gt;\ufffd|<b>\ufffd</b>|3"
+
+
+def test_batch_file_names_and_errors_are_cleaned():
+    from tco.batch import ScenarioOutcome
+
+    o = ScenarioOutcome("a\x1b[2Jb.toml", "error", error="first\nsecond\x07")
+    assert o.file == "a\ufffd[2Jb.toml" and o.error == "first\\nsecond\ufffd"
+
+
+@pytest.mark.slow
+def test_full_report_with_emoji_rtl_and_control_characters(tmp_path):
+    """Every output of a run whose names hold emoji, right-to-left text and control
+    characters: no glyph warnings on the terminal (even with --quiet), no control
+    characters in HTML, PDF text, workbook or JSON."""
+    data = set_in(demo(), "trucks[1].name", "חשמלי 🚚 كهربائي\x1b[31m\x07")
+    data = set_in(data, "study.name", "Study \x00 ✓ 🚛")
+    data["uncertainty"]["draws"] = 200
+    path = write(tmp_path, data)
+    out = tmp_path / "o"
+    env = {**os.environ, "PYTHONPATH": str(ROOT), "PYTHONWARNINGS": "default"}
+    proc = subprocess.run([sys.executable, "-m", "tco", "run", str(path), "--out", str(out),
+                           "--quiet"], capture_output=True, text=True, env=env, timeout=600)
+    assert proc.returncode == 0, proc.stderr
+    assert proc.stderr == "", proc.stderr[:500]
+    folder = out / "demo"
+    html = (folder / "report.html").read_text(encoding="utf-8")
+    assert "\x1b" not in html and "\x07" not in html and "\x00" not in html
+    assert "חשמלי 🚚 كهربائي" in html
+    summary = (folder / "summary.json").read_text(encoding="utf-8")
+    assert "\\u001b" not in summary and "\\u0007" not in summary
+    import openpyxl
+
+    wb = openpyxl.load_workbook(folder / "workbook.xlsx")
+    for ws in wb.worksheets:
+        for row in ws.iter_rows(values_only=True):
+            for v in row:
+                if isinstance(v, str):
+                    assert not any(ord(c) < 32 and c not in "\n\t" for c in v), v

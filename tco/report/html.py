@@ -91,11 +91,24 @@ CHART_GROUPS = ("cost", "energy", "emissions", "uncertainty")
 _DATA_URI_PREFIXES = ("data:image/svg+xml;base64,", "data:image/png;base64,")
 
 
+def _no_control_characters(value):
+    """Every string a template prints, with control characters replaced (tco.text)."""
+    if isinstance(value, str):
+        from markupsafe import Markup
+
+        from tco.text import clean_text
+
+        cleaned = clean_text(value, multiline=True)
+        return Markup(cleaned) if isinstance(value, Markup) else cleaned
+    return value
+
+
 def environment() -> jinja2.Environment:
     """The jinja2 environment of the report templates.
 
     ``autoescape=True`` escapes every value in every template, whatever its file name
-    (``select_autoescape`` would not treat ``*.j2`` as HTML). ``StrictUndefined`` makes a
+    (``select_autoescape`` would not treat ``*.j2`` as HTML); ``finalize`` replaces control
+    characters in every printed string, whatever its origin. ``StrictUndefined`` makes a
     missing context key an error instead of an empty string.
 
     Returns
@@ -106,6 +119,7 @@ def environment() -> jinja2.Environment:
     return jinja2.Environment(
         loader=jinja2.FileSystemLoader(str(templates_dir())),
         autoescape=True,
+        finalize=_no_control_characters,
         undefined=jinja2.StrictUndefined,
         trim_blocks=True,
         lstrip_blocks=True,
