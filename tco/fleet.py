@@ -300,7 +300,7 @@ def read_fleet(path: str | Path) -> list[FleetRow]:
                 raise InputError(f"'{text}' is not an amount ≥ 0", file=path,
                                  where=f"{where}, resale_value")
             extra["resale_value"] = v
-        out.append(FleetRow(row=line, vehicle=vid, cycle=cyc.resolve(),
+        out.append(FleetRow(row=line, vehicle=vid, cycle=cyc,  # as the user gave it
                             current=vals["current"], candidate=vals["candidate"],
                             route=cell("route"), **extra))
     return out
@@ -316,7 +316,7 @@ def _is_number(text: str) -> bool:
 
 # --------------------------------------------------------------------------- row scenarios
 def _cycle_route(row: FleetRow) -> dict:
-    """The ``[route]`` table of a row's cycle, with files made absolute."""
+    """The ``[route]`` table of a row's cycle (leg files relative to the cycle's folder)."""
     if row.cycle.suffix.lower() == ".toml":
         try:
             raw = tomllib.loads(row.cycle.read_text(encoding="utf-8-sig"))
@@ -330,13 +330,11 @@ def _cycle_route(row: FleetRow) -> dict:
         if "route" not in raw:
             raise InputError("a cycle scenario needs a [route] section", file=row.cycle)
         route = copy.deepcopy(raw["route"])
-        for leg in route.get("legs", []):
-            if isinstance(leg, dict) and leg.get("file"):
-                f = Path(leg["file"])
-                leg["file"] = str(f if f.is_absolute() else (row.cycle.parent / f).resolve())
+        # leg files stay as written: relative to the cycle's folder, where the row's
+        # LoadedScenario resolves (and confines) them
         return route
     return {"legs": [{"name": row.route or row.vehicle, "payload": 0.0,
-                      "file": str(row.cycle)}], "trips_per_day": 1.0}
+                      "file": row.cycle.name}], "trips_per_day": 1.0}
 
 
 def row_scenario(base: LoadedScenario, row: FleetRow, fleet_file: Path) -> dict:

@@ -615,3 +615,19 @@ def test_full_report_with_emoji_rtl_and_control_characters(tmp_path):
             for v in row:
                 if isinstance(v, str):
                     assert not any(ord(c) < 32 and c not in "\n\t" for c in v), v
+
+
+def test_fleet_cycles_stay_in_the_fleet_folder(tmp_path, capsys, out):
+    from tco.resources import inputs_dir
+
+    src = inputs_dir() / "fleet"
+    secret = _outside(tmp_path)
+    folder = tmp_path / "fl"
+    folder.mkdir()
+    (folder / "c.csv").symlink_to(secret)
+    (folder / "fleet.csv").write_text("vehicle,cycle,current,candidate\n"
+                                      "V1,c.csv,Diesel tractor,Electric tractor\n")
+    line = assert_refused(["fleet", folder / "fleet.csv", "--base", src / "base.toml",
+                           "--out", out, "--json-only"], capsys, out,
+                          "row 2, cycle", "outside the scenario's folder")
+    assert SECRET not in line
