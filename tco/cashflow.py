@@ -188,8 +188,10 @@ DEDUCTIBLE = tuple(s.name for s in LINES if s.deductible)
 #: AnnualOperation fields exposed as parameters ``operations[i].<field>``; the first group
 #: is yearly and scales with days and trips per day.
 _OP_SCALED = ("distance", "diesel_volume", "def_volume", "battery_energy",
-              "grid_energy_depot", "grid_energy_public", "charging_time_lost", "extra_trips")
-_OP_FIXED = ("depot_charging_power", "trip_duration", "battery_capacity", "battery_cycle_life")
+              "grid_energy_depot", "grid_energy_public", "charging_time_lost", "extra_trips",
+              "battery_discharge_energy")
+_OP_FIXED = ("depot_charging_power", "trip_duration", "battery_capacity", "battery_cycle_life",
+             "calendar_fade", "eol_state_of_health")
 
 
 # --------------------------------------------------------------------------- inputs
@@ -1179,9 +1181,12 @@ class _Context:
                                f"{t.name} uses diesel exhaust fluid")
             L["diesel_exhaust_fluid"] = _Outer(self.running(esc + "diesel_exhaust_fluid"),
                                                self.q(i, "def_volume") * price_f)
+        aged = self.aged(i)
         if op.grid_energy_depot > 0 or p.varies(f"operations[{i}].grid_energy_depot"):
-            L["electricity_energy"] = _Outer(self.running(esc + "electricity"),
-                                             self.q(i, "grid_energy_depot") * self.depot_price(i))
+            L["electricity_energy"] = _Outer(
+                self.running(esc + "electricity") * (
+                    aged["depot"] if aged else 1.0),
+                self.q(i, "grid_energy_depot") * self.depot_price(i))
         if self._uses_depot(t, op):
             peak = self.q(i, "depot_charging_power")
             cap = inputs.depot.chargers * p("depot.charger_power")
@@ -1195,7 +1200,11 @@ class _Context:
                 elec, 12.0 * p("prices.electricity.demand_charge") * capped / self.served)
             L["electricity_fixed"] = _Outer(
                 elec, 12.0 * p("prices.electricity.fixed_fee") * fee_share)
-        if op.grid_energy_public > 0 or p.varies(f"operations[{i}].grid_energy_public"):
+        if aged and aged["public"].any():  # en-route charging as the battery ages
+            price_pub = p.needed("prices.public_charging", f"{t.name} charges en route")
+            L["public_charging"] = _Outer(self.running(esc + "public_charging")
+                                          * aged["public"], aged["factor"] * price_pub)
+        elif op.grid_energy_public > 0 or p.varies(f"operations[{i}].grid_energy_public"):
             price_pub = p.needed("prices.public_charging", f"{t.name} charges en route")
             L["public_charging"] = _Outer(self.running(esc + "public_charging"),
                                           self.q(i, "grid_energy_public") * price_pub)
@@ -1208,7 +1217,10 @@ class _Context:
                                    p(f"{tp}.registration"))
         wage = p("finance.driver_cost_per_hour")  # [currency/s]
         driver = self.running("finance.driver_cost_escalation")
-        L["charging_driver_time"] = _Outer(driver, self.q(i, "charging_time_lost") * wage)
+        if aged:
+            L["charging_driver_time"] = _Outer(driver * aged["time"], aged["factor"] * wage)
+        else:
+            L["charging_driver_time"] = _Outer(driver, self.q(i, "charging_time_lost") * wage)
         L["extra_trips_driver_time"] = _Outer(
             driver, self.q(i, "extra_trips") * self.q(i, "trip_duration") * wage)
 
@@ -1227,6 +1239,28 @@ class _Context:
         a = self.inputs.finance.after_tax
         return fin.depreciation_fractions(a.depreciation, a.depreciation_years,
                                           a.declining_balance_percent, a.macrs_class)
+
+    def aged(self, i: int) -> dict | None:
+        """Truck i's yearly en-route energy, driver time and depot-energy share as its
+        battery ages (:mod:`tco.battery`), years first; None for an operation without
+        them. The yearly shapes are the base case's; a draw moves them by its depot
+        energy over the base one (days, trips and energy use)."""
+        op = self.inputs.operations[i]
+        if len(op.public_energy_by_year) != self.N:
+            return None
+        col = self._col
+        if op.grid_energy_depot > 0:
+            factor = self.q(i, "grid_energy_depot") / op.grid_energy_depot
+            depot = col(np.asarray(op.depot_energy_by_year) / op.grid_energy_depot)
+        else:
+            factor = self.scale(i)
+            depot = col(np.ones(self.N))
+        return {"public": col(op.public_energy_by_year), "time": col(op.enroute_time_by_year),
+                "depot": depot, "factor": factor}
+
+    def _col(self, by_year) -> np.ndarray:
+        """Values of years 1..N as a years-first column with 0 in year 0."""
+        return np.concatenate([[0.0], np.asarray(by_year, dtype=float)])[:, None]
 
     def depot_price(self, i: int):
         """Charging-profile-weighted depot energy price of truck i. [currency/J]"""
@@ -1287,12 +1321,29 @@ class _Context:
                 left = max(0.0, 1.0 - (N - Y) / Y)  # the new battery lasts as long as the first
                 out["battery_remaining_life"] = _Outer(self.eN, -left * self.at(unit_price, Y))
             return out
-        # cycles: full equivalent cycles = throughput / capacity, summed over the years;
-        # a replacement whenever they pass a multiple of the cycle life.
+        if b.when == "range":  # replaced before the year the day would no longer fit
+            repl = np.zeros((N + 1, 1))
+            for Y in op.battery_replacement_years:
+                repl = repl + self.unit(Y) * self.at(unit_price, Y)
+            out = {"battery_replacement": repl}
+            if credit_on and op.battery_replacement_years and len(op.state_of_health) > N:
+                eol = op.eol_state_of_health
+                left = min(max((float(op.state_of_health[N]) - eol) / (1.0 - eol), 0.0), 1.0)
+                Y = op.battery_replacement_years[-1]
+                out["battery_remaining_life"] = _Outer(self.eN, -left * self.at(unit_price, Y))
+            return out
+        # cycles: the battery is replaced at its end of life, when the lives it has used
+        # (full equivalent cycles on the discharged energy over the cycle life, plus
+        # calendar fade over the state of health it may lose; tco.battery) pass a whole
+        # number. Operations without a discharge figure count their net throughput.
         life = self.q(i, "battery_cycle_life")
-        per_year = self.q(i, "battery_energy") / cap
+        thru = "battery_discharge_energy" if op.battery_discharge_energy > 0 \
+            else "battery_energy"
+        per_year = self.q(i, thru) / cap
         with np.errstate(invalid="ignore", divide="ignore"):
-            lives_per_year = np.where(np.isfinite(life), per_year / life, 0.0)
+            lives_per_year = np.where(np.isfinite(life), per_year / life, 0.0) + p(
+                f"operations[{i}].calendar_fade") / (1.0 - p(
+                    f"operations[{i}].eol_state_of_health"))
         m = int(np.prod(np.broadcast_shapes(np.shape(lives_per_year), unit_price.shape[1:])))
         repl = np.empty((N + 1, m))
         done = np.empty(m)  # replacements in the period
@@ -1301,12 +1352,12 @@ class _Context:
                               np.ascontiguousarray(unit_price, dtype=float), repl, done,
                               credit)
         out = {"battery_replacement": repl}
-        if not done.any() and np.isfinite(op.battery_cycle_life) and op.battery_energy > 0:
-            years = op.battery_cycle_life * op.battery_capacity / float(
-                np.max(self.q(i, "battery_energy")))
+        if not done.any() and np.max(lives_per_year) > 0:
+            years = 1.0 / float(np.max(lives_per_year))
             self.assumptions.append(
-                f"{t.name}: the battery reaches its cycle life after about {years:.1f} years, "
-                f"after the {N}-year period: no replacement counted")
+                f"{t.name}: the battery reaches its end of life (cycles and calendar ageing) "
+                f"after about {years:.1f} years, after the {N}-year period: no replacement "
+                "counted")
         if credit_on:
             out["battery_remaining_life"] = _Outer(self.eN, -credit)
         return out

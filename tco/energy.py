@@ -200,6 +200,7 @@ def simulate(truck, scenario, trip: pd.DataFrame) -> TruckResult:
     if is_e:
         op_fields = _electric_day(truck, scenario, tot, n_trips, summary, feas, warnings, ele)
         per_trip = {k: v / n_trips for k, v in op_fields["day"].items()}
+        aged = _ageing(truck, scenario, tot, n_trips, trips, op_fields, feas, warnings)
         op = AnnualOperation(
             truck=truck.name, powertrain="electric", operating_days=annual_days,
             trips=trips, extra_trips=x_trips, distance=trips * trip_distance,
@@ -213,6 +214,10 @@ def simulate(truck, scenario, trip: pd.DataFrame) -> TruckResult:
             battery_capacity=truck.electric.battery_capacity,
             battery_cycle_life=truck.electric.cycle_life,
             payload_per_trip=car_pd / trip_distance if trip_distance > 0 else 0.0,
+            battery_discharge_energy=trips * tot["electric_battery_energy_out"] / n_trips,
+            calendar_fade=truck.electric.calendar_fade,
+            eol_state_of_health=truck.electric.eol_state_of_health,
+            **aged,
         )
     else:
         fuel_trip = tot["diesel_fuel_volume"] / n_trips
@@ -480,4 +485,93 @@ def _electric_day(truck, scenario, tot, n_trips, summary, feas, warnings, ele) -
                 "time_lost": verdicts["new"]["driver_time_lost"]},
         "depot_power": power,
         "profile": profile if profile.sum() > 0 else np.full(24, 1 / 24),
+    }
+
+
+def _ageing(truck, scenario, tot, n_trips, trips, op_fields, feas, warnings) -> dict:
+    """State of health year by year and its consequences (:mod:`tco.battery`): the first
+    year the day no longer fits the battery, and the en-route charging, driver time and
+    depot energy of each year (or the replacements of the ``range`` rule)."""
+    from tco import battery
+
+    e = truck.electric
+    N = scenario.finance.analysis_years
+    new = feas["battery"]["new"]
+    b = truck.costs.battery_replacement
+    fec = trips * tot["electric_battery_energy_out"] / n_trips / e.battery_capacity
+    lam = battery.lives_per_year(fec, e.cycle_life, e.eol_state_of_health, e.calendar_fade)
+    ag = battery.age(N, lam, e.eol_state_of_health, new["needed"], new["available"],
+                     e.enroute.power, e.enroute.efficiency, e.enroute.overhead,
+                     policy=b.when, policy_year=b.year)
+    days = trips / n_trips  # operating days, extra trips included [1/yr]
+    net_day = op_fields["day"]["battery"]
+    depot_day = np.array([float(electric.grid_energy(max(net_day - x, 0.0),
+                                                     e.charging_efficiency))
+                          for x in ag.enroute_energy])
+    start_year = scenario.study.start_year
+    info = {
+        "lives_per_year": ag.lives_per_year, "full_equivalent_cycles_per_year": fec,
+        "state_of_health_end": ag.soh_end.tolist(), "state_of_health_low": ag.soh_low.tolist(),
+        "short_months": ag.short_months.tolist(),
+        "enroute_energy_per_day": ag.enroute_energy.tolist(),
+        "enroute_time_per_day": ag.enroute_time.tolist(),
+        "replacements": ag.replacements, "first_short_year": ag.first_short_year,
+        "feasible": ag.feasible, "rule": b.when,
+    }
+    fy = ag.first_short_year
+    if fy is None and b.when == "range" and ag.replacements:
+        first = ag.replacements[0] + 1
+        info["text"] = (f"The day would no longer fit the battery in year {first} "
+                        f"({start_year + first - 1}); by the replacement rule 'range' the "
+                        f"battery is replaced at the end of year "
+                        f"{', '.join(map(str, ag.replacements))}, so no en-route charging is "
+                        "needed.")
+        info["first_short_year_without_replacement"] = first
+    elif fy is None:
+        info["text"] = (f"The battery's state of health stays above what the day needs for "
+                        f"all {N} years (lowest {ag.soh_low.min():.0%}"
+                        + (f"; replaced at the end of year {', '.join(map(str, ag.replacements))}"
+                           if ag.replacements else "") + ").")
+    else:
+        cal = f"year {fy} ({start_year + fy - 1})"
+        if e.enroute.power > 0:
+            info["text"] = (
+                f"From {cal} the day no longer fits the battery (state of health "
+                f"{ag.soh_low[fy - 1]:.0%} at its lowest that year): from then on it needs "
+                f"en-route charging, costed as public charging and driver time in each year "
+                f"it is short (up to {ag.enroute_energy.max() / J_PER_KWH:.0f} kWh and "
+                f"{ag.enroute_time.max() / 60:.0f} min a day on average over a year).")
+        else:
+            info["text"] = (
+                f"From {cal} the day no longer fits the battery (state of health "
+                f"{ag.soh_low[fy - 1]:.0%} at its lowest that year) and no en-route charging "
+                f"is given: the job cannot be done as planned from then on; replace the "
+                f"battery earlier ([trucks.costs.battery_replacement] when = \"range\") or "
+                f"give en-route charging.")
+        if ag.replacements:
+            info["text"] += (f" The battery is replaced at the end of year "
+                             f"{', '.join(map(str, ag.replacements))}.")
+        warnings.append(f"{truck.name}: {info['text']}")
+    if fy is None and info.get("first_short_year_without_replacement"):
+        first = info["first_short_year_without_replacement"]
+        info["verdict"] = (f"its battery is replaced at the end of year "
+                           f"{', '.join(map(str, ag.replacements))}, before the day would no "
+                           f"longer fit it in year {first} ({start_year + first - 1})")
+    elif fy is None:
+        info["verdict"] = f"its battery does the day in all {N} years"
+    elif e.enroute.power > 0:
+        info["verdict"] = (f"from year {fy} ({start_year + fy - 1}) its aged battery needs "
+                           "en-route charging, costed at the public price plus driver time")
+    else:
+        info["verdict"] = (f"from year {fy} ({start_year + fy - 1}) the day no longer fits "
+                           "its aged battery and no en-route charging is given")
+    info["calendar_year"] = None if fy is None else start_year + fy - 1
+    feas["battery_by_year"] = info
+    enroute_grid = ag.enroute_energy / e.enroute.efficiency
+    return {
+        "state_of_health": ag.soh_end,
+        "public_energy_by_year": days * enroute_grid,
+        "enroute_time_by_year": days * ag.enroute_time,
+        "depot_energy_by_year": days * depot_day,
+        "battery_replacement_years": tuple(ag.replacements) if b.when == "range" else (),
     }

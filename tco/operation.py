@@ -61,6 +61,23 @@ class AnnualOperation:
         Share of the depot's chargers, grid connection, charger maintenance and fixed fee
         borne by this truck, set by a shared-depot schedule (:mod:`tco.depot`); None
         splits them equally among the trucks the depot serves. [-]
+    battery_discharge_energy : float
+        Energy discharged from the battery per year, regeneration not netted (the
+        throughput that wears it). [J/yr]
+    calendar_fade : float
+        Battery state of health lost per year with time alone. [1/yr]
+    eol_state_of_health : float
+        Battery state of health at its end of life. [-]
+    state_of_health : numpy.ndarray
+        Battery state of health at the end of years 0..N (before a replacement at that
+        year's end); empty for a diesel truck or an operation made without ageing. [-]
+    public_energy_by_year, enroute_time_by_year, depot_energy_by_year : numpy.ndarray
+        Public (en-route) electricity at the meter, driver time at en-route chargers and
+        depot electricity at the meter in each year 1..N, as the battery ages (:mod:`tco.battery`);
+        empty: every year as the first. [J/yr], [s/yr], [J/yr]
+    battery_replacement_years : tuple of int
+        Years at whose end the battery is replaced because the day would no longer fit
+        (replacement rule ``range``). [-]
     depot_peak_contribution : float or None
         This truck's mean power in the depot's peak demand interval, set by a
         shared-depot schedule; the demand charge is billed on it. None: the scenario's
@@ -88,6 +105,14 @@ class AnnualOperation:
     payload_per_trip: float = 0.0
     depot_cost_share: float | None = None
     depot_peak_contribution: float | None = None
+    battery_discharge_energy: float = 0.0
+    calendar_fade: float = 0.0
+    eol_state_of_health: float = 0.8
+    state_of_health: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    public_energy_by_year: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    enroute_time_by_year: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    depot_energy_by_year: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    battery_replacement_years: tuple = ()
 
     @property
     def grid_energy(self) -> float:

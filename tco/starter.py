@@ -95,6 +95,8 @@ powertrain = "electric"
   motor_power = 400        # [kW]
   charging_efficiency = 0.9
   reserve = 0.1            # state of charge kept at the end of the day
+  cycle_life = 3000        # full equivalent cycles (on discharged energy) to end of life
+  calendar_fade = 0.01     # state of health lost per year with time alone
     [trucks.electric.enroute]
     power = 0              # [kW] en-route charging; 0 = none
   [trucks.costs]
@@ -103,6 +105,9 @@ powertrain = "electric"
   maintenance = 0.10
   tyres = 0.03
   insurance_rate = 0.025
+    [trucks.costs.battery_replacement]
+    when = "never"         # never | year | cycles (end of life) | range (day no longer fits)
+    cost_per_kwh = 140     # [currency/kWh]
     [trucks.costs.residual]
     method = "declining_balance"
     rate = 0.18
@@ -126,6 +131,7 @@ public_charging = 0.50         # [currency/kWh]
   electricity = 0.02
 
 [depot]
+charging = "managed"           # managed (smart: steady power to departure) | unmanaged (full power)
 chargers = 1
 charger_power = 150            # [kW]
 hardware_cost = 60000

@@ -121,12 +121,13 @@ SUMMARY_SCHEMA = "tco.uncertainty.summary/1"
 
 #: AnnualOperation quantities moved together by ``energy_use[i]``.
 ENERGY_FIELDS = ("diesel_volume", "def_volume", "battery_energy", "grid_energy_depot",
-                 "grid_energy_public")
+                 "grid_energy_public", "battery_discharge_energy")
 
 #: Units of absolute numbers for parameters that are not scenario fields (yearly
 #: quantities per year; factor-table emission factors).
 EXTRA_UNITS = {
     "distance": "km", "diesel_volume": "L", "def_volume": "L", "battery_energy": "kWh",
+    "battery_discharge_energy": "kWh", "calendar_fade": "", "eol_state_of_health": "",
     "grid_energy_depot": "kWh", "grid_energy_public": "kWh", "charging_time_lost": "h",
     "extra_trips": "", "depot_charging_power": "kW", "trip_duration": "h",
     "battery_capacity": "kWh", "battery_cycle_life": "",

@@ -908,6 +908,64 @@ def test_battery_replacement_capitalised_and_depreciated_for_tax():
     assert sale[8] == pytest.approx(-0.25 * 12_000)
 
 
+# --------------------------------------------------------------------------- aged battery
+def test_aged_battery_costs_by_year_by_hand():
+    """A battery that falls short from year 2 of 3 (tco.battery): public energy 1,000 kWh
+    in year 2 and 2,000 kWh in year 3 at 0.5/kWh growing 10 %/yr, driver time 10 h and
+    20 h at 30/h growing 0 %, and the depot energy down to 95 % and 90 % of the first
+    year's 100,000 kWh at 0.2/kWh (no escalation). By hand, year by year:
+    public 0 | 1,000 × 0.5 × 1.1 = 550 | 2,000 × 0.5 × 1.1² = 1,210;
+    driver 0 | 300 | 600; depot energy 20,000 | 19,000 | 18,000."""
+    op = electric_op(depot_kwh=100_000.0, battery_energy=90_000 * KWH,
+                     public_energy_by_year=np.array([0.0, 1_000.0, 2_000.0]) * KWH,
+                     enroute_time_by_year=np.array([0.0, 10.0, 20.0]) * 3600,
+                     depot_energy_by_year=np.array([1.0, 0.95, 0.9]) * 100_000 * KWH)
+    inputs = two_trucks(finance=Finance(analysis_years=3, discount_rate=0.1,
+                                        driver_cost_per_hour=30),
+                        prices=Prices(diesel=1.6, public_charging=0.5,
+                                      electricity=dict(energy_price=0.2),
+                                      escalation=dict(public_charging=0.1)),
+                        e_op=op)
+    cf = compute(inputs)
+    lines = cf.lines[1]
+    np.testing.assert_allclose(lines["public_charging"], [0, 0, 550, 1210], rtol=1e-12)
+    np.testing.assert_allclose(lines["charging_driver_time"], [0, 0, 300, 600], rtol=1e-12)
+    np.testing.assert_allclose(lines["electricity_energy"], [0, 20_000, 19_000, 18_000],
+                               rtol=1e-12)
+
+
+def test_battery_replaced_for_range_by_hand():
+    """Rule ``range``: the replacement years come from the battery's ageing (here the end
+    of year 2 of 4) at 100 kWh × 150/kWh falling 5 %/yr: 15,000 × 0.95² = 13,537.5 in
+    year 2. The battery in use at the end has state of health 0.9 with end of life at 0.8:
+    half its life left, credited as −0.5 × 13,537.5 = −6,768.75 in year 4."""
+    op = electric_op(battery_capacity=100 * KWH, battery_replacement_years=(2,),
+                     state_of_health=np.array([1.0, 0.95, 0.9, 0.95, 0.9]),
+                     eol_state_of_health=0.8)
+    e = TruckCosts(purchase_price=250_000,
+                   battery_replacement=dict(when="range", cost_per_kwh=150),
+                   escalation=dict(battery=-0.05))
+    cf = compute(two_trucks(finance=Finance(analysis_years=4, discount_rate=0.07),
+                            e_costs=e, e_op=op))
+    np.testing.assert_allclose(cf.lines[1]["battery_replacement"], [0, 0, 13_537.5, 0, 0],
+                               rtol=1e-12)
+    np.testing.assert_allclose(cf.lines[1]["battery_remaining_life"],
+                               [0, 0, 0, 0, -6_768.75], rtol=1e-12)
+
+
+def test_cycles_count_discharge_and_calendar_by_hand():
+    """Rule ``cycles`` with 200,000 kWh discharged a year from a 500 kWh battery of 4,000
+    cycles to 80 %, and 1 %/yr calendar fade: 400/4000 + 0.01/0.2 = 0.15 lives a year, so
+    one replacement in year 7 (0.15 × 7 = 1.05) of 10. Net throughput (here 150,000 kWh:
+    0.075 + 0.05 = 0.125 lives, year 8) is not the wear basis."""
+    op = electric_op(battery_energy=150_000 * KWH, battery_discharge_energy=200_000 * KWH,
+                     calendar_fade=0.01, eol_state_of_health=0.8)
+    e = TruckCosts(purchase_price=250_000,
+                   battery_replacement=dict(when="cycles", cost_per_kwh=100))
+    cf = compute(two_trucks(e_costs=e, e_op=op))
+    repl = cf.lines[1]["battery_replacement"]
+    assert np.flatnonzero(repl).tolist() == [7]
+    assert repl[7] == pytest.approx(500 * 100, rel=1e-12)
 def test_one_price_index_running_costs_and_one_offs():
     """One convention for every flow: an amount of year y is today's price × (1 + e)^y.
     In the real money basis a price with 0 % real escalation is then the same real amount

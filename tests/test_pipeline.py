@@ -131,3 +131,31 @@ def test_managed_charging_needs_a_charger_per_truck():
     assert "needs 3 chargers" in err.value.line()
 
 
+
+
+def test_end_of_life_verdict_is_the_same_everywhere(by_rule):
+    """The battery's end-of-life verdict (the year the day no longer fits) reads the same
+    in summary.json, the report's verdict and feasibility table (HTML and PDF share them)
+    and the workbook's Summary sheet, which used to say "ok" where summary.json did not."""
+    from tco.report.context import _feasibility, _verdict
+    from tco.report.workbook import build_workbook
+
+    r = by_rule["managed"]
+    s = build_summary(r)
+    a = s["trucks"]["Electric tractor"]["feasibility"]["battery_by_year"]
+    assert a["first_short_year"] is not None
+    year = a["first_short_year"]
+    assert a["verdict"].startswith(f"from year {year} ({2027 + year - 1})")
+    assert a["verdict"] in _verdict(r, s)
+    table = {row["truck"]: row for row in _feasibility(r)}
+    assert a["text"] in table["Electric tractor"]["detail"]
+    ws = build_workbook(r, s)["Summary"]
+    rows = {str(row[0].value).strip(): row for row in ws.iter_rows()
+            if row[0].value is not None}
+    status = rows["battery by year"][1].value
+    assert status == f"en-route charging from year {year}"
+    assert a["text"] in rows["battery by year"][2].value
+    # the end-of-life battery needs en-route charging: not "ok" in the workbook either
+    assert s["trucks"]["Electric tractor"]["feasibility"]["battery"]["end_of_life"]["ok"] \
+        is False
+    assert rows["battery (end of life)"][1].value == "en-route charging"

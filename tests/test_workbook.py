@@ -437,7 +437,11 @@ class _Checker:
                 covered = sorted({h for b in tariff.bands for h in b.hours})
                 want = op.grid_energy_depot / 3.6e6 * (1.0 - profile[covered].sum())
             elif what == "battery_lives_per_year":
-                want = op.battery_energy * scale / op.battery_capacity / op.battery_cycle_life
+                # lives used a year (tco.battery): cycles on the discharged energy over the
+                # cycle life, plus calendar fade over the state of health it may lose
+                want = (op.battery_discharge_energy * scale / op.battery_capacity
+                        / op.battery_cycle_life
+                        + op.calendar_fade / (1.0 - op.eol_state_of_health))
             else:
                 raise AssertionError(f"unexpected formula input {name}")
             self.cmp("Inputs", f"C{r}", want, name)

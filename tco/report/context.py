@@ -199,7 +199,12 @@ def _feasible_text(tr) -> str:
     if tr.powertrain != "electric":
         return "it can do the job"
     b = tr.feasibility["battery"]
+    aged = tr.feasibility.get("battery_by_year")
     depot_ok = tr.feasibility["depot_charger"]["ok"]
+    if aged and depot_ok and (b["new"]["ok"] or b["new"]["ok_with_enroute"]):
+        start = ("it can do the day on its new battery" if b["new"]["ok"]
+                 else "it can do the day only with en-route charging")
+        return f"{start}; {aged['verdict']}"
     if b["new"]["ok"] and b["end_of_life"]["ok"] and depot_ok:
         return "it can do the day on its battery, new and at end of life"
     if b["new"]["ok"] and depot_ok:
@@ -216,6 +221,9 @@ def _feasible_short(tr) -> tuple[str, str]:
     b = tr.feasibility["battery"]
     if not tr.feasibility["depot_charger"]["ok"]:
         return "No", "the depot charger cannot refill the battery in the window"
+    aged = tr.feasibility.get("battery_by_year")
+    if b["new"]["ok"] and aged:
+        return "Yes", f"on the new battery; {aged['verdict']}"
     if b["new"]["ok"]:
         eol = ("also at end of life" if b["end_of_life"]["ok"] else
                "at end of life it needs en-route charging" if b["end_of_life"]["ok_with_enroute"]
@@ -290,8 +298,10 @@ def _feasibility(result, u: DisplayUnits | None = None) -> list[dict]:
         texts = [said.get(f["payload"]["text"], f["payload"]["text"]),
                  said.get(f["power"]["text"], f["power"]["text"])]
         if tr.powertrain == "electric":
-            texts += [f["battery"]["new"]["text"], f["battery"]["end_of_life"]["text"],
-                      f["depot_charger"]["text"]]
+            texts += [f["battery"]["new"]["text"], f["battery"]["end_of_life"]["text"]]
+            if f.get("battery_by_year"):
+                texts.append(f["battery_by_year"]["text"])
+            texts.append(f["depot_charger"]["text"])
         rows.append({"truck": name, "verdict": _feasible_text(tr).capitalize(),
                      "detail": " ".join(texts)})
     return rows

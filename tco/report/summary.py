@@ -95,6 +95,7 @@ def _per_year(tr) -> dict:
         "grid_depot_kWh": op.grid_energy_depot / KWH,
         "grid_public_kWh": op.grid_energy_public / KWH,
         "charging_time_lost_h": op.charging_time_lost / 3600,
+        "battery_discharge_kWh": op.battery_discharge_energy / KWH,
         "depot_charging_power_kW": op.depot_charging_power / 1000,
     }
 
@@ -125,12 +126,28 @@ def _feasibility(tr) -> dict:
                     "text": v["text"]}
             for label, v in f["battery"].items()}
         d = f["depot_charger"]
+        a = f.get("battery_by_year")
+        if a:
+            out["battery_by_year"] = {
+                "verdict": a["verdict"], "text": a["text"], "rule": a["rule"],
+                "first_short_year": a["first_short_year"],
+                "first_short_calendar_year": a["calendar_year"],
+                "feasible": a["feasible"], "replacement_years": a["replacements"],
+                "lives_per_year": a["lives_per_year"],
+                "full_equivalent_cycles_per_year": a["full_equivalent_cycles_per_year"],
+                "state_of_health_end": a["state_of_health_end"],
+                "state_of_health_low": a["state_of_health_low"],
+                "short_months": a["short_months"],
+                "enroute_kWh_per_day": [x / KWH for x in a["enroute_energy_per_day"]],
+                "enroute_minutes_per_day": [x / 60 for x in a["enroute_time_per_day"]],
+            }
         out["depot_charger"] = {"ok": d["ok"], "required_kW": d["required_power"] / 1000,
                                 "charger_kW": d["charger_power"] / 1000,
                                 "window_hours": d["window_hours"], "text": d["text"]}
         out["soc_min"] = tr.summary["soc_min"]
         out["soc_end"] = tr.summary["soc_end"]
-    out["feasible"] = bool(out["payload"]["ok"]) and _battery_ok(out)
+    out["feasible"] = bool(out["payload"]["ok"]) and _battery_ok(out) and bool(
+        (out.get("battery_by_year") or {}).get("feasible", True))
     return out
 
 

@@ -593,8 +593,18 @@ class _Book:
                   wbb.ENERGY)
         self._inp(P + "def_L", "Diesel exhaust fluid per year", op.def_volume / _M3_PER_L,
                   "L/yr", model, wbb.ENERGY)
-        self._inp(P + "battery_kwh", "Battery throughput per year",
-                  op.battery_energy / _J_PER_KWH, "kWh/yr", model, wbb.ENERGY)
+        self._inp(P + "battery_kwh", "Battery net throughput per year (discharge less "
+                  "regeneration)", op.battery_energy / _J_PER_KWH, "kWh/yr", model, wbb.ENERGY)
+        if op.battery_capacity > 0:
+            self._inp(P + "battery_discharge_kwh", "Battery energy discharged per year (the "
+                      "wear basis: regeneration not netted)",
+                      op.battery_discharge_energy / _J_PER_KWH, "kWh/yr", model, wbb.ENERGY)
+            self._inp(P + "calendar_fade", "Battery state of health lost per year with time "
+                      "alone", op.calendar_fade, "1/yr",
+                      src(f"trucks[{i}].electric.calendar_fade"), _RATE)
+            self._inp(P + "eol_soh", "Battery state of health at end of life",
+                      op.eol_state_of_health, "-",
+                      src(f"trucks[{i}].electric.eol_state_of_health"), _RATE)
         self._inp(P + "depot_kwh", "Depot electricity at the meter per year",
                   op.grid_energy_depot / _J_PER_KWH, "kWh/yr", model, wbb.ENERGY)
         self._band_inputs(i)
@@ -602,6 +612,25 @@ class _Book:
                   op.grid_energy_public / _J_PER_KWH, "kWh/yr", model, wbb.ENERGY)
         self._inp(P + "charging_time_h", "Driver time at en-route chargers per year",
                   op.charging_time_lost / _S_PER_H, "h/yr", model, "0.00")
+        if self._aged(i):
+            years = range(1, self.N + 1)
+            aged_src = ("model: battery state of health year by year (tco.battery), scaled "
+                        "by the truck's scale below")
+            self._range(P + "public_kwh_by_year", [f"Public charging electricity, year {y}"
+                                                   for y in years],
+                        op.public_energy_by_year / _J_PER_KWH, "kWh/yr", aged_src, wbb.ENERGY)
+            self._range(P + "charging_h_by_year", [f"Driver time at en-route chargers, year "
+                                                   f"{y}" for y in years],
+                        op.enroute_time_by_year / _S_PER_H, "h/yr", aged_src, "0.00")
+            base = op.grid_energy_depot if op.grid_energy_depot > 0 else 1.0
+            self._range(P + "depot_share_by_year", [f"Depot electricity as a share of the "
+                                                    f"first year's, year {y}" for y in years],
+                        op.depot_energy_by_year / base if op.grid_energy_depot > 0
+                        else np.ones(self.N), "-", aged_src, _FACTOR)
+        if c.battery_replacement.when == "range" and len(op.state_of_health) > self.N:
+            self._inp(P + "battery_soh_end", "Battery state of health at the end of the "
+                      "period (the battery in use)", float(op.state_of_health[self.N]), "-",
+                      "model: tco.battery", _RATE)
         self._inp(P + "extra_trips", "Extra trips per year (lower payload)", op.extra_trips,
                   "1/yr", model, "0.00")
         self._inp(P + "trip_duration_h", "Duration of one trip (not scaled)",
@@ -623,12 +652,15 @@ class _Book:
         else:
             self._derived(P + "scale", "Scale of the yearly cost quantities: days per year ÷ "
                           "modelled days", f"days_per_year/{P}operating_days", "-", _FACTOR)
-        if (c.battery_replacement.when == "cycles" and op.battery_capacity > 0
-                and math.isfinite(op.battery_cycle_life)):
+        if c.battery_replacement.when == "cycles" and op.battery_capacity > 0:
+            thru = "battery_discharge_kwh" if op.battery_discharge_energy > 0 \
+                else "battery_kwh"
+            cyc = (f"{P}{thru}*{P}scale/{P}battery_capacity_kwh/{P}battery_cycle_life+"
+                   if math.isfinite(op.battery_cycle_life) else "")
             self._derived(P + "battery_lives_per_year", "Battery lives used per year: "
-                          "throughput ÷ capacity ÷ cycle life",
-                          f"{P}battery_kwh*{P}scale/{P}battery_capacity_kwh/"
-                          f"{P}battery_cycle_life", "1/yr", _FACTOR)
+                          "discharged energy ÷ capacity ÷ cycle life + calendar fade ÷ "
+                          "(1 − end-of-life state of health)",
+                          f"{cyc}{P}calendar_fade/(1-{P}eol_soh)", "1/yr", _FACTOR)
 
     def _band_inputs(self, i: int) -> None:
         """Depot energy by time-of-use band: shares from the charging profile, and kWh."""
@@ -780,6 +812,11 @@ class _Book:
         return (f"IF(({age})<1,1,INDEX({P}residual_shares,MIN({age},"
                 f"COUNT({P}residual_shares))))")
 
+    def _aged(self, i: int) -> bool:
+        """Truck i carries yearly en-route energy, time and depot share as its battery
+        ages (the cash-flow model's ``_Context.aged``)."""
+        return len(self.ops[i].public_energy_by_year) == self.N
+
     def _unit_price(self, i: int, yexpr: str) -> str:
         P = self.pre(i)
         return (f"({P}battery_cost+{P}battery_cost_per_kwh*{P}battery_capacity_kwh)"
@@ -854,7 +891,8 @@ class _Book:
             return self._run(f"{P}def_L*{S}*def_price", "esc_def", y), True
         if line == "electricity_energy":
             bands = "+".join(f"{kwh}*{price}" for kwh, price in self.bands_of[i])
-            return self._run(f"({bands})*{S}", "esc_electricity", y), True
+            aged = f"*INDEX({P}depot_share_by_year,{y})" if self._aged(i) else ""
+            return self._run(f"({bands})*{S}{aged}", "esc_electricity", y), True
         if line == "electricity_demand":
             peak = f"{P}depot_peak_kw*{srv}"
             cap = "depot_chargers*depot_charger_power_kw"
@@ -863,14 +901,16 @@ class _Book:
         if line == "electricity_fixed":
             return self._run(f"12*fixed_fee/{srv}", "esc_electricity", y), True
         if line == "public_charging":
-            return self._run(f"{P}public_kwh*{S}*public_charging_price",
+            kwh = f"INDEX({P}public_kwh_by_year,{y})" if self._aged(i) else f"{P}public_kwh"
+            return self._run(f"{kwh}*{S}*public_charging_price",
                              "esc_public_charging", y), True
         if line in ("maintenance", "tyres", "tolls"):
             return self._run(f"{P}distance_km*{S}*{P}{line}_per_km", f"{P}esc_{line}", y), True
         if line == "registration":
             return self._run(f"{P}registration", f"{P}esc_registration", y), True
         if line == "charging_driver_time":
-            return self._run(f"{P}charging_time_h*{S}*driver_cost_per_hour",
+            h = f"INDEX({P}charging_h_by_year,{y})" if self._aged(i) else f"{P}charging_time_h"
+            return self._run(f"{h}*{S}*driver_cost_per_hour",
                              "driver_cost_escalation", y), True
         if line == "extra_trips_driver_time":
             return self._run(f"{P}extra_trips*{S}*{P}trip_duration_h*driver_cost_per_hour",
@@ -900,7 +940,16 @@ class _Book:
                 return f"IF({y}={P}battery_year,{self._unit_price(i, y)},0)"
             return (f"IF({y}={N},-MAX(0,1-({N}-{P}battery_year)/{P}battery_year)"
                     f"*{self._unit_price(i, P + 'battery_year')},0)")
-        if not math.isfinite(self.ops[i].battery_cycle_life):
+        if b.when == "range":
+            years = self.ops[i].battery_replacement_years
+            if not years:
+                return "0"
+            if line == "battery_replacement":
+                hit = "OR(" + ",".join(f"{y}={Y}" for Y in years) + ")"
+                return f"IF({hit},{self._unit_price(i, y)},0)"
+            left = f"MIN(MAX(({P}battery_soh_end-{P}eol_soh)/(1-{P}eol_soh),0),1)"
+            return f"IF({y}={N},-{left}*{self._unit_price(i, str(years[-1]))},0)"
+        if f"{P}battery_lives_per_year" not in self.wb.defined_names:
             return "0"  # no cycle limit: the model counts no replacement
         L = f"{P}battery_lives_per_year"
         if line == "battery_replacement":
@@ -1866,15 +1915,25 @@ class _Book:
                 if isinstance(f.get(key), dict) and f[key].get("text"):
                     texts.append((key, f[key].get("ok"), f[key]["text"]))
             for label, v in (f.get("battery") or {}).items():
-                texts.append((f"battery ({label.replace('_', ' ')})", v.get("ok_with_enroute"),
-                              v.get("text")))
+                status = ("ok" if v.get("ok") else "en-route charging"
+                          if v.get("ok_with_enroute") else "not feasible")
+                texts.append((f"battery ({label.replace('_', ' ')})", status, v.get("text")))
+            a = f.get("battery_by_year")
+            if a:  # the same end-of-life verdict as the report and summary.json
+                status = ("ok" if a.get("first_short_year") is None else
+                          f"en-route charging from year {a['first_short_year']}"
+                          if a.get("feasible") else
+                          f"not feasible from year {a['first_short_year']}")
+                texts.append(("battery by year", status,
+                              f"{a['verdict'][0].upper()}{a['verdict'][1:]}. {a['text']}"))
             safe_text(ws.cell(row=row, column=1), name).font = _BOLD
             safe_text(ws.cell(row=row, column=2),
                       "feasible" if f.get("feasible", True) else "not feasible")
             row += 1
             for key, ok, text in texts:
                 safe_text(ws.cell(row=row, column=1), f"  {key}")
-                safe_text(ws.cell(row=row, column=2), "ok" if ok else "check")
+                safe_text(ws.cell(row=row, column=2),
+                          ok if isinstance(ok, str) else "ok" if ok else "check")
                 self._wrapped(row, 3, 4 + len(self.trucks), text)
                 row += 1
         return row

@@ -359,14 +359,19 @@ class Financing(Section):
 class BatteryReplacement(Section):
     """Traction battery replacement (electric trucks).
 
-    ``when = "year"`` replaces it once, at the end of ``year``; ``"cycles"`` replaces it
-    whenever its full equivalent cycles (yearly battery throughput ÷ capacity, summed over
-    the years) reach the battery's cycle life. The price is ``cost + cost_per_kwh ×
-    capacity``, escalated by the truck's battery escalation.
+    ``when = "year"`` replaces it once, at the end of ``year``; ``"cycles"`` replaces it at
+    its end of life: whenever the battery lives it has used (full equivalent cycles on the
+    discharged energy over the cycle life, plus calendar fade over the state of health it
+    may lose, :mod:`tco.battery`) pass a whole number; ``"range"`` replaces it at the end of
+    the year before the first year in which the day would no longer fit it. In any year in
+    which the day does not fit the battery in use, the shortfall is charged en route (public
+    price and driver time), or the job cannot be done as planned. The price is ``cost +
+    cost_per_kwh × capacity``, escalated by the truck's battery escalation.
     """
 
-    when: Literal["never", "year", "cycles"] = mfield("never", "", "never, year or cycles",
-                                                      ASSUMPTION)
+    when: Literal["never", "year", "cycles", "range"] = mfield(
+        "never", "", "never, year, cycles (at end of life) or range (before the day no "
+        "longer fits)", ASSUMPTION)
     year: int | None = mfield(None, "yr", "Year of the replacement (when = year)",
                               "no default: needed when when = 'year'",
                               ge=1, le=100)

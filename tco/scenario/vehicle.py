@@ -195,8 +195,16 @@ class Electric(Section):
         "common practice: 70–80 % for traction batteries"
     )
     cycle_life: Qty("", gt=0, le=1_000_000) = qfield(
-        3000.0, "", "Full equivalent cycles until the end-of-life state of health", ASSUMPTION,
+        3000.0, "", "Full equivalent cycles until the end-of-life state of health (cycles "
+        "counted on the energy discharged, regeneration not netted)", ASSUMPTION,
         usual=(300, 20000)
+    )
+    calendar_fade: Qty("", ge=0, le=0.5) = qfield(
+        0.01, "", "State of health lost per year with time alone (calendar ageing; '1 %' "
+        "accepted), on top of the wear of cycling",
+        "from memory: lithium-ion traction cells at moderate temperature and mid state of "
+        "charge lose roughly 1-2 % of capacity a year; a linear rule (measured fade slows "
+        "with time)"
     )
     enroute: EnRoute = Field(default_factory=EnRoute, description="En-route charging")
 
