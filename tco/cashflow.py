@@ -70,8 +70,10 @@ it carries less per trip are already in ``AnnualOperation.distance`` and in its 
 their energy, maintenance, tyres and tolls are in those lines. The only cost they add
 beyond distance is the driver's time, shown alone as ``extra_trips_driver_time`` =
 extra_trips × trip_duration × driver cost. The driver's regular hours are not a cost line
-for any truck (the same job needs them either way); time lost at en-route chargers is
-(``charging_driver_time``).
+for any truck (the same job needs them either way) unless ``finance.driver_wages`` is on:
+then ``driver_wages`` = every trip's duty time (trips × trip_duration, extra trips
+included, so ``extra_trips_driver_time`` is not shown) × driver cost, for a full operating
+cost per km. Time lost at en-route chargers is always a line (``charging_driver_time``).
 
 References
 ----------
@@ -166,6 +168,8 @@ LINES: tuple[LineSpec, ...] = (
     LineSpec("insurance", "Insurance", "running", True),
     LineSpec("registration", "Registration and road taxes", "running", True),
     LineSpec("tolls", "Road tolls", "running", True),
+    LineSpec("driver_wages", "Driver wages for the duty time of every trip (when "
+             "finance.driver_wages is on)", "running", True),
     LineSpec("charging_driver_time", "Driver time lost at en-route chargers", "running", True),
     LineSpec("extra_trips_driver_time", "Driver time of the extra trips caused by lower "
              "payload", "running", True),
@@ -1221,8 +1225,12 @@ class _Context:
             L["charging_driver_time"] = _Outer(driver * aged["time"], aged["factor"] * wage)
         else:
             L["charging_driver_time"] = _Outer(driver, self.q(i, "charging_time_lost") * wage)
-        L["extra_trips_driver_time"] = _Outer(
-            driver, self.q(i, "extra_trips") * self.q(i, "trip_duration") * wage)
+        if inputs.finance.driver_wages:  # every trip's duty time, the extra ones included
+            trips = (op.trips - op.extra_trips) * self.scale(i) + self.q(i, "extra_trips")
+            L["driver_wages"] = _Outer(driver, trips * self.q(i, "trip_duration") * wage)
+        else:
+            L["extra_trips_driver_time"] = _Outer(
+                driver, self.q(i, "extra_trips") * self.q(i, "trip_duration") * wage)
 
         # battery -------------------------------------------------------------------------
         battery = self._battery(i, t, c, op)

@@ -6,6 +6,7 @@ The data flows one way; writers in :mod:`tco.report` only render the Result.
 from __future__ import annotations
 
 import dataclasses
+import math
 import time
 from datetime import datetime, timezone
 
@@ -128,7 +129,7 @@ def depot_schedule(loaded: LoadedScenario, ops: list, rule: str | None = None):
     try:
         return depot_model.scenario_schedule(loaded.scenario.depot, ops, rule)
     except ValueError as exc:
-        raise InputError(str(exc), file=loaded.path, where="depot.chargers") from None
+        raise InputError(str(exc), file=loaded.shown, where="depot.chargers") from None
 
 
 def depot_summary(loaded: LoadedScenario, sd, ops: list, cf) -> dict | None:
@@ -207,6 +208,152 @@ def depot_summary(loaded: LoadedScenario, sd, ops: list, cf) -> dict | None:
     return out
 
 
+def _depot_variant(loaded: LoadedScenario, ops_u: list, **update) -> dict[str, float]:
+    """Present value of each truck with the depot changed (charger power, rule, trucks
+    served): the depot is scheduled again and the cash flows computed (the same chain as
+    :func:`evaluate`). [currency]"""
+    from tco import cashflow
+
+    s = loaded.scenario
+    dep = s.depot.model_copy(update=update)
+    sd = depot_model.scenario_schedule(dep, ops_u)
+    ops = depot_model.with_schedule(ops_u, sd)
+    cf = cashflow.compute(cost_inputs(s.model_copy(update={"depot": dep}), ops),
+                          totals_only=True)
+    return {t.name: float(cf.present_value(i)) for i, t in enumerate(s.trucks)}
+
+
+def depot_sensitivity(loaded: LoadedScenario, sd, ops: list, cf, swing: float
+                      ) -> tuple[list[dict], list[dict]]:
+    """Tornado bars and break-even values of the depot's charger power, charging rule and
+    trucks served: structural inputs, so each value is scheduled and costed again.
+
+    Ranges: charger power ± the default swing; the rule managed ↔ unmanaged; trucks served
+    from ⌊n(1 − swing)⌋ (at least 1) to ⌈n(1 + swing)⌉ (at least n + 1), the chargers
+    scaled with them. Break-even: the charger power at which the cost difference is zero
+    (searched from 1 kW to 10 × the charger; Brent's method on a sign change of a grid),
+    the fewest trucks sharing the depot that make it zero or better (1..100), and whether
+    the other rule changes the sign.
+
+    Returns
+    -------
+    bars, break_evens : list of dict
+        Rows in the columns of :func:`tco.uncertainty.tornado` and
+        :func:`tco.uncertainty.break_even_table`.
+    """
+    from scipy.optimize import brentq
+
+    if sd is None:
+        return [], []
+    s = loaded.scenario
+    dep = s.depot
+    ops_u = _unscheduled(ops)
+    names = [t.name for t in s.trucks]
+    ref = cf.baseline
+    compared = [n for n in names if n != ref]
+    base_pv = {m.name: m.present_value for m in cf.trucks}
+    base = {n: base_pv[n] - base_pv[ref] for n in compared}
+
+    def diff(**update):
+        pv = _depot_variant(loaded, ops_u, **update)
+        return {n: pv[n] - pv[ref] for n in compared}
+
+    bars, bes = [], []
+    n0 = len(sd.members)
+    power = sd.schedule.charger_power
+    rule = dep.charging
+    other = depot_model.CHARGING_OF_RULE[depot_model.other_rule(rule)]
+    n_lo, n_hi = max(1, math.floor(n0 * (1 - swing))), max(n0 + 1, math.ceil(n0 * (1 + swing)))
+
+    def served(n):
+        chargers = max(1, math.ceil(dep.chargers * n / n0)) if dep.chargers else 0
+        return {"trucks_served": n, "chargers": chargers}
+
+    variants = []
+    if dep.chargers > 0 and dep.charger_power > 0:
+        variants.append(("depot.charger_power", "Depot charger power", "kW", power / 1e3,
+                         power * (1 - swing) / 1e3, power * (1 + swing) / 1e3,
+                         {"charger_power": power * (1 - swing)},
+                         {"charger_power": power * (1 + swing)}, f"default ±{swing:.0%}"))
+    managed, unmanaged = ({"charging": "managed"}, {"charging": "unmanaged"})
+    variants.append(("depot.charging", f"Depot charging rule (low: managed, high: unmanaged; "
+                     f"scenario: {rule})", "", math.nan, math.nan, math.nan, managed,
+                     unmanaged, "the two rules"))
+    variants.append(("depot.trucks_served", "Trucks sharing the depot", "", float(n0),
+                     float(n_lo), float(n_hi), served(n_lo), served(n_hi),
+                     f"default ±{swing:.0%}, whole trucks"))
+    for key, label, unit, b, lo, hi, up_lo, up_hi, source in variants:
+        try:
+            d_lo, d_hi = diff(**up_lo), diff(**up_hi)
+        except (InputError, ValueError):
+            continue
+        for n in compared:
+            bars.append({"truck": n, "key": key, "input": label, "unit": unit,
+                         "base_value": b, "low_value": lo, "high_value": hi,
+                         "low_factor": lo / b if b else math.nan,
+                         "high_factor": hi / b if b else math.nan,
+                         "low": d_lo[n], "high": d_hi[n], "base": base[n],
+                         "swing": abs(d_hi[n] - d_lo[n]), "source": source})
+
+    def be_row(n, key, label, unit, value, base_value, note):
+        return {"truck": n, "key": key, "input": label, "unit": unit, "value": value,
+                "base_value": base_value,
+                "factor": value / base_value if base_value and value == value else math.nan,
+                "value_si": value, "note": note}
+
+    for n in compared:
+        # charger power
+        if dep.chargers > 0 and dep.charger_power > 0:
+            grid = np.geomspace(1e3, 10 * power, 17)
+            vals = [diff(charger_power=float(x))[n] for x in grid]
+            found, note = math.nan, "none in range (1 kW to 10 × the charger)"
+            for a, b_, fa, fb in zip(grid[:-1], grid[1:], vals[:-1], vals[1:]):
+                if fa == 0 or fa * fb < 0:
+                    found = a if fa == 0 else brentq(
+                        lambda x: diff(charger_power=float(x))[n], a, b_, xtol=1.0)
+                    note = ""
+                    break
+            bes.append(be_row(n, "depot.charger_power", "Depot charger power", "kW",
+                              found / 1e3, power / 1e3, note))
+        # trucks sharing the depot
+        found, note = math.nan, "none from 1 to 100 trucks"
+        sign = np.sign(base[n])
+        for k in range(1, 101):
+            try:
+                v = diff(**served(k))[n]
+            except (InputError, ValueError):
+                continue
+            if np.sign(v) != sign or v == 0:
+                found, note = float(k), ("the fewest trucks sharing the depot at which the "
+                                         "sign of the cost difference changes")
+                break
+        bes.append(be_row(n, "depot.trucks_served", "Trucks sharing the depot", "", found,
+                          float(n0), note))
+        # the rule
+        try:
+            alt = diff(charging=other)[n]
+            note = (f"the sign changes with {other} charging ({alt:,.0f})"
+                    if np.sign(alt) != np.sign(base[n]) else
+                    f"no break-even: the same sign with {other} charging ({alt:,.0f})")
+        except (InputError, ValueError):
+            note = f"{other} charging cannot run with the chargers given"
+        bes.append(be_row(n, "depot.charging", "Depot charging rule", "", math.nan, math.nan,
+                          note))
+    return bars, bes
+
+
+def _with_rows(df: pd.DataFrame, rows: list[dict], sort: bool = False, order=()):
+    """A table with rows added (widest swing first within each truck when sorting)."""
+    if not rows:
+        return df
+    out = pd.concat([df, pd.DataFrame(rows, columns=df.columns)], ignore_index=True)
+    if sort:
+        pos = {n: j for j, n in enumerate(order)}
+        out = out.assign(_t=out.truck.map(pos)).sort_values(
+            ["_t", "swing"], ascending=[True, False], kind="stable").drop(columns="_t")
+    return out.reset_index(drop=True)
+
+
 def _unscheduled(ops: list) -> list:
     """Operations as the energy model made them (no depot schedule applied)."""
     return [dataclasses.replace(op, depot_peak_contribution=None, depot_cost_share=None)
@@ -261,6 +408,12 @@ def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
     inputs = cost_inputs(s, ops)
     cf = timed("cash flows and metrics", cashflow.evaluate, inputs)
     depot_info = timed("depot under the other rule", depot_summary, loaded, sd, ops, cf)
+    unset = s.unset_escalations()
+    if unset:
+        cf.assumptions.append(
+            f"Nominal money: the {len(unset)} price escalations left unset follow general "
+            f"inflation, {s.finance.inflation * 100:.1f} % a year (0 % above inflation): "
+            + ", ".join(unset))
     pv = {m.name: m.present_value for m in cf.trucks}
     ref = cf.baseline
     diff = {name: v - pv[ref] for name, v in pv.items() if name != ref}
@@ -278,6 +431,11 @@ def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
                                        progress=advance)
         except InputError as exc:
             raise exc.located(file=loaded.shown) from None
+        if unc is not None and sd is not None:
+            bars, bes = depot_sensitivity(loaded, sd, ops, cf, s.uncertainty.default_swing)
+            unc.tornado = _with_rows(unc.tornado, bars, sort=True,
+                                     order=[t.name for t in s.trucks])
+            unc.break_even = _with_rows(unc.break_even, bes)
         timings["uncertainty"] = time.perf_counter() - t0
 
     warnings = unusual_values(s)

@@ -153,6 +153,10 @@ _LABELS = {
     "prices.public_charging": "Public charging price",
     "route.days_per_year": "Annual distance (operating days)",
     "finance.discount_rate": "Discount rate",
+    "emissions.diesel_co2": "Diesel CO2 factor, tank-to-wheel",
+    "emissions.diesel_upstream": "Diesel upstream factor, well-to-tank",
+    "emissions.grid_intensity": "Grid intensity, first year",
+    "emissions.grid_change": "Grid intensity change per year",
 }
 _TRUCK_LABELS = {
     "costs.purchase_price": "Purchase price", "costs.grant": "Grant",
@@ -543,43 +547,13 @@ def tornado(case: Case, settings: UncertaintySettings
         the user).
     notes : list of str
     """
-    s = settings.default_swing
-    bars: list[tuple[Input, float, float, str, str]] = []
-    user_keys = {t.input for t in settings.tornado}
-    if settings.default_inputs:
-        for inp in default_inputs(case):
-            if inp.key in user_keys:
-                continue
-            lo, hi = (1 - s, 1 + s) if inp.group else ((1 - s) * inp.base, (1 + s) * inp.base)
-            if inp.residual is not None:
-                hi = min(hi, inp.max_factor)
-            bars.append((inp, lo, hi, f"default ±{s:.0%}", "uncertainty.default_swing"))
-    for k, t in enumerate(settings.tornado):
-        where = f"uncertainty.tornado[{k}]"
-        inp = resolve_input(case, t.input, f"{where}.input")
-        v = _input_values(inp, {"low": t.low, "high": t.high}, t.scale, t.unit, where)
-        if v["low"] > v["high"]:
-            raise InputError(f"low ({t.low}) is above high ({t.high})", where=where)
-        bars.append((inp, v["low"], v["high"], "user", where))
+    bars = tornado_bars(case, settings)
     notes: list[str] = []
     if not bars:
         return _empty_tornado(), [], ["no tornado inputs"]
-    rows = []
-    for end in (1, 2):  # every bar's low end, then every bar's high end: one draw row each
-        for bar in bars:
-            try:
-                rows.append(bar[0].overrides(bar[end]))
-            except InputError as exc:
-                raise exc.located(where=bar[4]) from None
+    d = _bar_outputs(case, bars, "present_value_difference")
     B = len(bars)
     base = case.base_difference
-    try:
-        d = case.pv_difference(_stack(case, rows))
-    except InputError as exc:
-        where = next((w for inp, *_, w in bars if exc.where in inp.paths), None)
-        raise InputError(f"a tornado value is out of range: {exc.message}",
-                         where=where or exc.where) from None
-    d = {k: np.broadcast_to(v, (2 * B,)) for k, v in d.items()}
     table = []
     for k in case.compared:
         for b, (inp, lo, hi, source, _) in enumerate(bars):
@@ -609,6 +583,148 @@ def tornado(case: Case, settings: UncertaintySettings
     df = df.assign(_t=df.truck.map(order)).sort_values(
         ["_t", "swing"], ascending=[True, False], kind="stable").drop(columns="_t")
     return df.reset_index(drop=True), kept, notes
+
+
+#: The share of a distribution the tornado spans: its P10 to its P90.
+TORNADO_QUANTILES = (0.1, 0.9)
+
+#: Emission inputs the emissions tornado varies by the default swing (when the scenario
+#: gives them a non-zero value and no range of its own).
+_DEFAULT_EMISSIONS = ("emissions.diesel_co2", "emissions.diesel_upstream",
+                      "emissions.grid_intensity", "emissions.grid_change")
+
+
+def distribution_ranges(case: Case, settings: UncertaintySettings) -> dict[str, tuple]:
+    """The tornado range of every input the scenario gives a distribution: its P10 and
+    P90, as input values (SI, or factors for a group), from the same frozen distribution
+    the Monte Carlo draws from. Only distributions the scenario lists count (the default
+    triangular ones span the default swing already)."""
+    if not settings.distributions:
+        return {}
+    unc, _, _ = resolve_distributions(case, settings)
+    lo_q, hi_q = TORNADO_QUANTILES
+    return {u.input.key: (float(u.values(np.asarray(u.dist.ppf(lo_q)))),
+                          float(u.values(np.asarray(u.dist.ppf(hi_q)))), u.where)
+            for u in unc}
+
+
+def tornado_bars(case: Case, settings: UncertaintySettings, emission_inputs: bool = False
+                 ) -> list[tuple[Input, float, float, str, str]]:
+    """The tornado's inputs and ranges: ``(input, low, high, source, where)``.
+
+    An input's range is, in order: the scenario's own tornado entry (``user``); the P10–P90
+    of its distribution in ``[[uncertainty.distributions]]`` (the Monte Carlo's, so the
+    two never disagree); else the default swing around its value. ``emission_inputs`` adds
+    the emission factors (for the emissions tornado).
+    """
+    s = settings.default_swing
+    bars: list[tuple[Input, float, float, str, str]] = []
+    user_keys = {t.input for t in settings.tornado}
+    ranges = distribution_ranges(case, settings)
+    lo_q, hi_q = TORNADO_QUANTILES
+    from_dist = f"P{lo_q * 100:.0f}–P{hi_q * 100:.0f} of its distribution"
+    inputs = default_inputs(case) if settings.default_inputs else []
+    seen = {inp.key for inp in inputs}
+    for key in ranges:  # inputs with a distribution that are not standard ones
+        if key not in seen and key not in user_keys:
+            inputs.append(resolve_input(case, key))
+            seen.add(key)
+    if emission_inputs:
+        for key in _DEFAULT_EMISSIONS:
+            if key in seen or not case.known(key):
+                continue
+            inp = resolve_input(case, key)
+            if math.isfinite(inp.base) and inp.base != 0:
+                inputs.append(inp)
+                seen.add(key)
+    for inp in inputs:
+        if inp.key in user_keys:
+            continue
+        if inp.key in ranges:
+            lo, hi, where = ranges[inp.key]
+            bars.append((inp, lo, hi, from_dist, where))
+            continue
+        lo, hi = (1 - s, 1 + s) if inp.group else ((1 - s) * inp.base, (1 + s) * inp.base)
+        if inp.residual is not None:
+            hi = min(hi, inp.max_factor)
+        lo, hi = min(lo, hi), max(lo, hi)  # a negative value (a falling grid) stays ordered
+        bars.append((inp, lo, hi, f"default ±{s:.0%}", "uncertainty.default_swing"))
+    for k, t in enumerate(settings.tornado):
+        where = f"uncertainty.tornado[{k}]"
+        inp = resolve_input(case, t.input, f"{where}.input")
+        v = _input_values(inp, {"low": t.low, "high": t.high}, t.scale, t.unit, where)
+        if v["low"] > v["high"]:
+            raise InputError(f"low ({t.low}) is above high ({t.high})", where=where)
+        bars.append((inp, v["low"], v["high"], "user", where))
+    return bars
+
+
+def _bar_outputs(case: Case, bars, output: str) -> dict[int, np.ndarray]:
+    """One output at every bar's low end, then every bar's high end (one draw row each):
+    ``present_value_difference`` through the cost model alone, or ``avoided_kg_location``
+    through both models. [currency] or [kg CO2e]"""
+    rows = []
+    for end in (1, 2):
+        for bar in bars:
+            try:
+                rows.append(bar[0].overrides(bar[end]))
+            except InputError as exc:
+                raise exc.located(where=bar[4]) from None
+    try:
+        if output == "present_value_difference":
+            d = case.pv_difference(_stack(case, rows))
+        else:
+            d = {k: r[output] for k, r in run_draws(case, _stack(case, rows)).items()}
+    except InputError as exc:
+        where = next((w for inp, *_, w in bars if exc.where in inp.paths), None)
+        raise InputError(f"a tornado value is out of range: {exc.message}",
+                         where=where or exc.where) from None
+    return {k: np.broadcast_to(v, (2 * len(bars),)) for k, v in d.items()}
+
+
+def emissions_tornado(case: Case, settings: UncertaintySettings) -> pd.DataFrame:
+    """One-at-a-time sensitivity of the emissions avoided (well-to-wheel, location-based,
+    over the period), with the same inputs and ranges as :func:`tornado` plus the emission
+    factors; inputs that do not move the emissions are left out.
+
+    Returns
+    -------
+    pandas.DataFrame
+        The columns of :func:`tornado`, with ``low``, ``high``, ``base`` and ``swing`` in
+        tonnes CO2e avoided [t]. Empty without emissions settings.
+    """
+    if case.emissions_settings is None:
+        return _empty_tornado()
+    bars = tornado_bars(case, settings, emission_inputs=True)
+    if not bars:
+        return _empty_tornado()
+    d = _bar_outputs(case, bars, "avoided_kg_location")
+    base = {k: float(r["avoided_kg_location"][0]) / 1000
+            for k, r in run_draws(case, {}).items()}
+    B = len(bars)
+    table = []
+    for k in case.compared:
+        for b, (inp, lo, hi, source, _) in enumerate(bars):
+            low, high = float(d[k][b]) / 1000, float(d[k][B + b]) / 1000
+            single = not inp.group
+            table.append({
+                "truck": case.names[k], "key": inp.key, "input": inp.label, "unit": inp.unit,
+                "base_value": _to_unit(inp.base, inp.unit) if single else 1.0,
+                "low_value": _to_unit(lo, inp.unit), "high_value": _to_unit(hi, inp.unit),
+                "low_factor": lo / inp.base if single and inp.base else
+                (math.nan if single else lo),
+                "high_factor": hi / inp.base if single and inp.base else
+                (math.nan if single else hi),
+                "low": low, "high": high, "base": base[k], "swing": abs(high - low),
+                "source": source,
+            })
+    df = pd.DataFrame(table, columns=_TORNADO_COLUMNS)
+    scale = max(1.0, df["base"].abs().max())
+    df = df[df.groupby("key", sort=False)["swing"].transform("max") > 1e-9 * scale]
+    order = {n: j for j, n in enumerate(case.names)}
+    df = df.assign(_t=df.truck.map(order)).sort_values(
+        ["_t", "swing"], ascending=[True, False], kind="stable").drop(columns="_t")
+    return df.reset_index(drop=True)
 
 
 _TORNADO_COLUMNS = ["truck", "key", "input", "unit", "base_value", "low_value", "high_value",
@@ -1127,6 +1243,8 @@ class UncertaintyResult:
         ``truck`` and those of :data:`OUTPUTS`.
     tornado : pandas.DataFrame
         See :func:`tornado`.
+    tornado_emissions : pandas.DataFrame
+        See :func:`emissions_tornado` (tonnes CO2e avoided).
     break_even : pandas.DataFrame
         See :func:`break_even_table`.
     inputs : pandas.DataFrame
@@ -1173,6 +1291,7 @@ class UncertaintyResult:
     default_swing: float
     notes: list[str] = field(default_factory=list)
     timings: dict[str, float] = field(default_factory=dict)
+    tornado_emissions: pd.DataFrame = field(default_factory=lambda: _empty_tornado())
 
 
 def evaluate(settings: UncertaintySettings, cost_inputs: cashflow.CostInputs,
@@ -1221,6 +1340,7 @@ def evaluate(settings: UncertaintySettings, cost_inputs: cashflow.CostInputs,
     timings: dict[str, float] = {}
     case = Case(cost_inputs, emissions_settings, years)
     tor, tor_inputs, notes = tornado(case, settings)
+    tor_em = emissions_tornado(case, settings)
     timings["tornado"] = time.perf_counter() - t0
     t = time.perf_counter()
     be = break_even_table(case, tor_inputs, tor) if break_evens else \
@@ -1263,7 +1383,7 @@ def evaluate(settings: UncertaintySettings, cost_inputs: cashflow.CostInputs,
                                                       "achieved_rank"]),
         samples=samples, statistics=statistics, probabilities=probabilities, draws=n,
         seed=settings.seed, default_swing=settings.default_swing, notes=notes,
-        timings=timings)
+        timings=timings, tornado_emissions=tor_em)
 
 
 def _inputs_table(inputs: Sequence[Uncertain], values: dict) -> pd.DataFrame:

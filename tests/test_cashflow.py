@@ -966,6 +966,27 @@ def test_cycles_count_discharge_and_calendar_by_hand():
     repl = cf.lines[1]["battery_replacement"]
     assert np.flatnonzero(repl).tolist() == [7]
     assert repl[7] == pytest.approx(500 * 100, rel=1e-12)
+
+
+def test_driver_wages_line_by_hand():
+    """finance.driver_wages on: every trip's duty time is paid. 500 planned trips plus 20
+    extra a year, 4 h each (loading included), at 30/h growing 2 %/yr:
+    520 × 4 × 30 = 62,400 in year 1 and 62,400 × 1.02 = 63,648 in year 2. The extra trips
+    are inside it, so their own driver-time line is not shown. Off (the default): only the
+    extra trips' 20 × 4 × 30 = 2,400 a year."""
+    op = electric_op(trips=520, extra_trips=20, trip_duration=4 * 3600)
+    fin_on = Finance(analysis_years=2, discount_rate=0.07, driver_cost_per_hour=30,
+                     driver_cost_escalation=0.02, driver_wages=True)
+    cf = compute(two_trucks(finance=fin_on, e_op=op))
+    np.testing.assert_allclose(cf.lines[1]["driver_wages"], [0, 62_400, 63_648], rtol=1e-12)
+    assert "extra_trips_driver_time" not in cf.lines[1] or \
+        not np.any(cf.lines[1]["extra_trips_driver_time"])
+    fin_off = Finance(analysis_years=2, discount_rate=0.07, driver_cost_per_hour=30,
+                      driver_cost_escalation=0.0)
+    cf = compute(two_trucks(finance=fin_off, e_op=op))
+    np.testing.assert_allclose(cf.lines[1]["extra_trips_driver_time"], [0, 2_400, 2_400],
+                               rtol=1e-12)
+    assert "driver_wages" not in cf.lines[1] or not np.any(cf.lines[1]["driver_wages"])
 def test_one_price_index_running_costs_and_one_offs():
     """One convention for every flow: an amount of year y is today's price × (1 + e)^y.
     In the real money basis a price with 0 % real escalation is then the same real amount

@@ -1,9 +1,11 @@
 """The whole chain on the demo: the depot charging rule, shared with ``tco fleet``."""
 from __future__ import annotations
 
+import math
 import re
 import tomllib
 
+import numpy as np
 import pytest
 
 from tco.fleet import evaluate_fleet, read_fleet
@@ -159,3 +161,128 @@ def test_end_of_life_verdict_is_the_same_everywhere(by_rule):
     assert s["trucks"]["Electric tractor"]["feasibility"]["battery"]["end_of_life"]["ok"] \
         is False
     assert rows["battery (end of life)"][1].value == "en-route charging"
+
+
+def test_the_verdict_says_whether_driver_wages_are_in(by_rule):
+    from tco.report.context import _verdict
+
+    off = by_rule["managed"]
+    s = build_summary(off)
+    assert s["cost_covers"]["driver_wages"] is False
+    assert "Driver wages are not included" in _verdict(off, s)
+    # the escalations the demo leaves unset follow inflation, and the assumptions say so
+    assert "trucks[0].costs.escalation.maintenance" in \
+        s["cost_covers"]["escalations_following_inflation"]
+    assert any("follow general inflation, 2.0 % a year" in a
+               for a in s["cashflow"]["assumptions"])
+
+    text = demo_path().read_text(encoding="utf-8").replace(
+        "enabled = true", "enabled = false").replace(
+        "driver_cost_per_hour = 38", "driver_cost_per_hour = 38\ndriver_wages = true")
+    raw = tomllib.loads(text)
+    on = evaluate(LoadedScenario(parse_scenario(raw, demo_path()), demo_path(), raw, "t"))
+    s_on = build_summary(on)
+    assert s_on["cost_covers"]["driver_wages"] is True
+    assert "Driver wages are included (38.00 EUR an hour" in _verdict(on, s_on)
+    # year 1 wages of the diesel: 500 trips × its trip duration × 38 EUR/h
+    op = on.trucks["Diesel tractor"].operation
+    year1 = on.cashflow.table.query("truck == 'Diesel tractor' and line == 'driver_wages' "
+                                    "and year == 1")["amount"].iloc[0]
+    assert year1 == pytest.approx(op.trips * op.trip_duration / 3600 * 38, rel=1e-12)
+
+
+@pytest.fixture(scope="module")
+def demo_unc():
+    text = demo_path().read_text(encoding="utf-8").replace("draws = 10000", "draws = 4000")
+    raw = tomllib.loads(text)
+    return evaluate(LoadedScenario(parse_scenario(raw, demo_path()), demo_path(), raw, "t"))
+
+
+def test_tornado_spans_the_p10_p90_of_the_scenario_distribution(demo_unc):
+    """The demo's diesel price is triangular(1.20, 1.48, 1.95) EUR/L. Its P10 and P90 by
+    the triangular quantile function (hand calculation; F(mode) = 0.28/0.75 = 0.373):
+    P10 = 1.20 + √(0.1 × 0.75 × 0.28) = 1.344914, P90 = 1.95 − √(0.1 × 0.75 × 0.47) =
+    1.762250; scipy.stats.triang gives the same (reference library)."""
+    from scipy import stats
+
+    t = demo_unc.uncertainty.tornado
+    bar = t[(t.truck == "Electric tractor") & (t.key == "prices.diesel")].iloc[0]
+    p10 = 1.20 + math.sqrt(0.1 * 0.75 * 0.28)
+    p90 = 1.95 - math.sqrt(0.1 * 0.75 * 0.47)
+    assert bar.low_value == pytest.approx(p10, rel=1e-9)
+    assert bar.high_value == pytest.approx(p90, rel=1e-9)
+    ref = stats.triang(0.28 / 0.75, loc=1.20, scale=0.75).ppf([0.1, 0.9])
+    assert [bar.low_value, bar.high_value] == pytest.approx(list(ref), rel=1e-9)
+    assert bar.source == "P10–P90 of its distribution"
+    # an input without a distribution keeps the default ±20 %
+    pp = t[(t.truck == "Electric tractor") & (t.key == "trucks[1].costs.purchase_price")]
+    assert pp.iloc[0].low_value == pytest.approx(0.8 * 265000)
+    assert pp.iloc[0].source == "default ±20%"
+
+
+def test_tornado_and_monte_carlo_agree_on_every_range(demo_unc):
+    """Every tornado input with a distribution spans the P10–P90 of the Monte Carlo's own
+    draws of it (4,000 draws: the sample quantiles are within a few per cent)."""
+    unc = demo_unc.uncertainty
+    t = unc.tornado[unc.tornado.truck == "Electric tractor"]
+    draws = unc.samples[unc.samples.truck == "Electric tractor"]
+    checked = 0
+    for bar in t[t.source == "P10–P90 of its distribution"].itertuples():
+        x = draws[bar.key].to_numpy()
+        if bar.unit not in ("×", ""):  # draws are SI; bars in the documented unit
+            from tco.units import from_si
+            x = np.asarray(from_si(x, bar.unit))
+        lo, hi = np.quantile(x, [0.1, 0.9])
+        width = bar.high_value - bar.low_value
+        assert abs(lo - bar.low_value) < 0.05 * width, bar.key
+        assert abs(hi - bar.high_value) < 0.05 * width, bar.key
+        checked += 1
+    assert checked == 6  # every distribution of the demo
+
+
+def test_depot_inputs_in_the_tornado_and_break_even(demo_unc):
+    unc = demo_unc.uncertainty
+    keys = set(unc.tornado[unc.tornado.truck == "Electric tractor"].key)
+    assert {"depot.charger_power", "depot.charging", "depot.trucks_served",
+            "prices.electricity.demand_charge"} <= keys
+    be = set(unc.break_even[unc.break_even.truck == "Electric tractor"].key)
+    assert {"depot.charger_power", "depot.charging", "depot.trucks_served",
+            "prices.electricity.demand_charge"} <= be
+    # the rule's bar ends are the cost difference under each rule (the verdict's figures)
+    rule = unc.tornado[(unc.tornado.key == "depot.charging")].iloc[0]
+    d = demo_unc.depot["trucks"]["Electric tractor"]
+    assert rule.low == pytest.approx(d["difference"], rel=1e-9)        # managed: the demo's
+    assert rule.high == pytest.approx(d["other_difference"], rel=1e-9)  # unmanaged
+    s = build_summary(demo_unc)["uncertainty"]
+    assert any(b["key"] == "depot.charging" for b in s["tornado"]["Electric tractor"])
+
+
+def test_emissions_tornado_by_hand(demo_unc):
+    """Raising the diesel tank-to-wheel CO2 factor by 20 % raises the tonnes the electric
+    tractor avoids by 20 % of the diesel's tank-to-wheel CO2: 0.2 × 2.67 kg/L × the litres
+    it burns over the 10 years (hand calculation; the factor is the demo's set)."""
+    unc = demo_unc.uncertainty
+    te = unc.tornado_emissions
+    bar = te[(te.truck == "Electric tractor") & (te.key == "emissions.diesel_co2")].iloc[0]
+    litres = demo_unc.trucks["Diesel tractor"].operation.diesel_volume * 1000 * 10
+    factor = bar.base_value  # kg/L as documented
+    assert bar.high - bar.base == pytest.approx(0.2 * factor * litres / 1000, rel=1e-9)
+    assert bar.base - bar.low == pytest.approx(0.2 * factor * litres / 1000, rel=1e-9)
+    # a cost-only input does not move the emissions and is left out
+    assert "trucks[1].costs.purchase_price" not in set(te.key)
+    s = build_summary(demo_unc)["uncertainty"]["tornado_emissions"]["Electric tractor"]
+    assert {b["key"] for b in s} == set(te[te.truck == "Electric tractor"].key)
+
+
+def test_workbook_and_report_show_the_emissions_tornado(demo_unc):
+    from tco.report.context import _uncertainty_tables
+    from tco.report.workbook import build_workbook
+
+    s = build_summary(demo_unc)
+    ws = build_workbook(demo_unc, s)["Sensitivity"]
+    texts = [str(c.value) for row in ws.iter_rows() for c in row if c.value is not None]
+    assert any(t.startswith("Emissions avoided: Electric tractor") for t in texts)
+    assert "Diesel CO2 factor, tank-to-wheel" in texts
+    assert "P10–P90 of its distribution" in texts
+    titles = [t["title"] for t in _uncertainty_tables(demo_unc, "EUR")]
+    assert "Sensitivity of the emissions avoided" in titles

@@ -102,3 +102,26 @@ def test_load_errors(tmp_path):
         load_scenario(missing_trace)
 
 
+
+
+def test_unset_escalations_follow_inflation_in_nominal_money():
+    """In nominal money an escalation left unset is general inflation (0 % real); one the
+    user gives is kept; in real money an unset one is 0 (already above inflation)."""
+    import tomllib
+
+    from tco.resources import demo_path
+    from tco.scenario import parse_scenario
+
+    raw = tomllib.loads(demo_path().read_text(encoding="utf-8"))
+    raw["finance"]["inflation"] = 0.03
+    s = parse_scenario(raw)
+    assert s.trucks[0].costs.escalation.maintenance == 0.03
+    assert s.prices.escalation.equipment == 0.03
+    assert s.finance.driver_cost_escalation == 0.03
+    assert s.prices.escalation.diesel == 0.025          # given in the demo
+    assert "trucks[0].costs.escalation.maintenance" in s.unset_escalations()
+    assert "prices.escalation.diesel" not in s.unset_escalations()
+    raw["finance"]["money_basis"] = "real"
+    s = parse_scenario(raw)
+    assert s.trucks[0].costs.escalation.maintenance == 0.0
+    assert s.unset_escalations() == []

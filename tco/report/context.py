@@ -153,7 +153,8 @@ def _verdict(result, summary: dict) -> str:
                if avoided is not None else "")
             + f"; {_feasible_text(result.trucks[c.truck])}.")
     parts += depot_sentences(result)
-    return " ".join(parts)
+    parts.append(summary.get("cost_covers", {}).get("text") or "")
+    return " ".join(p for p in parts if p)
 
 
 RULE_WORDS = {
@@ -408,6 +409,18 @@ def _uncertainty_charts(result, cur: str) -> list[dict]:
                                    "widest swing on top.",
                         "uri": _later(charts.tornado, rows, float(t["base"].iloc[0]),
                                               xlabel=f"Present value difference [{cur}]")})
+        te = getattr(unc, "tornado_emissions", None)
+        te = te[te["truck"] == truck] if te is not None else []
+        if len(te):
+            out.append({"title": f"What drives the emissions avoided: {truck} against "
+                                 f"{unc.baseline}",
+                        "caption": "Emissions avoided over the period (well-to-wheel, "
+                                   "location-based, t CO2e) with one input at a time at its "
+                                   "low and high value; the same ranges as the cost "
+                                   "sensitivity, plus the emission factors.",
+                        "uri": _later(charts.tornado, te[["input", "low", "high"]],
+                                      float(te["base"].iloc[0]),
+                                      xlabel="Emissions avoided [t CO2e]")})
         draws = unc.samples[unc.samples["truck"] == truck]["present_value_difference"]
         if len(draws):
             out.append({"title": f"How sure is the answer: {truck}",
@@ -417,6 +430,15 @@ def _uncertainty_charts(result, cur: str) -> list[dict]:
                         "uri": _later(charts.distribution, draws.to_numpy(),
                                                    f"Present value difference [{cur}]")})
     return out
+
+
+def _range_text(r, cur: str, system: str) -> str:
+    """The low – high of a tornado row ("managed – unmanaged" for the charging rule)."""
+    key = getattr(r, "key", r.input)
+    if key == "depot.charging":
+        return "managed – unmanaged"
+    return fm.range_text(_tornado_input_value(r.low_value, r.unit, key, cur, system),
+                         _tornado_input_value(r.high_value, r.unit, key, cur, system))
 
 
 def _tornado_input_value(value, unit: str, key: str, cur: str, system: str) -> str:
@@ -441,18 +463,28 @@ def _uncertainty_tables(result, cur: str, system: str = "metric") -> list[dict]:
     unc = result.uncertainty
     tables = []
     t = unc.tornado
-    key = "key" if "key" in t.columns else "input"
     if not t.empty:
-        rows = [[r.input, fm.range_text(
-                    _tornado_input_value(r.low_value, r.unit, getattr(r, key), cur, system),
-                    _tornado_input_value(r.high_value, r.unit, getattr(r, key), cur, system)),
-                 fmt_number(r.low), fmt_number(r.high), fmt_number(r.swing)]
-                for r in t.itertuples()]
+        rows = [[r.input, _range_text(r, cur, system), r.source, fmt_number(r.low),
+                 fmt_number(r.high), fmt_number(r.swing)] for r in t.itertuples()]
         tables.append({"title": "Sensitivity, one input at a time",
-                       "columns": ["Input", "Low – high", f"ΔPV low [{cur}]",
+                       "columns": ["Input", "Low – high", "Range from", f"ΔPV low [{cur}]",
                                    f"ΔPV high [{cur}]", f"Swing [{cur}]"],
                        "rows": rows, "note": "ΔPV: present value of the compared truck minus "
-                       f"the {unc.baseline}; negative means the compared truck is cheaper."})
+                       f"the {unc.baseline}; negative means the compared truck is cheaper. "
+                       "An input with a distribution in the scenario spans its P10–P90 (the "
+                       "Monte Carlo draws from the same distribution); the default swing "
+                       "applies only to inputs without one. Depot inputs are scheduled and "
+                       "costed again at each value."})
+    te = getattr(unc, "tornado_emissions", None)
+    if te is not None and not te.empty:
+        rows = [[f"{r.truck}: {r.input}", _range_text(r, cur, system), r.source,
+                 fmt_number(r.low), fmt_number(r.high), fmt_number(r.swing)]
+                for r in te.itertuples()]
+        tables.append({"title": "Sensitivity of the emissions avoided",
+                       "columns": ["Input", "Low – high", "Range from", "Avoided low [t CO2e]",
+                                   "Avoided high [t CO2e]", "Swing [t CO2e]"],
+                       "rows": rows, "note": "Well-to-wheel, location-based, over the "
+                       f"period, against the {unc.baseline}."})
     st = unc.statistics
     labels = {"present_value_difference": (f"ΔPV [{cur}]", 1.0, 0),
               "levelized_cost_difference": (

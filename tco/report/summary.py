@@ -172,6 +172,32 @@ def _assumptions(result) -> list[dict]:
     return rows
 
 
+def cost_covers(result) -> dict:
+    """What the cost includes (``cost_covers`` key): the driver's wages or not, the driver
+    cost per hour, and the escalations left unset that follow inflation."""
+    f = result.scenario.finance
+    return {
+        "driver_wages": bool(f.driver_wages),
+        "driver_cost_per_hour": f.driver_cost_per_hour * 3600.0,
+        "escalations_following_inflation": result.scenario.unset_escalations(),
+        "inflation": f.inflation,
+        "text": driver_sentence(result),
+    }
+
+
+def driver_sentence(result) -> str:
+    """One sentence: whether the cost includes the driver's wages (the verdict says it)."""
+    f = result.scenario.finance
+    cur = result.scenario.study.currency
+    if f.driver_wages:
+        return (f"Driver wages are included ({f.driver_cost_per_hour * 3600:,.2f} {cur} an "
+                "hour for every trip's duty time and the time at en-route chargers), so the "
+                "cost per km is the full operating cost.")
+    return ("Driver wages are not included (the same job needs a driver either way); only "
+            "driver time that differs between the trucks is counted: en-route charging stops "
+            "and extra trips. Set [finance] driver_wages = true for the full operating cost.")
+
+
 def depot_summary(result) -> dict | None:
     """The depot charging facts the verdict states (``depot`` key; null without depot
     charging). Money in present value, powers in kW."""
@@ -238,6 +264,7 @@ def build_summary(result) -> dict:
         "emissions": emissions_summary(result.emissions),
         "uncertainty": None,
         "depot": depot_summary(result),
+        "cost_covers": cost_covers(result),
         "warnings": result.warnings,
         "assumptions": _assumptions(result),
     }

@@ -344,7 +344,11 @@ def uncertainty_summary(result: UncertaintyResult | None) -> dict | None:
           input, unit, base_value, low_value, high_value, low, high, swing, source}`` —
           values of the input in ``unit`` (its documented unit; ``×`` a factor on the
           scenario's values), ``low``/``high`` the present-value difference with the input
-          at that value [currency], ``swing`` = |high − low| [currency]
+          at that value [currency], ``swing`` = |high − low| [currency]; ``source``
+          says where the range comes from: ``user`` (a tornado entry), ``P10–P90 of its
+          distribution`` (the Monte Carlo's), ``default ±20%``, or a depot setting
+        - ``tornado_emissions`` : the same for the emissions avoided (well-to-wheel,
+          location-based, over the period): ``low``/``high``/``swing`` in t CO2e
         - ``base`` : ``{truck: {present_value_difference [currency],
           levelized_cost_difference_per_km [currency/km], discounted_payback_year (int or
           null: not within the period), avoided_kg_location, avoided_kg_market [kg]}}``
@@ -383,14 +387,19 @@ def uncertainty_summary(result: UncertaintyResult | None) -> dict | None:
             return {k: None if v is None else int(v) for k, v in out.items()}
         return {"mean": _num_un(r["mean"] * factor), "sd": _num_un(r["sd"] * factor), **out}
 
-    tor = {}
-    for t in result.trucks:
-        rows = result.tornado[result.tornado.truck == t]
-        tor[t] = [{"key": r.key, "input": r.input, "unit": r.unit,
-                   "base_value": _num_un(r.base_value), "low_value": _num_un(r.low_value),
-                   "high_value": _num_un(r.high_value), "low": _num_un(r.low), "high": _num_un(r.high),
-                   "swing": _num_un(r.swing), "source": r.source}
-                  for r in rows.itertuples(index=False)]
+    def bars(table):
+        out = {}
+        for t in result.trucks:
+            rows = table[table.truck == t]
+            out[t] = [{"key": r.key, "input": r.input, "unit": r.unit,
+                       "base_value": _num_un(r.base_value), "low_value": _num_un(r.low_value),
+                       "high_value": _num_un(r.high_value), "low": _num_un(r.low),
+                       "high": _num_un(r.high), "swing": _num_un(r.swing), "source": r.source}
+                      for r in rows.itertuples(index=False)]
+        return out
+
+    tor = bars(result.tornado)
+    tor_em = bars(result.tornado_emissions)
     be = {t: [{"key": r.key, "input": r.input, "unit": r.unit, "value": _num_un(r.value),
                "base_value": _num_un(r.base_value), "factor": _num_un(r.factor), "note": r.note}
               for r in result.break_even[result.break_even.truck == t].itertuples(index=False)]
@@ -440,6 +449,7 @@ def uncertainty_summary(result: UncertaintyResult | None) -> dict | None:
         "default_swing": float(result.default_swing),
         "notes": list(result.notes),
         "tornado": tor,
+        "tornado_emissions": tor_em,
         "base": base,
         "break_even": be,
         "inputs": [{"key": r["key"], "input": r["input"], "kind": r["kind"],

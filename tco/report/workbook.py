@@ -912,6 +912,10 @@ class _Book:
             h = f"INDEX({P}charging_h_by_year,{y})" if self._aged(i) else f"{P}charging_time_h"
             return self._run(f"{h}*{S}*driver_cost_per_hour",
                              "driver_cost_escalation", y), True
+        if line == "driver_wages":  # every trip's duty time, the extra ones included
+            return self._run(f"({P}base_trips_per_day*{P}operating_days+{P}extra_trips)*{S}"
+                             f"*{P}trip_duration_h*driver_cost_per_hour",
+                             "driver_cost_escalation", y), True
         if line == "extra_trips_driver_time":
             return self._run(f"{P}extra_trips*{S}*{P}trip_duration_h*driver_cost_per_hour",
                              "driver_cost_escalation", y), True
@@ -2044,6 +2048,31 @@ class _Book:
                         write_value(ws.cell(row=row, column=1 + k), v,
                                     "0.000" if k == 5 else unit_fmt)
                 row += 2
+        for truck, bars in (unc.get("tornado_emissions") or {}).items():
+            if not bars:
+                continue
+            _section(ws, row, f"Emissions avoided: {truck} against {unc.get('baseline')} "
+                     "[t CO2e, well-to-wheel, location-based, over the period]")
+            row += 1
+            head = row
+            wbb.header_row(ws, head, ["Input", "Key", "Unit", "Scenario value", "Low value",
+                                      "High value", "Avoided at low [t CO2e]",
+                                      "Avoided at high [t CO2e]", "Swing [t CO2e]", "Source"])
+            for b in bars:
+                row += 1
+                vals = [b.get("input"), b.get("key"), _unit_text(b.get("unit"), cur),
+                        b.get("base_value"), b.get("low_value"), b.get("high_value"),
+                        b.get("low"), b.get("high"), b.get("swing"), b.get("source")]
+                for k, v in enumerate(vals):
+                    write_value(ws.cell(row=row, column=1 + k), v,
+                                "#,##0.0000" if 3 <= k <= 5 else "#,##0.0")
+            wbb.add_chart(ws, "bar", data_ws=ws, header_row=head, first_row=head + 1,
+                          last_row=row, cat_col=1, first_col=7, last_col=8,
+                          anchor=f"L{head}",
+                          title=f"What moves the emissions avoided: {truck}"[:200],
+                          x_title="Input", y_title="Avoided [t CO2e]",
+                          y_number_format="#,##0", width=22, height=10)
+            row += 3
         for note in unc.get("notes") or []:
             safe_text(ws.cell(row=row, column=1), note)
             row += 1

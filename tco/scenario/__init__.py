@@ -75,6 +75,36 @@ class Scenario(Section):
     uncertainty: UncertaintySettings = Field(default_factory=UncertaintySettings)
 
     @model_validator(mode="after")
+    def _unset_escalations_follow_inflation(self):
+        """In nominal money an escalation left unset is general inflation (0 % real); in
+        real money it stays 0 (already above inflation). Filled values keep their default
+        source (which says so) and are listed by :meth:`unset_escalations`."""
+        if self.finance.money_basis != "nominal":
+            return self
+        rate = self.finance.inflation
+        sections = [(self.finance, ("driver_cost_escalation",)),
+                    (self.prices.escalation, None)]
+        sections += [(t.costs.escalation, None) for t in self.trucks]
+        for sec, names in sections:
+            for name in names or type(sec).model_fields:
+                if name not in sec.model_fields_set:
+                    sec.__dict__[name] = rate  # a default, not the user's: fields_set kept
+        return self
+
+    def unset_escalations(self) -> list[str]:
+        """Escalation fields left unset, which follow inflation in nominal money. [-]"""
+        if self.finance.money_basis != "nominal":
+            return []
+        out = [] if "driver_cost_escalation" in self.finance.model_fields_set \
+            else ["finance.driver_cost_escalation"]
+        secs = [("prices.escalation.", self.prices.escalation)]
+        secs += [(f"trucks[{i}].costs.escalation.", t.costs.escalation)
+                 for i, t in enumerate(self.trucks)]
+        for prefix, sec in secs:
+            out += [prefix + n for n in type(sec).model_fields if n not in sec.model_fields_set]
+        return out
+
+    @model_validator(mode="after")
     def _unique_names(self):
         names = [t.name for t in self.trucks]
         dupes = sorted({n for n in names if names.count(n) > 1})

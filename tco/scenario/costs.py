@@ -36,7 +36,8 @@ IRS_PUB_946_B1 = (
     "over-the-road, GDS recovery period 3 years"
 )
 COMMON_MONTHLY = "common practice: loan instalments are paid monthly"
-NO_ESCALATION = "assumption: no change in price over the period unless you give one"
+NO_ESCALATION = ("assumption: left unset, it follows general inflation (0 % a year above "
+                 "inflation): finance.inflation in nominal money, 0 in real money")
 NO_DEFAULT = "no default: give it when a truck uses it"
 MANAGED_DEFAULT = (
     "assumption: depot chargers sold for fleets schedule their power (load management) as "
@@ -147,8 +148,9 @@ class Finance(Section):
         "nominal", "", "nominal: money of each year; real: money of year 0", ASSUMPTION
     )
     inflation: Rate = qfield(
-        0.02, "", "General inflation per year, used only when money_basis is real (usual "
-        "-2 % to 20 %)", ASSUMPTION, usual=(-0.02, 0.20)
+        0.02, "", "General inflation per year: turns real rates nominal when money_basis is "
+        "real; in nominal money, the escalation of every price whose escalation is left unset "
+        "(usual -2 % to 20 %)", ASSUMPTION, usual=(-0.02, 0.20)
     )
     after_tax: AfterTax = Field(default_factory=AfterTax, description="After-tax view")
     baseline: str | None = mfield(
@@ -170,6 +172,13 @@ class Finance(Section):
         None, "", "Pre-tax borrowing rate per year (nominal) at which a loan or lease is "
         "judged against paying cash; empty: each truck's own loan rate, or the discount rate "
         "for a lease", ASSUMPTION
+    )
+    driver_wages: bool = mfield(
+        False, "", "Count the driver's wages as a cost line: driver_cost_per_hour for the "
+        "duty time of every trip (driving, loading and unloading; extra trips included) on "
+        "top of the time lost at en-route chargers. Off: the driver is left out of the cost "
+        "(the same job needs one either way) and the verdict says so",
+        "assumption: off, so the comparison shows only what differs between the trucks"
     )
 
 
