@@ -478,9 +478,12 @@ def test_full_outputs_index_pdf_and_workbook(tmp_path):
     for r, slug in zip(rows[:2], ("hostile-client", "dollar-client")):
         s = summaries[slug]
         comp = s["cashflow"]["comparisons"][0]
-        assert r["Difference, compared − baseline"] == comp["present_value_difference"]
-        assert r["Present value, compared"] == \
-            s["cashflow"]["trucks"][comp["truck"]]["present_value"]
+        # openpyxl writes a float to 16 significant digits (a 17-digit value comes back
+        # one unit in the last place off), so equal to 1e-15
+        assert r["Difference, compared − baseline"] == pytest.approx(
+            comp["present_value_difference"], rel=1e-15, abs=0)
+        assert r["Present value, compared"] == pytest.approx(
+            s["cashflow"]["trucks"][comp["truck"]]["present_value"], rel=1e-15, abs=0)
         assert r["Currency"] == s["scenario"]["currency"]
     diff_col = header.index("Difference, compared − baseline") + 1
     assert '" USD"' in ws.cell(row=3, column=diff_col).number_format
