@@ -615,7 +615,8 @@ class _Book:
         if self._aged(i):
             years = range(1, self.N + 1)
             aged_src = ("model: battery state of health year by year (tco.battery), scaled "
-                        "by the truck's scale below")
+                        "by the truck's scale below; not live: a change of days or trips per "
+                        "day moves the ageing itself only on a new run of the tool")
             self._range(P + "public_kwh_by_year", [f"Public charging electricity, year {y}"
                                                    for y in years],
                         op.public_energy_by_year / _J_PER_KWH, "kWh/yr", aged_src, wbb.ENERGY)
@@ -1170,10 +1171,18 @@ class _Book:
         b = self._model_comparison(i).get("break_even", {}).get("annual_distance_km", {})
         ref_km = self.ops[self.ref].distance / _M_PER_KM
         k = max(1.0, (b.get("value") or 0.0) / ref_km) if ref_km > 0 else 1.0
+        from tco.battery import lives_per_year
+
         for t in trucks:
             op = self.ops[t]
-            lives = op.battery_energy / op.battery_capacity / op.battery_cycle_life
-            if lives * self.N * k + 1e-9 >= 1:
+            thru = op.battery_discharge_energy if op.battery_discharge_energy > 0 \
+                else op.battery_energy
+            # the distance scales the cycling; calendar fade does not move with it
+            cyc = lives_per_year(thru / op.battery_capacity, op.battery_cycle_life,
+                                 op.eol_state_of_health, 0.0)
+            cal = lives_per_year(0.0, op.battery_cycle_life, op.eol_state_of_health,
+                                 op.calendar_fade)
+            if (cyc * k + cal) * self.N + 1e-9 >= 1:
                 return False
         return True
 
