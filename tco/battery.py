@@ -156,7 +156,7 @@ class Ageing:
 
 def age(years: int, lam: float, eol_soh: float, need, available_new, enroute_power,
         enroute_efficiency, enroute_overhead, policy: str = "never",
-        policy_year: int | None = None) -> Ageing:
+        policy_year: int | None = None, time_of=None) -> Ageing:
     """Year-by-year state of health, the years the day falls short, and what it costs.
 
     The day needs ``need`` from the battery above its reserve; the battery gives
@@ -187,6 +187,11 @@ def age(years: int, lam: float, eol_soh: float, need, available_new, enroute_pow
         ``range``: at the end of the year before the first year the day would fall short.
     policy_year : int, optional
         The year of a ``year`` replacement.
+    time_of : callable, optional
+        ``time_of(deficit, soh)``: driver time [s] a day's en-route charging of ``deficit``
+        [J] costs with the battery at state of health ``soh`` (e.g. with a charging-power
+        curve and breaks, :func:`tco.energy.driver_time_lost`). Default: the flat rule,
+        deficit ÷ (power × efficiency) plus the overhead of one stop.
 
     Returns
     -------
@@ -217,12 +222,15 @@ def age(years: int, lam: float, eol_soh: float, need, available_new, enroute_pow
     by_year = deficit.reshape(years, MONTHS)
     short_months = (by_year > 0).sum(axis=1)
     has_enroute = enroute_power > 0
-    if has_enroute:
+    time = np.zeros_like(by_year)
+    if has_enroute and time_of is None:
         charge = np.asarray(enroute_charging_time(by_year.ravel(), enroute_power,
                                                   enroute_efficiency)).reshape(by_year.shape)
         time = np.where(by_year > 0, charge + enroute_overhead, 0.0)
-    else:
-        time = np.zeros_like(by_year)
+    elif has_enroute:
+        flat_soh = soh.reshape(years, MONTHS)
+        for y, m in zip(*np.nonzero(by_year > 0)):
+            time[y, m] = time_of(float(by_year[y, m]), float(flat_soh[y, m]))
     first = int(np.argmax(short_months > 0)) + 1 if short_months.any() else None
     ends = np.arange(years + 1, dtype=float)
     soh_end = state_of_health(ends - 1e-9, lam, eol_soh, fitted)

@@ -200,7 +200,7 @@ def simulate(truck, scenario, trip: pd.DataFrame) -> TruckResult:
     if is_e:
         op_fields = _electric_day(truck, scenario, tot, n_trips, summary, feas, warnings, ele)
         per_trip = {k: v / n_trips for k, v in op_fields["day"].items()}
-        aged = _ageing(truck, scenario, tot, n_trips, trips, op_fields, feas, warnings)
+        aged = _ageing(truck, scenario, tot, n_trips, trips, op_fields, feas, warnings, summary)
         op = AnnualOperation(
             truck=truck.name, powertrain="electric", operating_days=annual_days,
             trips=trips, extra_trips=x_trips, distance=trips * trip_distance,
@@ -488,7 +488,8 @@ def _electric_day(truck, scenario, tot, n_trips, summary, feas, warnings, ele) -
     }
 
 
-def _ageing(truck, scenario, tot, n_trips, trips, op_fields, feas, warnings) -> dict:
+def _ageing(truck, scenario, tot, n_trips, trips, op_fields, feas, warnings, summary
+            ) -> dict:
     """State of health year by year and its consequences (:mod:`tco.battery`): the first
     year the day no longer fits the battery, and the en-route charging, driver time and
     depot energy of each year (or the replacements of the ``range`` rule)."""
@@ -500,9 +501,16 @@ def _ageing(truck, scenario, tot, n_trips, trips, op_fields, feas, warnings) -> 
     b = truck.costs.battery_replacement
     fec = trips * tot["electric_battery_energy_out"] / n_trips / e.battery_capacity
     lam = battery.lives_per_year(fec, e.cycle_life, e.eol_state_of_health, e.calendar_fade)
+    usable_new = new["usable_capacity"]
+    driving = summary["day_driving_time"]
+
+    def time_of(deficit, soh):  # the day's en-route charging as the new-battery case does
+        charge, stops = enroute_time(e, usable_new * soh, deficit)
+        return driver_time_lost(e, charge, stops, driving)
+
     ag = battery.age(N, lam, e.eol_state_of_health, new["needed"], new["available"],
                      e.enroute.power, e.enroute.efficiency, e.enroute.overhead,
-                     policy=b.when, policy_year=b.year)
+                     policy=b.when, policy_year=b.year, time_of=time_of)
     days = trips / n_trips  # operating days, extra trips included [1/yr]
     net_day = op_fields["day"]["battery"]
     depot_day = np.array([float(electric.grid_energy(max(net_day - x, 0.0),

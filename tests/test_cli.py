@@ -38,7 +38,7 @@ def test_run_demo_json_only(capsys, tmp_path):
     code, out, err = run(capsys, "run", "--out", str(tmp_path), "--json-only", "--quiet")
     assert code == 0, err
     summary = json.loads((tmp_path / "demo" / "summary.json").read_text())
-    assert summary["schema_version"] == "1.2"  # docs/summary-schema.md
+    assert summary["schema_version"] == "1.3"  # docs/summary-schema.md
     assert set(summary["trucks"]) == {"Diesel tractor", "Electric tractor"}
     assert summary["cashflow"]["comparisons"][0]["truck"] == "Electric tractor"
     assert not [p for p in tmp_path.rglob("*.part")]

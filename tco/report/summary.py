@@ -15,7 +15,7 @@ import numpy as np
 from tco import __version__
 from tco.units import from_si, mpg_us
 
-SCHEMA_VERSION = "1.2"
+SCHEMA_VERSION = "1.3"
 KWH = 3.6e6
 _L = 1e-3
 
