@@ -911,10 +911,11 @@ def test_battery_replacement_capitalised_and_depreciated_for_tax():
 # --------------------------------------------------------------------------- aged battery
 def test_aged_battery_costs_by_year_by_hand():
     """A battery that falls short from year 2 of 3 (tco.battery): public energy 1,000 kWh
-    in year 2 and 2,000 kWh in year 3 at 0.5/kWh growing 10 %/yr, driver time 10 h and
-    20 h at 30/h growing 0 %, and the depot energy down to 95 % and 90 % of the first
-    year's 100,000 kWh at 0.2/kWh (no escalation). By hand, year by year:
-    public 0 | 1,000 × 0.5 × 1.1 = 550 | 2,000 × 0.5 × 1.1² = 1,210;
+    in year 2 and 2,000 kWh in year 3 at 0.5/kWh growing 10 %/yr (a year-y amount at
+    today's price × 1.1^y), driver time 10 h and 20 h at 30/h growing 0 %, and the depot
+    energy down to 95 % and 90 % of the first year's 100,000 kWh at 0.2/kWh (no
+    escalation). By hand, year by year:
+    public 0 | 1,000 × 0.5 × 1.1² = 605 | 2,000 × 0.5 × 1.1³ = 1,331;
     driver 0 | 300 | 600; depot energy 20,000 | 19,000 | 18,000."""
     op = electric_op(depot_kwh=100_000.0, battery_energy=90_000 * KWH,
                      public_energy_by_year=np.array([0.0, 1_000.0, 2_000.0]) * KWH,
@@ -928,7 +929,7 @@ def test_aged_battery_costs_by_year_by_hand():
                         e_op=op)
     cf = compute(inputs)
     lines = cf.lines[1]
-    np.testing.assert_allclose(lines["public_charging"], [0, 0, 550, 1210], rtol=1e-12)
+    np.testing.assert_allclose(lines["public_charging"], [0, 0, 605, 1331], rtol=1e-12)
     np.testing.assert_allclose(lines["charging_driver_time"], [0, 0, 300, 600], rtol=1e-12)
     np.testing.assert_allclose(lines["electricity_energy"], [0, 20_000, 19_000, 18_000],
                                rtol=1e-12)
@@ -970,15 +971,17 @@ def test_cycles_count_discharge_and_calendar_by_hand():
 
 def test_driver_wages_line_by_hand():
     """finance.driver_wages on: every trip's duty time is paid. 500 planned trips plus 20
-    extra a year, 4 h each (loading included), at 30/h growing 2 %/yr:
-    520 × 4 × 30 = 62,400 in year 1 and 62,400 × 1.02 = 63,648 in year 2. The extra trips
+    extra a year, 4 h each (loading included), at 30/h growing 2 %/yr (year y at today's
+    rate × 1.02^y): 520 × 4 × 30 × 1.02 = 63,648 in year 1 and 62,400 × 1.02² = 64,920.96 in
+    year 2. The extra trips
     are inside it, so their own driver-time line is not shown. Off (the default): only the
     extra trips' 20 × 4 × 30 = 2,400 a year."""
     op = electric_op(trips=520, extra_trips=20, trip_duration=4 * 3600)
     fin_on = Finance(analysis_years=2, discount_rate=0.07, driver_cost_per_hour=30,
                      driver_cost_escalation=0.02, driver_wages=True)
     cf = compute(two_trucks(finance=fin_on, e_op=op))
-    np.testing.assert_allclose(cf.lines[1]["driver_wages"], [0, 62_400, 63_648], rtol=1e-12)
+    np.testing.assert_allclose(cf.lines[1]["driver_wages"], [0, 63_648, 64_920.96],
+                               rtol=1e-12)
     assert "extra_trips_driver_time" not in cf.lines[1] or \
         not np.any(cf.lines[1]["extra_trips_driver_time"])
     fin_off = Finance(analysis_years=2, discount_rate=0.07, driver_cost_per_hour=30,

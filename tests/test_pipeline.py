@@ -63,19 +63,20 @@ def test_one_truck_equals_a_one_vehicle_fleet(tmp_path, by_rule, rule):
 def test_managed_demand_charge_by_hand(by_rule):
     """Managed charging of one truck: it draws its nightly depot energy evenly over the
     21:00-05:00 window (8 h), so the monthly peak is E/8 h and the demand charge is
-    12 × 11.5 EUR/kW-month × peak in year 1, growing 1.5 %/yr with electricity, each year
-    discounted at 7 % (hand calculation of the tariff's definition)."""
+    12 × 11.5 EUR/kW-month × peak a year at today's price, growing 1.5 %/yr with
+    electricity (year y at × 1.015^y), each year discounted at 7 % (hand calculation of the
+    tariff's definition)."""
     r = by_rule["managed"]
     op = r.trucks["Electric tractor"].operation
     per_day = op.grid_energy_depot / op.operating_days
     peak_kw = per_day / (8 * 3600) / 1000
     yearly = 12 * 11.5 * peak_kw
-    pv = sum(yearly * 1.015 ** (y - 1) / 1.07 ** y for y in range(1, 11))
+    pv = sum(yearly * 1.015 ** y / 1.07 ** y for y in range(1, 11))
     d = r.depot["trucks"]["Electric tractor"]
     assert d["peak_contribution"] / 1000 == pytest.approx(peak_kw, rel=1e-9)
     assert d["demand_charge"] == pytest.approx(pv, rel=1e-9)
     # unmanaged: the same truck at the charger's full 150 kW
-    full = sum(12 * 11.5 * 150 * 1.015 ** (y - 1) / 1.07 ** y for y in range(1, 11))
+    full = sum(12 * 11.5 * 150 * 1.015 ** y / 1.07 ** y for y in range(1, 11))
     assert d["other_demand_charge"] == pytest.approx(full, rel=1e-9)
     assert by_rule["unmanaged"].depot["trucks"]["Electric tractor"]["demand_charge"] == \
         pytest.approx(full, rel=1e-9)
@@ -184,11 +185,12 @@ def test_the_verdict_says_whether_driver_wages_are_in(by_rule):
     s_on = build_summary(on)
     assert s_on["cost_covers"]["driver_wages"] is True
     assert "Driver wages are included (38.00 EUR an hour" in _verdict(on, s_on)
-    # year 1 wages of the diesel: 500 trips × its trip duration × 38 EUR/h
+    # year 1 wages of the diesel: 500 trips × its trip duration × 38 EUR/h, grown one year
+    # at the 2 % inflation its unset escalation follows
     op = on.trucks["Diesel tractor"].operation
     year1 = on.cashflow.table.query("truck == 'Diesel tractor' and line == 'driver_wages' "
                                     "and year == 1")["amount"].iloc[0]
-    assert year1 == pytest.approx(op.trips * op.trip_duration / 3600 * 38, rel=1e-12)
+    assert year1 == pytest.approx(op.trips * op.trip_duration / 3600 * 38 * 1.02, rel=1e-12)
 
 
 @pytest.fixture(scope="module")
