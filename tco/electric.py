@@ -173,6 +173,120 @@ def auxiliary_power(temperature, base, heating_per_K, cooling_per_K, comfort_low
     return restore(p)
 
 
+#: Pack specific energy used to estimate a battery's mass when none is given. [J/kg]
+#: From memory: heavy-truck packs hold roughly 130–170 Wh/kg at pack level.
+PACK_SPECIFIC_ENERGY = 150.0 * 3600.0
+#: Specific heat of a lithium-ion pack. [J/(kg·K)] From memory: cells measure about
+#: 0.9–1.1 kJ/(kg·K).
+PACK_SPECIFIC_HEAT = 1000.0
+#: Temperature at which the cold regeneration share is reached. [K] (−20 °C)
+REGEN_COLD_AT = 253.15
+
+
+def battery_heating_power(temperature, heat_below, loss_per_K):
+    """Power that keeps a battery pack warm while operating in the cold.
+
+    .. math:: P = UA \\max(0, T_{min} - T)
+
+    the pack's heat loss at its lowest working temperature, made up by its heater.
+
+    Parameters
+    ----------
+    temperature : float, array or Series
+        Ambient temperature. [K]
+    heat_below : float
+        Pack temperature the thermal management keeps, and below which it heats. [K]
+    loss_per_K : float
+        Heat-loss conductance of the pack to the air, UA. [W/K]
+
+    Returns
+    -------
+    float, array or Series
+        Heating power. [W]
+
+    Examples
+    --------
+    >>> float(battery_heating_power(258.15, 283.15, 50.0))   # −15 °C, kept at 10 °C
+    1250.0
+    """
+    (t,), restore = _inputs(temperature)
+    _check_nonnegative("loss_per_K", loss_per_K)
+    return restore(float(loss_per_K) * np.maximum(0.0, float(heat_below) - t))
+
+
+def preconditioning_energy(temperature, heat_below, pack_mass,
+                           specific_heat=PACK_SPECIFIC_HEAT):
+    """Energy to warm a cold-soaked pack to its working temperature before the day.
+
+    .. math:: E = m\\, c_p \\max(0, T_{min} - T)
+
+    drawn from the grid while the truck is plugged in at the depot (a resistive heater:
+    heat = electricity).
+
+    Parameters
+    ----------
+    temperature : float, array or Series
+        Ambient temperature (the pack is taken as cold-soaked to it). [K]
+    heat_below : float
+        Working temperature the pack is warmed to. [K]
+    pack_mass : float
+        Battery pack mass. [kg]
+    specific_heat : float
+        Specific heat of the pack. [J/(kg·K)]
+
+    Returns
+    -------
+    float, array or Series
+        Energy. [J]
+
+    Examples
+    --------
+    >>> float(preconditioning_energy(258.15, 283.15, 4000.0)) / 3.6e6   # 4 t, 25 K
+    27.77777777777778
+    """
+    (t,), restore = _inputs(temperature)
+    _check_nonnegative("pack_mass", pack_mass)
+    return restore(float(pack_mass) * float(specific_heat)
+                   * np.maximum(0.0, float(heat_below) - t))
+
+
+def regen_cold_share(temperature, full_above, share_cold, cold_at=REGEN_COLD_AT):
+    """Share of the regenerative charging power a cold battery accepts.
+
+    1 at and above ``full_above``, falling linearly to ``share_cold`` at ``cold_at``
+    (−20 °C) and held there below: cold cells take charge slowly (lithium plating), so
+    battery management limits regeneration until the pack is warm.
+
+    Parameters
+    ----------
+    temperature : float, array or Series
+        Ambient temperature. [K]
+    full_above : float
+        Temperature from which regeneration is not limited. [K]
+    share_cold : float
+        Share accepted at ``cold_at`` and below, in [0, 1]. [-]
+    cold_at : float
+        Temperature of the full cold limit, below ``full_above``. [K]
+
+    Returns
+    -------
+    float, array or Series
+        Share of the regeneration power limit. [-]
+
+    Examples
+    --------
+    >>> round(float(regen_cold_share(263.15, 273.15, 0.5)), 12)   # −10 °C: half way
+    0.75
+    """
+    (t,), restore = _inputs(temperature)
+    if not 0.0 <= share_cold <= 1.0:
+        raise ValueError(f"share_cold must be in [0, 1], got {share_cold}")
+    if not cold_at < full_above:
+        raise ValueError("cold_at must be below full_above")
+    x = np.clip((float(full_above) - t) / (float(full_above) - float(cold_at)), 0.0, 1.0)
+    return restore(1.0 - x * (1.0 - float(share_cold)))
+
+
 def battery_power(wheel_power, electric):
     """Battery power for a wheel power, with the motor and regeneration limits.
 

@@ -37,9 +37,11 @@ def vehicle_parameters(truck, ambient, mean_elevation: float) -> roadload.Vehicl
     """Road-load parameters of a truck in the scenario's air. [SI]"""
     b = truck.body
     rho = float(roadload.air_density(mean_elevation, ambient.temperature))
+    k_t = getattr(b, "rolling_resistance_temperature", 0.0)
+    cold = float(roadload.rolling_resistance_at(1.0, ambient.temperature, k_t))
     return roadload.Vehicle(
         drag_coefficient=b.drag_coefficient, frontal_area=b.frontal_area,
-        crr=b.rolling_resistance, crr_speed=b.rolling_resistance_speed,
+        crr=b.rolling_resistance * cold, crr_speed=b.rolling_resistance_speed * cold,
         rotating_mass_factor=b.rotating_mass_factor, air_density=rho,
         **wind_parameters(ambient),
     ).checked()
@@ -71,10 +73,14 @@ def electric_parameters(e, temperature: float, state_of_health: float = 1.0
     aux = float(electric.auxiliary_power(temperature, e.aux_power, e.heating_per_kelvin,
                                          e.cooling_per_kelvin, e.comfort_low,
                                          e.comfort_high))
+    aux += float(electric.battery_heating_power(temperature, e.battery_heat_below,
+                                                e.battery_heat_loss))
+    regen_share = float(electric.regen_cold_share(temperature, e.regen_full_above,
+                                                  e.regen_share_cold))
     return ElectricPowertrain(
         usable_capacity=e.battery_capacity * e.usable_share * state_of_health,
         motor_power=e.motor_power, drivetrain_efficiency=e.drivetrain_efficiency,
-        regen_efficiency=e.regen_efficiency, regen_power_max=e.regen_power,
+        regen_efficiency=e.regen_efficiency, regen_power_max=e.regen_power * regen_share,
         aux_power=aux, initial_soc=e.start_soc,
     ).checked()
 
@@ -375,6 +381,14 @@ def _power_limit(tot, prefix: str, what: str, name: str, warnings: list[str],
     return info
 
 
+def preconditioning_grid(e, temperature: float) -> float:
+    """Grid energy a day to pre-heat a cold-soaked pack at the depot [J] (0 when off)."""
+    if not e.preconditioning:
+        return 0.0
+    mass = e.battery_mass or e.battery_capacity / electric.PACK_SPECIFIC_ENERGY
+    return float(electric.preconditioning_energy(temperature, e.battery_heat_below, mass))
+
+
 def enroute_time(e, usable_capacity: float, deficit: float) -> tuple[float, int]:
     """Charging time [s] and stops [-] for a day's en-route deficit [J] of a scenario
     electric section, with its charging-power curve, from the arrival state of charge
@@ -458,7 +472,8 @@ def _electric_day(truck, scenario, tot, n_trips, summary, feas, warnings, ele) -
     enroute_batt = verdicts["new"]["enroute_energy"]
     grid_public = enroute_batt / e.enroute.efficiency if enroute_batt > 0 else 0.0
     depot_batt = max(net_day - enroute_batt, 0.0)
-    grid_depot = float(electric.grid_energy(depot_batt, e.charging_efficiency))
+    grid_depot = (float(electric.grid_energy(depot_batt, e.charging_efficiency))
+                  + preconditioning_grid(e, scenario.ambient.temperature))
     window_h = (depot.charging_end_hour - depot.charging_start_hour) % 24 or 24
     required = float(electric.depot_charger_power(grid_depot, window_h * 3600.0))
     charger = depot.charger_power if depot.chargers > 0 and depot.charger_power > 0 else 0.0

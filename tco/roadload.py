@@ -368,6 +368,56 @@ def air_density(altitude, temperature=None):
     return restore(rho)
 
 
+# ----------------------------------------------------------------------------- tyres
+#: Temperature coefficient of the rolling resistance of class C3 truck tyres with a load
+#: index above 121. [1/K] UNECE Regulation No. 117, Annex 6 (as aligned with ISO 28580):
+#: F_r25 = F_r·[1 + K_t·(t_amb − 25 °C)], K_t = 0.006 (0.010 for C2 and lighter C3).
+ROLLING_TEMPERATURE_COEFFICIENT = 0.006
+#: Reference temperature of tyre rolling-resistance labels (UNECE R117 / ISO 28580). [K]
+ROLLING_REFERENCE_TEMPERATURE = 298.15
+
+
+def rolling_resistance_at(crr_25, temperature, coefficient=ROLLING_TEMPERATURE_COEFFICIENT):
+    """Rolling-resistance coefficient at an ambient temperature from its 25 °C value.
+
+    .. math:: C_{rr}(t) = C_{rr,25} / [1 + K_t (t - 25\\,°C)]
+
+    the temperature correction of UNECE Regulation No. 117, Annex 6 (ISO 28580) solved
+    for the value at t.
+
+    Parameters
+    ----------
+    crr_25 : float
+        Coefficient at 25 °C, as on a tyre label. [-]
+    temperature : float, array or Series
+        Ambient temperature. [K]
+    coefficient : float
+        K_t, ≥ 0. [1/K]
+
+    Returns
+    -------
+    float, array or Series
+        Coefficient at that temperature. [-]
+
+    Notes
+    -----
+    The regulation applies the correction between 20 and 30 °C; using it in winter is an
+    extrapolation (cold tyres roll harder: +32 % at −15 °C with K_t = 0.006). Ambient
+    temperatures below −60 °C are refused.
+
+    Examples
+    --------
+    >>> round(float(rolling_resistance_at(0.005, 258.15)), 6)   # −15 °C
+    0.006579
+    """
+    (t,), restore = _inputs(temperature)
+    if not np.all(np.isfinite(t)) or np.any(t < 213.15):
+        raise ValueError("temperature must be finite and ≥ −60 °C (give kelvin)")
+    _check_nonnegative("coefficient", coefficient)
+    return restore(float(crr_25) / (1.0 + float(coefficient)
+                                    * (t - ROLLING_REFERENCE_TEMPERATURE)))
+
+
 # ----------------------------------------------------------------------------- forces
 def aerodynamic_force(speed, air_density, drag_coefficient, frontal_area, headwind=0.0,
                       wind_averaged=0.0):

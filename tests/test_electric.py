@@ -233,3 +233,18 @@ def test_driver_time_beyond_breaks_by_the_break_rule():
         pytest.approx(110 * mn)
     assert el.driver_time_beyond_breaks(30 * mn, 1, 10 * mn, 5 * h, 4.5 * h, 45 * mn) == \
         pytest.approx(10 * mn)
+
+
+# ----------------------------------------------------------------------------- cold weather
+def test_cold_weather_helpers_by_hand():
+    # Pack heat loss UA = 50 W/K kept at 10 °C in −15 °C air: 50 × 25 = 1250 W.
+    assert el.battery_heating_power(258.15, 283.15, 50.0) == pytest.approx(1250.0)
+    assert el.battery_heating_power(293.15, 283.15, 50.0) == 0.0
+    # Pre-heating a 4.2 t pack by 25 K at 1 kJ/(kg·K): 4200 × 1000 × 25 J = 29.17 kWh.
+    assert el.preconditioning_energy(258.15, 283.15, 4200.0) / 3.6e6 == pytest.approx(
+        4200 * 25 / 3600)
+    # Regeneration: full at 0 °C, half at −20 °C, linear between, held below.
+    for t_c, share in ((5.0, 1.0), (0.0, 1.0), (-5.0, 0.875), (-20.0, 0.5), (-35.0, 0.5)):
+        assert el.regen_cold_share(t_c + 273.15, 273.15, 0.5) == pytest.approx(share)
+    with pytest.raises(ValueError, match="share_cold"):
+        el.regen_cold_share(260.0, 273.15, 1.5)

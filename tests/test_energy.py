@@ -77,10 +77,13 @@ public_charging = 0.5
     return load_scenario(tmp_path / "s.toml")
 
 
-def hand_force(grade: float, rho: float) -> float:
+def hand_force(grade: float, rho: float, temperature: float = 15.0) -> float:
+    # rolling resistance at the ambient temperature from its 25 °C label value:
+    # UNECE Regulation No. 117, Annex 6: F_r25 = F_r·[1 + 0.006·(t − 25)] (C3 tyres)
     m = M_CURB + PAYLOAD
+    crr = CRR / (1 + 0.006 * (temperature - 25.0))
     cos, sin = 1 / math.sqrt(1 + grade**2), grade / math.sqrt(1 + grade**2)
-    return CRR * m * G * cos + 0.5 * rho * CD * AREA * V**2 + m * G * sin
+    return crr * m * G * cos + 0.5 * rho * CD * AREA * V**2 + m * G * sin
 
 
 @pytest.mark.parametrize("grade_percent", [0.0, 3.0])
@@ -309,3 +312,45 @@ def test_enroute_charging_overlaps_the_required_breaks(tmp_path):
     e.enroute.charge_during_breaks = False
     ev = evaluate(loaded).trucks["E"]
     assert ev.operation.charging_time_lost == pytest.approx((charge + 600.0) * 250, rel=1e-9)
+
+
+def test_cold_weather_through_the_pipeline(tmp_path):
+    # −15 °C at constant speed, by hand:
+    # * tyres: Crr(−15 °C) = 0.006 / (1 − 0.006·40) (UNECE R117 Annex 6 correction,
+    #   K_t = 0.006 for C3 tyres, extrapolated);
+    # * battery: heat loss 0.05 kW/K × (10 − (−15)) K = 1.25 kW added to the 3 kW
+    #   auxiliaries; pre-heating the pack (capacity 5000 kWh at 150 Wh/kg = 33.3 t,
+    #   1 kJ/(kg·K), 25 K) from the grid each day.
+    loaded = write_case(tmp_path, temperature=-15.0)
+    r = evaluate(loaded)
+    rho = 101325 / (287.053 * 258.15)  # ideal gas at 1976 sea-level pressure
+    crr = CRR / (1 - 0.006 * 40)
+    m, d, t = M_CURB + PAYLOAD, V * (N - 1), N - 1.0
+    assert r.trucks["D"].summary["wheel_energy"]["rolling"] == pytest.approx(
+        crr * m * G * d, rel=1e-6)
+    ev = r.trucks["E"].summary
+    wheel = (crr * m * G + 0.5 * rho * CD * AREA * V**2) * d
+    battery = wheel / 0.9 + (3000.0 + 1250.0) * t
+    assert ev["battery_energy_net"] == pytest.approx(battery, rel=1e-4)
+    pack = 5000 * 3.6e6 / (150 * 3600.0)
+    assert ev["grid_energy_depot"] == pytest.approx(battery / 0.8 + pack * 1000.0 * 25.0,
+                                                    rel=1e-4)
+
+
+def test_winter_penalty_of_the_demo_is_in_the_measured_range():
+    # From memory (not a cited figure): measured winter penalties for heavy battery-
+    # electric trucks are about 15–30 % more energy. The demo at −15 °C against 15 °C:
+    # battery energy must rise within that range; grid energy (with the pack pre-heated
+    # from the depot grid, which a truck's own display does not show) by 15–35 %.
+    from tco.resources import demo_path
+
+    def electric(temp):
+        loaded = load_scenario(demo_path())
+        loaded.scenario.ambient.temperature = temp + 273.15
+        return evaluate(loaded).trucks["Electric tractor"].summary
+
+    warm, cold = electric(15.0), electric(-15.0)
+    battery = cold["battery_energy_net"] / warm["battery_energy_net"] - 1
+    grid = cold["grid_energy_depot"] / warm["grid_energy_depot"] - 1
+    assert 0.15 <= battery <= 0.30
+    assert 0.15 <= grid <= 0.35

@@ -311,3 +311,13 @@ def test_steady_speed_input_kinds_and_errors():
     assert isinstance(rl.steady_speed(2e5, np.array([0.0, 0.03]), 3e4, VEH), np.ndarray)
     with pytest.raises(ValueError, match="power"):
         rl.steady_speed(0.0, 0.0, 30000.0, VEH)
+
+
+@pytest.mark.parametrize("t_c", [-30.0, -15.0, 0.0, 8.0, 25.0, 35.0])
+def test_rolling_resistance_follows_the_tyre_regulation_temperature_correction(t_c):
+    # UNECE Regulation No. 117, Annex 6 (ISO 28580): F_r25 = F_r·[1 + K_t·(t_amb − 25)],
+    # K_t = 0.006 for class C3 tyres with load index above 121. The coefficient at t must
+    # turn back into the label's 25 °C value through the regulation's own equation.
+    crr_t = rl.rolling_resistance_at(0.0055, t_c + 273.15)
+    assert crr_t * (1 + 0.006 * (t_c - 25.0)) == pytest.approx(0.0055, rel=1e-12)
+    assert rl.rolling_resistance_at(0.0055, t_c + 273.15, 0.0) == 0.0055

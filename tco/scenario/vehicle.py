@@ -42,7 +42,14 @@ class Body(Section):
         "common practice: 0.55–0.65 for a tractor-trailer with a roof deflector"
     )
     rolling_resistance: Qty("", ge=0, le=0.05) = qfield(
-        0.0055, "", "Rolling-resistance coefficient at low speed (kg/t ÷ 1000)", EU_TYRE_LABEL
+        0.0055, "", "Rolling-resistance coefficient at low speed and 25 °C, the tyre-label "
+        "test temperature (kg/t ÷ 1000)", EU_TYRE_LABEL
+    )
+    rolling_resistance_temperature: Qty("1/K", ge=0, le=0.01) = qfield(
+        0.006, "1/K", "Temperature coefficient K_t of the rolling resistance: "
+        "Crr(t) = Crr(25 °C) / (1 + K_t·(t − 25 °C)); 0 ignores temperature",
+        "UNECE Regulation No. 117, Annex 6 (ISO 28580): K_t = 0.006 for class C3 tyres "
+        "with load index above 121 (extrapolated outside 20–30 °C)"
     )
     rolling_resistance_speed: Qty("s/m", ge=0, le=0.01) = qfield(
         0.0, "s/m", "Speed dependence of the rolling-resistance coefficient: "
@@ -169,8 +176,32 @@ class Electric(Section):
         ASSUMPTION, usual=(None, 30)
     )
     heating_per_kelvin: Qty("kW/K", ge=0, le=10) = qfield(
-        0.15, "kW/K", "Cabin and battery heating load per kelvin below the comfort band",
+        0.15, "kW/K", "Cabin heating load per kelvin below the comfort band (the battery's "
+        "own heating is battery_heat_loss)",
         ASSUMPTION
+    )
+    battery_heat_below: Qty("degC", ge=-60, le=60) = qfield(
+        10.0, "degC", "Battery temperature the thermal management keeps: below it the pack "
+        "is heated while driving and pre-heated from the grid before the day",
+        "from memory: lithium-ion packs are kept above about 10–15 °C for power and charging"
+    )
+    battery_heat_loss: Qty("kW/K", ge=0, le=1) = qfield(
+        0.05, "kW/K", "Heat-loss conductance of the battery pack to the air (heating power "
+        "per kelvin below battery_heat_below while operating)", ASSUMPTION
+    )
+    preconditioning: bool = mfield(
+        True, "", "Pre-heat the cold-soaked pack to battery_heat_below from the depot grid "
+        "each day (pack mass × specific heat 1 kJ/(kg·K) × kelvin; mass from battery_mass, "
+        "or the capacity at 150 Wh/kg)",
+        "from memory: cells about 0.9–1.1 kJ/(kg·K); packs about 130–170 Wh/kg"
+    )
+    regen_full_above: Qty("degC", ge=-60, le=60) = qfield(
+        0.0, "degC", "Temperature from which regeneration is not limited by the cold; below "
+        "it the regeneration power limit falls linearly to regen_share_cold at −20 °C",
+        "from memory: battery management limits charge into cold cells (lithium plating)"
+    )
+    regen_share_cold: Qty("", ge=0, le=1) = qfield(
+        0.5, "", "Share of the regeneration power limit left at −20 °C and below", ASSUMPTION
     )
     cooling_per_kelvin: Qty("kW/K", ge=0, le=10) = qfield(
         0.12, "kW/K", "Cabin and battery cooling load per kelvin above the comfort band",
