@@ -124,9 +124,13 @@ def only_row(result, truck):
 
 
 def road_force(mass, rho, v=V, grade=0.0):
-    """F = Crr·m·g·cos θ + ½·ρ·Cd·A·v² + m·g·sin θ, θ = atan(grade) (SAE J1263 form)."""
+    """F = Crr·m·g·cos θ + ½·ρ·Cd·A·v² + m·g·sin θ, θ = atan(grade) (SAE J1263 form).
+
+    Crr at the scenario's 15 °C from its 25 °C label value by the UNECE Regulation
+    No. 117 Annex 6 correction, F_r25 = F_r·[1 + 0.006·(t − 25)] (C3 tyres)."""
     th = math.atan(grade)
-    return (CRR * mass * G_SCIPY * math.cos(th) + 0.5 * rho * CD * AREA * v**2
+    crr = CRR / (1 + 0.006 * (15.0 - 25.0))
+    return (crr * mass * G_SCIPY * math.cos(th) + 0.5 * rho * CD * AREA * v**2
             + mass * G_SCIPY * math.sin(th))
 
 
@@ -180,7 +184,7 @@ def test_payload_change_splits_legs_and_mass_matters(tmp_path):
     assert two["battery_energy_J"] == pytest.approx(work / ETA_E + P_AUX * (N - 1),
                                                     rel=1e-6)
     # the empty leg saves exactly the rolling resistance of the payload over it
-    saved = CRR * PAYLOAD * G_SCIPY * d2 / ETA_E
+    saved = CRR / (1 + 0.006 * (15.0 - 25.0)) * PAYLOAD * G_SCIPY * d2 / ETA_E
     assert one["battery_energy_J"] - two["battery_energy_J"] == pytest.approx(saved,
                                                                               rel=1e-6)
     assert two["payload_distance_kg_m"] == pytest.approx(PAYLOAD * d1, rel=1e-12)
