@@ -1643,6 +1643,8 @@ class CashflowResult:
         The headline flows (``finance.valuation``).
     financing : FinancingResult or None
         Loans and leases judged apart, and the other view's figures.
+    valuation : str
+        The flows behind the headline: ``"unlevered"`` or ``"as_financed"``.
     """
 
     table: pd.DataFrame
@@ -1655,6 +1657,7 @@ class CashflowResult:
     assumptions: list[str]
     flows: CashFlows
     financing: FinancingResult | None = None
+    valuation: str = "unlevered"
 
     def yearly_totals(self) -> pd.DataFrame:
         """Net cost by year (rows) and truck (columns). [currency]"""
@@ -1663,7 +1666,8 @@ class CashflowResult:
             index=range(self.analysis_years + 1), fill_value=0.0)
 
 
-def evaluate(inputs: CostInputs, break_evens: bool = True) -> CashflowResult:
+def evaluate(inputs: CostInputs, break_evens: bool = True,
+             financing: bool = True) -> CashflowResult:
     """Cash flows, metrics, comparisons and break-even values of the scalar case.
 
     Parameters
@@ -1671,6 +1675,9 @@ def evaluate(inputs: CostInputs, break_evens: bool = True) -> CashflowResult:
     inputs : CostInputs
     break_evens : bool
         Search the break-even values (four root searches per compared truck).
+    financing : bool
+        Judge loans and leases apart (:func:`financing_view`: one more pass of the model
+        when a truck is financed); False leaves ``CashflowResult.financing`` None.
 
     Returns
     -------
@@ -1727,7 +1734,8 @@ def evaluate(inputs: CostInputs, break_evens: bool = True) -> CashflowResult:
         table=table, trucks=metrics, comparisons=comparisons, baseline=cf.trucks[ref],
         money_basis=cf.money_basis, discount_rate=rate,
         analysis_years=inputs.finance.analysis_years, assumptions=list(cf.assumptions),
-        flows=cf, financing=financing_view(inputs, cf, params))
+        flows=cf, financing=financing_view(inputs, cf, params) if financing else None,
+        valuation=headline_view(inputs.finance))
 
 
 def _irr_and_note(savings: np.ndarray) -> tuple[float | None, str]:

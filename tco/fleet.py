@@ -589,7 +589,7 @@ def _route_money(e: RouteEnergy, base: LoadedScenario, ops: list, chargers: int,
         "charging_start_hour": e.scenario.depot.charging_start_hour,
         "charging_end_hour": e.scenario.depot.charging_end_hour})
     inputs = cost_inputs(s, ops)
-    cf = cashflow.evaluate(inputs, break_evens=False)
+    cf = cashflow.evaluate(inputs, break_evens=False, financing=False)  # not in fleet.json
     pv = {m.name: m.present_value for m in cf.trucks}
     lc = {m.name: m.levelized_cost for m in cf.trucks}
     cur, cand = e.row.current, e.row.candidate

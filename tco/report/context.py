@@ -806,7 +806,11 @@ METHOD_NOTES = [
      "is given), plus upstream and grid losses. The abatement cost divides the "
      "present-value cost difference by the tonnes avoided discounted at the same rate "
      "(unless emissions.discount_tonnes is false); the figure on undiscounted tonnes is "
-     "shown beside it.",
+     "shown beside it. Market-based Scope 2 counts electricity without a contractual "
+     "instrument at the residual mix when one is given, else at the grid average. "
+     "Electricity upstream is a share of each year's grid intensity unless a figure per kWh "
+     "is given. The biodiesel share of a diesel blend emits biogenic CO2, reported apart "
+     "from the scopes.",
      "E = V_d f_d + m_DEF·w·(12/60)(44/12) + E_grid·I(y)·(1 + L/(1−L))",
      r"E = V_d f_d + m_{DEF}\, w \,\frac{12}{60}\frac{44}{12} + E_{grid} I(y)"),
 ]

@@ -155,7 +155,7 @@ def cashflow_summary(result: CashflowResult) -> dict:
         "trucks": trucks,
         "comparisons": comps,
         "assumptions": list(result.assumptions),
-        "valuation": result.financing.valuation if result.financing else "as_financed",
+        "valuation": result.valuation,
         "financing": _financing_summary(result.financing),
     }
 
