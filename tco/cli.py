@@ -18,8 +18,18 @@ from tco.errors import InputError
 EXIT_OK, EXIT_INTERNAL, EXIT_INPUT = 0, 1, 2
 
 
+class _Parser(argparse.ArgumentParser):
+    """argparse with its errors on one line (``tco: error: ...``), exit 2; --help as usual."""
+
+    def error(self, message):
+        from tco.text import one_line
+
+        self.exit(EXIT_INPUT, one_line(f"tco: error: {self.prog}: {message} (see "
+                                       f"{self.prog} --help)") + "\n")
+
+
 def _parser() -> argparse.ArgumentParser:
-    p = argparse.ArgumentParser(
+    p = _Parser(
         prog="tco",
         description="Compare battery-electric and diesel heavy trucks on a duty cycle: "
         "energy, cost of ownership, emissions, uncertainty; writes summary.json, a PDF and "

@@ -631,3 +631,18 @@ def test_fleet_cycles_stay_in_the_fleet_folder(tmp_path, capsys, out):
                            "--out", out, "--json-only"], capsys, out,
                           "row 2, cycle", "outside the scenario's folder")
     assert SECRET not in line
+
+
+@pytest.mark.parametrize("argv", [
+    ["run", "--draws", "abc"],
+    ["frob"],
+    ["fleet", "--rule", "nope\x1b[31m"],
+    ["check"],
+])
+def test_bad_arguments_are_one_line(capsys, argv):
+    with pytest.raises(SystemExit) as info:
+        main(argv)
+    err = capsys.readouterr().err
+    assert info.value.code == 2
+    assert len(err.splitlines()) == 1 and err.startswith("tco: error: ")
+    assert "\x1b" not in err
