@@ -1,0 +1,139 @@
+"""The workbook builder: shared state, build order, formats and page setup."""
+from __future__ import annotations
+
+from openpyxl import Workbook
+from openpyxl.workbook.properties import CalcProperties
+
+from tco.report import workbook_base as wbb
+from tco.report.workbook._common import (
+    _Block,
+    _CF,
+    _EM,
+    _EN,
+    _EmBlock,
+    _FIRST_COL,
+    _IN,
+    _SE,
+    _ST,
+    _SU,
+    _YEAR_ROW,
+    _col,
+    _uses_depot,
+)
+from tco.report.workbook.inputs_sheet import InputsSheet
+from tco.report.workbook.cashflow_sheet import CashflowSheet
+from tco.report.workbook.emissions_sheet import EmissionsSheet
+from tco.report.workbook.energy_sheet import EnergySheet
+from tco.report.workbook.summary_sheet import SummarySheet
+from tco.report.workbook.uncertainty_sheets import UncertaintySheets
+
+
+class Book(InputsSheet, CashflowSheet, EmissionsSheet, EnergySheet, SummarySheet,
+           UncertaintySheets):
+    """Builds the workbook; one instance per call. Each sheet has its builder (a mixin in
+    its own module); this class holds the shared state and the order of the build."""
+
+    def __init__(self, result, summary: dict):
+        from tco import cashflow, emissions
+        from tco.pipeline import cost_inputs
+
+        self.result = result
+        self.summary = summary
+        self.s = result.scenario
+        self.cur = str(self.s.study.currency)
+        self.ops = [tr.operation for tr in result.trucks.values()]
+        self.inputs = cost_inputs(self.s, self.ops)
+        self.params = cashflow.flat_params(self.inputs)
+        self.em_params = emissions.flat_params(self.s.emissions)
+        self.cf = result.cashflow
+        self.flows = self.cf.flows
+        self.lines = self.flows.lines  # per truck: line -> amounts (all lines computed)
+        self.trucks = list(self.flows.trucks)
+        self.powertrains = list(self.flows.powertrains)
+        self.ref = self.flows.baseline
+        self.N = int(self.cf.analysis_years)
+        self.real = self.cf.money_basis == "real"
+        self.sources = {r["field"]: r["source"] for r in result.assumptions}
+        d = self.inputs.depot
+        self.served = d.trucks_served or max(1, sum(
+            1 for t, op in zip(self.inputs.trucks, self.ops) if _uses_depot(t.powertrain, op)))
+        self.wb = Workbook()
+        self.blocks: list[_Block] = []
+        self.em_blocks: list[_EmBlock] = []
+        self.bands_of: dict[int, list[tuple[str, str]]] = {}  # truck -> (kWh name, price)
+        self.derived_f: dict[str, str] = {}  # derived input name -> its formula
+
+    # ------------------------------------------------------------------------ build
+    def build(self) -> Workbook:
+        wb = self.wb
+        self.ws_su = wb.active
+        self.ws_su.title = _SU
+        self.ws_in = wb.create_sheet(_IN)
+        self.ws_cf = wb.create_sheet(_CF)
+        self.ws_em = wb.create_sheet(_EM)
+        self.ws_en = wb.create_sheet(_EN)
+        self._inputs_sheet()
+        self._cashflow_sheet()
+        self._emissions_sheet()
+        self._energy_sheet()
+        self._summary_sheet()
+        unc = self.summary.get("uncertainty")
+        if unc:
+            self._sensitivity_sheet(unc)
+            self._statistics_sheet(unc)
+        self._formats_and_printing()
+        # spreadsheet programs recompute everything when the file is opened (the file also
+        # carries each formula's result, tco.report.workbook_values)
+        wb.calculation = CalcProperties(fullCalcOnLoad=True)
+        return wb
+
+    def _formats_and_printing(self) -> None:
+        """Money formats carry the currency code; every sheet gets its page setup."""
+        money = {wbb.MONEY: wbb.money_format(self.cur, 0),
+                 wbb.MONEY_CENTS: wbb.money_format(self.cur, 2)}
+        years = range(_FIRST_COL, _FIRST_COL + self.N + 1)
+        for ws in self.wb.worksheets:
+            if ws.title == _IN:
+                continue  # the Unit column names the currency of every input
+            for row in ws.iter_rows():
+                # year grids keep plain amounts (the sheet title names the currency);
+                # single figures, sums and present values show the code
+                grid = ws.title == _CF and row[_FIRST_COL].data_type == "f" \
+                    if len(row) > _FIRST_COL else False
+                for c in row:
+                    f = money.get(c.number_format)
+                    if f and not (grid and c.column in years):
+                        c.number_format = f
+        study = self.summary.get("scenario", {}).get("name", self.s.study.name)
+        titles = {_SU: ("1:1", None), _IN: ("1:1", None),
+                  _CF: (f"1:{_YEAR_ROW}", "A:B"), _EM: (f"1:{_YEAR_ROW}", "A:B"),
+                  _EN: ("1:3", "A:B"), _SE: ("1:2", None), _ST: ("1:4", None)}
+        for ws in self.wb.worksheets:
+            rows, cols = titles.get(ws.title, (None, None))
+            wbb.print_setup(ws, study, title_rows=rows, title_cols=cols)
+
+    # ------------------------------------------------------------------------ sources
+    def source(self, path: str) -> str:
+        s = self.sources.get(path)
+        if s is None:
+            return "scenario"
+        return "user" if s == "user" else f"default: {s}"
+
+    def pre(self, i: int) -> str:
+        """Prefix of truck i's defined names."""
+        return f"t{i + 1}_"
+
+    def _aged(self, i: int) -> bool:
+        """Truck i carries yearly en-route energy, time and depot share as its battery
+        ages (the cash-flow model's ``_Context.aged``)."""
+        return len(self.ops[i].public_energy_by_year) == self.N
+
+    def _replacements(self, rows: dict) -> list[tuple[str, str]]:
+        """Battery replacements as tax assets (capitalised, depreciated like the truck):
+        (nominal cost of year t's replacements, t), read from the battery row."""
+        if "battery_replacement" not in rows:
+            return []
+        r = rows["battery_replacement"]
+        inflate = (lambda t: f"*(1+inflation)^{t}") if self.real else (lambda t: "")
+        return [(f"{_col(_FIRST_COL + t)}${r}{inflate(t)}", str(t))
+                for t in range(1, self.N + 1)]
