@@ -1584,8 +1584,10 @@ class TruckFinancing:
         received negative; repayments, interest, lease payments, their tax effects and
         the lost depreciation and residual value positive). [currency]
     present_value_at_cost_of_debt : float
-        Present value of ``flows`` at the after-tax cost of debt: positive, the loan or
-        lease costs more than paying cash; negative, it is worth taking. [currency]
+        Present value of ``flows`` at the after-tax cost of debt, a nominal yearly rate
+        compounded per instalment (monthly for a lease), each instalment at its month:
+        positive, the loan or lease costs more than paying cash; negative, it is worth
+        taking. [currency]
     present_value_unlevered, present_value_as_financed : float
         The truck's present value of costs at the discount rate, paid in cash and as
         financed (the equity view). [currency]
@@ -1777,6 +1779,41 @@ def after_tax_cost_of_debt(finance: Finance, costs: TruckCosts) -> tuple[float, 
     return rd, after
 
 
+def _financing_pv(inputs: CostInputs, costs: TruckCosts, flows: np.ndarray,
+                  rd: float) -> float:
+    """Present value of a truck's financing flows at its after-tax cost of debt, with
+    the loan instalments or lease payments at their own months.
+
+    The model books a year's instalments at the year's end; here each one is discounted
+    from its month, at the per-instalment rate ``r_d (1 − τ) / m`` (m instalments a year,
+    12 for a lease), so a loan at the borrowing rate is worth exactly 0 before tax. The
+    other flows (drawdown, balance settled, buy-out, tax effects) stay at year ends.
+    Flows of the real basis are turned nominal with the inflation rate first.
+    """
+    f = inputs.finance
+    fi = costs.financing
+    tau = f.after_tax.tax_rate if f.after_tax.enabled else 0.0
+    m = fi.payments_per_year if fi.method == "loan" else 12
+    i = rd * (1.0 - tau) / m
+    years = np.arange(len(flows), dtype=float)
+    nominal = flows * ((1.0 + f.inflation) ** years if f.money_basis == "real" else 1.0)
+    pv = float(np.sum(nominal * (1.0 + i) ** (-m * years)))
+    t0 = inputs.purchase_year
+    owned = len(flows) - 1 - t0
+    if fi.method == "loan":
+        principal = -float(nominal[t0])
+        n = fi.loan_years * m
+        pay = fin.annuity_payment(principal, fi.loan_rate / m, n) if principal > 0 else 0.0
+        periods = min(n, m * owned)
+    else:
+        pay = float(fi.lease_payment)
+        periods = m * min(fi.lease_years, owned)
+    k = np.arange(1, periods + 1, dtype=float)
+    at_months = np.sum((1.0 + i) ** -(m * t0 + k))
+    at_year_ends = np.sum((1.0 + i) ** -(m * (t0 + np.ceil(k / m))))
+    return pv + float(pay) * float(at_months - at_year_ends)
+
+
 def financing_view(inputs: CostInputs, headline: CashFlows,
                    params: dict[str, float] | None = None) -> FinancingResult:
     """Loans and leases judged apart from the headline: against paying cash at the
@@ -1825,7 +1862,7 @@ def financing_view(inputs: CostInputs, headline: CashFlows,
         trucks.append(TruckFinancing(
             name=t.name, method=t.costs.financing.method, cost_of_debt=rd,
             after_tax_cost_of_debt=after, flows=flows,
-            present_value_at_cost_of_debt=float(fin.present_value(flows, after)),
+            present_value_at_cost_of_debt=_financing_pv(inputs, t.costs, flows, rd),
             present_value_unlevered=float(unlev.present_value(i)),
             present_value_as_financed=float(levered.present_value(i))))
     comps = []

@@ -847,18 +847,19 @@ def test_loan_worth_zero_at_the_after_tax_cost_of_debt():
 
 def test_lease_against_cash_by_hand():
     """Lease 2,500 a month for 3 years, truck returned; bought in cash it costs 100,000
-    and is worth 100,000 × 0.8³ = 51,200 at the end. Lease minus cash:
-    [−100,000, 30,000, 30,000, 30,000 + 51,200]; at the 6 % cost of debt
-    −100,000 + 30,000/1.06 + 30,000/1.06² + 81,200/1.06³ = 23,178.87 (the lease costs
-    more than buying; hand)."""
+    and is worth 100,000 × 0.8³ = 51,200 at the end. Lease minus cash, as booked by year:
+    [−100,000, 30,000, 30,000, 30,000 + 51,200]. At the 6 % cost of debt, compounded per
+    monthly payment (0.5 % a month) with each payment at its month:
+    −100,000 + 2,500 × (1 − 1.005⁻³⁶)/0.005 + 51,200 × 1.005⁻³⁶ = 24,962.56 (the lease
+    costs more than buying; numpy_financial.pv for the annuity)."""
     f = Finance(analysis_years=3, discount_rate=0.10, cost_of_debt=0.06)
     e = TruckCosts(purchase_price=100_000, residual=dict(rate=0.2), financing=dict(
         method="lease", lease_payment=2_500, lease_years=3))
     res = evaluate(two_trucks(finance=f, e_costs=e), break_evens=False)
     (t,) = res.financing.trucks
     np.testing.assert_allclose(t.flows, [-100_000, 30_000, 30_000, 81_200], rtol=1e-12)
-    want = -100_000 + 30_000 / 1.06 + 30_000 / 1.06 ** 2 + 81_200 / 1.06 ** 3
-    assert round(want, 2) == 23_178.87
+    want = -100_000 + npf.pv(0.005, 36, -2_500) + 51_200 / 1.005 ** 36
+    assert round(want, 2) == 24_962.56
     assert t.present_value_at_cost_of_debt == pytest.approx(want, rel=1e-12)
     assert "lease_payment" not in set(res.table.line)
     s = cashflow_summary(res)
@@ -1002,3 +1003,21 @@ def test_one_price_index_running_costs_and_one_offs():
     inputs.prices = Prices(diesel=1.50)
     lines = compute(inputs, view="unlevered").lines[0]
     np.testing.assert_allclose(lines["diesel"], [0.0, 30_000, 30_000, 30_000], rtol=1e-12)
+
+
+def test_monthly_loan_worth_zero_at_its_own_rate():
+    """A 5-year loan of 100,000 at 6 % with monthly instalments: discounted month by month
+    at 0.5 % a month it is worth 0 (numpy_financial.pmt and npv: the annuity's definition),
+    although the model books each year's twelve instalments at the year's end (their
+    yearly sum would look like a gain of several hundred at 6 % a year)."""
+    f = Finance(analysis_years=5, discount_rate=0.09)
+    d = TruckCosts(purchase_price=100_000, financing=dict(
+        method="loan", loan_rate=0.06, loan_years=5, payments_per_year=12))
+    res = evaluate(two_trucks(finance=f, d_costs=d), break_evens=False)
+    (t,) = res.financing.trucks
+    pay = -npf.pmt(0.005, 60, 100_000)
+    assert npf.npv(0.005, [-100_000] + [pay] * 60) == pytest.approx(0.0, abs=1e-6)
+    np.testing.assert_allclose(t.flows[1:], 12 * pay, rtol=1e-12)
+    booked = npf.npv(0.06, t.flows)  # the year-end booking alone is not zero
+    assert booked < -100
+    assert t.present_value_at_cost_of_debt == pytest.approx(0.0, abs=1e-6)
