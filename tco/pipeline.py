@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
+import re
 import time
 from datetime import datetime, timezone
 
@@ -129,7 +130,13 @@ def depot_schedule(loaded: LoadedScenario, ops: list, rule: str | None = None):
     try:
         return depot_model.scenario_schedule(loaded.scenario.depot, ops, rule)
     except ValueError as exc:
-        raise InputError(str(exc), file=loaded.shown, where="depot.chargers") from None
+        msg = str(exc)
+        m = re.search(r"needs (\d+) chargers .*; (\d+) given", msg)
+        if m:
+            msg = (f"managed charging keeps each truck plugged in for its whole stay, so "
+                   f"{m.group(1)} trucks sharing the depot need {m.group(1)} chargers; "
+                   f"{m.group(2)} given (add chargers, or set charging = 'unmanaged')")
+        raise InputError(msg, file=loaded.shown, where="depot.chargers") from None
 
 
 def depot_summary(loaded: LoadedScenario, sd, ops: list, cf) -> dict | None:

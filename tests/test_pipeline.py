@@ -131,7 +131,8 @@ def test_managed_charging_needs_a_charger_per_truck():
     with pytest.raises(InputError) as err:
         evaluate(_demo(charging="managed", trucks_served=3))
     assert err.value.where == "depot.chargers"
-    assert "needs 3 chargers" in err.value.line()
+    assert "3 trucks sharing the depot need 3 chargers; 1 given" in err.value.line()
+    assert "\n" not in err.value.line()
 
 
 
