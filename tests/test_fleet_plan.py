@@ -32,7 +32,9 @@ def _rows(tmp_path):
 def run(tmp_path_factory):
     """Capital by hand from the demo base (electric tractor 265,000 + fees 2,500 − grant
     45,000 = 222,500; diesel tractor 125,000 + 2,500 = 127,500; a charger 62,000 + 18,000
-    = 80,000; grid connection 25,000; no escalation of equipment).
+    = 80,000; grid connection 25,000). The base leaves the equipment escalation unset, so
+    in nominal money it follows the 2 % inflation: a truck bought in 2028 costs its price
+    × 1.02 (fees and grant as given).
 
     On this short invented cycle electric loses money, so only the target electrifies:
     Scope 1 + 2 down 40 % by 2030 needs two of the three trucks electric (one electric
@@ -41,7 +43,8 @@ def run(tmp_path_factory):
     2027 or 2028. Budget 500,000 a year: two electric trucks in 2028 with the third's
     diesel replacement cost 2 × 222,500 + 127,500 = 572,500 > 500,000; so one goes in
     2027 (222,500 + charger 80,000 + connection 25,000 = 327,500) and one in 2028
-    (222,500 + 127,500 = 350,000).
+    (265,000 × 1.02 + 2,500 − 45,000 = 227,800 plus the diesel 125,000 × 1.02 + 2,500 =
+    130,000: 357,800).
     """
     tmp = tmp_path_factory.mktemp("plan")
     base = _base(tmp)
@@ -70,7 +73,7 @@ def test_budget_splits_the_target_driven_purchases(run):
     sched = tp.schedule
     electric = sched[sched["decision"] == "electric"]
     assert sorted(electric["purchase_year"].tolist()) == [2027, 2028]
-    assert y["capital"].tolist()[:2] == pytest.approx([327_500.0, 350_000.0])
+    assert y["capital"].tolist()[:2] == pytest.approx([327_500.0, 357_800.0])
     diesel = sched[sched["decision"] == "diesel"]
     assert diesel["diesel_replacement_year"].tolist() == [2028]
     assert electric["loses_money"].all()
