@@ -389,13 +389,13 @@ def _pid() -> str:
     return str(os.getpid())
 
 
-@pytest.mark.xfail(not hasattr(report_context, "CHART_WORKERS"), strict=True,
-                   reason="needs tco.report.context.CHART_WORKERS (change proposed to the lead)")
 def test_batch_worker_draws_charts_in_its_own_process(monkeypatch):
-    """In a batch worker the report's charts are drawn without a second process pool."""
-    monkeypatch.setattr(report_context, "CHART_WORKERS",
-                        getattr(report_context, "CHART_WORKERS", 2), raising=False)
+    """In a batch worker the report's charts are drawn without a second process pool:
+    the worker set-up turns the chart pool off (2 → 1), and every chart job then runs in
+    the worker's own process."""
+    monkeypatch.setattr(report_context, "CHART_WORKERS", 2)  # restored after the test
     batch._worker_init()
+    assert report_context.CHART_WORKERS == 1
     jobs = [report_context._later(_pid) for _ in range(3)]
     assert report_context._draw_all(jobs) == [_pid()] * 3
 

@@ -292,10 +292,18 @@ def test_chart_names_with_mathtext_are_literal(chart_inputs):
     cum, tidy, comp, trace, em, torn = chart_inputs
     bad = r"Truck $\foo$ {x}_1"
     renamed = tidy.replace({"truck": {"A": bad}})
-    charts.stacked_yearly_cost(renamed, bad, ylabel=r"Cost [$\bar$]")
-    charts.cumulative_cost(cum.rename(columns={"A": bad}), 1.0, ylabel="x",
-                           breakeven_label=r"$\foo$")
-    charts.tornado(torn.assign(input=[bad, "$"]), 0.0, xlabel="x")
+
+    def texts(uri):  # text stays text in the SVG (svg.fonttype "none")
+        return ["".join(t.itertext()) for t in _svg_root(uri).iter(f"{{{SVG_NS[1:-4]}}}text")]
+
+    # the literal strings, dollar signs and backslashes included, are what the chart shows
+    assert r"Cost [$\bar$]" in texts(charts.stacked_yearly_cost(renamed, bad,
+                                                                ylabel=r"Cost [$\bar$]"))
+    cum_texts = texts(charts.cumulative_cost(cum.rename(columns={"A": bad}), 1.0, ylabel="x",
+                                             breakeven_label=r"$\foo$"))
+    assert bad in cum_texts
+    assert any(r"$\foo$" in t for t in cum_texts)
+    assert bad in texts(charts.tornado(torn.assign(input=[bad, "$"]), 0.0, xlabel="x"))
 
 
 def test_chart_bad_input_raises(chart_inputs):
