@@ -97,13 +97,14 @@ def test_pdf_running_header_and_page_numbers(rendered):
         if i > 1:  # the cover has no running header
             assert title in text
             assert f"tco {ctx['meta']['version']}" in text
-    # The section name runs in the header: on the first appendix page it shows twice
-    # (heading and header), on the page with the last input at least in the header.
+    # The section name runs in the header: the appendix may start part-way down a page
+    # (the header then names the section the page started in); on the page with the last
+    # input the header names the appendix.
     first = next(i for i, t in enumerate(pages) if "Discount rate per year" in t)
     last_label = ctx["assumptions"]["sections"][-1]["rows"][-1][0]
     last = max(i for i, t in enumerate(pages) if last_label in t)
-    assert pages[first].count("Appendix: assumptions") >= 2
-    assert "Appendix: assumptions" in pages[last]
+    assert "Appendix: assumptions" in pages[first]
+    assert last > first and "Appendix: assumptions" in pages[last]
 
 
 @pytest.mark.slow

@@ -137,7 +137,18 @@ class _Sources:
         return f" [{self.numbers[src]}]"
 
     def listing(self) -> list[dict]:
-        return [{"number": n, "text": s} for s, n in self.numbers.items()]
+        return [{"number": n, "text": _short_source(s)} for s, n in self.numbers.items()]
+
+
+#: The tool's own defaults (no published source) are named once in the appendix's lead.
+TOOL_ASSUMPTION = "assumption (tool default; replace with your own figure)"
+
+
+def _short_source(text: str) -> str:
+    if text.startswith(TOOL_ASSUMPTION):
+        rest = text[len(TOOL_ASSUMPTION):].lstrip(" :;")
+        return "tool assumption" + (f": {rest}" if rest else "")
+    return text
 
 
 def _cell(row: dict, cur: str, system: str, sources: _Sources) -> str:
