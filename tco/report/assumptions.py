@@ -206,8 +206,13 @@ def build_appendix(rows: list[dict], scenario, units: str = "metric") -> dict:
     dist_rows: dict[int, dict] = {}
     band_rows: dict[int, dict] = {}
     corr_rows: dict[int, dict] = {}
+    escalations: dict[str, list[dict]] = {}  # "prices" or "trucks[i]" → its rows
     for r in used:
         key = r["field"]
+        m = re.match(r"(prices|trucks\[\d+\]\.costs)\.escalation\.(\w+)$", key)
+        if m:
+            escalations.setdefault(m.group(1), []).append(r)
+            continue
         top = key.split(".", 1)[0].split("[", 1)[0]
         label = fm.field_label(key, r["description"]) or key
         m = re.match(r"trucks\[(\d+)\]\.(.*)$", key)
@@ -240,6 +245,10 @@ def build_appendix(rows: list[dict], scenario, units: str = "metric") -> dict:
             band_rows.setdefault(int(m.group(1)), {})[m.group(2)] = r
             continue
         title = SECTION_TITLES.get(top, top.replace("_", " ").capitalize())
+        if key in ("study.name", "study.notes") and r["value"]:
+            # long free text, printed in full on the cover
+            section(title)["rows"].append([label, "as on the cover" + sources.mark(r)])
+            continue
         section(title)["rows"].append([label, _cell(r, cur, units, sources)])
 
     # route: leg fields as rows, segments as one compact table per leg
@@ -278,6 +287,16 @@ def build_appendix(rows: list[dict], scenario, units: str = "metric") -> dict:
     if truck_rows:
         t = section("Trucks", ["Input"] + names)
         t["rows"] = [[e["label"]] + e["cells"] for e in truck_rows.values()]
+        for i, name in enumerate(names):
+            cell = _escalation_cell(escalations.get(f"trucks[{i}].costs", []), cur, units,
+                                    sources)
+            if cell:
+                t.setdefault("notes", []).append(f"Cost changes per year, {name}: {cell}.")
+    if escalations.get("prices"):
+        p = section(SECTION_TITLES["prices"])
+        p.setdefault("notes", []).append(
+            "Price changes per year: "
+            + _escalation_cell(escalations["prices"], cur, units, sources) + ".")
     if band_rows:
         p = section(SECTION_TITLES["prices"])
         p["tables"].append({
@@ -309,6 +328,20 @@ def build_appendix(rows: list[dict], scenario, units: str = "metric") -> dict:
     return {"sections": out, "sources": sources.listing(),
             "counts": {"shown": len(used), "user": n_user, "default": len(used) - n_user,
                        "left_out": left_out}}
+
+
+def _escalation_cell(rows: list[dict], cur: str, units: str, sources: "_Sources") -> str:
+    """Yearly changes of several prices in one cell: ``diesel 2.5 %, tyres 0 % [15]``.
+
+    Items with the same value and source share it: ``tyres, tolls 0 % [15]``.
+    """
+    groups: dict[tuple[str, str], list[str]] = {}
+    for r in rows:
+        name = r["field"].rsplit(".", 1)[1].replace("_", " ")
+        value = fm.input_value(r["value"], r["unit"], r["field"], cur, units)
+        groups.setdefault((value, sources.mark(r)), []).append(name)
+    return "; ".join(f"{', '.join(names)} {value}{mark}"
+                     for (value, mark), names in groups.items())
 
 
 def _dist_cell(r, labels: dict) -> str:

@@ -713,22 +713,44 @@ def _tables(result, u: DisplayUnits, summary: dict) -> list[dict]:
     tables.append({"title": f"Emissions over {cf.analysis_years} years",
                    "columns": ["Frame"] + names, "rows": rows,
                    "note": "GHG Protocol scopes and ISO 14083 tank-to-wheel / well-to-wheel."})
-    factors = summary["emissions"].get("factors") or []
-    if factors:
-        tables.append({
-            "title": "Emission factors used", "columns": ["Factor", "Value", "Unit", "Source",
-                                                          "Status"],
-            "rows": [[str(f["parameter"]), f"{f['value']:.6g}" if f["value"] is not None
-                      else "–", str(f["unit"]), str(f["source"]), str(f["status"] or "–")]
-                     for f in factors],
-            "note": "Status: confirmed (in the source), seen in a public copy, third-party copy "
-                    "(only as reproduced by others: unconfirmed), from memory; blank: a "
-                    "scenario input or a tool default listed with the assumptions."})
     if result.uncertainty is not None:
         tables += _uncertainty_tables(result, cur, u.system)
     for t in tables:
         t.setdefault("total", False)
     return tables
+
+
+def _factor_table(summary: dict) -> dict | None:
+    """The emission factors used, with their sources: a reference table of the appendix."""
+    # factors without a status are scenario inputs or tool defaults: the appendix lists
+    # them already (with their sources) among the emissions inputs
+    factors = [f for f in summary["emissions"].get("factors") or [] if f.get("status")]
+    if not factors:
+        return None
+    return {
+        "kind": "reference", "title": "Emission factors used",
+        "columns": ["Factor", "Value", "Unit", "Source", "Status"],
+        "widths": [22, 9, 10, 45, 14],
+        "rows": [[str(f["parameter"]), fmt_number(f["value"], None), str(f["unit"]),
+                  str(f["source"]), str(f["status"])] for f in factors],
+        "note": "Status: confirmed (in the source), seen in a public copy, third-party copy "
+                "(only as reproduced by others: unconfirmed), from memory. Factors that "
+                "are scenario inputs or tool defaults are listed with the emissions inputs "
+                "above."}
+
+
+def _appendix(result, summary: dict, u) -> dict:
+    """The assumptions appendix, with the emission factors table in its emissions part."""
+    appendix = build_appendix(result.assumptions, result.scenario, u.system)
+    table = _factor_table(summary)
+    if table is not None:
+        sec = next((x for x in appendix["sections"] if x["title"] == "Emissions"), None)
+        if sec is None:
+            sec = {"title": "Emissions", "columns": ["Input", "Value"], "rows": [],
+                   "tables": []}
+            appendix["sections"].append(sec)
+        sec["tables"].append(table)
+    return appendix
 
 
 def _financing_table(cashflow: dict, cur: str) -> dict | None:
@@ -834,7 +856,7 @@ def build_context(result, summary: dict) -> dict:
         "feasibility": _feasibility(result, u),
         "warnings": rewrite_warnings(list(result.warnings), result, u),
         "tables": _tables(result, u, summary),
-        "assumptions": build_appendix(result.assumptions, s, u.system),
+        "assumptions": _appendix(result, summary, u),
         "method_notes": notes,
         "cautions": cautions,
     })
