@@ -243,8 +243,9 @@ def test_no_placeholder_units_or_scientific_notation(demo_pdf):
 
 def test_contents_page_lists_sections_with_their_pages(demo_pdf):
     pages = demo_pdf["pages"]
+    # the cover is one page; the contents page follows it
     contents = " ".join(w for w, *_ in _words(pages[1]))
-    assert contents.startswith("Contents") or "Contents" in contents
+    assert "Contents" in contents
     found = re.findall(r"Cautions (\d+)", contents)
     assert found
     n = int(found[0])
