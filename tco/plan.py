@@ -212,7 +212,8 @@ class PlanSolution:
         One per budget, grid or target row that binds, nearly binds (slack within
         :data:`NEAR_BINDING` of its right-hand side) or has a non-zero LP dual:
         ``constraint``, ``year`` (plan year; year of service for the target), ``slack``,
-        ``binding`` (slack ~ 0), ``near`` (within :data:`NEAR_BINDING`), ``dual`` (LP relaxation) [currency per unit], ``unit``,
+        ``binding`` (slack ~ 0), ``near`` (within :data:`NEAR_BINDING`), ``dual`` (LP
+        relaxation) [currency per unit], ``unit``,
         ``step``, ``step_saving`` [currency] (None when not re-solved).
     mip_gap : float
         Relative gap HiGHS reports. [-]
@@ -583,8 +584,9 @@ class PlanSettings(BaseModel):
     optional. Money in the base scenario's currency and money basis."""
 
     model_config = ConfigDict(extra="forbid", validate_default=True)
-    service_life: Qty("yr", gt=0) = qfield(10, "yr", "Age at which a diesel truck is replaced when its "
-                                 "replacement year is not given", ASSUMPTION, gt=0)
+    service_life: Qty("yr", gt=0) = qfield(
+        10, "yr", "Age at which a diesel truck is replaced when its replacement year is not "
+        "given", ASSUMPTION)
     earliest_year: int | None = mfield(None, "", "First calendar year a truck may be "
                                        "bought (default: the first year of service)")
     capital_budget: float | dict[str, float] | None = mfield(
@@ -856,7 +858,7 @@ def _budget_array(settings: PlanSettings, start: int, N: int, where) -> np.ndarr
 
 
 def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: PlanSettings,
-               where=None, gap: float = 1e-9, time_limit: float | None = None) -> FleetPlan:
+               where=None, gap: float = 1e-6, time_limit: float | None = 120.0) -> FleetPlan:
     """Build the fleet's :class:`PlanProblem` from its rows and solve it.
 
     Parameters
@@ -875,6 +877,11 @@ def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: P
     settings : PlanSettings
     where : path, optional
         The plan file, named in errors.
+    gap : float
+        Relative optimality gap at which HiGHS stops. [-]
+    time_limit : float, optional
+        Seconds for each integer solve; a solve stopped by it keeps its best plan and the
+        notes say how far from proven best it may be. [s]
 
     Returns
     -------
@@ -1097,6 +1104,9 @@ def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: P
 
     notes = []
     cur = s.study.currency
+    if sol.status != "optimal":
+        notes.append(f"HiGHS stopped before proving the plan best ({sol.status}); the plan "
+                     f"kept is within {sol.mip_gap:.2%} of the best possible.")
     if target is not None:
         if sol.target_met:
             notes.append(f"The target ({target.reduction:.0%} below {base_t:,.0f} t by "

@@ -14,7 +14,7 @@ from tco.fleet import evaluate_fleet, read_fleet
 from tco.plan import PlanSettings, TargetSettings
 from tco.scenario import load_scenario
 
-from test_fleet import _base, _fleet  # noqa: E402  (same invented cycle and base)
+from test_fleet import _base  # noqa: E402  (same invented cycle and base)
 
 PLAN_HEADER = ("vehicle,route,cycle,current,candidate,annual_distance [km],payload [t],"
                "arrive,depart,age [yr],replacement_year,resale_value\n")
