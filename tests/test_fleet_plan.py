@@ -105,3 +105,73 @@ def test_target_year_outside_the_period_is_refused(run):
     bad = PlanSettings(target=TargetSettings(reduction=0.5, year=2100))
     with pytest.raises(InputError, match="target year"):
         evaluate_fleet(loaded, rows, fleet, jobs=1, plan=bad)
+
+
+@pytest.mark.slow
+def test_plan_sheets_recalculate_to_fleet_json(run, tmp_path):
+    """LibreOffice recalculates the plan sheets' formulas (tests/recalc.py) to the figures
+    of fleet.json: savings, totals, budget and grid headroom, cumulative chargers,
+    Scope 1 + 2, the excess over the target, cumulative abated tonnes. Every formula cell
+    of those sheets is compared."""
+    import math
+
+    import openpyxl
+    from recalc import needs_soffice, recalculate  # noqa: F401
+
+    from tco.report.fleet_report import build_fleet_workbook
+    from tco.report.fleet_summary import build_fleet_summary
+
+    import shutil
+    if shutil.which("soffice") is None:
+        pytest.skip("LibreOffice (soffice) is not installed")
+    _, _, _, res, _ = run
+    s = build_fleet_summary(res)
+    tr = s["transition"]
+    book = tmp_path / "book.xlsx"
+    build_fleet_workbook(res, s).save(book)
+    out = recalculate(book, tmp_path / "recalc")
+    wb = openpyxl.load_workbook(out, data_only=True)
+    formulas = openpyxl.load_workbook(book)
+    checked = set()
+
+    def check(sheet, coord, want):
+        got = wb[sheet][coord].value
+        if want is None or want == "":
+            assert got in (None, ""), (sheet, coord, got)
+        else:
+            assert math.isclose(float(got), float(want), rel_tol=1e-9, abs_tol=1e-6), \
+                (sheet, coord, got, want)
+        checked.add((sheet, coord))
+
+    sched = tr["schedule"]
+    for i, r in enumerate(sched):
+        check("Plan", f"I{2 + i}", r["pv_diesel"] - r["pv"])
+    tot = 2 + len(sched)
+    check("Plan", f"G{tot}", sum(r["pv"] for r in sched))
+    check("Plan", f"H{tot}", sum(r["pv_diesel"] for r in sched))
+    check("Plan", f"I{tot}", sum(r["pv_diesel"] - r["pv"] for r in sched))
+    check("Plan", f"D{tot}", tr["electric_vehicles"])
+    # the plan row: vehicles plus the shared depot, against every vehicle staying diesel
+    check("Plan", f"G{tot + 2}", tr["pv_plan"])
+    check("Plan", f"H{tot + 2}", tr["pv_all_diesel"])
+    check("Plan", f"I{tot + 2}", tr["pv_saving"])
+    chargers = 0
+    for i, r in enumerate(tr["yearly"]):
+        row = 2 + i
+        chargers += r["chargers_bought"]
+        check("Plan by year", f"D{row}", None if r["capital_budget"] is None
+              else r["capital_budget"] - r["capital"])
+        check("Plan by year", f"F{row}", chargers)
+        assert chargers == r["chargers"]
+        check("Plan by year", f"I{row}", None if r["grid_capacity_kW"] is None
+              else r["grid_capacity_kW"] - r["depot_peak_kW"])
+        check("Plan by year", f"M{row}", r["scope_1_2_t"])
+        check("Plan by year", f"P{row}", r["shortfall_t"])
+    check("Plan by year", f"B{2 + len(tr['yearly'])}", sum(r["capital"] for r in tr["yearly"]))
+    for i, r in enumerate(tr["macc"]):
+        check("Abatement", f"D{2 + i}", r["cumulative_t"])
+    unchecked = [(ws.title, c.coordinate) for ws in formulas.worksheets
+                 if ws.title in ("Plan", "Plan by year", "Abatement", "Shadow prices")
+                 for row in ws.iter_rows() for c in row
+                 if c.data_type == "f" and (ws.title, c.coordinate) not in checked]
+    assert unchecked == []

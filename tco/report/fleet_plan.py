@@ -13,7 +13,8 @@ their key names) · ``target_met`` (bool, or null without a target) · ``shortfa
 (total over the target, 0 when met) · ``binds`` (list of str: what stops the target
 being met) · ``objective`` (present value of the plan with the carbon price) ·
 ``pv_plan`` / ``pv_all_diesel`` / ``pv_saving`` (without the carbon price; the plan
-against every vehicle staying diesel) · ``electric_vehicles`` (int) ·
+against every vehicle staying diesel) · ``pv_depot`` (the shared depot's part of
+``pv_plan``: chargers, grid connection and upgrade) · ``electric_vehicles`` (int) ·
 ``schedule`` (records: ``vehicle, route, feasible, decision, purchase_year,
 diesel_replacement_year, pv, pv_diesel, saving, loses_money, reason``) ·
 ``yearly`` (records by calendar year of purchase/service: ``calendar_year, capital,
@@ -116,6 +117,8 @@ def transition_summary(result) -> dict | None:
         "pv_plan": _f(tp.present_value),
         "pv_all_diesel": _f(tp.present_value_diesel),
         "pv_saving": _f(tp.present_value_diesel - tp.present_value),
+        "pv_depot": _f(tp.present_value - sum(r["present_value"] for r in
+                                                tp.schedule.to_dict("records"))),
         "electric_vehicles": sum(1 for r in schedule if r["decision"] == "electric"),
         "schedule": schedule,
         "yearly": yearly,
@@ -305,12 +308,19 @@ def add_transition_sheets(wb, summary: dict) -> None:
         safe_text(ws.cell(row=row, column=11), r["reason"])
     last = 1 + len(rows)
     tot = last + 1
-    safe_text(ws.cell(row=tot, column=1), "Total")
+    safe_text(ws.cell(row=tot, column=1), "Vehicles")
     for col in (7, 8, 9):
         c = chr(64 + col)
         ws.cell(row=tot, column=col, value=f"=SUM({c}2:{c}{last})").number_format = wbb.MONEY
     ws.cell(row=tot, column=4, value=f'=COUNTIF(D2:D{last},"electric")')
-    note = tot + 2
+    safe_text(ws.cell(row=tot + 1, column=1), "Shared depot (chargers, grid connection, "
+                                               "upgrade)")
+    write_value(ws.cell(row=tot + 1, column=7), tr["pv_depot"], wbb.MONEY)
+    safe_text(ws.cell(row=tot + 2, column=1), "Plan")
+    ws.cell(row=tot + 2, column=7, value=f"=G{tot}+G{tot + 1}").number_format = wbb.MONEY
+    ws.cell(row=tot + 2, column=8, value=f"=H{tot}").number_format = wbb.MONEY
+    ws.cell(row=tot + 2, column=9, value=f"=H{tot + 2}-G{tot + 2}").number_format = wbb.MONEY
+    note = tot + 4
     for k, text in enumerate(tr["notes"]):
         safe_text(ws.cell(row=note + k, column=1), text)
     wbb.set_widths(ws, {1: 12, 2: 18, 3: 9, 4: 10, 5: 12, 6: 12, 7: 16, 8: 16, 9: 14,
