@@ -5,6 +5,7 @@ The data flows one way; writers in :mod:`tco.report` only render the Result.
 """
 from __future__ import annotations
 
+import copy
 import dataclasses
 import math
 import re
@@ -448,6 +449,8 @@ def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
     warnings = unusual_values(s)
     warnings += [w for tr in trucks.values() for w in tr.warnings]
     warnings += list(getattr(cf, "assumptions", []))
+    warnings += timed("other modelling conventions", other_conventions, loaded, trip, diff,
+                      ref)
     return Result(
         loaded=loaded, route=trip, route_summary=dutycycle.trace_summary(trip),
         trucks=trucks, cashflow=cf, emissions=em, uncertainty=unc, depot=depot_info,
@@ -455,6 +458,61 @@ def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
         created=datetime.now(timezone.utc).replace(microsecond=0).isoformat(),
         timings=timings,
     )
+
+
+#: Modelling conventions where practice differs: (name, applies to the scenario, change
+#: to the other convention, what the other convention is).
+CONVENTIONS = (
+    ("wind",
+     lambda s: s.ambient.headwind != 0 and s.ambient.wind_treatment != "headwind",
+     lambda s: setattr(s.ambient, "wind_treatment", "headwind"),
+     "the wind blowing against the truck on every leg (ambient.wind_treatment = "
+     "\"headwind\") instead of averaged over all directions"),
+    ("breaks",
+     lambda s: any(t.powertrain == "electric" and t.electric.enroute.power > 0
+                   and t.electric.enroute.charge_during_breaks for t in s.trucks),
+     lambda s: [setattr(t.electric.enroute, "charge_during_breaks", False)
+                for t in s.trucks if t.powertrain == "electric"],
+     "en-route charging never coinciding with the driver's required breaks "
+     "(enroute.charge_during_breaks = false)"),
+)
+
+
+def other_conventions(loaded: LoadedScenario, trip: pd.DataFrame, diff: dict,
+                      baseline: str) -> list[str]:
+    """A warning for each convention whose other form would change the verdict.
+
+    For each of :data:`CONVENTIONS` that applies, the energy and the cash flows are run
+    again with the other form (no break-even search) and the present-value difference
+    of each truck against the baseline compared with ``diff`` [currency]: where its sign
+    changes, the verdict depends on the convention and the warning says by how much.
+    """
+    from tco import cashflow, energy
+
+    out = []
+    for _name, applies, change, what in CONVENTIONS:
+        if not applies(loaded.scenario):
+            continue
+        s2 = loaded.scenario.model_copy(deep=True)
+        change(s2)
+        alt = copy.copy(loaded)
+        alt.scenario = s2
+        ops = [energy.simulate(t, s2, trip).operation for t in s2.trucks]
+        sd = depot_schedule(alt, ops)
+        ops = depot_model.with_schedule(ops, sd)
+        cf2 = cashflow.evaluate(cost_inputs(s2, ops), break_evens=False)
+        pv2 = {m.name: m.present_value for m in cf2.trucks}
+        cur = s2.study.currency
+        for name, d in diff.items():
+            d2 = pv2[name] - pv2[baseline]
+            if (d > 0) != (d2 > 0):
+                def word(x):
+                    return "more" if x > 0 else "less"
+                out.append(
+                    f"The verdict depends on a modelling convention: with {what}, "
+                    f"{name} would cost {abs(d2):,.0f} {cur} {word(d2)} than {baseline} "
+                    f"(present value) instead of {abs(d):,.0f} {cur} {word(d)}.")
+    return out
 
 
 #: Monte Carlo draws made when only validating (``tco check``): enough to read and check

@@ -289,3 +289,28 @@ def test_workbook_and_report_show_the_emissions_tornado(demo_unc):
     assert "P10–P90 of its distribution" in texts
     titles = [t["title"] for t in _uncertainty_tables(demo_unc, "EUR")]
     assert "Sensitivity of the emissions avoided" in titles
+
+
+def test_other_convention_is_reported_only_where_it_moves_the_verdict():
+    # The demo's 5 km/h wind, averaged over directions by default. The same scenario run
+    # with the headwind rule gives the other present-value difference; a warning appears
+    # only when the difference given changes sign under the other rule.
+    from tco.pipeline import build_trip, evaluate, other_conventions
+    from tco.resources import demo_path
+    from tco.scenario import load_scenario
+
+    loaded = load_scenario(demo_path())
+    loaded.scenario.uncertainty.enabled = False
+    trip = build_trip(loaded)
+    head = load_scenario(demo_path())
+    head.scenario.uncertainty.enabled = False
+    head.scenario.ambient.wind_treatment = "headwind"
+    pv = {m.name: m.present_value for m in evaluate(head).cashflow.trucks}
+    other = pv["Electric tractor"] - pv["Diesel tractor"]
+    assert other < 0  # electric cheaper under the headwind rule too
+    same = other_conventions(loaded, trip, {"Electric tractor": -1.0}, "Diesel tractor")
+    assert same == []
+    flipped = other_conventions(loaded, trip, {"Electric tractor": 1.0}, "Diesel tractor")
+    wind = [w for w in flipped if "ambient.wind_treatment" in w]
+    assert len(wind) == 1  # (the break rule, which the demo also has, is the other)
+    assert f"would cost {abs(other):,.0f} EUR less than Diesel tractor" in wind[0]
