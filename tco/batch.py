@@ -381,7 +381,7 @@ def _run_parallel(tasks, workers, batch_dir, json_only, done, since) -> int:
 
 
 def run_batch(folder, out_root, jobs: int | None = None, json_only: bool = False,
-              progress=None) -> BatchOutcome:
+              progress=None, on_done=None) -> BatchOutcome:
     """Run every scenario in a folder and write each one's outputs and the batch index.
 
     Parameters
@@ -399,6 +399,9 @@ def run_batch(folder, out_root, jobs: int | None = None, json_only: bool = False
         Write ``summary.json`` only for each scenario, and ``index.json`` only for the
         index (no PDF, HTML or workbooks).
     progress : tco.progress.Steps, optional
+    on_done : callable, optional
+        Called with each :class:`ScenarioOutcome` as soon as it finishes (the command
+        line prints one line per client from it).
         Progress display: a bar advancing by one per scenario, then a step for the
         index. Silent by default.
 
@@ -445,12 +448,15 @@ def run_batch(folder, out_root, jobs: int | None = None, json_only: bool = False
     check_writable(batch_dir)
     steps = progress or Silent()
 
-    advance = steps.bar(len(files), f"{len(files)} scenarios")
+    advance = steps.bar(len(files), f"0 of {len(files)} scenarios done")
     results: dict[str, ScenarioOutcome] = {}
 
     def done(outcome: ScenarioOutcome) -> None:
         results[outcome.file] = outcome
         advance(1)
+        steps.describe(f"{len(results)} of {len(files)} scenarios done")
+        if on_done is not None:
+            on_done(outcome)
 
     tasks, skipped = _load_all(files)
     for outcome in skipped.values():

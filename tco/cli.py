@@ -258,9 +258,16 @@ def _cmd_batch(args) -> int:
 
     jobs = _at_least_one(args.jobs)
     folder = Path(args.folder) if args.folder else demo_batch_dir()
+    from tco.report.batch_index import outcome_row
+    from tco.report.formatting import client_line
+
+    def report(sc) -> None:  # one line per client as it finishes
+        if not args.quiet and sc.ok:
+            print(client_line(outcome_row(sc)), flush=True)
+
     with Steps(quiet=args.quiet) as steps:
         outcome = run_batch(folder, Path(args.out), jobs=jobs, json_only=args.json_only,
-                            progress=steps)
+                            progress=steps, on_done=report)
     for bad in outcome.errors:
         print(f"tco: error: {bad.error}", file=sys.stderr)
     if not args.quiet:

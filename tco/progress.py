@@ -58,6 +58,12 @@ class Steps:
         return lambda n=1: self._progress.advance(self._task, n)
 
 
+    def describe(self, text: str) -> None:
+        """Change the current step's text (e.g. a count: ``2 of 3 scenarios done``)."""
+        if self._progress is not None and self._task is not None:
+            self._progress.update(self._task, description=text)
+
+
 class Silent(Steps):
     """No display at all (Python API default)."""
 

@@ -69,8 +69,8 @@ def _parse_string(text: str) -> pint.Quantity:
                         "are at most 4)")
     if _CURRENCY_SIGNS.search(text):
         raise UnitError(
-            f"'{text}' has a currency sign; write money as a plain number in the "
-            "scenario's currency"
+            f"'{text}' has a currency sign: write amounts as plain numbers in the "
+            "scenario's currency (study.currency), e.g. 120000"
         )
     cleaned = text.strip().replace("%", " percent").replace("²", "^2").replace("³", "^3")
     try:

@@ -97,6 +97,26 @@ def three(tmp_path) -> Path:
 
 
 # ---------------------------------------------------------------- equal to single runs --
+def test_batch_tells_each_client_as_it_finishes(three, tmp_path):
+    """``on_done`` is called once per client; the console line names the client, the
+    verdict, the present value difference and the tonnes avoided (formatting.client_line)."""
+    from tco.report.batch_index import outcome_row
+    from tco.report.formatting import client_line
+
+    seen = []
+    outcome = batch.run_batch(three, tmp_path / "out", jobs=1, json_only=True,
+                              on_done=lambda sc: seen.append(client_line(outcome_row(sc))))
+    assert len(seen) == len(outcome.scenarios) == 3
+    for sc in outcome.scenarios:
+        row = outcome_row(sc)
+        diff = row["present_value_difference"]
+        line = next(x for x in seen if x.startswith(row["study"] + ":"))
+        word = "cheaper" if diff < 0 else "dearer"
+        # hand-written: the absolute difference with separators and the currency code
+        assert f"{row['truck']} {word} by {abs(diff):,.0f} {row['currency']}" in line
+        assert f"avoids {row['avoided_t_co2e']:,.0f} t CO2e" in line
+
+
 def test_batch_equals_individual_runs(three, tmp_path):
     """Each client's summary.json and index row equal the scenario run alone.
 
@@ -112,6 +132,11 @@ def test_batch_equals_individual_runs(three, tmp_path):
     index = _read(out / "clients" / "index.json")
     assert outcome.index == [out / "clients" / "index.json"]   # json_only: no PDF, no xlsx
     assert index["counts"] == {"scenarios": 3, "ok": 3, "errors": 0}
+    # the three JSON outputs share these top-level keys (added beside the old ones)
+    first = _read(out / "clients" / outcome.scenarios[0].slug / "summary.json")
+    for key in ("schema_version", "tool", "generated"):
+        assert key in index and key in first
+    assert index["schema"] == "tco.batch.index/1" and index["schema_version"] == "1"
     for sc, row in zip(outcome.scenarios, index["rows"]):
         ref = _alone(three / sc.file)
         written = _read(out / "clients" / sc.slug / "summary.json")

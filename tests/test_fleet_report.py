@@ -133,6 +133,9 @@ def test_summary_is_strict_json_with_schema_and_fingerprints(fleet, summary):
     assert back == summary
     assert summary["schema"] == SCHEMA == "tco.fleet.summary/1.1"
     assert summary["created"] == CREATED
+    # shared with summary.json and the batch index.json (added beside the old keys)
+    assert summary["schema_version"] == "1.1" and summary["generated"] == CREATED
+    assert summary["tool"]["name"] == "tco"
     inputs = summary["inputs"]
     assert inputs["base_fingerprint_sha256"] == fleet.base.fingerprint
     # FIPS 180-4 SHA-256 of the fleet file's bytes, computed by hashlib independently

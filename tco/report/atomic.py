@@ -22,6 +22,18 @@ from pathlib import Path
 from tco.errors import InputError
 
 
+def file_mode() -> int:
+    """The mode a new file gets under the user's umask (``0o666 & ~umask``).
+
+    ``tempfile.mkstemp`` creates its file with mode 0600 whatever the umask; a file put in
+    place from it is given this mode first, so outputs follow the umask like any file the
+    user's programs write.
+    """
+    mask = os.umask(0)
+    os.umask(mask)
+    return 0o666 & ~mask
+
+
 def write_text_atomic(path: Path, text: str) -> None:
     """Write ``text`` to ``path`` through a temporary file in the same folder."""
     path = Path(path)
@@ -29,6 +41,7 @@ def write_text_atomic(path: Path, text: str) -> None:
     try:
         with os.fdopen(fd, "w", encoding="utf-8") as fh:
             fh.write(text)
+        os.chmod(tmp, file_mode())
         os.replace(tmp, path)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
@@ -42,6 +55,7 @@ def write_bytes_atomic(path: Path, data: bytes) -> None:
     try:
         with os.fdopen(fd, "wb") as fh:
             fh.write(data)
+        os.chmod(tmp, file_mode())
         os.replace(tmp, path)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)

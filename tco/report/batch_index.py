@@ -9,7 +9,8 @@ One row per client and compared truck: a scenario with a diesel baseline and one
 electric truck gives one row; one with two candidate trucks gives two. A skipped scenario
 gives one row with status ``error`` and its one-line error.
 
-``index.json`` (``schema`` ``tco.batch.index/1``)
+``index.json`` (``schema`` ``tco.batch.index/1``; ``schema_version`` ``"1"``, ``tool`` and
+``generated`` as in summary.json and fleet.json)
 -------------------------------------------------
 ``batch``, ``generated`` (ISO 8601, UTC), ``tool`` {name, version}, ``counts``
 {scenarios, ok, errors}, ``rows`` [row], ``errors`` [{file, error}], ``totals``
@@ -164,6 +165,17 @@ def index_rows(outcome) -> list[dict]:
     return rows
 
 
+def outcome_row(sc) -> dict:
+    """The index row of one finished scenario (its first comparison), for the console."""
+    if not sc.ok:
+        return _error_row(sc)
+    comps = _get(sc.summary, "cashflow", "comparisons") or []
+    if not comps:
+        return {"file": sc.file, "status": "ok", "study": _get(sc.summary, "scenario", "name"),
+                "present_value_difference": None, "avoided_t_co2e": None}
+    return _row(sc, sc.summary, comps[0], len(comps))
+
+
 def currency_totals(rows: list[dict]) -> dict:
     """Totals per currency over clients with one compared truck.
 
@@ -205,6 +217,8 @@ def index_data(outcome, generated: str | None = None) -> dict:
     rows = index_rows(outcome)
     return {
         "schema": INDEX_SCHEMA,
+        # shared with summary.json and fleet.json: schema_version, tool, generated
+        "schema_version": INDEX_SCHEMA.rsplit("/", 1)[1],
         "batch": outcome.name,
         "generated": generated or datetime.now(timezone.utc).replace(microsecond=0).isoformat(),
         "tool": {"name": "tco", "version": __version__},
@@ -255,7 +269,9 @@ def _payback(year) -> str:
 
 
 def _irr(row: dict) -> str:
-    return _pct(row["irr"], 1) if _finite(row["irr"]) else "none"
+    from tco.report.formatting import irr_text
+
+    return irr_text(row["irr"], None, row.get("simple_payback_year"), check_payback=True)
 
 
 def _short_feasible(v: str | None) -> str:

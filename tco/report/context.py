@@ -255,7 +255,9 @@ def _key_figures(result, u: DisplayUnits, summary: dict) -> list[dict]:
                                                if c.discounted_payback_year
                                                else "not within the period"))})
         out.append({"label": "IRR of the extra investment",
-                    "value": fm.irr_text(c.irr), "note": c.irr_note or (
+                    "value": fm.irr_text(c.irr, None, c.simple_payback_year,
+                                         check_payback=True),
+                    "note": c.irr_note or (
                         "" if fm.number(c.irr) != fm.DASH
                         else "the cash flows have no meaningful rate of return")})
         e = em.get(c.truck, {})

@@ -10,7 +10,10 @@ This dict is the one source of every figure the fleet report and workbook show
 
 Top-level keys
 --------------
-``schema``, ``tool`` ``{name, version}``, ``created`` (ISO 8601, UTC)
+``schema``, ``tool`` ``{name, version}``, ``created`` (ISO 8601, UTC);
+``schema_version`` (``"1.1"``, the version part of ``schema``) and ``generated`` (equal
+to ``created``), added so that summary.json, fleet.json and a batch's index.json share
+``schema_version``, ``tool`` and ``generated``
 ``study``
     ``name``, ``slug``, ``notes``, ``units``, ``start_year``, ``analysis_years``,
     ``discount_rate``, ``money_basis``.
@@ -374,8 +377,11 @@ def build_fleet_summary(result, created: str | None = None) -> dict:
     tonnes_discounted = bool(getattr(s.emissions, "discount_tonnes", False))
     out = {
         "schema": SCHEMA,
+        # shared with summary.json and the batch index.json: schema_version, tool, generated
+        "schema_version": SCHEMA.rsplit("/", 1)[1],
         "tool": {"name": "tco", "version": __version__},
         "created": created,
+        "generated": created,
         "study": {"name": s.study.name, "slug": loaded.slug, "notes": s.study.notes,
                   "units": s.study.units, "page_size": s.study.page_size,
                   "start_year": s.study.start_year,

@@ -27,7 +27,7 @@ from tco.units import from_si
 __all__ = [
     "DASH", "number", "money", "signed_money", "percent", "unit_price", "per_unit_label",
     "quantity", "Units", "input_value", "label_from_description", "field_label", "hours_text",
-    "irr_text", "range_text", "EXCEL_FORMATS",
+    "irr_text", "range_text", "client_line", "EXCEL_FORMATS",
 ]
 
 #: Shown for a missing or non-finite figure.
@@ -365,11 +365,43 @@ def range_text(low: str, high: str) -> str:
     return f"{' '.join(a[:-k])} – {high}"
 
 
-def irr_text(irr, reason: str | None = None) -> str:
-    """An internal rate of return as a percentage, or ``n/a`` with the reason."""
-    if _finite(irr):
+def irr_text(irr, reason: str | None = None, payback_year=None,
+             check_payback: bool = False) -> str:
+    """An internal rate of return as a percentage, or ``n/a`` with the reason.
+
+    With ``check_payback``, a negative rate on an extra investment that is never paid
+    back (no ``payback_year``) is shown as ``n/a``: the savings never recover the extra
+    cost, so no rate of return describes it (a "−60 %" would read as a figure to weigh).
+    """
+    if _finite(irr) and not (check_payback and payback_year is None and float(irr) < 0):
         return percent(irr, 1)
+    if _finite(irr):
+        reason = reason or "the savings never recover the extra cost"
     return f"n/a ({reason})" if reason else "n/a"
+
+
+def client_line(row: dict) -> str:
+    """One console line for a finished batch client (a row of the batch index).
+
+    ``Acme Haulage: Electric tractor cheaper by 75,203 EUR over the period (present
+    value); avoids 743 t CO2e`` or ``bad.toml: skipped: <error>``.
+    """
+    if row.get("status") != "ok":
+        return f"{row.get('file')}: skipped: {row.get('error')}"
+    name = row.get("study") or row.get("file")
+    diff = row.get("present_value_difference")
+    cur = row.get("currency") or ""
+    if not _finite(diff):
+        verdict = "no comparison"
+    elif float(diff) < 0:
+        verdict = f"{row['truck']} cheaper by {money(-float(diff), cur)}"
+    elif float(diff) > 0:
+        verdict = f"{row['truck']} dearer by {money(float(diff), cur)}"
+    else:
+        verdict = "both cost the same"
+    avoided = row.get("avoided_t_co2e")
+    tail = f"; avoids {number(avoided, 0)} t CO2e" if _finite(avoided) else ""
+    return f"{name}: {verdict} (present value){tail}"
 
 
 #: Number formats shared with the workbook (spreadsheet syntax), by kind.

@@ -27,6 +27,7 @@ group left to right; an empty cell is 0 in arithmetic; ``SUM``/``COUNT`` skip te
 from __future__ import annotations
 
 import math
+import os
 import re
 import shutil
 import tempfile
@@ -515,6 +516,9 @@ def store_cached_values(path, values: dict[tuple[str, str], object]) -> None:
                                                 cells.get(m.group(1))), text)
                         data = text.encode("utf-8")
                     out.writestr(info, data)
+            from tco.report.atomic import file_mode
+
+            os.chmod(tmp, file_mode())  # mkstemp makes 0600; follow the user's umask
             shutil.move(tmp, path)
         except BaseException:
             Path(tmp).unlink(missing_ok=True)

@@ -176,6 +176,37 @@ def _loc(loc: tuple) -> str:
     return out
 
 
+def _field_names_at(loc: tuple) -> list[str]:
+    """Names of the fields of the section at ``loc`` (list indices skipped)."""
+    import typing
+
+    from pydantic import BaseModel
+
+    cls = Scenario
+    for part in loc:
+        if isinstance(part, int):
+            continue
+        field = cls.model_fields.get(str(part))
+        if field is None:
+            return []
+        found = None
+        stack = [field.annotation]
+        while stack:
+            t = stack.pop()
+            if isinstance(t, type) and issubclass(t, BaseModel):
+                found = t
+                break
+            stack.extend(typing.get_args(t))
+        if found is None:
+            return []
+        cls = found
+    return list(cls.model_fields)
+
+
+def _has_currency_sign(value) -> bool:
+    return isinstance(value, str) and any(sign in value for sign in "$€£¥₹")
+
+
 def parse_scenario(data: dict, path: Path | None = None) -> Scenario:
     """Validate a scenario given as a dict (e.g. parsed TOML); errors as InputError."""
     try:
@@ -196,8 +227,14 @@ def parse_scenario(data: dict, path: Path | None = None) -> Scenario:
             missing = [str(e["loc"][-1]) for e in errors
                        if e.get("type") == "missing" and e["loc"][:-1] == parent]
             close = difflib.get_close_matches(str(err["loc"][-1]), missing, n=1)
+            if not close:  # a misspelt optional field: the known names at that place
+                close = difflib.get_close_matches(str(err["loc"][-1]),
+                                                  _field_names_at(parent), n=1, cutoff=0.6)
             msg += f" (did you mean '{close[0]}'?)" if close else \
                 " (check its spelling against `tco init`)"
+        elif _has_currency_sign(err.get("input")):
+            msg = (f"'{err['input']}' has a currency sign: write amounts as plain numbers "
+                   "in the scenario's currency (study.currency), e.g. 120000")
         elif kind == "missing":
             msg = "required field is missing"
         raise InputError(msg, file=path, where=where) from None
