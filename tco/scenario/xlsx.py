@@ -440,7 +440,7 @@ def load_workbook_scenario(path):
         raise InputError(exc.message, file=path,
                          where=_cell_of(exc.where, where_of)) from None
     fp, inputs_fp = _fingerprints(path, scenario)
-    return LoadedScenario(scenario, path.resolve(), data, fp, inputs_fp)
+    return LoadedScenario(scenario, path.resolve(), data, fp, inputs_fp, shown=path)
 
 
 def _check_named_input(sheet: str, r: int, vals: list, path: Path) -> None:
@@ -492,10 +492,12 @@ def _fingerprints(path: Path, scenario) -> tuple[str, str]:
     traces = []
     for i, leg in enumerate(scenario.route.legs):
         if leg.file:
-            trace = path.parent / leg.file
-            if not trace.is_file():
-                raise InputError(f"trace file '{leg.file}' not found", file=path,
-                                 where=f"route.legs[{i}].file")
+            from tco.scenario.files import input_file
+
+            try:  # in the workbook's folder (or an allowed one), see tco.scenario.files
+                trace = input_file(leg.file, path.parent, (".csv", ".gpx"), "trace file")
+            except InputError as exc:
+                raise exc.located(file=path, where=f"route.legs[{i}].file") from None
             blob = trace.read_bytes()
             h.update(blob)
             traces.append(blob)
