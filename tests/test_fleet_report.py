@@ -27,6 +27,7 @@ import hashlib
 import json
 import math
 import re
+import shutil
 from pathlib import Path
 
 import numpy as np
@@ -500,13 +501,15 @@ def hostile(tmp_path_factory):
                       count=1)
     assert n == 1
     (d / "base.toml").write_text(base, encoding="utf-8")
+    # cycles must lie in the fleet file's folder (tco.scenario.files): copy them there
+    shutil.copytree(src / "cycles", d / "cycles")
     cycles = ["cycles/city-loop.toml", "cycles/yard-hop.csv", "cycles/city-loop.toml"]
     with open(d / "fleet.csv", "w", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)
         w.writerow(["vehicle", "route", "cycle", "current", "candidate", "arrive", "depart"])
         for v, r, c, a in zip(HOSTILE_VEHICLES, HOSTILE_ROUTES, cycles,
                               ("17:00", "16:00", "18:00")):
-            w.writerow([v, r, str(src / c), "Diesel rigid", "Electric rigid", a, "06:00"])
+            w.writerow([v, r, c, "Diesel rigid", "Electric rigid", a, "06:00"])
     result = _evaluate(d / "base.toml", d / "fleet.csv")
     return _write_all(result, d / "out")
 
