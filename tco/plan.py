@@ -31,7 +31,8 @@ subject to
 * emissions target: :math:`\\sum_{v,o} E_{v,o,y} x_{v,o} \\le (1 - r) E_{base}` in every
   year from the target year on.
 
-When the target cannot be met, the programme is solved lexicographically: first the
+With a target, the programme is first solved with the target as a hard limit. When no
+plan meets it, the programme is solved lexicographically: first the
 smallest total shortfall (an elastic target, :math:`E_y - s_y \\le` limit, minimise
 :math:`\\sum s_y`), then the lowest cost at that shortfall. What binds is found by
 re-solving the first stage with one family of constraints lifted at a time (budget, grid,
@@ -410,24 +411,33 @@ def solve(pb: PlanProblem, gap: float = 1e-9, time_limit: float | None = None,
     shortfall = np.zeros(pb.N)
     binds: list[str] = []
     extra = None
+    res = None
     if elastic:
-        first = _run_milp(model, _shortfall_objective(model), lb, ub, gap=gap,
-                          time_limit=time_limit)
-        _check(first)
-        total_short = float(first.fun)
-        if total_short > 1e-6:
-            binds = _what_binds(pb, total_short, gap, time_limit)
-        # second stage: the lowest cost at that shortfall
-        row = np.zeros(model.n)
-        row[model.i_s:] = 1.0
-        extra = LinearConstraint(row[None, :], -np.inf, total_short * (1 + 1e-9) + 1e-7)
-    res = _run_milp(model, c, lb, ub, extra=extra, gap=gap, time_limit=time_limit)
-    _check(res)
+        # The target as a hard limit first: when a plan meets it, that is the answer.
+        hard = _Model(pb, elastic=False)
+        h_lb, h_ub = hard.bounds()
+        r = _run_milp(hard, hard.cost(), h_lb, h_ub, gap=gap, time_limit=time_limit)
+        if r.x is not None:
+            model, lb, ub, c, res = hard, h_lb, h_ub, hard.cost(), r
+        else:  # out of reach (or not found in time): smallest shortfall, then lowest cost
+            first = _run_milp(model, _shortfall_objective(model), lb, ub, gap=gap,
+                              time_limit=time_limit)
+            _check(first)
+            total_short = float(first.fun)
+            if total_short > 1e-6:
+                binds = _what_binds(pb, total_short, gap, time_limit)
+            row = np.zeros(model.n)
+            row[model.i_s:] = 1.0
+            extra = LinearConstraint(row[None, :], -np.inf,
+                                     total_short * (1 + 1e-9) + 1e-7)
+    if res is None:
+        res = _run_milp(model, c, lb, ub, extra=extra, gap=gap, time_limit=time_limit)
+        _check(res)
     x = res.x.copy()
     x[:model.i_s] = np.round(x[:model.i_s])  # integers within HiGHS' tolerance: exact
     V, N = pb.V, pb.N
     choice = np.argmax(x[:model.nx].reshape(V, N + 1), axis=1)
-    if elastic:
+    if model.elastic:
         shortfall[model.target_years] = np.maximum(res.x[model.i_s:], 0.0)
         shortfall[shortfall < 1e-6] = 0.0
     sol = PlanSolution(
