@@ -107,8 +107,8 @@ __all__ = [
 ]
 
 _M_PER_KM = 1000.0
-_M_PER_MILE = 1609.344  # international mile, exact
-_J_PER_KWH = 3.6e6
+from tco.units import J_PER_KWH as _J_PER_KWH  # noqa: E402
+from tco.units import M_PER_MILE as _M_PER_MILE  # noqa: E402
 _M3_PER_L = 1e-3
 
 

@@ -87,6 +87,7 @@ from tco.emission_factors import (  # noqa: F401  (re-exported: the model's publ
     load_factor_table,
 )
 from tco.errors import InputError
+from tco.units import J_PER_KWH
 
 if TYPE_CHECKING:  # pragma: no cover
     from tco.operation import AnnualOperation
@@ -109,7 +110,6 @@ LINES: tuple[tuple[str, str, str], ...] = (
     ("electricity_td_losses", "scope_3_cat3", "both"),
 )
 LINE_NAMES = tuple(n for n, _, _ in LINES)
-TTW_LINES = ("diesel_co2", "diesel_ch4_n2o", "def_urea_co2")
 
 #: Reporting frames built from the lines (kg CO2e per year).
 FRAMES = (
@@ -502,7 +502,7 @@ def _resolve(settings: "EmissionsSettings") -> tuple[dict[str, float], list[dict
         p[_P + "lifecycle.battery"] = lc.battery
         add("lifecycle.vehicle_diesel", lc.vehicle_diesel, "kg CO2e", "user")
         add("lifecycle.vehicle_electric", lc.vehicle_electric, "kg CO2e", "user")
-        add("lifecycle.battery", lc.battery * 3.6e6, "kg CO2e/kWh", "user")
+        add("lifecycle.battery", lc.battery * J_PER_KWH, "kg CO2e/kWh", "user")
     return p, prov, notes
 
 

@@ -30,7 +30,7 @@ from tco.electric import ElectricPowertrain
 from tco.operation import AnnualOperation
 from tco.result import TruckResult
 
-J_PER_KWH = 3.6e6
+from tco.units import J_PER_KWH  # noqa: E402  [J/kWh]
 
 
 def vehicle_parameters(truck, ambient, mean_elevation: float) -> roadload.Vehicle:

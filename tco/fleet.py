@@ -71,7 +71,7 @@ from tco.text import clean_text
 from tco.scenario import LoadedScenario, parse_scenario
 from tco.units import UnitError, to_si
 
-J_PER_KWH = 3.6e6
+from tco.units import J_PER_KWH  # noqa: E402  [J/kWh]
 
 # column -> (required, default unit or None for text/number)
 COLUMNS: dict[str, tuple[bool, str | None]] = {

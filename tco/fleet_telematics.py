@@ -35,7 +35,7 @@ __all__ = ["read_logged_duty", "apply_logged_duty", "rescale_operation"]
 _DAY_S = 86_400.0
 _M_PER_KM = 1000.0
 _M3_PER_L = 1e-3
-_J_PER_KWH = 3.6e6
+from tco.units import J_PER_KWH as _J_PER_KWH  # noqa: E402
 #: vehicle_days.csv header -> (SI name, factor to SI)
 _COLUMNS = {
     "vehicle": ("vehicle", None), "truck": ("truck", None), "day (UTC)": ("day", None),

@@ -1026,7 +1026,9 @@ def vehicle_summary(vehicle_days: pd.DataFrame) -> pd.DataFrame:
 
 # ============================================================================ writing
 # (SI column, header in the written files, factor from SI, number format)
-_KWH, _L = 1 / 3.6e6, 1e3
+from tco.units import J_PER_KWH as _J_PER_KWH  # noqa: E402
+
+_KWH, _L = 1 / _J_PER_KWH, 1e3
 _DAY_FILE = [
     ("vehicle", "vehicle", None, None), ("day", "day (UTC)", None, None),
     ("truck", "truck", None, None), ("powertrain", "powertrain", None, None),

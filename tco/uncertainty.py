@@ -144,7 +144,7 @@ _NUMBERS = ("low", "mode", "high", "mean", "sd")
 _GROUP = re.compile(r"^(energy_use|residual_value)\[(\d+)\]$")
 _TRUCK = re.compile(r"^(trucks|operations)\[(\d+)\]\.(.+)$")
 _M_PER_KM = 1000.0
-_M_PER_MILE = 1609.344  # international mile, exact
+from tco.units import M_PER_MILE as _M_PER_MILE  # noqa: E402
 
 _LABELS = {
     "prices.diesel": "Diesel price",

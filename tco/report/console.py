@@ -6,19 +6,24 @@ import sys
 
 def print_summary(result) -> None:
     """Print the key figures of a Result (plain text; rich is used for colour if a tty)."""
+    from tco.report import formatting as fm
+
     s = result.scenario
     cur = s.study.currency
-    us = s.study.units == "us"
+    system = s.study.units
     lines = [f"{s.study.name}"]
     for m in result.cashflow.trucks:
-        per = m.levelized_cost * (1609.344 if us else 1000)
-        lines.append(f"  {m.name:<28} PV of costs {m.present_value:>14,.0f} {cur}   "
-                     f"{per:,.3f} {cur}/{'mi' if us else 'km'}")
+        # levelized cost per metre → per km, shown per mile in US units
+        per = fm.unit_price(m.levelized_cost * 1000.0, "km", cur, system, 3)
+        lines.append(f"  {m.name:<28} PV of costs {fm.money(m.present_value, cur):>18}   "
+                     f"{per}")
     for c in result.cashflow.comparisons:
         word = "more" if c.present_value_difference > 0 else "less"
         lines.append(f"  {c.truck} costs {abs(c.present_value_difference):,.0f} {cur} {word} "
                      f"than {c.baseline} over {result.cashflow.analysis_years} years "
                      "(present value)")
-    for w in result.warnings:
+    from tco.report.findings import rewrite_warnings
+
+    for w in rewrite_warnings(list(result.warnings), result, fm.Units(system)):
         lines.append(f"  warning: {w}")
     print("\n".join(lines), file=sys.stdout)

@@ -65,7 +65,7 @@ __all__ = ["SCHEMA", "build_fleet_summary", "dumps", "file_sha256", "depot_vehic
            "interval_means", "route_records", "order_records", "yearly_records", "clock"]
 
 SCHEMA = "tco.fleet.summary/1.1"
-J_PER_KWH = 3.6e6
+from tco.units import J_PER_KWH  # noqa: E402  [J/kWh]
 W_PER_KW = 1e3
 M_PER_KM = 1e3
 L_PER_M3 = 1e3

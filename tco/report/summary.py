@@ -13,10 +13,10 @@ from typing import Any
 import numpy as np
 
 from tco import __version__
-from tco.units import from_si, mpg_us
+from tco.units import J_PER_KWH as KWH
+from tco.units import M_PER_MILE, from_si, mpg_us
 
 SCHEMA_VERSION = "1.3"
-KWH = 3.6e6
 _L = 1e-3
 
 
@@ -43,7 +43,7 @@ def _per_distance(tr) -> dict:
     d = s["trip_distance"]
     wheel = s["wheel_energy"]
     metric = {"wheel_kWh_per_km": {k: v / KWH * 1000 / d for k, v in wheel.items()}}
-    us = {"wheel_kWh_per_mi": {k: v / KWH * 1609.344 / d for k, v in wheel.items()}}
+    us = {"wheel_kWh_per_mi": {k: v / KWH * M_PER_MILE / d for k, v in wheel.items()}}
     if tr.powertrain == "diesel":
         per_m = s["fuel_per_distance"]
         metric["fuel_L_per_100km"] = from_si(per_m, "L/(100 km)")
@@ -53,7 +53,7 @@ def _per_distance(tr) -> dict:
         for key, si in (("battery", s["battery_energy_net"] / d),
                         ("grid", (s["grid_energy_depot"] + s["grid_energy_public"]) / d)):
             metric[f"{key}_kWh_per_km"] = si / KWH * 1000
-            us[f"{key}_kWh_per_mi"] = si / KWH * 1609.344
+            us[f"{key}_kWh_per_mi"] = si / KWH * M_PER_MILE
     return {"metric": metric, "us": us}
 
 
@@ -88,7 +88,7 @@ def _per_year(tr) -> dict:
     op = tr.operation
     return {
         "operating_days": op.operating_days, "trips": op.trips, "extra_trips": op.extra_trips,
-        "distance_km": op.distance / 1000, "distance_mi": op.distance / 1609.344,
+        "distance_km": op.distance / 1000, "distance_mi": op.distance / M_PER_MILE,
         "tonne_km": op.payload_distance / 1e6,
         "diesel_L": op.diesel_volume / _L, "def_L": op.def_volume / _L,
         "battery_kWh": op.battery_energy / KWH,
@@ -247,7 +247,7 @@ def build_summary(result) -> dict:
         "route": {
             "trips_per_day": s.route.trips_per_day, "days_per_year": s.route.days_per_year,
             "trip_distance_km": rs["distance"] / 1000,
-            "trip_distance_mi": rs["distance"] / 1609.344,
+            "trip_distance_mi": rs["distance"] / M_PER_MILE,
             "trip_duration_h": rs["duration"] / 3600,
             "climb_m": rs.get("climb"), "descent_m": rs.get("descent"),
             "stops": rs.get("stops"),
