@@ -90,13 +90,11 @@ def test_the_charging_rule_alone_flips_the_verdict_and_the_report_says_why(by_ru
         r = by_rule[rule]
         text = " ".join(depot_sentences(r))
         d = r.depot["trucks"]["Electric tractor"]
-        assert f"Depot charging is {rule}" in text
-        assert "1 × 150 kW charger serving this truck alone" in text
-        assert "charged to the Electric tractor in full" in text
-        assert f"{round(d['depot_cost']):,} EUR" in text
-        assert f"{round(d['demand_charge']):,} EUR" in text
-        assert f"with {other} charging it would be {round(d['other_demand_charge']):,} EUR" \
-            in text
+        assert f"Depot: {rule} charging on 1 × 150 kW charger for this truck alone" in text
+        assert "the Electric tractor carries all of its build and upkeep" in text
+        assert f"({round(d['depot_cost']):,} EUR in present value)" in text
+        assert f"demand charge of {round(d['demand_charge']):,} EUR" in text
+        assert f"{other} charging: {round(d['other_demand_charge']):,} EUR" in text
         # the other rule's verdict is the other run's own figure
         word = "more" if diff[other] > 0 else "less"
         assert f"would cost {round(abs(diff[other])):,} EUR {word}" in text
@@ -122,7 +120,8 @@ def test_trucks_sharing_the_depot_split_its_cost():
     assert b["depot_cost"] == pytest.approx(a["depot_cost"] - grid + grid / 4, rel=1e-9)
     assert b["peak_contribution"] == pytest.approx(a["peak_contribution"], rel=1e-9)
     assert four.depot["trucks_sharing"] == 4
-    assert "shared by 4 trucks" in " ".join(depot_sentences(four))
+    assert "shared by 4 trucks; the Electric tractor carries 1/4 of its build" in \
+        " ".join(depot_sentences(four))
 
 
 def test_managed_charging_needs_a_charger_per_truck():
@@ -185,7 +184,7 @@ def test_the_verdict_says_whether_driver_wages_are_in(by_rule):
     on = evaluate(LoadedScenario(parse_scenario(raw, demo_path()), demo_path(), raw, "t"))
     s_on = build_summary(on)
     assert s_on["cost_covers"]["driver_wages"] is True
-    assert "Driver wages are included (38.00 EUR an hour" in _verdict(on, s_on)
+    assert "Driver wages are included (38.00 EUR an hour of duty)" in _verdict(on, s_on)
     # year 1 wages of the diesel: 500 trips × its trip duration × 38 EUR/h, grown one year
     # at the 2 % inflation its unset escalation follows
     op = on.trucks["Diesel tractor"].operation
@@ -288,7 +287,7 @@ def test_workbook_and_report_show_the_emissions_tornado(demo_unc):
     assert "Diesel CO2 factor, tank-to-wheel" in texts
     assert "P10–P90 of its distribution" in texts
     titles = [t["title"] for t in _uncertainty_tables(demo_unc, "EUR")]
-    assert "Sensitivity of the emissions avoided" in titles
+    assert "Sensitivity, one input at a time" in titles
 
 
 def test_other_convention_is_reported_only_where_it_moves_the_verdict():

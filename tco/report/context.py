@@ -157,41 +157,34 @@ def _verdict(result, summary: dict) -> str:
     return " ".join(p for p in parts if p)
 
 
-RULE_WORDS = {
-    "managed": "managed (each truck draws the steady power that refills it by departure)",
-    "unmanaged": "unmanaged (each truck charges at the charger's full power until full)",
-}
-
-
 def depot_sentences(result) -> list[str]:
     """What the depot costs the electric trucks and how the charging rule moves it: the
     rule, charger power, trucks sharing the depot, the depot cost each truck carries and
-    the demand charge under the other rule (from ``result.depot``)."""
+    the demand charge under the other rule (from ``result.depot``; one sentence a truck,
+    short enough for the verdict box)."""
     d = getattr(result, "depot", None)
     if not d:
         return []
     cur = result.scenario.study.currency
     cf = result.cashflow
     n = d["trucks_sharing"]
-    out = [
-        f"Depot charging is {RULE_WORDS[d['charging']]}, on {d['chargers']} × "
-        f"{fmt_number(d['charger_power'] / 1000)} kW charger"
-        + ("s" if d["chargers"] != 1 else "")
-        + (" serving this truck alone" if n == 1 else f" shared by {n} trucks") + "."]
+    chargers = (f"{d['chargers']} × {fmt_number(d['charger_power'] / 1000)} kW charger"
+                + ("s" if d["chargers"] != 1 else ""))
+    shared = "for this truck alone" if n == 1 else f"shared by {n} trucks"
+    out = []
     for name, t in d["trucks"].items():
-        who = "in full" if n == 1 else f"as 1/{n} of the depot (its share)"
-        s = (f"The depot build and upkeep (chargers, installation, grid connection, "
-             f"maintenance, less resale) is charged to the {name} {who}: "
-             f"{fmt_money(t['depot_cost'], cur)} in present value. Its demand charge is "
-             f"{fmt_money(t['demand_charge'], cur)} (billed on "
-             f"{fmt_number(t['peak_contribution'] / 1000)} kW)")
+        share = "all" if n == 1 else f"1/{n}"
+        s = (f"Depot: {d['charging']} charging on {chargers} {shared}; the {name} carries "
+             f"{share} of its build and upkeep ({fmt_money(t['depot_cost'], cur)} in present "
+             f"value) and a demand charge of {fmt_money(t['demand_charge'], cur)} on "
+             f"{fmt_number(t['peak_contribution'] / 1000)} kW")
         if t["other_demand_charge"] is not None:
             diff = t["other_difference"]
             word = "more" if diff > 0 else "less"
-            s += (f"; with {d['other_charging']} charging it would be "
-                  f"{fmt_money(t['other_demand_charge'], cur)} (billed on "
-                  f"{fmt_number(t['other_peak_contribution'] / 1000)} kW), and the {name} "
-                  f"would cost {fmt_money(abs(diff), cur)} {word} than the {cf.baseline}")
+            s += (f"; {d['other_charging']} charging: "
+                  f"{fmt_money(t['other_demand_charge'], cur)} on "
+                  f"{fmt_number(t['other_peak_contribution'] / 1000)} kW, and it would cost "
+                  f"{fmt_money(abs(diff), cur)} {word} than the {cf.baseline}")
         out.append(s + ".")
     return out
 
@@ -434,6 +427,12 @@ def _uncertainty_charts(result, cur: str) -> list[dict]:
     return out
 
 
+def _short_source(source: str) -> str:
+    """A tornado range's source in a few words for the report's table."""
+    return (source.replace("P10–P90 of its distribution", "P10–P90")
+            .replace("default ", "").replace("the two rules", "both rules"))
+
+
 def _range_text(r, cur: str, system: str) -> str:
     """The low – high of a tornado row ("managed – unmanaged" for the charging rule)."""
     key = getattr(r, "key", r.input)
@@ -466,27 +465,19 @@ def _uncertainty_tables(result, cur: str, system: str = "metric") -> list[dict]:
     tables = []
     t = unc.tornado
     if not t.empty:
-        rows = [[r.input, _range_text(r, cur, system), r.source, fmt_number(r.low),
-                 fmt_number(r.high), fmt_number(r.swing)] for r in t.itertuples()]
+        rows = [[r.input, _range_text(r, cur, system), _short_source(r.source),
+                 fmt_number(r.low), fmt_number(r.high), fmt_number(r.swing)]
+                for r in t.itertuples()]
         tables.append({"title": "Sensitivity, one input at a time",
                        "columns": ["Input", "Low – high", "Range from", f"ΔPV low [{cur}]",
                                    f"ΔPV high [{cur}]", f"Swing [{cur}]"],
                        "rows": rows, "note": "ΔPV: present value of the compared truck minus "
                        f"the {unc.baseline}; negative means the compared truck is cheaper. "
-                       "An input with a distribution in the scenario spans its P10–P90 (the "
-                       "Monte Carlo draws from the same distribution); the default swing "
-                       "applies only to inputs without one. Depot inputs are scheduled and "
-                       "costed again at each value."})
-    te = getattr(unc, "tornado_emissions", None)
-    if te is not None and not te.empty:
-        rows = [[f"{r.truck}: {r.input}", _range_text(r, cur, system), r.source,
-                 fmt_number(r.low), fmt_number(r.high), fmt_number(r.swing)]
-                for r in te.itertuples()]
-        tables.append({"title": "Sensitivity of the emissions avoided",
-                       "columns": ["Input", "Low – high", "Range from", "Avoided low [t CO2e]",
-                                   "Avoided high [t CO2e]", "Swing [t CO2e]"],
-                       "rows": rows, "note": "Well-to-wheel, location-based, over the "
-                       f"period, against the {unc.baseline}."})
+                       "Range from: P10–P90 of the input's distribution in the scenario (the "
+                       f"one the Monte Carlo draws from); ±{unc.default_swing:.0%}: the default "
+                       "swing, only for inputs without a range. Depot inputs are scheduled and costed again "
+                       "at each value. The emissions tornado's figures are in the workbook "
+                       "and summary.json."})
     st = unc.statistics
     labels = {"present_value_difference": (f"ΔPV [{cur}]", 1.0, 0),
               "levelized_cost_difference": (

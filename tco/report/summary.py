@@ -191,11 +191,9 @@ def driver_sentence(result) -> str:
     cur = result.scenario.study.currency
     if f.driver_wages:
         return (f"Driver wages are included ({f.driver_cost_per_hour * 3600:,.2f} {cur} an "
-                "hour for every trip's duty time and the time at en-route chargers), so the "
-                "cost per km is the full operating cost.")
-    return ("Driver wages are not included (the same job needs a driver either way); only "
-            "driver time that differs between the trucks is counted: en-route charging stops "
-            "and extra trips. Set [finance] driver_wages = true for the full operating cost.")
+                "hour of duty), so the cost per km is the full operating cost.")
+    return ("Driver wages are not included, only driver time that differs between the "
+            "trucks ([finance] driver_wages = true adds them).")
 
 
 def depot_summary(result) -> dict | None:
