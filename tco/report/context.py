@@ -756,7 +756,7 @@ def _financing_table(cashflow: dict, cur: str) -> dict | None:
     for name, t in trucks.items():
         rows.append([f"{name}: {t['method']} against paying cash, PV at the after-tax cost "
                      f"of debt {fm.percent(t['after_tax_cost_of_debt'], 2)} [{cur}]",
-                     fmt_number(t["present_value_at_cost_of_debt"])])
+                     fmt_number(round(t["present_value_at_cost_of_debt"]) + 0.0)])
         rows.append([f"{name}: present value as financed (equity view) [{cur}]",
                      fmt_number(t["present_value_as_financed"])])
     for c in f.get("comparisons") or []:
