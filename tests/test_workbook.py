@@ -1003,3 +1003,22 @@ def test_every_cost_line_has_a_workbook_formula(demo):
         else:
             missing.append(spec.name)
     assert not missing, f"cost lines without a workbook formula: {missing}"
+
+
+def test_financing_values_agree_with_the_summary(demo, demo_xlsx):
+    """The Summary sheet's financing block shows the same figures as summary.json (one
+    figure, one value everywhere); the loans of the demo are at the borrowing rate, so
+    each is worth 0 against paying cash (a loan at its own rate has zero NPV)."""
+    _, summary = demo
+    f = summary["cashflow"]["financing"]
+    ws = openpyxl.load_workbook(demo_xlsx)["Summary"]
+    shown = {str(ws.cell(r, 1).value): ws.cell(r, 3).value for r in range(1, ws.max_row + 1)}
+    for name, t in f["trucks"].items():
+        assert shown[f"{name}: present value as financed (equity view)"] == pytest.approx(
+            t["present_value_as_financed"], rel=1e-12)
+        key = (f"{name}: {t['method']} against paying cash, PV at the after-tax cost of debt "
+               "(positive: costs more)")
+        assert shown[key] == 0
+    c = f["comparisons"][0]
+    assert shown[f"{c['truck']} − {c['baseline']}: IRR as financed (return on equity)"] == \
+        pytest.approx(c["irr_as_financed"], rel=1e-12)

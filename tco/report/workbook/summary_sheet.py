@@ -4,7 +4,7 @@ references, feasibility, warnings, cautions, the cumulative-cost chart.
 from __future__ import annotations
 
 from tco.report import workbook_base as wbb
-from tco.report.workbook_base import safe_text
+from tco.report.workbook_base import safe_text, write_value
 from tco.report.workbook._common import (
     _BOLD,
     _Block,
@@ -118,6 +118,7 @@ class SummarySheet:
             self.su_rows[key] = row
             row += 1
         row = self._comparison_values(row + 1)
+        row = self._financing(row + 1)
         row = self._feasibility(row + 1)
         row = self._text_list(row + 1, "Warnings", self.summary.get("warnings", []))
         row = self._text_list(row + 1, "How the purchase case was read",
@@ -173,6 +174,45 @@ class SummarySheet:
                 cell.number_format = fmt
             safe_text(ws.cell(row=row, column=3 + len(names)), unit)
             self.su_rows[key] = row
+            row += 1
+        return row
+
+    def _financing(self, row: int) -> int:
+        """Loans and leases shown apart from the headline (values of the model: the Cash flow
+        sheet holds the headline flows only)."""
+        f = self.summary.get("cashflow", {}).get("financing") or {}
+        trucks = f.get("trucks") or {}
+        if not trucks:
+            return row
+        ws, cur = self.ws_su, self.cur
+        view = self.summary.get("cashflow", {}).get("valuation", "unlevered")
+        _section(ws, row, "Financing, shown apart (values of the model; the figures above "
+                          + ("pay every truck in cash)" if view == "unlevered"
+                             else "include the loans and leases)"))
+        row += 1
+        items = []
+        for name, t in trucks.items():
+            items += [
+                (f"{name}: {t['method']} against paying cash, PV at the after-tax cost of "
+                 "debt (positive: costs more)", round(t["present_value_at_cost_of_debt"]) + 0.0,
+                 cur, wbb.MONEY),
+                (f"{name}: after-tax cost of debt", t["after_tax_cost_of_debt"], "1/yr", _RATE),
+                (f"{name}: present value as financed (equity view)",
+                 t["present_value_as_financed"], cur, wbb.MONEY)]
+        for c in f.get("comparisons") or []:
+            items += [
+                (f"{c['truck']} − {c['baseline']}: PV difference as financed",
+                 c.get("present_value_difference_as_financed"), cur, wbb.MONEY),
+                (f"{c['truck']} − {c['baseline']}: IRR as financed (return on equity)",
+                 c.get("irr_as_financed"), "1/yr", _RATE)]
+        for label, value, unit, fmt in items:
+            safe_text(ws.cell(row=row, column=1), label)
+            cell = ws.cell(row=row, column=3)
+            if value is None:
+                safe_text(cell, "none")
+            else:
+                write_value(cell, float(value), fmt)
+            safe_text(ws.cell(row=row, column=4), unit)
             row += 1
         return row
 
