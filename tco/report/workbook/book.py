@@ -81,6 +81,7 @@ class Book(InputsSheet, CashflowSheet, EmissionsSheet, EnergySheet, SummarySheet
         if unc:
             self._sensitivity_sheet(unc)
             self._statistics_sheet(unc)
+        self._verify_step_cells()
         self._formats_and_printing()
         # spreadsheet programs recompute everything when the file is opened (the file also
         # carries each formula's result, tco.report.workbook_values)

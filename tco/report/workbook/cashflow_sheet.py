@@ -3,6 +3,7 @@ cost; the comparisons with the baseline (live payback, IRR, break-evens and thei
 """
 from __future__ import annotations
 
+import math
 import re
 
 from openpyxl.styles import Alignment
@@ -10,6 +11,7 @@ from openpyxl.styles import Alignment
 from tco.report import workbook_base as wbb
 from tco.report.workbook_base import safe_text, write_value
 from tco.report.workbook._common import (
+    _CF,
     _BOLD,
     _BUMP,
     _Block,
@@ -414,6 +416,26 @@ class CashflowSheet:
                 return False
         return True
 
+    def _verify_step_cells(self) -> None:
+        """Break-evens across battery-replacement steps: keep the live closed form where it
+        gives the model's root for the case as written, else show the model figure."""
+        if not getattr(self, "_step_cells", None):
+            return
+        from tco.report.workbook_values import evaluate
+
+        values = evaluate(self.wb)
+        ws = self.ws_cf
+        c_note = self._cf_ctx[3]
+        for r, model in self._step_cells:
+            got = values.get((_CF, f"{_col(_FIRST_COL)}{r}"))
+            if (model is not None and isinstance(got, float)
+                    and math.isclose(got, model, rel_tol=1e-9)):
+                continue
+            cell = ws.cell(row=r, column=_FIRST_COL)
+            write_value(cell, "-" if model is None else model, wbb.INTEGER).fill = _MODEL_FILL
+            safe_text(ws.cell(row=r, column=c_note), f"{_NOT_LIVE}: a battery replacement "
+                      "lies between the case and the break-even (the cost steps there)")
+
     def _model_comparison(self, i: int) -> dict:
         return next((c for c in self.summary.get("cashflow", {}).get("comparisons", [])
                      if c.get("truck") == self.trucks[i]), {})
@@ -427,6 +449,7 @@ class CashflowSheet:
         years = f"${first}${_YEAR_ROW}:${last}${_YEAR_ROW}"
         row = self.cf_end + 1
         self.cmp_rows: dict[int, dict[str, int]] = {}
+        self._step_cells: list[tuple[int, float | None]] = []
         work = []
         for i, blk in enumerate(self.blocks):
             if i == self.ref:
@@ -522,15 +545,13 @@ class CashflowSheet:
                 cyc = [t for t in (i, self.ref) if key == "annual_distance_km"
                        and f"{self.pre(t)}battery_lives_per_year" in self.derived_f]
                 steps = bool(cyc) and not self._no_replacement(cyc, i)
-                if steps:  # replacements by cycles: a step function of the distance
+                if steps:  # battery replacements in the period: a step function of the
+                    # distance. The closed form holds between steps: it stays live when it
+                    # equals the model's root (checked once the book is built, else the
+                    # model figure is shown, marked).
                     b = self._model_comparison(i).get("break_even", {}).get(key, {})
-                    self._metric(r, label, "break_even." + key, None, wbb.INTEGER)
-                    write_value(ws.cell(row=r, column=_FIRST_COL), "-" if b.get("value")
-                                is None else b["value"], wbb.INTEGER).fill = _MODEL_FILL
-                    safe_text(ws.cell(row=r, column=c_note), f"{_NOT_LIVE}: battery "
-                              "replacements by cycles make the cost a step function of the "
-                              "distance")
-                    continue
+                    self._step_cells.append((r, b.get("value")))
+                    cyc = []
                 if not names:
                     self._metric(r, label, "break_even." + key, None, "0.00")
                     safe_text(ws.cell(row=r, column=_FIRST_COL), "-")
@@ -571,7 +592,9 @@ class CashflowSheet:
                 self._metric(r, label, "break_even." + key, f, fmt)
                 safe_text(ws.cell(row=r, column=c_note),
                           f"{what} − PV difference ÷ slope; searched {lo:g}–{hi:g}× the "
-                          "case's value")
+                          "case's value" + ("; live between battery replacements (an edit "
+                                            "that moves a replacement year needs a new run)"
+                                            if steps else ""))
 
     def _truck_block(self, i, name, row, cols, c_sum, c_pv, c_note, desc, npv) -> int:
         ws = self.ws_cf
