@@ -388,6 +388,35 @@ def fit_row_heights(ws) -> None:
                                             vertical="top")
 
 
+#: Printable A4 area with the margins of :func:`print_setup` (portrait). [mm]
+_A4_PRINT = (210.0 - 2 * 10.2, 297.0 - 2 * 15.2 - 12.0)
+#: Printed width of one unit of column width at 100 % (about 7 px at 96 dpi). [mm]
+_MM_PER_WIDTH = 1.9
+#: Smallest print scale accepted when choosing an orientation (text stays readable). [-]
+_MIN_SCALE = 0.6
+
+
+def _fewer_pages_landscape(ws) -> bool:
+    """Landscape when it prints the sheet, one page wide, on fewer pages than portrait
+    (an estimate from the column widths and row heights; ties and a portrait scale below
+    :data:`_MIN_SCALE` go to landscape)."""
+    from openpyxl.utils import get_column_letter as letter_of
+
+    width = sum(_width(ws, letter_of(c)) for c in range(1, ws.max_column + 1)
+                if not (ws.column_dimensions.get(letter_of(c)) is not None
+                        and ws.column_dimensions[letter_of(c)].hidden)) * _MM_PER_WIDTH
+    height = sum((ws.row_dimensions[r].height if r in ws.row_dimensions and
+                  ws.row_dimensions[r].height else _LINE_PT) for r in
+                 range(1, ws.max_row + 1)) * 0.3528  # pt -> mm
+    pages = {}
+    for land, (w, h) in ((False, _A4_PRINT), (True, _A4_PRINT[::-1])):
+        scale = min(1.0, w / max(width, 1.0))
+        pages[land] = (math.ceil(height * scale / h), scale)
+    if pages[False][1] < _MIN_SCALE:
+        return True
+    return pages[True][0] <= pages[False][0]
+
+
 def _header_text(text: str) -> str:
     """Text for a page header: ``&`` starts a code there, so it is doubled."""
     text = ILLEGAL_CHARACTERS_RE.sub("", str(text)).replace("&", "&&")
@@ -414,9 +443,9 @@ def print_setup(ws, study: str, *, title_rows: str | None = None,
     from openpyxl.utils import get_column_letter as letter_of
     from openpyxl.worksheet.properties import PageSetupProperties
 
+    fit_row_heights(ws)
     if landscape is None:
-        total = sum(_width(ws, letter_of(c)) for c in range(1, ws.max_column + 1))
-        landscape = total > 110
+        landscape = _fewer_pages_landscape(ws)
     ws.page_setup.orientation = "landscape" if landscape else "portrait"
     ws.page_setup.paperSize = ws.PAPERSIZE_A4
     ws.sheet_properties.pageSetUpPr = PageSetupProperties(fitToPage=True)
@@ -434,7 +463,6 @@ def print_setup(ws, study: str, *, title_rows: str | None = None,
     ws.oddHeader.right.text = "&A"  # sheet name
     ws.oddFooter.center.text = "Page &P of &N"
     ws.oddFooter.right.text = "&D"
-    fit_row_heights(ws)
 
 
 def money_format(currency: str, digits: int = 0) -> str:
