@@ -26,29 +26,40 @@ def test_context_has_every_section(demo):
     check_context(ctx)
     assert all(ctx["charts"][g] for g in ("cost", "energy", "emissions", "uncertainty"))
     assert ctx["verdict"].startswith("Over 10 years")
-    # the verdict's tonnes avoided equal summary.json (location-based, not summed twice)
-    avoided = build_summary(demo)["emissions"]["comparison"]["Electric tractor"][
-        "avoided_kg_total"]["location"]
-    assert f"avoids {avoided / 1000:,.0f} t CO2e" in ctx["verdict"]
+    # the verdict's tonnes avoided are summary.json's (location-based, not summed twice),
+    # shown in whole tonnes with a thousands comma: a hand-set 1,234,567.8 kg reads
+    # "1,235 t" (1,234.5678 t rounded by hand)
+    summary = build_summary(demo)
+    summary["emissions"]["comparison"]["Electric tractor"]["avoided_kg_total"][
+        "location"] = 1_234_567.8
+    verdict = build_context(demo, summary)["verdict"]
+    assert "avoids 1,235 t CO2e (well-to-wheel, location-based)" in verdict
     appendix = ctx["assumptions"]
     assert appendix["counts"]["user"] > 0 and appendix["counts"]["default"] > 0
     assert any(s["text"].startswith("US DOE") for s in appendix["sources"])
 
 
-def test_metric_and_us_display(demo):
+def test_metric_and_us_display(demo, monkeypatch):
     summary = build_summary(demo)
-    ctx = _context(demo)
     per_km = summary["cashflow"]["trucks"]["Diesel tractor"]["levelized_cost_per_km"]
-    assert f"{per_km:,.3f} EUR/km" in [k["value"] for k in ctx["key_figures"]]
+    per_mi = summary["cashflow"]["trucks"]["Diesel tractor"]["levelized_cost_per_mile"]
+    # 1 mi = 1.609344 km (exact, international yard and pound agreement, 1959):
+    # per-mile cost = per-km cost × 1.609344
+    assert per_mi == pytest.approx(per_km * 1.609344, rel=1e-12)
+    # the key figure as a reader sees it, for a hand-set cost of 1,234.5678 EUR/km
+    # (1.2345678 EUR/m): three decimals and a thousands comma
+    diesel = next(m for m in demo.cashflow.trucks if m.name == "Diesel tractor")
+    monkeypatch.setattr(diesel, "levelized_cost", 1.2345678)
+    values = [k["value"] for k in _context(demo)["key_figures"]]
+    assert "1,234.568 EUR/km" in values, values
     demo.scenario.study.units = "us"
     try:
         ctx = _context(demo)
     finally:
         demo.scenario.study.units = "metric"
-    per_mi = summary["cashflow"]["trucks"]["Diesel tractor"]["levelized_cost_per_mile"]
-    # 1 mi = 1.609344 km (exact): per-mile cost = per-km cost × 1.609344
-    assert per_mi == pytest.approx(per_km * 1.609344, rel=1e-12)
-    assert f"{per_mi:,.3f} EUR/mi" in [k["value"] for k in ctx["key_figures"]]
+    # by hand: 1,234.5678 EUR/km × 1.609344 km/mi = 1,986.8443 EUR/mi
+    values = [k["value"] for k in ctx["key_figures"]]
+    assert "1,986.844 EUR/mi" in values, values
     assert ctx["meta"]["units"] == "US customary"
     energy = next(t for t in ctx["tables"] if t["title"] == "Energy and operation")
     assert energy["rows"][0][0] == "Distance per trip [mi]"
