@@ -270,17 +270,46 @@ def test_demo_fleet_renders_all_outputs(written, fleet):
     assert written["json"]["schema"] == SCHEMA
 
 
-def _expected_key_figures(s: dict) -> list[str]:
-    """Key figures formatted from fleet.json alone, as the report promises to show them."""
+# A figure as a reader sees it: digits grouped by commas in threes, no decimals, then the
+# unit. Written out here, not taken from the report's own format strings.
+_WHOLE = r"(-?\d{1,3}(?:,\d{3})*)"
+
+
+def _read_whole(text: str) -> int:
+    """'1,234,567' → 1234567 (the reader's reading of a shown whole number)."""
+    return int(text.replace(",", ""))
+
+
+def _key_figure_lines(s: dict) -> list[tuple[str, float | None]]:
+    """For each key figure of fleet.json: a hand-written pattern of its line on the summary
+    page, and the fleet.json value its number must round from (None: exact text)."""
     p, cur, dep = s["plan"], s["currency"], s["depot"]
-    return [f"{p['routes_feasible']} of {p['routes_total']}",
-            f"{p['pv_saving']:,.0f} {cur}",
-            f"{p['avoided_t']:,.0f} t CO2e",
-            f"{p['abatement_cost_per_t']:,.0f} {cur}/t CO2e",
-            f"{p['chargers']} × {dep['charger_kW']:,.0f} kW",
-            f"{p['peak_kW']:,.0f} kW",
-            f"{dep['plan']['energy_kWh_per_day']:,.0f} kWh",
-            f"year {p['payback_year']}"]
+    return [(rf"{p['routes_feasible']} of {p['routes_total']}", None),
+            (rf"{_WHOLE} {cur}", p["pv_saving"]),
+            (rf"{_WHOLE} t CO2e", p["avoided_t"]),
+            (rf"{_WHOLE} {cur}/t CO2e", p["abatement_cost_per_t"]),
+            (rf"{p['chargers']} × {_WHOLE} kW", dep["charger_kW"]),
+            (rf"{_WHOLE} kW", p["peak_kW"]),
+            (rf"{_WHOLE} kWh", dep["plan"]["energy_kWh_per_day"]),
+            (rf"year {p['payback_year']}", None)]
+
+
+def test_key_figures_read_as_written_by_hand(fleet, summary):
+    """Key figures of hand-set fleet.json values, as the exact text a reader should see."""
+    import copy
+
+    from tco.report.fleet_report import build_fleet_context
+
+    s = copy.deepcopy(summary)
+    s["currency"] = "EUR"
+    s["plan"].update(routes_feasible=7, routes_total=9, pv_saving=1_234_567.49,
+                     avoided_t=2_345.5, abatement_cost_per_t=-61.4, chargers=3, peak_kW=987.6,
+                     payback_year=4)
+    s["depot"]["charger_kW"] = 150.0
+    s["depot"]["plan"]["energy_kWh_per_day"] = 12_345.4
+    values = [k["value"] for k in build_fleet_context(fleet, s)["key_figures"]]
+    assert values == ["7 of 9", "1,234,567 EUR", "2,346 t CO2e", "-61 EUR/t CO2e",
+                      "3 × 150 kW", "988 kW", "12,345 kWh", "year 4"], values
 
 
 @pytest.mark.slow
@@ -288,16 +317,29 @@ def test_pdf_shows_key_figures_exactly_as_in_fleet_json(written):
     s = written["json"]
     pages = written["pages"]
     # each key figure's value is a line of its own on the summary page (its card), not
-    # only somewhere in the verdict's running text
+    # only somewhere in the verdict's running text; read back, its number is fleet.json's
+    # rounded to a whole unit (within half a unit)
     lines = [ln.strip() for ln in pages[1].splitlines()]
-    for value in _expected_key_figures(s):
-        assert value in lines, value
+    for pattern, value in _key_figure_lines(s):
+        found = [m for ln in lines if (m := re.fullmatch(pattern, ln))]
+        assert found, pattern
+        if value is not None:
+            assert any(abs(_read_whole(m.group(1)) - value) <= 0.5 for m in found), \
+                (pattern, value, [m.group(0) for m in found])
     cover = _squash(pages[0])
     p = s["plan"]
-    for value in (f"{p['routes_feasible']} of {p['routes_total']} routes",
-                  f"{p['pv_saving']:,.0f} {s['currency']}", f"{p['avoided_t']:,.0f} t CO2e",
-                  f"{p['chargers']} chargers", f"{p['peak_kW']:,.0f} kW"):
-        assert _squash(value) in cover, value
+    for pattern, value in ((rf"{p['routes_feasible']}of{p['routes_total']}routes", None),
+                           (rf"{_WHOLE}{s['currency']}", p["pv_saving"]),
+                           (rf"{_WHOLE}tCO2e", p["avoided_t"]),
+                           (rf"{p['chargers']}chargers", None),
+                           (rf"{_WHOLE}kW", p["peak_kW"])):
+        found = list(re.finditer(pattern, cover))
+        assert found, pattern
+        if value is not None:
+            # the squashed cover runs numbers into the text before them: the figure is the
+            # one whose last digits read the rounded value
+            assert any(m.group(1).replace(",", "").endswith(str(round(value)).lstrip("-"))
+                       for m in found), (pattern, value)
     assert _squash(s["study"]["name"]) in cover
     assert s["inputs"]["base_fingerprint_sha256"][:16] in cover
     assert s["inputs"]["fleet_file_sha256"][:16] in cover
