@@ -700,10 +700,13 @@ def test_layout_names_formats_and_charts(demo, demo_xlsx):
                  "t2_grant", "t2_depot_kwh_band1", "t1_scale", "grid_intensity", "td_loss"):
         assert name in wb.defined_names, name
     assert wb["Inputs"][_dest(wb, "discount_rate")].number_format == "0.00%"
-    assert wb["Inputs"][_dest(wb, "t1_purchase_price")].number_format == wbb.MONEY
+    # money in whole units with a thousands comma, a loss in red with a minus sign
+    # (number-format codes of ECMA-376 Part 1, 18.8.31): 244534 shows as 244,534
+    money = "#,##0;[Red]-#,##0"
+    assert wb["Inputs"][_dest(wb, "t1_purchase_price")].number_format == money
     cf = wb["Cash flow"]
     r = next(r for r in range(1, cf.max_row + 1) if cf.cell(row=r, column=2).value == "diesel")
-    assert cf.cell(row=r, column=4).number_format == wbb.MONEY
+    assert cf.cell(row=r, column=4).number_format == money
     assert cf.column_dimensions["A"].width >= 40
     assert [type(c).__name__ for c in wb["Summary"]._charts] == ["LineChart"]
     assert [type(c).__name__ for c in wb["Emissions"]._charts] == ["BarChart"]
