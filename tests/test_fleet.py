@@ -1,4 +1,5 @@
 """Tests of tco.fleet: a fleet of identical routes, depot sharing, ordering, bad input."""
+import csv
 import datetime
 import re
 import tomllib
@@ -6,7 +7,6 @@ from pathlib import Path
 
 import numpy as np
 import numpy_financial as npf
-import pandas as pd
 import pytest
 
 from tco.errors import InputError
@@ -151,7 +151,7 @@ def test_xlsx_fleet_file_reads_like_csv(tmp_path):
     from openpyxl import Workbook
 
     base = _base(tmp_path)
-    csv_file = _fleet(tmp_path, [_row("A"), _row("B", dist="60000")])
+    csv_file = _fleet(tmp_path, [_row("A"), _row("B", "18:45", "05:15", dist="60000")])
     wb = Workbook()
     ws = wb.active
 
@@ -163,8 +163,21 @@ def test_xlsx_fleet_file_reads_like_csv(tmp_path):
     for k, line in enumerate(csv_file.read_text().splitlines()):
         ws.append(line.split(",") if k == 0 else [typed(c) for c in line.split(",")])
     wb.save(tmp_path / "fleet.xlsx")
-    assert read_fleet(tmp_path / "fleet.xlsx") == read_fleet(csv_file)
+    rows = read_fleet(tmp_path / "fleet.xlsx")
+    assert rows == read_fleet(csv_file)
     assert base.is_file()
+    # and both read as written, in SI (by hand): 60,000 km/yr = 6.0e7 m/yr; 19:00 is
+    # 19 × 3600 = 68,400 s after midnight, 05:00 is 5 × 3600 = 18,000 s, 18:45 is
+    # 64,800 + 45 × 60 = 67,500 s, 05:15 is 18,000 + 900 = 18,900 s; no distance given
+    # on row A (the cycle's own is used)
+    a, b = rows
+    assert (a.row, a.vehicle, a.current, a.candidate) == (2, "A", "Diesel tractor",
+                                                          "Electric tractor")
+    assert (b.row, b.vehicle) == (3, "B")
+    assert a.annual_distance is None and b.annual_distance == 6.0e7
+    assert (a.arrive, a.depart) == (68_400.0, 18_000.0)
+    assert (b.arrive, b.depart) == (67_500.0, 18_900.0)
+    assert a.cycle == b.cycle == (tmp_path / "cycle.toml").resolve()
 
 
 @pytest.mark.parametrize("rows, header, where, message", [
@@ -227,7 +240,23 @@ def test_demo_fleet_runs_and_needs_shared_chargers():
     assert base.scenario.emissions.discount_tonnes
     assert npf.npv(base.scenario.finance.discount_rate, yearly_t) == pytest.approx(
         plan["avoided_t"].sum(), rel=1e-9)
+    # the plan's present-value saving is the net present value of the fleet's yearly
+    # savings (year 0 undiscounted, numpy_financial.npv), and the sum of its routes'
+    # differences (current minus candidate)
+    saving = res.yearly.sort_values("year")["saving"].to_numpy()
+    npv = npf.npv(base.scenario.finance.discount_rate, saving)
+    assert npv == pytest.approx(-plan["pv_difference"].sum(), rel=1e-9)
+    assert npv == pytest.approx((plan["pv_current"] - plan["pv_candidate"]).sum(), rel=1e-9)
     # the cost shares of the depot in the plan add up to one
     assert plan["depot_cost_share"].sum() == pytest.approx(1.0)
+    # one route per vehicle row of the file, counted here with the csv module (comment
+    # lines start with #), and the order lists each once
+    with fleet.open(encoding="utf-8", newline="") as f:
+        vehicles = [r["vehicle"] for r in csv.DictReader(
+            ln for ln in f if ln.strip() and not ln.startswith("#"))]
+    assert len(vehicles) == 10
+    assert list(res.routes["vehicle"]) == vehicles
+    assert sorted(res.order["vehicle"]) == sorted(vehicles)
+    # from year 1 on, the plan runs one electric truck per planned route
+    assert (res.yearly.sort_values("year")["electric_trucks"].iloc[1:] == len(plan)).all()
     assert tomllib.loads((inputs_dir() / "fleet" / "base.toml").read_text())["study"]["slug"]
-    assert isinstance(res.order, pd.DataFrame)
