@@ -120,11 +120,11 @@ def _chart_words(html: str) -> set[str]:
 
 
 # The board pack's targets are a body of at most 12 pages and a whole PDF of at most 18.
-# The demo met them (12 and 18) until the report gained the emissions tornado, its table
-# and a longer verdict; it now measures 14 and 21. The guard holds today's count so that
-# the pack grows no further while the targets are worked back to.
+# The body meets its target; the whole PDF measures 19 since the report gained the
+# emissions tornado, its table and a longer verdict, so the guard holds that count while
+# the appendix is worked back to 18.
 BODY_PAGES_TARGET, WHOLE_PAGES_TARGET = 12, 18
-BODY_PAGES_GUARD, WHOLE_PAGES_GUARD = 14, 21
+BODY_PAGES_GUARD, WHOLE_PAGES_GUARD = 12, 19
 
 
 def test_page_counts_within_the_board_pack_guard(demo_pdf):
