@@ -567,8 +567,9 @@ class RouteMoney:
     irr: float | None
     yearly_cost: pd.DataFrame        # truck, year, amount
     yearly_emissions: pd.DataFrame   # truck, year, kg_co2e (well-to-wheel, location)
-    avoided_t: float
+    avoided_t: float                 # well-to-wheel, location-based, over the period [t]
     abatement_cost: float | None
+    abatement_t: float               # the tonnes abatement_cost divides by (its convention)
     ttw_t: dict
     wtw_t: dict
     plan_flows: dict | None = None  # tco.plan.option_flows, when a plan is asked for
@@ -605,7 +606,10 @@ def _route_money(e: RouteEnergy, base: LoadedScenario, ops: list, chargers: int,
                       / 1000) for t in (cur, cand)}
     wtw_t = {t: float(wtw[wtw["truck"] == t]["kg_co2e"].sum() / 1000) for t in (cur, cand)}
     ab = em.abatement.get(cand, {})
-    avoided = float(ab.get("tonnes_location", wtw_t[cur] - wtw_t[cand]))
+    # physical tonnes over the period; the abatement cost divides by the scenario's own
+    # convention (discounted tonnes by default), kept apart so the two never mix
+    avoided = float(ab.get("tonnes_location_undiscounted", wtw_t[cur] - wtw_t[cand]))
+    abatement_t = float(ab.get("tonnes_location", avoided))
     flows = None
     if plan:
         from tco.plan import option_flows
@@ -614,7 +618,8 @@ def _route_money(e: RouteEnergy, base: LoadedScenario, ops: list, chargers: int,
         vehicle=e.row.vehicle, present_value=pv, levelized_cost=lc, difference=diff,
         simple_payback=comp.simple_payback_year, irr=comp.irr, yearly_cost=yc,
         yearly_emissions=wtw, avoided_t=avoided,
-        abatement_cost=ab.get("cost_per_tonne_location"), ttw_t=ttw_t, wtw_t=wtw_t,
+        abatement_cost=ab.get("cost_per_tonne_location"), abatement_t=abatement_t,
+        ttw_t=ttw_t, wtw_t=wtw_t,
         plan_flows=flows)
 
 
@@ -679,6 +684,12 @@ class FleetResult:
         """Well-to-wheel tonnes avoided by the plan over the period: the sum over its
         routes. [t CO2e]"""
         return float(sum(self.routes.loc[self.routes["in_plan"], "avoided_t"].tolist()))
+
+    @property
+    def plan_abatement_t(self) -> float:
+        """Tonnes the plan's abatement cost divides by: discounted tonnes when the scenario
+        discounts them (the default), else :attr:`plan_avoided_t`. [t CO2e]"""
+        return float(sum(self.routes.loc[self.routes["in_plan"], "abatement_t"].tolist()))
 
 
 def _depot_inputs(energies: list[RouteEnergy], base: LoadedScenario, vehicles: set[str]):
@@ -842,6 +853,7 @@ def _routes_table(energies, status, money, sched_all, sched_plan, pos_all, pos_p
             "wtw_current_t": m.wtw_t[cur], "wtw_candidate_t": m.wtw_t[cand],
             "ttw_current_t": m.ttw_t[cur], "ttw_candidate_t": m.ttw_t[cand],
             "avoided_t": m.avoided_t, "abatement_cost_per_t": m.abatement_cost,
+            "abatement_t": m.abatement_t,
         })
     df = pd.DataFrame.from_records(recs)
     return df

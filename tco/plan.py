@@ -1096,7 +1096,8 @@ def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: P
     })
     fr = routes[routes["feasible"]].copy()
     fr = fr[fr["avoided_t"] > 0]
-    fr = fr.assign(cost_per_t=(-fr["saving"]) / fr["avoided_t"]).sort_values(
+    per = fr["abatement_t"] if "abatement_t" in fr else fr["avoided_t"]  # its convention
+    fr = fr.assign(cost_per_t=(-fr["saving"]) / per).sort_values(
         ["cost_per_t", "vehicle"], kind="mergesort")
     macc = pd.DataFrame({"vehicle": fr["vehicle"].tolist(),
                          "cost_per_t": fr["cost_per_t"].astype(float).tolist(),

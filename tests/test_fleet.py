@@ -233,13 +233,16 @@ def test_demo_fleet_runs_and_needs_shared_chargers():
     assert len(res.routes) == 10
     assert res.depot_plan.chargers >= 2
     assert res.depot_plan.feasible.all()
-    # the plan's avoided emissions are the sum over its routes; tonnes are discounted by
-    # default (emissions.discount_tonnes), like the savings (numpy_financial.npv)
+    # the plan's avoided emissions are the sum over its routes, in physical tonnes: the
+    # sum of the fleet's yearly tonnes; the abatement cost divides by discounted tonnes by
+    # default (emissions.discount_tonnes), discounted like the savings (numpy_financial.npv)
     plan = res.routes[res.routes["in_plan"]]
     yearly_t = res.yearly.sort_values("year")["avoided_kg"].to_numpy() / 1000
+    assert yearly_t.sum() == pytest.approx(plan["avoided_t"].sum(), rel=1e-9)
+    assert res.plan_avoided_t == pytest.approx(yearly_t.sum(), rel=1e-9)
     assert base.scenario.emissions.discount_tonnes
     assert npf.npv(base.scenario.finance.discount_rate, yearly_t) == pytest.approx(
-        plan["avoided_t"].sum(), rel=1e-9)
+        plan["abatement_t"].sum(), rel=1e-9)
     # the plan's present-value saving is the net present value of the fleet's yearly
     # savings (year 0 undiscounted, numpy_financial.npv), and the sum of its routes'
     # differences (current minus candidate)

@@ -179,13 +179,14 @@ def test_plan_saving_equals_npv_of_the_yearly_savings(summary):
     assert npf.npv(rate, saving) == pytest.approx(plan["pv_saving"], rel=1e-9)
     assert summary["yearly_totals"]["pv_saving"] == pytest.approx(npf.npv(rate, saving),
                                                                   rel=1e-12)
-    # tonnes are discounted by default (emissions.discount_tonnes): the plan's tonnes are
+    # the plan's tonnes avoided are physical tonnes: the sum of the yearly tonnes
+    avoided = [r["avoided_t"] for r in summary["yearly"]]
+    assert plan["avoided_t"] == pytest.approx(sum(avoided), rel=1e-9)
+    # the abatement cost divides by discounted tonnes by default (emissions.discount_tonnes):
     # the yearly tonnes discounted like the savings (numpy_financial.npv, year 0 first)
     assert plan["tonnes_discounted"]
-    assert plan["avoided_t"] == pytest.approx(
-        npf.npv(rate, [r["avoided_t"] for r in summary["yearly"]]), rel=1e-9)
-    assert plan["abatement_cost_per_t"] == pytest.approx(-plan["pv_saving"]
-                                                         / plan["avoided_t"], rel=1e-12)
+    assert plan["abatement_cost_per_t"] == pytest.approx(
+        -plan["pv_saving"] / npf.npv(rate, avoided), rel=1e-9)
     cum = np.cumsum(saving)
     assert [r["cumulative_saving"] for r in summary["yearly"]] == pytest.approx(cum, rel=1e-12)
     first = int(np.flatnonzero(cum >= 0)[0])
@@ -411,10 +412,10 @@ def test_workbook_structure_formulas_and_literal_inputs(book, summary):
         assert routes.cell(row, col["PV current [EUR]"]).value == lit(r["pv_current"])
         assert routes.cell(row, col["PV candidate [EUR]"]).value == lit(r["pv_candidate"])
         assert routes.cell(row, col["PV saving [EUR]"]).value == f"=N{row}-O{row}"
-        if summary["plan"]["tonnes_discounted"]:  # discounted tonnes: not a difference
-            assert routes.cell(row, col["Avoided [t CO2e]"]).value == lit(r["avoided_t"])
-        else:
-            assert routes.cell(row, col["Avoided [t CO2e]"]).value == f"=U{row}-V{row}"
+        # physical tonnes: current minus candidate, live
+        assert routes.cell(row, col["Avoided [t CO2e]"]).value == f"=U{row}-V{row}"
+        assert r["avoided_t"] == pytest.approx(r["wtw_current_t"] - r["wtw_candidate_t"],
+                                               rel=1e-9)
         assert routes.cell(row, col["Well-to-wheel, current [t CO2e]"]).value == \
             lit(r["wtw_current_t"])
     ny = len(summary["yearly"])
@@ -474,8 +475,11 @@ def test_workbook_recalculates_to_the_model(book, summary, tmp_path):
     check("Routes", f"X{plan_row}", plan["abatement_cost_per_t"])
     check("Routes", f"P{all_row}", sum(r["pv_saving"] for r in routes))
     check("Routes", f"W{all_row}", sum(r["avoided_t"] for r in routes))
+    check("Routes", f"Y{plan_row}", sum(r["abatement_t"] for r in in_plan))
+    check("Routes", f"Y{all_row}", sum(r["abatement_t"] for r in routes))
+    # abatement cost over the tonnes of its convention (discounted by default)
     check("Routes", f"X{all_row}", -sum(r["pv_saving"] for r in routes)
-          / sum(r["avoided_t"] for r in routes))
+          / sum(r["abatement_t"] for r in routes))
     for i, r in enumerate(summary["order"]):
         row = 2 + i
         check("Order", f"F{row}", r["pv_saving"])

@@ -116,7 +116,8 @@ METHOD_NOTES = [
      "Feasible routes first, then by present-value saving, largest first; the rank by "
      "abatement cost is given beside it. Chargers and peak are recomputed as each route is "
      "added (exactly up to 200 routes, then at 20 evenly spaced steps).",
-     "abatement cost = (PV_candidate − PV_current) / avoided tonnes"),
+     "abatement cost = (PV_candidate − PV_current) / avoided tonnes (discounted like the "
+     "money unless the scenario says otherwise)"),
     ("Fleet totals per year",
      "As-is: every route keeps its current truck type, renewed like for like (a new "
      "truck of that type bought in year 0, as in the single comparison). Plan: the plan's "
@@ -355,8 +356,7 @@ def _verdict(s: dict) -> str:
     dep = s["depot"]
     return (f"{n} of {total} {routes} can be run by {own} electric candidate. Electrifying "
             f"{them} {word} {fmt_money(abs(p['pv_saving']), cur)}{tail} in present value over "
-            f"{years} years and avoids {_n(p['avoided_t'])} t CO2e well-to-wheel"
-            f"{' (discounted tonnes)' if p.get('tonnes_discounted') else ''}; the depot "
+            f"{years} years and avoids {_n(p['avoided_t'])} t CO2e well-to-wheel; the depot "
             f"needs {p['chargers']} charger{'s' if p['chargers'] != 1 else ''} of "
             f"{_n(dep['charger_kW'])} kW and a peak of {_n(p['peak_kW'])} kW.")
 
@@ -367,7 +367,8 @@ def _key_figures(s: dict) -> list[dict]:
     dep = s["depot"]
     years = st["analysis_years"]
     basis = f"{years} years at {st['discount_rate']:.1%} a year"
-    tonnes = "discounted tonnes" if p["tonnes_discounted"] else f"over {years} years"
+    per_t = ("present-value cost over discounted tonnes" if p["tonnes_discounted"]
+             else "present-value cost over tonnes")
     return [
         {"label": "Routes the electric candidate can run",
          "value": f"{p['routes_feasible']} of {p['routes_total']}",
@@ -375,11 +376,11 @@ def _key_figures(s: dict) -> list[dict]:
         {"label": "Present-value saving of the plan", "value": fmt_money(p["pv_saving"], cur),
          "note": f"cost as-is minus cost with the plan, {basis}"},
         {"label": "Emissions avoided by the plan", "value": f"{_n(p['avoided_t'])} t CO2e",
-         "note": f"well-to-wheel, location-based, {tonnes}"},
+         "note": f"well-to-wheel, location-based, over {years} years"},
         {"label": "Abatement cost of the plan",
          "value": (f"{_n(p['abatement_cost_per_t'])} {cur}/t CO2e"
                    if p["abatement_cost_per_t"] is not None else "–"),
-         "note": "negative: saves money while cutting emissions"},
+         "note": f"{per_t}; negative: saves money while cutting emissions"},
         {"label": "Depot chargers", "value": f"{p['chargers']} × {_n(dep['charger_kW'])} kW",
          "note": f"charging rule: {RULES.get(s['charging_rule'], s['charging_rule'])}"},
         {"label": "Depot peak power", "value": f"{_n(p['peak_kW'])} kW",
@@ -725,6 +726,8 @@ class _FleetBook:
             ("Well-to-wheel, candidate [t CO2e]", "wtw_candidate_t", wbb.MASS),
             ("Avoided [t CO2e]", "=avoided", wbb.MASS),
             (f"Abatement cost [{cur}/t CO2e]", "=abatement", wbb.MONEY_CENTS),
+            ("Avoided, discounted [t CO2e]" if self.s["plan"]["tonnes_discounted"]
+             else "Avoided, for the abatement cost [t CO2e]", "abatement_t", wbb.MASS),
             ("What would make it feasible", "remedies", None),
         ]
 
@@ -745,14 +748,14 @@ class _FleetBook:
                     cell.value = f"={L['pv_current']}{row}-{L['pv_candidate']}{row}"
                     cell.number_format = fmt
                 elif key == "=avoided":
-                    if discounted:  # discounted tonnes are not a plain difference
-                        write_value(cell, r["avoided_t"], fmt)
-                    else:
-                        cell.value = f"={L['wtw_current_t']}{row}-{L['wtw_candidate_t']}{row}"
-                        cell.number_format = fmt
+                    cell.value = f"={L['wtw_current_t']}{row}-{L['wtw_candidate_t']}{row}"
+                    cell.number_format = fmt
                 elif key == "=abatement":
                     if r["abatement_cost_per_t"] is None:
                         safe_text(cell, "–")
+                    elif discounted:  # over discounted tonnes (a model value, next column)
+                        cell.value = f"=-{L['=saving']}{row}/{L['abatement_t']}{row}"
+                        cell.number_format = fmt
                     else:
                         cell.value = f"=-{L['=saving']}{row}/{L['=avoided']}{row}"
                         cell.number_format = fmt
@@ -776,13 +779,13 @@ class _FleetBook:
                 (all_row, "All routes", lambda k: f"=SUM({rng(k)})")):
             _bold(safe_text(ws.cell(row=row, column=1), label))
             for key in ("pv_current", "pv_candidate", "=saving", "wtw_current_t",
-                        "wtw_candidate_t", "=avoided"):
+                        "wtw_candidate_t", "=avoided", "abatement_t"):
                 fmt = dict((k, f) for _, k, f in cols)[key]
                 c = ws.cell(row=row, column=self.rcol[key], value=make(key))
                 c.number_format = fmt
             c = ws.cell(row=row, column=self.rcol["=abatement"],
-                        value=f"=IF({L['=avoided']}{row}>0,-{L['=saving']}{row}/"
-                              f"{L['=avoided']}{row},\"–\")")
+                        value=f"=IF({L['abatement_t']}{row}>0,-{L['=saving']}{row}/"
+                              f"{L['abatement_t']}{row},\"–\")")
             c.number_format = wbb.MONEY_CENTS
         wbb.set_widths(ws, {1: 14, 2: 22, 3: 18, 4: 18, 5: 22, 6: 9,
                             **{c: 14 for c in range(7, len(cols))}, len(cols): 60})

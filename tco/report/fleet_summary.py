@@ -26,7 +26,8 @@ to ``created``), added so that summary.json, fleet.json and a batch's index.json
     ``pv_saving`` (present value, as-is minus plan), ``avoided_t`` (well-to-wheel,
     location-based, over the period), ``abatement_cost_per_t``, ``payback_year`` (first
     year the plan's cumulative saving, not discounted, is no longer negative),
-    ``chargers``, ``peak_kW``, ``tonnes_discounted``.
+    ``chargers``, ``peak_kW``, ``tonnes_discounted`` (the abatement costs divide the
+    present-value cost by discounted tonnes; ``avoided_t`` is always physical tonnes).
 ``depot``
     ``charger_kW``, ``demand_interval_min`` and, for ``plan`` and ``all`` (every
     candidate): ``chargers``, ``peak_kW``, ``peak_interval_start`` (``HH:MM``),
@@ -195,7 +196,8 @@ def route_records(result) -> list[dict]:
     (candidate − current), ``pv_saving`` (current − candidate), ``levelized_current_per_km``,
     ``levelized_candidate_per_km`` [currency/km], ``simple_payback_year``, ``irr`` [-],
     ``wtw_current_t``, ``wtw_candidate_t``, ``ttw_current_t``, ``ttw_candidate_t``,
-    ``avoided_t``, ``abatement_cost_per_t`` [currency/t CO2e].
+    ``avoided_t`` (physical tonnes over the period), ``abatement_cost_per_t`` [currency/t CO2e],
+    ``abatement_t`` (the tonnes the abatement cost divides by: discounted by default).
     """
     dep = result.base.scenario.depot
     times = {}
@@ -231,6 +233,7 @@ def route_records(result) -> list[dict]:
             "wtw_current_t": r["wtw_current_t"], "wtw_candidate_t": r["wtw_candidate_t"],
             "ttw_current_t": r["ttw_current_t"], "ttw_candidate_t": r["ttw_candidate_t"],
             "avoided_t": r["avoided_t"], "abatement_cost_per_t": r["abatement_cost_per_t"],
+            "abatement_t": r["abatement_t"],
         })
     return out
 
@@ -400,7 +403,8 @@ def build_fleet_summary(result, created: str | None = None) -> dict:
             "routes_feasible": sum(1 for r in routes if r["feasible"]),
             "pv_saving": pv_saving,
             "avoided_t": avoided,
-            "abatement_cost_per_t": -pv_saving / avoided if avoided > 0 else None,
+            "abatement_cost_per_t": (-pv_saving / result.plan_abatement_t
+                                     if result.plan_abatement_t > 0 else None),
             "payback_year": _payback_year(yearly),
             "chargers": int(result.depot_plan.chargers),
             "peak_kW": float(result.depot_plan.peak_power) / W_PER_KW,
