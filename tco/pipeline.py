@@ -368,6 +368,35 @@ def _unscheduled(ops: list) -> list:
             for op in ops]
 
 
+def _unset_escalations_text(keys: list[str], trucks: list[str]) -> str:
+    """The escalation keys left unset, in words a reader knows (the machine keys stay in
+    summary.json): ``"driver cost; diesel exhaust fluid and equipment prices; maintenance,
+    tyres … for Diesel tractor and Electric tractor"``."""
+    import re
+
+    driver = [k for k in keys if k.startswith("finance.")]
+    prices = [k.rsplit(".", 1)[1].replace("_", " ") for k in keys if k.startswith("prices.")]
+    per_truck: dict[str, list[int]] = {}
+    for k in keys:
+        m = re.match(r"trucks\[(\d+)\]\.costs\.escalation\.(\w+)$", k)
+        if m:
+            per_truck.setdefault(m.group(2).replace("_", " "), []).append(int(m.group(1)))
+
+    def _and(items):
+        items = list(items)
+        return items[0] if len(items) == 1 else ", ".join(items[:-1]) + " and " + items[-1]
+
+    parts = ["driver cost"] if driver else []
+    if prices:
+        parts.append(f"{_and(prices)} price{'s' if len(prices) > 1 else ''}")
+    groups: dict[tuple, list[str]] = {}
+    for line, idx in per_truck.items():
+        groups.setdefault(tuple(sorted(idx)), []).append(line)
+    for idx, lines in groups.items():
+        parts.append(f"{_and(lines)} of {_and(trucks[i] for i in idx)}")
+    return "; ".join(parts)
+
+
 def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
     """Evaluate a loaded scenario end to end.
 
@@ -421,7 +450,7 @@ def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
         cf.assumptions.append(
             f"Nominal money: the {len(unset)} price escalations left unset follow general "
             f"inflation, {s.finance.inflation * 100:.1f} % a year (0 % above inflation): "
-            + ", ".join(unset))
+            + _unset_escalations_text(unset, [t.name for t in s.trucks]))
     pv = {m.name: m.present_value for m in cf.trucks}
     ref = cf.baseline
     diff = {name: v - pv[ref] for name, v in pv.items() if name != ref}

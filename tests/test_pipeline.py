@@ -313,3 +313,16 @@ def test_other_convention_is_reported_only_where_it_moves_the_verdict():
     wind = [w for w in flipped if "ambient.wind_treatment" in w]
     assert len(wind) == 1  # (the break rule, which the demo also has, is the other)
     assert f"would cost {abs(other):,.0f} EUR less than Diesel tractor" in wind[0]
+
+
+def test_unset_escalations_are_named_in_words():
+    # the reader sees the cost lines and trucks, not machine keys (written out by hand)
+    from tco.pipeline import _unset_escalations_text
+
+    keys = ["finance.driver_cost_escalation", "prices.escalation.diesel_exhaust_fluid",
+            "prices.escalation.equipment", "trucks[0].costs.escalation.maintenance",
+            "trucks[0].costs.escalation.tyres", "trucks[1].costs.escalation.maintenance",
+            "trucks[1].costs.escalation.tyres", "trucks[1].costs.escalation.battery"]
+    assert _unset_escalations_text(keys, ["Diesel tractor", "Electric tractor"]) == (
+        "driver cost; diesel exhaust fluid and equipment prices; maintenance and tyres of "
+        "Diesel tractor and Electric tractor; battery of Electric tractor")
