@@ -29,6 +29,7 @@ from typing import NamedTuple
 import numpy as np
 
 from tco import roadload
+from tco.units import J_PER_KWH, M3_PER_US_GALLON
 from tco.roadload import _check_nonnegative, _check_positive, _inputs
 
 __all__ = [
@@ -49,7 +50,7 @@ __all__ = [
     "fuel_use",
 ]
 
-_US_GALLON = 3.785411784e-3  # [m³], exact by definition
+_US_GALLON = M3_PER_US_GALLON  # [m³], exact by definition
 _HOUR = 3600.0  # [s]
 
 #: Density of road diesel (EN 590 type). [kg/m³] JEC Well-to-Tank report v5 (JRC, 2020),
@@ -68,7 +69,7 @@ IDLE_FUEL_RATE_32000LB = 0.49 * _US_GALLON / _HOUR
 #: Common practice (trade articles).
 DEF_RATIO = 0.02
 #: One g/kWh in kg/J. [kg/J per g/kWh]
-G_PER_KWH = 1e-3 / 3.6e6
+G_PER_KWH = 1e-3 / J_PER_KWH
 
 
 class DieselPowertrain(NamedTuple):

@@ -7,6 +7,7 @@ from openpyxl.utils import get_column_letter
 
 from tco.report import workbook_base as wbb
 from tco.report.workbook_base import safe_text
+from tco.units import J_PER_KWH, M_PER_MILE
 
 
 #: Sheet titles in workbook order (the last two only when uncertainty results exist).
@@ -17,13 +18,13 @@ SHEETS = ("Summary", "Inputs", "Cash flow", "Emissions", "Energy", "Sensitivity"
 _SU, _IN, _CF, _EM, _EN, _SE, _ST = SHEETS
 
 
-_J_PER_KWH = 3.6e6
+_J_PER_KWH = J_PER_KWH  # from tco.units, the one home of conversion constants
 
 
 _M_PER_KM = 1000.0
 
 
-_M_PER_MILE = 1609.344  # international mile, exact
+_M_PER_MILE = M_PER_MILE  # international mile, exact (tco.units)
 
 
 _M3_PER_L = 1e-3
