@@ -401,6 +401,12 @@ def enroute_time(e, usable_capacity: float, deficit: float) -> tuple[float, int]
     return t, int(electric.enroute_stops(deficit, usable_capacity, arrival))
 
 
+def _driver_time_words(e) -> str:
+    """What :func:`driver_time_lost` counts, in words."""
+    return ("driver time beyond the required breaks" if e.enroute.charge_during_breaks
+            else "driver time")
+
+
 def driver_time_lost(e, charging_time: float, stops: int, driving_time: float) -> float:
     """Driver time the en-route charging costs [s]: with ``charge_during_breaks``, only
     the charging beyond the required breaks, plus each stop's overhead."""
@@ -448,10 +454,17 @@ def _electric_day(truck, scenario, tot, n_trips, summary, feas, warnings, ele) -
             v["enroute_time"] = charge_t + stops * e.enroute.overhead
             v["enroute_stops"] = stops
             v["driver_time_lost"] = driver_time_lost(e, charge_t, stops, driving_time)
-            v["text"] = (f"With the {label.replace('_', '-')} battery the day needs "
-                         f"{deficit / J_PER_KWH:.0f} kWh of en-route charging: "
-                         f"{v['enroute_time'] / 60:.0f} min a day at "
-                         f"{e.enroute.power / 1000:.0f} kW, stop overhead included.")
+            v["enroute_grid_energy"] = deficit / e.enroute.efficiency
+            v["text"] = (f"With the {label.replace('_', '-')} battery"
+                         + (f" (state of health {e.eol_state_of_health:.0%})"
+                            if label == "end_of_life" else "")
+                         + f", on the scenario's mean day, the day needs "
+                         f"{deficit / J_PER_KWH:.0f} kWh of en-route charging into the "
+                         f"battery ({v['enroute_grid_energy'] / J_PER_KWH:.0f} kWh at the "
+                         f"meter): {v['enroute_time'] / 60:.0f} min a day at the "
+                         f"{e.enroute.power / 1000:.0f} kW charger, stop overhead included, "
+                         f"of which {v['driver_time_lost'] / 60:.0f} min is "
+                         f"{_driver_time_words(e)}.")
             v["ok_with_enroute"] = True
         elif deficit > 0:
             v["text"] = (f"With the {label.replace('_', '-')} battery the day is not "
@@ -558,12 +571,21 @@ def _ageing(truck, scenario, tot, n_trips, trips, op_fields, feas, warnings, sum
     else:
         cal = f"year {fy} ({start_year + fy - 1})"
         if e.enroute.power > 0:
+            worst = int(np.argmax(ag.enroute_energy))  # 0-based year with the most
+            below = (f", below the {e.eol_state_of_health:.0%} end-of-life state of health "
+                     f"until the battery is replaced at the end of that year"
+                     if ag.soh_low[worst] < e.eol_state_of_health - 5e-4 else "")
             info["text"] = (
                 f"From {cal} the day no longer fits the battery (state of health "
                 f"{ag.soh_low[fy - 1]:.0%} at its lowest that year): from then on it needs "
                 f"en-route charging, costed as public charging and driver time in each year "
-                f"it is short (up to {ag.enroute_energy.max() / J_PER_KWH:.0f} kWh and "
-                f"{ag.enroute_time.max() / 60:.0f} min a day on average over a year).")
+                f"it is short. The most is in year {worst + 1} ({start_year + worst}), "
+                f"state of health down to {ag.soh_low[worst]:.0%}{below}: averaged over "
+                f"that year's operating days, "
+                f"{ag.enroute_energy[worst] / J_PER_KWH:.0f} kWh a day into the battery "
+                f"({ag.enroute_energy[worst] / e.enroute.efficiency / J_PER_KWH:.0f} kWh at "
+                f"the meter) and {ag.enroute_time[worst] / 60:.0f} min a day of "
+                f"{_driver_time_words(e)}.")
         else:
             info["text"] = (
                 f"From {cal} the day no longer fits the battery (state of health "

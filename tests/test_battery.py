@@ -94,3 +94,24 @@ def test_cycles_rule_replaces_at_end_of_life():
 def test_a_battery_too_small_when_new_is_not_replaced_for_range():
     a = battery.age(5, LAM, 0.8, 500 * KWH, AVAIL, 350e3, 0.92, 600.0, policy="range")
     assert a.replacements == [] and a.first_short_year == 1
+
+
+def test_worst_year_can_exceed_the_end_of_life_design_point():
+    # Hand-worked example (hand calculation written out here). The day needs 100 kWh above
+    # the reserve; a new battery gives 110 kWh, so at the end-of-life state of health 0.80
+    # it gives 88 kWh and the design-point deficit is 100 − 88 = 12 kWh into the battery.
+    # With 0.3 lives a year SoH(t) = 1 − 0.2·0.3·t = 1 − 0.06·t: end of life at t = 3.33 yr,
+    # i.e. during year 4, and the "cycles" rule replaces the battery at the END of year 4.
+    # Year 4 (t = 3..4, all twelve months short) averages SoH 1 − 0.06·3.5 = 0.79, below
+    # 0.80, so its average deficit is 100 − 110·0.79 = 13.1 kWh a day: more than the
+    # end-of-life design point. At the meter both are divided by the charger efficiency
+    # 0.9: 12 / 0.9 = 13.33 kWh and 13.1 / 0.9 = 14.56 kWh.
+    kwh = 3.6e6
+    ag = battery.age(5, 0.3, 0.8, 100 * kwh, 110 * kwh, 100e3, 0.9, 0.0, policy="cycles")
+    assert ag.replacements == [4]
+    assert ag.soh_low[3] < 0.8
+    assert ag.enroute_energy[3] / kwh == pytest.approx(13.1, rel=1e-9)
+    design_point = 100 - 110 * 0.8
+    assert design_point == pytest.approx(12.0)
+    assert ag.enroute_energy.max() / kwh > design_point
+    assert ag.enroute_energy[3] / 0.9 / kwh == pytest.approx(14.556, abs=1e-3)

@@ -6,6 +6,7 @@ F = A + B·v + C·v² with B = 0); on a grade m·g·sin θ is added. Air density
 1976 standard atmosphere, checked here against the independent `fluids` library.
 """
 import math
+import re
 
 import numpy as np
 import pytest
@@ -354,3 +355,27 @@ def test_winter_penalty_of_the_demo_is_in_the_measured_range():
     grid = cold["grid_energy_depot"] / warm["grid_energy_depot"] - 1
     assert 0.15 <= battery <= 0.30
     assert 0.15 <= grid <= 0.35
+
+
+def test_end_of_life_sentence_states_battery_and_meter_energy(tmp_path):
+    # The end-of-life design point, by hand: energy above the reserve at state of health
+    # 0.8 is (start − reserve)·C·0.8; the deficit is the day's drawdown minus that, into
+    # the battery; at the meter it is deficit / η with the en-route charger's η = 0.9.
+    loaded = write_case(tmp_path)
+    e = loaded.scenario.trucks[1].electric
+    e.battery_capacity = 40 * 3.6e6
+    e.eol_state_of_health = 0.8
+    e.enroute.power = 300e3
+    e.enroute.efficiency = 0.9
+    ev = evaluate(loaded).trucks["E"]
+    eol = ev.feasibility["battery"]["end_of_life"]
+    usable = eol["usable_capacity"] / 0.8  # new usable capacity [J]
+    deficit = eol["needed"] - (e.start_soc - e.reserve) * usable * 0.8
+    assert eol["deficit"] == pytest.approx(deficit, rel=1e-9)
+    m = re.search(r"state of health 80%.*?(\d+) kWh of en-route charging into the battery "
+                  r"\((\d+) kWh at the meter\)", eol["text"])
+    assert m, eol["text"]
+    assert abs(int(m.group(1)) - deficit / 3.6e6) <= 0.5
+    assert abs(int(m.group(2)) - deficit / 0.9 / 3.6e6) <= 0.5
+    assert deficit / 3.6e6 > 10  # big enough that the two roundings differ
+    assert "driver time" in eol["text"]
