@@ -77,6 +77,12 @@ def test_input_values_read_as_a_person_writes_them():
         == "22:00–06:00"
     assert fm.input_value("declining_balance", "", "x.method", "EUR") == "declining balance"
     assert fm.input_value("en_16258_2012", "", "x.diesel_factors", "EUR") == "en_16258_2012"
+    # a per-kelvin coefficient is no price: UNECE Regulation No. 117 / ISO 28580 give the
+    # rolling-resistance temperature correction K_t per kelvin (0.006 for C3 tyres)
+    for cur, system in (("EUR", "metric"), ("USD", "us")):
+        text = fm.input_value(0.006, "1/K", "trucks[0].rolling_resistance_temperature",
+                              cur, system)
+        assert cur not in text and text.endswith("/K"), text
 
 
 def test_labels_come_from_descriptions():

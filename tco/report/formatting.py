@@ -222,7 +222,7 @@ def _money_per(unit: str) -> str | None:
     """For a price unit (``"1/km"``, ``"currency/yr"``) the unit it is per."""
     if unit.startswith("currency/"):
         return unit.split("/", 1)[1]
-    if unit.startswith("1/") and unit not in ("1/yr",):
+    if unit.startswith("1/") and unit not in ("1/yr", "1/K"):  # per year, per kelvin
         return unit[2:]
     return None
 
