@@ -520,6 +520,30 @@ def _stack(case: Case, rows: list[dict]) -> dict[str, np.ndarray]:
     return out
 
 
+def _tornado_table(case, bars, d, base, per: float) -> pd.DataFrame:
+    """Rows of a tornado: each compared truck × bar, its input's low/high values and the
+    output at each end (``d[k][b]`` low, ``d[k][B + b]`` high, divided by ``per``)."""
+    B = len(bars)
+    table = []
+    for k in case.compared:
+        for b, (inp, lo, hi, source, _) in enumerate(bars):
+            low, high = float(d[k][b]) / per, float(d[k][B + b]) / per
+            single = not inp.group
+            table.append({
+                "truck": case.names[k], "key": inp.key, "input": inp.label,
+                "unit": inp.unit,
+                "base_value": _to_unit(inp.base, inp.unit) if single else 1.0,
+                "low_value": _to_unit(lo, inp.unit), "high_value": _to_unit(hi, inp.unit),
+                "low_factor": lo / inp.base if single and inp.base else
+                (math.nan if single else lo),
+                "high_factor": hi / inp.base if single and inp.base else
+                (math.nan if single else hi),
+                "low": low, "high": high, "base": base[k],
+                "swing": abs(high - low), "source": source,
+            })
+    return pd.DataFrame(table, columns=_TORNADO_COLUMNS)
+
+
 def tornado(case: Case, settings: UncertaintySettings
             ) -> tuple[pd.DataFrame, list[Input], list[str]]:
     """One-at-a-time sensitivity of ΔPV, all bars in one vectorized call.
@@ -552,26 +576,8 @@ def tornado(case: Case, settings: UncertaintySettings
     if not bars:
         return _empty_tornado(), [], ["no tornado inputs"]
     d = _bar_outputs(case, bars, "present_value_difference")
-    B = len(bars)
     base = case.base_difference
-    table = []
-    for k in case.compared:
-        for b, (inp, lo, hi, source, _) in enumerate(bars):
-            low, high = float(d[k][b]), float(d[k][B + b])
-            single = not inp.group
-            table.append({
-                "truck": case.names[k], "key": inp.key, "input": inp.label,
-                "unit": inp.unit,
-                "base_value": _to_unit(inp.base, inp.unit) if single else 1.0,
-                "low_value": _to_unit(lo, inp.unit), "high_value": _to_unit(hi, inp.unit),
-                "low_factor": lo / inp.base if single and inp.base else
-                (math.nan if single else lo),
-                "high_factor": hi / inp.base if single and inp.base else
-                (math.nan if single else hi),
-                "low": low, "high": high, "base": base[k],
-                "swing": abs(high - low), "source": source,
-            })
-    df = pd.DataFrame(table, columns=_TORNADO_COLUMNS)
+    df = _tornado_table(case, bars, d, base, per=1.0)
     zero = df[df.source != "user"].groupby("key", sort=False)["swing"].max()
     zero = [k for k, v in zero.items() if v <= 1e-9 * max(1.0, df["base"].abs().max())]
     if zero:
@@ -701,24 +707,7 @@ def emissions_tornado(case: Case, settings: UncertaintySettings) -> pd.DataFrame
     d = _bar_outputs(case, bars, "avoided_kg_location")
     base = {k: float(r["avoided_kg_location"][0]) / 1000
             for k, r in run_draws(case, {}).items()}
-    B = len(bars)
-    table = []
-    for k in case.compared:
-        for b, (inp, lo, hi, source, _) in enumerate(bars):
-            low, high = float(d[k][b]) / 1000, float(d[k][B + b]) / 1000
-            single = not inp.group
-            table.append({
-                "truck": case.names[k], "key": inp.key, "input": inp.label, "unit": inp.unit,
-                "base_value": _to_unit(inp.base, inp.unit) if single else 1.0,
-                "low_value": _to_unit(lo, inp.unit), "high_value": _to_unit(hi, inp.unit),
-                "low_factor": lo / inp.base if single and inp.base else
-                (math.nan if single else lo),
-                "high_factor": hi / inp.base if single and inp.base else
-                (math.nan if single else hi),
-                "low": low, "high": high, "base": base[k], "swing": abs(high - low),
-                "source": source,
-            })
-    df = pd.DataFrame(table, columns=_TORNADO_COLUMNS)
+    df = _tornado_table(case, bars, d, base, per=1000.0)  # kg -> t
     scale = max(1.0, df["base"].abs().max())
     df = df[df.groupby("key", sort=False)["swing"].transform("max") > 1e-9 * scale]
     order = {n: j for j, n in enumerate(case.names)}

@@ -364,6 +364,26 @@ def test_after_tax_interest_shield():
     np.testing.assert_allclose(lines["tax_shield_interest"], -0.3 * lines["loan_interest"])
 
 
+def fisher_case(inputs, basis, conv, inflation):
+    """``inputs`` in money ``basis`` with inflation, a 4 % discount rate and a set of
+    escalations, each rate passed through ``conv`` (identity for real rates, the Fisher
+    relation (1+e)(1+i)−1 for their nominal equivalents)."""
+    inputs.finance = inputs.finance.model_copy(update=dict(
+        money_basis=basis, inflation=inflation, discount_rate=conv(0.04),
+        driver_cost_escalation=conv(0.01)))
+    esc = inputs.prices.escalation.model_copy(update=dict(
+        diesel=conv(0.02), electricity=conv(-0.01), equipment=conv(0.0),
+        diesel_exhaust_fluid=conv(0.0), public_charging=conv(0.005)))
+    inputs.prices = inputs.prices.model_copy(update=dict(escalation=esc))
+    for k, t in enumerate(inputs.trucks):
+        e = t.costs.escalation.model_copy(update=dict(
+            maintenance=conv(0.01), battery=conv(-0.04), insurance=conv(0.0),
+            tyres=conv(0.0), tolls=conv(0.0), registration=conv(0.0)))
+        inputs.trucks[k] = TruckSpec(t.name, t.powertrain,
+                                     t.costs.model_copy(update=dict(escalation=e)))
+    return inputs
+
+
 # --------------------------------------------------------------------------- money basis
 def test_real_basis_equals_nominal_with_fisher_rates():
     """Real escalations e and real discount rate r with inflation i are the nominal case
@@ -372,21 +392,7 @@ def test_real_basis_equals_nominal_with_fisher_rates():
     i = 0.03
 
     def case(basis, conv):
-        inputs = rich_case()
-        inputs.finance = inputs.finance.model_copy(update=dict(
-            money_basis=basis, inflation=i, discount_rate=conv(0.04),
-            driver_cost_escalation=conv(0.01)))
-        esc = inputs.prices.escalation.model_copy(update=dict(
-            diesel=conv(0.02), electricity=conv(-0.01), equipment=conv(0.0),
-            diesel_exhaust_fluid=conv(0.0), public_charging=conv(0.005)))
-        inputs.prices = inputs.prices.model_copy(update=dict(escalation=esc))
-        for k, t in enumerate(inputs.trucks):
-            e = t.costs.escalation.model_copy(update=dict(
-                maintenance=conv(0.01), battery=conv(-0.04), insurance=conv(0.0),
-                tyres=conv(0.0), tolls=conv(0.0), registration=conv(0.0)))
-            inputs.trucks[k] = TruckSpec(t.name, t.powertrain,
-                                         t.costs.model_copy(update=dict(escalation=e)))
-        return compute(inputs)
+        return compute(fisher_case(rich_case(), basis, conv, i))
 
     real = case("real", lambda e: e)
     nominal = case("nominal", lambda e: (1 + e) * (1 + i) - 1)

@@ -11,9 +11,9 @@ import dataclasses
 import numpy as np
 import pytest
 
-from tco.cashflow import TruckSpec, compute, evaluate
+from tco.cashflow import compute, evaluate
 from tco.errors import InputError
-from test_cashflow import hand_case, rich_case
+from test_cashflow import fisher_case, hand_case, rich_case
 
 
 
@@ -93,21 +93,7 @@ def test_real_basis_equals_nominal_for_a_later_purchase():
     i = 0.03
 
     def case(basis, conv):
-        inputs = _later(rich_case(), 12, 4)
-        inputs.finance = inputs.finance.model_copy(update=dict(
-            money_basis=basis, inflation=i, discount_rate=conv(0.04),
-            driver_cost_escalation=conv(0.01)))
-        esc = inputs.prices.escalation.model_copy(update=dict(
-            diesel=conv(0.02), electricity=conv(-0.01), equipment=conv(0.0),
-            diesel_exhaust_fluid=conv(0.0), public_charging=conv(0.005)))
-        inputs.prices = inputs.prices.model_copy(update=dict(escalation=esc))
-        for k, t in enumerate(inputs.trucks):
-            e = t.costs.escalation.model_copy(update=dict(
-                maintenance=conv(0.01), battery=conv(-0.04), insurance=conv(0.0),
-                tyres=conv(0.0), tolls=conv(0.0), registration=conv(0.0)))
-            inputs.trucks[k] = TruckSpec(t.name, t.powertrain,
-                                         t.costs.model_copy(update=dict(escalation=e)))
-        return compute(inputs)
+        return compute(fisher_case(_later(rich_case(), 12, 4), basis, conv, i))
 
     real = case("real", lambda e: e)
     nominal = case("nominal", lambda e: (1 + e) * (1 + i) - 1)
