@@ -855,7 +855,7 @@ class _FleetBook:
         _bold(safe_text(ws.cell(row=pv, column=1), "Present value"))
         wbb.add_named_input(
             self.wb, ws, rate_row, "discount_rate", "Discount rate [per year]",
-            self.s["study"]["discount_rate"], "1/yr", "base scenario: finance.discount_rate",
+            self.s["study"]["discount_rate"], "per year", "base scenario: finance.discount_rate",
             number_format=wbb.PERCENT)
         for col, fmt in ((3, wbb.MONEY), (4, wbb.MONEY), (5, wbb.MONEY), (7, wbb.MASS),
                          (8, wbb.MASS), (9, wbb.MASS)):

@@ -153,7 +153,7 @@ class SummarySheet:
         cur = self.cur
         items = [("Simple payback year", "simple_payback_year", "yr", "0"),
                  ("Discounted payback year", "discounted_payback_year", "yr", "0"),
-                 ("IRR of the extra investment", "irr", "1/yr", _RATE),
+                 ("IRR of the extra investment", "irr", "per year", _RATE),
                  ("Break-even diesel price", "break_even.diesel_price_per_litre", f"{cur}/L",
                   "#,##0.0000"),
                  ("Break-even depot electricity price (profile-weighted)",
@@ -196,7 +196,7 @@ class SummarySheet:
                 (f"{name}: {t['method']} against paying cash, PV at the after-tax cost of "
                  "debt (positive: costs more)", round(t["present_value_at_cost_of_debt"]) + 0.0,
                  cur, wbb.MONEY),
-                (f"{name}: after-tax cost of debt", t["after_tax_cost_of_debt"], "1/yr", _RATE),
+                (f"{name}: after-tax cost of debt", t["after_tax_cost_of_debt"], "per year", _RATE),
                 (f"{name}: present value as financed (equity view)",
                  t["present_value_as_financed"], cur, wbb.MONEY)]
         for c in f.get("comparisons") or []:
@@ -204,7 +204,7 @@ class SummarySheet:
                 (f"{c['truck']} − {c['baseline']}: PV difference as financed",
                  c.get("present_value_difference_as_financed"), cur, wbb.MONEY),
                 (f"{c['truck']} − {c['baseline']}: IRR as financed (return on equity)",
-                 c.get("irr_as_financed"), "1/yr", _RATE)]
+                 c.get("irr_as_financed"), "per year", _RATE)]
         for label, value, unit, fmt in items:
             safe_text(ws.cell(row=row, column=1), label)
             cell = ws.cell(row=row, column=3)
