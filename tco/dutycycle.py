@@ -56,6 +56,7 @@ import numpy as np
 import pandas as pd
 from scipy.interpolate import PchipInterpolator
 
+from tco.budget import check_samples
 from tco.errors import InputError
 from tco.units import UnitError, to_si, ureg
 
@@ -391,8 +392,6 @@ def _resample_arrays(
         raise InputError(
             f"the trace lasts {span:g} s, less than one time step (dt = {dt:g} s)", where="dt"
         )
-    from tco.budget import check_samples
-
     check_samples(span / dt + 1, dt, what="this trace")  # before allocating the grid
     n = max(1, int(math.ceil(span / dt - 1e-9)))
     if speed is not None and speed[-1] == 0.0 and n * dt > span:

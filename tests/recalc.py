@@ -68,20 +68,29 @@ def recalculate(xlsx_path, outdir=None, timeout: float = 180.0) -> Path:
     out = out.resolve()
     if out == src.parent:
         raise ValueError("outdir must differ from the input's folder")
+    return _convert(src, out, "xlsx", timeout, "recalculation", settings=_XCU)
+
+
+def _convert(src: Path, out: Path, fmt: str, timeout: float, what: str,
+             settings: str | None = None) -> Path:
+    """Convert ``src`` into ``out`` with headless LibreOffice in a throw-away profile
+    (``settings``: its registrymodifications.xcu, if any) and return the written file."""
     out.mkdir(parents=True, exist_ok=True)
     profile = Path(tempfile.mkdtemp(prefix="lo-profile-"))
     try:
-        (profile / "user").mkdir()
-        (profile / "user" / "registrymodifications.xcu").write_text(_XCU, encoding="utf-8")
+        if settings is not None:
+            (profile / "user").mkdir()
+            (profile / "user" / "registrymodifications.xcu").write_text(settings,
+                                                                       encoding="utf-8")
         cmd = [SOFFICE, f"-env:UserInstallation={profile.as_uri()}", "--headless",
-               "--norestore", "--nologo", "--convert-to", "xlsx", "--outdir", str(out),
+               "--norestore", "--nologo", "--convert-to", fmt, "--outdir", str(out),
                str(src)]
         proc = subprocess.run(cmd, capture_output=True, text=True, timeout=timeout)
     finally:
         shutil.rmtree(profile, ignore_errors=True)
-    result = out / (src.stem + ".xlsx")
+    result = out / (src.stem + "." + fmt)
     if proc.returncode != 0 or not result.exists():
-        raise RuntimeError(f"LibreOffice recalculation failed (exit {proc.returncode}): "
+        raise RuntimeError(f"LibreOffice {what} failed (exit {proc.returncode}): "
                            f"{proc.stderr.strip() or proc.stdout.strip() or 'no output'}")
     return result
 
@@ -102,19 +111,5 @@ def to_pdf(xlsx_path, outdir, timeout: float = 180.0) -> Path:
     """
     if SOFFICE is None:
         raise RuntimeError("LibreOffice (soffice) is not installed")
-    src = Path(xlsx_path).resolve()
-    out = Path(outdir).resolve()
-    out.mkdir(parents=True, exist_ok=True)
-    profile = Path(tempfile.mkdtemp(prefix="lo-profile-"))
-    try:
-        cmd = [SOFFICE, f"-env:UserInstallation={profile.as_uri()}", "--headless",
-               "--norestore", "--nologo", "--convert-to", "pdf", "--outdir", str(out),
-               str(src)]
-        proc = subprocess.run(cmd, capture_output=True, text=True, timeout=timeout)
-    finally:
-        shutil.rmtree(profile, ignore_errors=True)
-    result = out / (src.stem + ".pdf")
-    if proc.returncode != 0 or not result.exists():
-        raise RuntimeError(f"LibreOffice PDF export failed (exit {proc.returncode}): "
-                           f"{proc.stderr.strip() or proc.stdout.strip() or 'no output'}")
-    return result
+    return _convert(Path(xlsx_path).resolve(), Path(outdir).resolve(), "pdf", timeout,
+                    "PDF export")
