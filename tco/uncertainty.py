@@ -96,7 +96,7 @@ import numpy as np
 import pandas as pd
 from scipy import stats
 
-from tco import cashflow, emissions, sampling
+from tco import cashflow, emissions, heap, sampling
 from tco import finance as fin
 from tco.errors import InputError
 from tco.scenario.route import Route
@@ -983,6 +983,8 @@ def run_draws(case: Case, overrides: dict) -> dict[int, dict[str, np.ndarray]]:
         emissions settings).
     """
     n = max((len(v) for v in overrides.values() if np.ndim(v) == 1), default=1)
+    if n > 1:
+        heap.keep_freed_memory()  # no page faults for each pass's temporaries
     if n <= DRAWS_PER_CALL:
         return _run_models(case, overrides)
     size = -(-n // -(-n // DRAWS_PER_CALL))  # equal calls: no small last one
@@ -1153,6 +1155,7 @@ def monte_carlo(case: Case, inputs: Sequence[Uncertain], pearson: np.ndarray | N
     outputs : dict
         As :func:`run_draws`, over all draws.
     """
+    heap.keep_freed_memory()  # see tco.heap: the same numbers, without page faults
     rng = np.random.default_rng(seed)
     draws = sample([u.dist for u in inputs], n, rng, pearson)
     if chunk_size is None:
