@@ -243,15 +243,106 @@ def test_macros_and_huge_sheets_are_refused(tmp_path):
         load_scenario(tmp_path / "fake.xlsx")
 
 
-def test_an_edited_named_input_is_not_silently_ignored(delivered, tmp_path):
-    """The named rows at the top of a delivered Inputs sheet drive the formulas; a rerun
-    reads the field table. A named input changed there is refused, naming the cell."""
-    _, _, wb_path = delivered
+def _named(wb, name):
+    sheet, coord = next(iter(wb.defined_names[name].destinations))
+    return wb[sheet][coord.replace("$", "")]
+
+
+@pytest.mark.parametrize("name, shown, path, toml_value", [
+    ("diesel_price", 1.6, ("prices", "diesel"), 1.6),                        # EUR/L both
+    ("days_per_year", 280, ("route", "days_per_year"), 280),
+    ("t2_purchase_price", 240000, ("trucks", 1, "costs", "purchase_price"), 240000),
+    ("td_loss", 0.07, ("emissions", "td_loss"), "7 %"),                      # shown as a share
+    ("t2_battery_cost_per_kwh", 120, ("trucks", 1, "costs", "battery_replacement",
+                                      "cost_per_kwh"), 120),
+])
+def test_an_edited_named_input_reruns_as_a_toml_edit(delivered, tmp_path, name, shown, path,
+                                                      toml_value):
+    """The yellow named input is the one source of truth: edited in the delivered workbook
+    (openpyxl), a rerun from the workbook gives every summary.json figure a run of the TOML
+    with the same edit gives (1e-12), and the same inputs fingerprint."""
+    from tco.pipeline import evaluate
+    from tco.report.summary import build_summary
+
+    _, summary, wb_path = delivered
     wb = openpyxl.load_workbook(wb_path)
-    sheet, coord = next(iter(wb.defined_names["diesel_price"].destinations))
-    wb[sheet][coord.replace("$", "")].value = 1.6
+    _named(wb, name).value = shown
     edited = tmp_path / "edited.xlsx"
     wb.save(edited)
-    with pytest.raises(InputError, match="diesel_price") as e:
+    raw = _demo_raw()
+    node = raw
+    for k in path[:-1]:
+        node = node[k] if isinstance(k, int) else node.setdefault(k, {})
+    node[path[-1]] = toml_value
+    toml = tmp_path / "edited.toml"
+    toml.write_text(_toml(raw), encoding="utf-8")
+    want_loaded = load_scenario(toml)
+    got_loaded = load_scenario(edited)
+    assert got_loaded.inputs_fingerprint == want_loaded.inputs_fingerprint
+    want = dict(_figures(build_summary(evaluate(want_loaded))))
+    got = dict(_figures(build_summary(evaluate(got_loaded))))
+    before = dict(_figures(summary))
+    moved = 0
+    for k, v in want.items():
+        if isinstance(v, float):
+            assert math.isclose(got[k], v, rel_tol=1e-12, abs_tol=1e-300), (k, got[k], v)
+            moved += not math.isclose(before.get(k, v), v, rel_tol=1e-12)
+        elif k not in (".scenario.inputs_fingerprint_sha256",):
+            assert got[k] == v, (k, got[k], v)
+    assert moved > 0  # the edit did change the figures
+
+
+def test_an_edited_model_figure_is_refused_naming_the_cell(delivered, tmp_path):
+    """A named input the model computes (the modelled diesel per year) cannot be edited
+    for a rerun: one line naming the cell."""
+    _, _, wb_path = delivered
+    wb = openpyxl.load_workbook(wb_path)
+    cell = _named(wb, "t1_diesel_L")
+    cell.value = 1.0
+    edited = tmp_path / "edited.xlsx"
+    wb.save(edited)
+    with pytest.raises(InputError, match="t1_diesel_L.*model figure") as e:
         load_scenario(edited)
-    assert e.value.where == f"Inputs!{coord.replace('$', '')}"
+    assert e.value.where == f"Inputs!{cell.coordinate}"
+
+
+def test_a_field_edited_in_two_places_is_refused(delivered, tmp_path):
+    """The same field changed both in its named input and in the field table, to different
+    values, is an error naming the named input's cell."""
+    _, _, wb_path = delivered
+    wb = openpyxl.load_workbook(wb_path)
+    cell = _named(wb, "diesel_price")
+    cell.value = 1.6
+    ws = wb["Inputs"]
+    r = next(r for r in range(1, ws.max_row + 1) if ws.cell(row=r, column=1).value
+             == "prices.diesel")
+    ws.cell(row=r, column=3).value = 1.7
+    edited = tmp_path / "edited.xlsx"
+    wb.save(edited)
+    with pytest.raises(InputError, match="both") as e:
+        load_scenario(edited)
+    assert e.value.where == f"Inputs!{cell.coordinate}"
+
+
+def test_an_edited_residual_share_reruns(tmp_path):
+    """A value-table residual share edited on the Inputs sheet (a range row) is read into
+    the list field, as the same list written in the TOML."""
+    from tco.pipeline import evaluate
+    from tco.report.summary import build_summary
+    from tco.report.workbook import write_workbook
+
+    raw = _demo_raw()
+    raw["trucks"][0]["costs"]["residual"] = {"method": "table", "shares": [0.8, 0.7, 0.6]}
+    toml = tmp_path / "a.toml"
+    toml.write_text(_toml(raw), encoding="utf-8")
+    result = evaluate(load_scenario(toml))
+    wb_path = tmp_path / "w.xlsx"
+    write_workbook(result, build_summary(result), wb_path)
+    wb = openpyxl.load_workbook(wb_path)
+    ws = wb["Inputs"]
+    r = next(r for r in range(1, ws.max_row + 1)
+             if ws.cell(row=r, column=2).value == "t1_residual_shares [2]")
+    ws.cell(row=r, column=3).value = 0.65
+    wb.save(wb_path)
+    got = load_scenario(wb_path).scenario.trucks[0].costs.residual.shares
+    assert list(got) == pytest.approx([0.8, 0.65, 0.6], rel=1e-15)

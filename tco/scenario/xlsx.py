@@ -20,7 +20,10 @@ Where the table lives:
   validation and numbers a range check;
 * the workbook ``tco run`` delivers carries the same table at the foot of its ``Inputs``
   sheet (the scenario as run, user values as written), so ``tco run workbook.xlsx``
-  reruns the whole model from it.
+  reruns the whole model from it. The yellow named inputs above the table (the cells the
+  workbook's formulas read) are read too: one edited there goes into the field it shows
+  (hidden columns H–J hold the value as written, the field and the factor from the unit
+  shown to the field's), so a finance user edits the visible input and reruns.
 
 The reader (:func:`load_workbook_scenario`) is guarded like the TOML one: macro-enabled
 files (``.xlsm``, or a VBA project inside) are refused, so are files or sheets too large
@@ -380,6 +383,8 @@ def load_workbook_scenario(path):
             from None
     data: dict = {}
     where_of: dict[str, str] = {}
+    named_edits: list[tuple[str, float, str, float | None]] = []
+    lists: dict[str, dict[int, float]] = {}
     found = False
     try:
         for ws in wb.worksheets:
@@ -389,11 +394,11 @@ def load_workbook_scenario(path):
                                  f"({ws.max_row} rows × {ws.max_column} columns; at most "
                                  f"{MAX_ROWS} × {MAX_COLUMNS})", file=path)
             inside = named = False
-            for r, cells in enumerate(ws.iter_rows(max_col=8), start=1):
+            for r, cells in enumerate(ws.iter_rows(max_col=10), start=1):
                 if r > MAX_ROWS:
                     raise InputError(f"sheet '{ws.title}' is too large for a scenario",
                                      file=path)
-                vals = [c.value if c is not None else None for c in cells] + [None] * 8
+                vals = [c.value if c is not None else None for c in cells] + [None] * 10
                 if r == 1:
                     named = vals[7] == "as written"  # a delivered workbook's Inputs sheet
                 if tuple(vals[:4]) == FIELD_HEADER[:4]:
@@ -401,7 +406,7 @@ def load_workbook_scenario(path):
                     continue
                 if not inside:
                     if named and r > 1:
-                        _check_named_input(ws.title, r, vals, path)
+                        _named_input(ws.title, r, vals, path, named_edits, lists)
                     continue
                 field, kind, value = vals[0], vals[1], vals[2]
                 if field is None or (isinstance(field, str) and not field.strip()):
@@ -434,6 +439,7 @@ def load_workbook_scenario(path):
         raise InputError("no field table (a header row 'Field | Kind | Value | Unit') in "
                          "any sheet", file=path)
     _compact(data)
+    _apply_named_edits(data, where_of, named_edits, lists, path)
     try:
         scenario = parse_scenario(data, path)
     except InputError as exc:
@@ -443,19 +449,95 @@ def load_workbook_scenario(path):
     return LoadedScenario(scenario, path.resolve(), data, fp, inputs_fp, shown=path)
 
 
-def _check_named_input(sheet: str, r: int, vals: list, path: Path) -> None:
-    """A delivered workbook's named input (above the field table) must be as written: a
-    rerun reads the field table, so an edit there would be silently ignored."""
-    name, value, written = vals[1], vals[2], vals[7]
+def _named_input(sheet: str, r: int, vals: list, path: Path, edits: list,
+                 lists: dict) -> None:
+    """A delivered workbook's named input (above the field table): the cell the sheet's
+    formulas read. Edited, it is what a rerun uses: its value goes into the scenario
+    field it shows (hidden columns H–J: value as written, field, factor to the field's
+    unit). A model figure (no field) must stay as written: a rerun computes it."""
+    name, value, written, field, factor = vals[1], vals[2], vals[7], vals[8], vals[9]
     if not isinstance(name, str) or written is None or isinstance(written, str):
         return
-    same = isinstance(value, (int, float)) and not isinstance(value, bool) and \
-        math.isclose(float(value), float(written), rel_tol=1e-12, abs_tol=0.0)
-    if not same:
-        raise InputError(f"the named input '{name}' was changed here, but a rerun reads the "
-                         "scenario table at the foot of this sheet: change the field there "
-                         "(the named rows drive this workbook's formulas only)", file=path,
-                         where=f"{sheet}!C{r}")
+    where = f"{sheet}!C{r}"
+    number = isinstance(value, (int, float)) and not isinstance(value, bool)
+    if number and not math.isfinite(float(value)):
+        raise InputError(f"the named input '{name}' is not a finite number", file=path,
+                         where=where)
+    linked = isinstance(field, str) and _PATH_RE.match(field) and \
+        isinstance(factor, (int, float)) and not isinstance(factor, bool)
+    m = re.match(r"^(.*)\[([0-9]+)\]$", field) if linked else None
+    if m and number:  # an item of a list field: the rerun takes the whole list shown
+        lists.setdefault(m.group(1), {})[int(m.group(2))] = float(value) * float(factor)
+    same = number and math.isclose(float(value), float(written), rel_tol=1e-12, abs_tol=0.0)
+    if same:
+        return
+    if not number:
+        raise InputError(f"the named input '{name}' must be a number (a formula or text is "
+                         "not read)", file=path, where=where)
+    if not linked:
+        raise InputError(f"the named input '{name}' is a model figure, computed again by a "
+                         "rerun: it cannot be edited for a rerun (edit the scenario inputs "
+                         "it comes from)", file=path, where=where)
+    edits.append((field, float(value) * float(factor), where, float(written) * float(factor)))
+
+
+def _apply_named_edits(data: dict, where_of: dict, edits: list, lists: dict,
+                       path: Path) -> None:
+    """Put the edited named inputs into the scenario read from the field table; refuse a
+    field edited in both places with different values."""
+    for field, value, where, written in edits:
+        m = re.match(r"^(.*)\[([0-9]+)\]$", field)
+        target = m.group(1) if m and m.group(1) in lists else field
+        if target != field:
+            new = [lists[target][k] for k in sorted(lists[target])]
+        else:  # a whole number reads as one (counts and years are integer fields)
+            new = int(value) if value.is_integer() and abs(value) < 2**53 else value
+        try:
+            old = _raw_at(data, target)
+        except (KeyError, IndexError, TypeError):
+            old = None
+        if old is not None and target == field and written is not None:
+            try:
+                same = isinstance(old, (int, float)) and math.isclose(
+                    float(old), written, rel_tol=1e-9)
+            except (TypeError, ValueError):
+                same = False
+            if not same and not isinstance(old, str):
+                raise InputError(f"'{field}' was edited both in the named input {where} and "
+                                 f"in the field table ({where_of.get(field, 'below')}): "
+                                 "keep one", file=path, where=where)
+        try:
+            _replace(data, target, new)
+        except ValueError as exc:
+            raise InputError(str(exc), file=path, where=where) from None
+        where_of[target] = where
+
+
+def _replace(data: dict, path: str, value) -> None:
+    """Set a field path in the TOML-like dict, replacing what is there."""
+    parts = re.findall(r"[^.\[\]]+|\[[0-9]+\]", path)
+    node = data
+    for k, part in enumerate(parts[:-1]):
+        nxt = parts[k + 1]
+        if part.startswith("["):
+            i = int(part[1:-1])
+            while len(node) <= i:
+                node.append({})
+            node = node[i]
+        elif nxt.startswith("["):
+            node = node.setdefault(part, [])
+        else:
+            node = node.setdefault(part, {})
+        if not isinstance(node, (dict, list)):
+            raise ValueError("mixes a section and a single value")
+    last = parts[-1]
+    if last.startswith("["):
+        i = int(last[1:-1])
+        while len(node) <= i:
+            node.append({})
+        node[i] = value
+    else:
+        node[last] = value
 
 
 def _compact(data) -> None:

@@ -71,8 +71,12 @@ _WRAP = Alignment(wrap_text=True, vertical="top")
 _NOT_LIVE = "model figure (not live)"
 
 
-#: Hidden column of the Inputs sheet holding each named input's value as written.
+#: Hidden columns of the Inputs sheet: each named input's value as written, the scenario
+#: field it shows (empty: a model figure) and the factor from the value shown to the field
+#: table's unit (``tco.scenario.xlsx`` reads an edited named input through them).
 _AS_WRITTEN_COL = 8
+_FIELD_COL = 9
+_FIELD_FACTOR_COL = 10
 
 
 #: Factor on a break-even input in the workings that measure the present value's slope.

@@ -115,10 +115,12 @@ class Book(InputsSheet, CashflowSheet, EmissionsSheet, EnergySheet, SummarySheet
 
     # ------------------------------------------------------------------------ sources
     def source(self, path: str) -> str:
+        """The source text of a scenario field; the field is remembered for the named
+        input written next (:meth:`InputsSheet._inp` links the row to it)."""
         s = self.sources.get(path)
-        if s is None:
-            return "scenario"
-        return "user" if s == "user" else f"default: {s}"
+        text = "scenario" if s is None else ("user" if s == "user" else f"default: {s}")
+        self._src_seen = (path, text)
+        return text
 
     def pre(self, i: int) -> str:
         """Prefix of truck i's defined names."""

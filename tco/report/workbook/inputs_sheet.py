@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import math
+import re
 
 import numpy as np
 from openpyxl.workbook.defined_name import DefinedName
@@ -10,6 +11,8 @@ from tco.report import workbook_base as wbb
 from tco.report.workbook_base import safe_text, write_value
 from tco.report.workbook._common import (
     _AS_WRITTEN_COL,
+    _FIELD_COL,
+    _FIELD_FACTOR_COL,
     _DERIVED_FILL,
     _FACTOR,
     _IN,
@@ -34,14 +37,72 @@ class InputsSheet:
     """
 
     # ------------------------------------------------------------------------ Inputs
-    def _inp(self, name, label, value, unit, source, fmt=None) -> str:
+    def _inp(self, name, label, value, unit, source, fmt=None, field=None) -> str:
         wbb.add_named_input(self.wb, self.ws_in, self.row, name, label, value, unit, source,
                             number_format=fmt)
-        # the value as written, in a hidden column: a rerun from this workbook reads the
-        # scenario table, and refuses a named input edited here (it would be ignored)
+        # hidden columns: the value as written, and the scenario field it shows with the
+        # factor to the field table's unit. A rerun from this workbook reads an edited
+        # named input into its field (one source of truth: the cell the formulas read); a
+        # model figure (no field) edited here is refused with a line naming the cell.
         write_value(self.ws_in.cell(row=self.row, column=_AS_WRITTEN_COL), value)
+        seen = getattr(self, "_src_seen", None)
+        if field is None and seen is not None and seen[1] == source:
+            field = seen[0]
+        self._src_seen = None
+        factor = self._field_factor(field, value, unit) if field else None
+        if factor is not None:
+            safe_text(self.ws_in.cell(row=self.row, column=_FIELD_COL), field)
+            write_value(self.ws_in.cell(row=self.row, column=_FIELD_FACTOR_COL), factor)
         self.row += 1
         return name
+
+    def _field_factor(self, field: str, shown, unit: str) -> float | None:
+        """Factor from a named input's value as shown to the field table's number: the
+        field value of an edit is the shown value × factor. None when the field is not a
+        number. A quantity field (``Qty``) is read in its unit and held in SI; the others
+        (money, counts, years) are held as written."""
+        import typing
+
+        from pydantic import BeforeValidator
+
+        from tco.units import to_si
+
+        parts = re.findall(r"[^.\[\]]+|\[[0-9]+\]", field)
+        node, info = self.s, None
+        try:
+            for part in parts:
+                if part.startswith("["):
+                    node = node[int(part[1:-1])]
+                else:
+                    info = type(node).model_fields[part]
+                    node = getattr(node, part)
+        except (AttributeError, IndexError, KeyError, TypeError):
+            return None
+        if info is None or isinstance(node, bool) or not isinstance(
+                node, (int, float, type(None))) or isinstance(shown, bool):
+            return None
+
+        def is_qty(ann, meta=()) -> bool:
+            if any(isinstance(m, BeforeValidator) for m in meta):
+                return True
+            return any(is_qty(a, getattr(a, "__metadata__", ()))
+                       for a in typing.get_args(ann))
+
+        unit_of = (info.json_schema_extra or {}).get("unit", "") \
+            if isinstance(info.json_schema_extra, dict) else ""
+        try:  # what one field-table number is, as the scenario holds it
+            per_unit = to_si(1.0, unit_of) if is_qty(info.annotation, info.metadata) \
+                else 1.0
+        except Exception:  # noqa: BLE001 - a unit pint does not read: no link
+            return None
+        if node is not None and node != 0 and shown:  # 15 digits: 1.0000000000000002 → 1
+            return float(f"{float(node) / float(shown) / per_unit:.15g}")
+        try:  # a zero value: the factor from the unit shown (the currency counts 1)
+            shown_si = to_si(1.0, unit.replace(self.cur, "1").replace("-", "1")
+                             .replace(" per month", "/month")) if per_unit != 1.0 else 1.0
+        except Exception:  # noqa: BLE001 - a unit pint does not read: no link
+            return None
+        return float(f"{shown_si / per_unit:.15g}")
 
     def _derived(self, name, label, formula, unit, fmt=None) -> str:
         """A named formula cell on the Inputs sheet (derived from inputs above it)."""
@@ -64,16 +125,23 @@ class InputsSheet:
         ref = f"'{_IN}'!$C${r0}" if r0 == r1 else f"'{_IN}'!$C${r0}:$C${r1}"
         self.wb.defined_names[name] = DefinedName(name, attr_text=ref)
 
-    def _range(self, name, labels, values, unit, source, fmt=None, index_name=None) -> None:
-        """Several values under one range name (column C), optional index name (col F)."""
+    def _range(self, name, labels, values, unit, source, fmt=None, index_name=None,
+               field=None) -> None:
+        """Several values under one range name (column C), optional index name (col F).
+        ``field``: the scenario list field the values are (a rerun reads them into it)."""
         ws = self.ws_in
         wbb.check_name(name)
+        self._src_seen = None
         r0 = self.row
         for k, (label, v) in enumerate(zip(labels, values)):
             r = self.row
             safe_text(ws.cell(row=r, column=1), label)
             safe_text(ws.cell(row=r, column=2), f"{name} [{k + 1}]")
             write_value(ws.cell(row=r, column=3), float(v), fmt).fill = wbb.INPUT_FILL
+            write_value(ws.cell(row=r, column=_AS_WRITTEN_COL), float(v))
+            if field:
+                safe_text(ws.cell(row=r, column=_FIELD_COL), f"{field}[{k}]")
+                write_value(ws.cell(row=r, column=_FIELD_FACTOR_COL), 1.0)
             safe_text(ws.cell(row=r, column=4), unit)
             safe_text(ws.cell(row=r, column=5), source).alignment = _WRAP
             if index_name:
@@ -87,6 +155,7 @@ class InputsSheet:
 
     def _info(self, label, value, unit, source) -> None:
         """An input row without a name (a choice that fixes the structure)."""
+        self._src_seen = None
         ws, r = self.ws_in, self.row
         safe_text(ws.cell(row=r, column=1), label).alignment = _WRAP
         safe_text(ws.cell(row=r, column=2), "(structure)")
@@ -217,7 +286,7 @@ class InputsSheet:
         self._inp("depot_trucks_served", "Trucks sharing the depot's costs", self.served, "-",
                   src(dp + "trucks_served") if d.trucks_served else
                   "default: the electric trucks of the scenario that charge at the depot",
-                  wbb.INTEGER)
+                  wbb.INTEGER, field=dp + "trucks_served")
 
         for i in range(len(self.trucks)):
             self._truck_inputs(i)
@@ -309,7 +378,7 @@ class InputsSheet:
                          for k in range(len(r.shares))],
                         [g(f"residual.shares[{k}]") for k in range(len(r.shares))], "-",
                         src(fpath + "residual.shares") + " (later ages keep the last share)",
-                        _RATE)
+                        _RATE, field=fpath + "residual.shares")
         for k in ("maintenance", "tyres", "tolls", "insurance", "registration", "battery"):
             self._inp(f"{P}esc_{k}", f"{k.capitalize()} cost, change per year",
                       g(f"escalation.{k}"), "-/yr", src(fpath + f"escalation.{k}"), _RATE)
@@ -523,7 +592,7 @@ class InputsSheet:
         self._inp("residual_mix_ratio", "Residual mix ÷ grid average (market-based, "
                   "electricity without a contractual instrument; 1 when no residual mix is "
                   "given)", e[k + "residual_mix_ratio"], "-",
-                  src("emissions.residual_mix_intensity"), "0.0000")
+                  src("emissions.residual_mix_intensity"), "0.0000", field="")
         from tco.emissions import hour_matching_factor
 
         shape = np.array([e[f"{k}hourly_shape.{h:02d}"] for h in range(24)])
@@ -538,11 +607,15 @@ class InputsSheet:
         """The scenario as run, as a field table ``tco run THIS_WORKBOOK`` reads back."""
         from tco.scenario.xlsx import field_rows, write_field_table
 
-        self._sec("The scenario as run: every field (empty value: the default). Edit the "
-                  "values here, then rerun the whole model with: tco run THIS_WORKBOOK.xlsx "
-                  "(the named rows above drive this workbook's formulas only)")
+        self._sec("The scenario as run: every field (empty value: the default). Edit a "
+                  "yellow input above or a value here, then rerun the whole model with: tco "
+                  "run THIS_WORKBOOK.xlsx (an edited yellow input is read into its field; "
+                  "grey model figures are computed again)")
         raw = getattr(getattr(self.result, "loaded", None), "raw", None) or {}
         self.row = write_field_table(self.ws_in, self.row, field_rows(self.s, raw),
                                      widths=False, wrap=False)
-        self.ws_in.column_dimensions[_col(_AS_WRITTEN_COL)].hidden = True
+        for c in (_AS_WRITTEN_COL, _FIELD_COL, _FIELD_FACTOR_COL):
+            self.ws_in.column_dimensions[_col(c)].hidden = True
         safe_text(self.ws_in.cell(row=1, column=_AS_WRITTEN_COL), "as written")
+        safe_text(self.ws_in.cell(row=1, column=_FIELD_COL), "field")
+        safe_text(self.ws_in.cell(row=1, column=_FIELD_FACTOR_COL), "to field unit")
