@@ -94,6 +94,7 @@ import pandas as pd
 from numba import njit
 from pydantic import BaseModel
 
+from tco import cost_lines as _cl
 from tco import finance as fin
 from tco.errors import InputError
 from tco.operation import AnnualOperation
@@ -113,81 +114,40 @@ _M3_PER_L = 1e-3
 
 
 # --------------------------------------------------------------------------- lines
-@dataclass(frozen=True)
-class LineSpec:
-    """A cost line: its stable name, what it holds, its group and tax treatment.
+#: A cost line's definition (name, description, group, tax treatment, computation and
+#: workbook formula): :class:`tco.cost_lines.CostLine`.
+LineSpec = _cl.CostLine
 
-    Attributes
-    ----------
-    name : str
-        Stable key used in the table, the summary and the workbook.
-    description : str
-        What the line holds (sign: positive = cost).
-    group : str
-        purchase, financing, depot, energy, running, battery, end or tax.
-    deductible : bool
-        Deducted from taxable profit in the year paid (after-tax view).
-    """
-
-    name: str
-    description: str
-    group: str
-    deductible: bool = False
-
-
-#: All cost lines in table order. A line that is zero in every year for a truck is left
-#: out of that truck's table rows.
-LINES: tuple[LineSpec, ...] = (
-    LineSpec("purchase_price", "Purchase price (cash or loan)", "purchase"),
-    LineSpec("purchase_taxes_fees", "Purchase taxes and fees", "purchase"),
-    LineSpec("grant", "Grant received at purchase (negative)", "purchase"),
-    LineSpec("tax_credit", "Tax credit received (negative)", "purchase"),
-    LineSpec("loan_drawdown", "Loan received at purchase (negative)", "financing"),
-    LineSpec("loan_interest", "Loan interest", "financing"),
-    LineSpec("loan_principal", "Loan principal repaid (remaining balance settled in the "
-             "last year when the loan runs past the period)", "financing"),
-    LineSpec("lease_upfront", "Lease payment at signing", "financing", True),
-    LineSpec("lease_payment", "Lease payments", "financing", True),
-    LineSpec("lease_buyout", "Lease buy-out", "financing"),
-    LineSpec("depot_chargers", "Depot charger hardware and installation, this truck's "
-             "share", "depot"),
-    LineSpec("depot_grid_connection", "Depot grid connection, this truck's share", "depot"),
-    LineSpec("depot_maintenance", "Depot charger maintenance, this truck's share", "depot",
-             True),
-    LineSpec("diesel", "Diesel", "energy", True),
-    LineSpec("diesel_exhaust_fluid", "Diesel exhaust fluid", "energy", True),
-    LineSpec("electricity_energy", "Depot electricity, energy charge by time-of-use band",
-             "energy", True),
-    LineSpec("electricity_demand", "Depot electricity, demand charge (this truck's share "
-             "of the depot peak)", "energy", True),
-    LineSpec("electricity_fixed", "Depot electricity, fixed fees (this truck's share)",
-             "energy", True),
-    LineSpec("public_charging", "Electricity bought at public chargers", "energy", True),
-    LineSpec("maintenance", "Maintenance and repair", "running", True),
-    LineSpec("tyres", "Tyres", "running", True),
-    LineSpec("insurance", "Insurance", "running", True),
-    LineSpec("registration", "Registration and road taxes", "running", True),
-    LineSpec("tolls", "Road tolls", "running", True),
-    LineSpec("driver_wages", "Driver wages for the duty time of every trip (when "
-             "finance.driver_wages is on)", "running", True),
-    LineSpec("charging_driver_time", "Driver time lost at en-route chargers", "running", True),
-    LineSpec("extra_trips_driver_time", "Driver time of the extra trips caused by lower "
-             "payload", "running", True),
-    LineSpec("battery_replacement", "Traction battery replacement (capitalised and "
-             "depreciated for tax)", "battery"),
-    LineSpec("battery_remaining_life", "Unused life of a replacement battery at the end "
-             "(negative)", "end"),
-    LineSpec("residual_value", "Residual value of the truck at the end (negative)", "end"),
-    LineSpec("depot_residual", "Value of depot charger hardware at the end of each life and "
-             "of the period (negative)", "end"),
-    LineSpec("tax_shield_operating", "Tax saved on deductible costs (negative)", "tax"),
-    LineSpec("tax_shield_interest", "Tax saved on loan interest (negative)", "tax"),
-    LineSpec("tax_shield_depreciation", "Tax saved on depreciation (negative)", "tax"),
-    LineSpec("tax_on_sale", "Tax on the gain (saving on the loss) of assets sold or "
-             "valued at the end", "tax"),
-)
+#: All cost lines in table order (the default registry, :data:`tco.cost_lines.REGISTRY`;
+#: the model reads :func:`tco.cost_lines.registry`, which a test may extend). A line that
+#: is zero in every year for a truck is left out of that truck's table rows.
+LINES: tuple[LineSpec, ...] = _cl.REGISTRY
 _LINE_NAMES = tuple(s.name for s in LINES)
 DEDUCTIBLE = tuple(s.name for s in LINES if s.deductible)
+
+#: The order in which the lines of the default registry enter a truck's running sums (the
+#: Monte Carlo totals, the deductible costs, the end proceeds) and the order of the notes
+#: they add to the assumptions. Kept as it was before the registry, so that every figure
+#: is bit-identical; a line not listed here comes after them in table order, and the lines
+#: that read other lines (``reads_lines``, the tax effects) come last.
+_SUM_ORDER = (
+    "purchase_price", "purchase_taxes_fees", "grant", "tax_credit", "loan_drawdown",
+    "loan_interest", "loan_principal", "lease_upfront", "lease_payment", "lease_buyout",
+    "insurance", "residual_value", "depot_chargers", "depot_grid_connection",
+    "depot_maintenance", "depot_residual", "diesel", "diesel_exhaust_fluid",
+    "electricity_energy", "electricity_demand", "electricity_fixed", "public_charging",
+    "maintenance", "tyres", "tolls", "registration", "charging_driver_time", "driver_wages",
+    "extra_trips_driver_time", "battery_replacement", "battery_remaining_life",
+)
+
+
+def _evaluation_order(lines) -> list:
+    """The lines in the order they are computed and summed (see :data:`_SUM_ORDER`)."""
+    rank = {n: k for k, n in enumerate(_SUM_ORDER)}
+    first = [c for c in lines if not c.reads_lines]
+    first.sort(key=lambda c: rank.get(c.name, len(rank)))  # stable: table order after
+    return first + [c for c in lines if c.reads_lines]
+
 
 #: AnnualOperation fields exposed as parameters ``operations[i].<field>``; the first group
 #: is yearly and scales with days and trips per day.
@@ -632,7 +592,8 @@ def compute(inputs: CostInputs, overrides: dict | None = None,
     if totals_only:
         lines = [{"total": m.sums["total"].value(ctx.deflator())} for m in made]
     else:
-        lines = [{k: m[k] for k in _LINE_NAMES if k in m} for m in made]
+        names = [c.name for c in _cl.registry()]
+        lines = [{k: m[k] for k in names if k in m} for m in made]
         if ctx.real:
             deflator = ctx.deflator()
             lines = [{k: v * deflator for k, v in d.items()} for d in lines]
@@ -656,9 +617,7 @@ def _make_lines(inputs: CostInputs, overrides: dict | None, params: dict | None,
     check_inputs(inputs, view)
     p = _Params(params if params is not None else flat_params(inputs), overrides)
     ctx = _Context(inputs, p, view)
-    depot_lines, depot_assets = ctx.depot()
-    made = [ctx.truck(i, depot_lines, depot_assets, keep=keep)
-            for i in range(len(inputs.trucks))]
+    made = [ctx.truck(i, keep=keep) for i in range(len(inputs.trucks))]
     return ctx, made
 
 
@@ -764,42 +723,14 @@ def _as_first(v, n_years: int) -> np.ndarray:
     return v
 
 
-PROCEEDS = ("residual_value", "battery_remaining_life", "depot_residual")
+#: End-of-period proceeds (the ``end`` group of the default registry): taxed on their gain
+#: over the tax book value in the after-tax view.
+PROCEEDS = tuple(s.name for s in LINES if s.group == "end")
 
-
-@dataclass(frozen=True)
-class _Outer:
-    """A line that is a yearly vector times a per-draw factor: ``v * a``.
-
-    ``v`` is (N+1, 1) (or (N+1, n) when its yearly shape varies across draws); ``a`` a
-    float or an (n,) row. Made by :class:`_Context` so that a running :class:`_Sum`
-    can keep the factors apart; the table's line is exactly ``v * a``.
-    """
-
-    v: np.ndarray
-    a: float | np.ndarray
-
-
-def _scaled(value, f: float):
-    """A line (array, _Outer or tuple of them) times a scalar."""
-    if isinstance(value, _Outer):
-        return _Outer(value.v, value.a * f)
-    if isinstance(value, tuple):
-        return tuple(_scaled(v, f) for v in value)
-    return value * f
-
-
-def _dense(value) -> np.ndarray:
-    """A line as an array: an array stays, an _Outer is ``v * a``, a tuple of them is
-    their sum (left to right)."""
-    if isinstance(value, _Outer):
-        return value.v * value.a
-    if isinstance(value, tuple):
-        out = _dense(value[0])
-        for term in value[1:]:
-            out = out + _dense(term)
-        return out
-    return value
+# line values: a yearly vector times a per-draw factor, and its helpers (tco.cost_lines)
+_Outer = _cl.Outer
+_scaled = _cl.scaled
+_dense = _cl.dense
 
 
 # A compiled loop: a replacement in year y is a step of floor(y·λ), and numpy needs about
@@ -919,10 +850,13 @@ class _Lines(dict):
     only the total is kept, as a :class:`_Sum` of the lines in their factored form.
     """
 
-    def __init__(self, n_years: int, keep: bool, tax: bool):
+    def __init__(self, n_years: int, keep: bool, tax: bool, lines=None):
         super().__init__()
         self.keep, self.tax = keep, tax
         self.sums = {k: _Sum(n_years) for k in ("total", "ded", "cred")}
+        lines = _cl.registry() if lines is None else lines
+        self._ded = {c.name for c in lines if c.deductible}
+        self._proceeds = {c.name for c in lines if c.group == "end"}
 
     @property
     def deductible(self) -> np.ndarray:
@@ -938,9 +872,9 @@ class _Lines(dict):
             super().__setitem__(name, v)
         else:
             self.sums["total"].add(v)
-        if self.tax and name in DEDUCTIBLE:
+        if self.tax and name in self._ded:
             self.sums["ded"].add(v)
-        if self.tax and name in PROCEEDS:
+        if self.tax and name in self._proceeds:
             self.sums["cred"].add(v)
 
     def update(self, other: dict) -> None:  # type: ignore[override]
@@ -977,6 +911,7 @@ class _Context:
         self.assumptions: list[str] = []
         self._scales: dict[int, float | np.ndarray] = {}
         ops = inputs.operations
+        self._depot: dict | None = None
         self.served = inputs.depot.trucks_served or max(1, sum(
             1 for t, op in zip(inputs.trucks, ops) if self._uses_depot(t, op)))
 
@@ -1035,8 +970,20 @@ class _Context:
         return self.q(i, "distance") * self.op_mask
 
     # depot ---------------------------------------------------------------------------
-    def depot(self):
-        """Per-truck share of the depot's lines, and its assets for tax depreciation."""
+    def depot_plan(self) -> dict:
+        """The depot's chargers bought at 0, L, 2L... before the end and sold at the end of
+        each life and of the period; each truck's equal share of them (cached per call).
+
+        Returns
+        -------
+        dict
+            ``capex`` and ``residual`` by year, years first [currency, nominal], for the
+            whole depot; ``share`` = 1 / trucks served [-]; ``assets`` for tax
+            depreciation, (basis [currency], year bought, fractions), already one
+            truck's share.
+        """
+        if self._depot is not None:
+            return self._depot
         d, p, N = self.inputs.depot, self.p, self.N
         share = 1.0 / self.served
         n = d.chargers
@@ -1060,188 +1007,21 @@ class _Context:
         age = N - t_last
         residual = residual - self.eN * (
             hw * self.at(grow, t_last) * (1.0 - (1.0 - rs) * age / d.life))
-        lines = {
-            "depot_chargers": capex * share,
-            "depot_grid_connection": _Outer(self.e0, grid * share),
-            "depot_maintenance": _Outer(self.running("prices.escalation.equipment"),
-                                        n * p("depot.maintenance_per_year") * share),
-            "depot_residual": residual * share,
-        }
-        assets = [(b * share, t, f) for b, t, f in assets]
-        return lines, assets
+        self._depot = {"capex": capex, "residual": residual, "share": share,
+                       "assets": [(b * share, t, f) for b, t, f in assets]}
+        return self._depot
 
     # one truck -----------------------------------------------------------------------
-    def truck(self, i: int, depot_lines: dict, depot_assets: list, keep: bool = True) -> _Lines:
-        inputs, p, N, y = self.inputs, self.p, self.N, self.y
-        t = inputs.trucks[i]
-        op = inputs.operations[i]
-        c = t.costs
-        f = c.financing
-        if self.view == "unlevered" and f.method != "cash":
-            f = f.model_copy(update={"method": "cash"})  # paid in cash: financing apart
-        tp = f"trucks[{i}].costs"
-        L = _Lines(N, keep, tax=inputs.finance.after_tax.enabled)
-        assets: list = []  # (basis, year bought, fractions) for tax depreciation
-
-        # purchase and incentives ---------------------------------------------------------
-        price = p(f"{tp}.purchase_price")
-        if self.t0:  # bought later: today's price grown to the year of purchase
-            price = price * self.at(self.one_off("prices.escalation.equipment"), 0)
-        taxes = price * p(f"{tp}.purchase_tax_rate") + p(f"{tp}.purchase_fees")
-        grant = p(f"{tp}.grant")
-        credit = p(f"{tp}.tax_credit")
-        owned_at_end = f.method != "lease"
-        interest = 0.0
-        if f.method != "lease":
-            L["purchase_price"] = _Outer(self.e0, price)
-            L["purchase_taxes_fees"] = _Outer(self.e0, taxes)
-            L["grant"] = _Outer(self.e0, -grant)
-            if c.tax_credit_year <= N:
-                L["tax_credit"] = _Outer(self.unit(c.tax_credit_year), -credit)
-            elif c.tax_credit > 0:
-                self.assumptions.append(
-                    f"{t.name}: the tax credit of year {c.tax_credit_year} falls after the "
-                    f"{N}-year period and is not counted")
-            assets.append((price + taxes - grant, 0, self._tax_fractions()))
-        elif c.purchase_tax_rate or c.purchase_fees or c.grant or c.tax_credit:
-            self.assumptions.append(
-                f"{t.name}: leased, so purchase taxes, fees, grant and tax credit belong to "
-                "the lessor (reflected in the lease payment) and are not counted")
-
-        # financing -----------------------------------------------------------------------
-        if f.method == "loan":
-            due = np.maximum(price + taxes - grant, 0.0)
-            principal = due * (1.0 - p(f"{tp}.financing.down_payment_share"))
-            rate_path = f"{tp}.financing.loan_rate"
-            # For the totals, a loan at a rate that does not vary is the schedule of a loan
-            # of 1 times each draw's principal (the schedule is linear in the principal).
-            per_unit = not keep and not p.varies(rate_path)
-            s = fin.loan_schedule(1.0 if per_unit else principal, p(rate_path), f.loan_years,
-                                  f.payments_per_year, N)
-            times = (lambda x: _Outer(x, principal)) if per_unit else (lambda x: x)
-            L["loan_drawdown"] = _Outer(self.e0, -principal)
-            interest = times(_first(s.interest))
-            L["loan_interest"] = interest
-            repaid = _first(s.principal)
-            if f.loan_years > N:  # beyond_period == "settle" (checked)
-                repaid = repaid + self.eN * self.at(_first(s.balance), N)
-                self.assumptions.append(
-                    f"{t.name}: the loan's balance left after year {N} is paid off in year {N}")
-            L["loan_principal"] = times(repaid)
-        elif f.method == "lease":
-            T = f.lease_years
-            yearly = 12.0 * p(f"{tp}.financing.lease_payment")
-            L["lease_upfront"] = _Outer(self.e0, p(f"{tp}.financing.lease_upfront"))
-            pay = _Outer((y >= 1) & (y <= min(T, N)), yearly)
-            buyout_year = T if T <= N else None
-            if T > N and f.beyond_period == "settle":
-                pay = (pay, _Outer(self.eN, yearly * (T - N)))
-                buyout_year = N
-                self.assumptions.append(
-                    f"{t.name}: the lease payments after year {N} are paid in year {N}")
-            elif T > N:
-                self.assumptions.append(
-                    f"{t.name}: the lease payments after year {N} are left out, with the use "
-                    "of the truck after the period")
-            L["lease_payment"] = pay
-            if f.lease_end == "buy_out" and buyout_year is not None:
-                buyout = p(f"{tp}.financing.lease_buyout_price")
-                L["lease_buyout"] = _Outer(self.unit(buyout_year), buyout)
-                owned_at_end = True
-                assets.append((buyout, buyout_year, self._tax_fractions()))
-
-        # value by age, insurance and residual value -------------------------------------
-        share_age = self._residual_shares(i, t, c)
-        start_value = np.concatenate([np.zeros((1, share_age.shape[1])), share_age[:-1]])
-        insurance = self.running(f"{tp}.escalation.insurance")
-        on_value = p(f"{tp}.insurance_rate") * price
-        fixed = p(f"{tp}.insurance_fixed")
-        if keep:
-            L["insurance"] = insurance * (start_value * on_value + fixed)
-        else:  # the same line as two yearly-vector × per-draw-factor terms
-            L["insurance"] = (_Outer(insurance * start_value, on_value),
-                              _Outer(insurance, fixed))
-        if owned_at_end:
-            L["residual_value"] = _Outer(self.eN, -price * self.at(share_age, N))
-
-        # depot ---------------------------------------------------------------------------
-        if self._uses_depot(t, op):
-            if op.depot_cost_share is None:
-                L.update(depot_lines)
-                assets += depot_assets
-            else:  # a shared-depot schedule set this truck's share (tco.depot)
-                f = op.depot_cost_share * self.served
-                L.update({k: _scaled(v, f) for k, v in depot_lines.items()})
-                assets += [(b * f, yr, fr) for b, yr, fr in depot_assets]
-
-        # energy --------------------------------------------------------------------------
-        esc = "prices.escalation."
-        if op.diesel_volume > 0 or p.varies(f"operations[{i}].diesel_volume"):
-            price_d = p.needed("prices.diesel", f"{t.name} burns diesel")
-            L["diesel"] = _Outer(self.running(esc + "diesel"),
-                                 self.q(i, "diesel_volume") * price_d)
-        if op.def_volume > 0 or p.varies(f"operations[{i}].def_volume"):
-            price_f = p.needed("prices.diesel_exhaust_fluid",
-                               f"{t.name} uses diesel exhaust fluid")
-            L["diesel_exhaust_fluid"] = _Outer(self.running(esc + "diesel_exhaust_fluid"),
-                                               self.q(i, "def_volume") * price_f)
-        aged = self.aged(i)
-        if op.grid_energy_depot > 0 or p.varies(f"operations[{i}].grid_energy_depot"):
-            L["electricity_energy"] = _Outer(
-                self.running(esc + "electricity") * (
-                    aged["depot"] if aged else 1.0),
-                self.q(i, "grid_energy_depot") * self.depot_price(i))
-        if self._uses_depot(t, op):
-            peak = self.q(i, "depot_charging_power")
-            cap = inputs.depot.chargers * p("depot.charger_power")
-            capped = np.minimum(peak * self.served, np.where(cap > 0, cap, np.inf))
-            elec = self.running(esc + "electricity")
-            if op.depot_peak_contribution is not None:  # billed on its part of the peak
-                capped = op.depot_peak_contribution * self.served
-            fee_share = 1.0 / self.served if op.depot_cost_share is None \
-                else op.depot_cost_share
-            L["electricity_demand"] = _Outer(
-                elec, 12.0 * p("prices.electricity.demand_charge") * capped / self.served)
-            L["electricity_fixed"] = _Outer(
-                elec, 12.0 * p("prices.electricity.fixed_fee") * fee_share)
-        if aged and aged["public"].any():  # en-route charging as the battery ages
-            price_pub = p.needed("prices.public_charging", f"{t.name} charges en route")
-            L["public_charging"] = _Outer(self.running(esc + "public_charging")
-                                          * aged["public"], aged["factor"] * price_pub)
-        elif op.grid_energy_public > 0 or p.varies(f"operations[{i}].grid_energy_public"):
-            price_pub = p.needed("prices.public_charging", f"{t.name} charges en route")
-            L["public_charging"] = _Outer(self.running(esc + "public_charging"),
-                                          self.q(i, "grid_energy_public") * price_pub)
-
-        # running costs -------------------------------------------------------------------
-        dist = self.q(i, "distance")
-        for name in ("maintenance", "tyres", "tolls"):
-            L[name] = _Outer(self.running(f"{tp}.escalation.{name}"), dist * p(f"{tp}.{name}"))
-        L["registration"] = _Outer(self.running(f"{tp}.escalation.registration"),
-                                   p(f"{tp}.registration"))
-        wage = p("finance.driver_cost_per_hour")  # [currency/s]
-        driver = self.running("finance.driver_cost_escalation")
-        if aged:
-            L["charging_driver_time"] = _Outer(driver * aged["time"], aged["factor"] * wage)
-        else:
-            L["charging_driver_time"] = _Outer(driver, self.q(i, "charging_time_lost") * wage)
-        if inputs.finance.driver_wages:  # every trip's duty time, the extra ones included
-            trips = (op.trips - op.extra_trips) * self.scale(i) + self.q(i, "extra_trips")
-            L["driver_wages"] = _Outer(driver, trips * self.q(i, "trip_duration") * wage)
-        else:
-            L["extra_trips_driver_time"] = _Outer(
-                driver, self.q(i, "extra_trips") * self.q(i, "trip_duration") * wage)
-
-        # battery -------------------------------------------------------------------------
-        battery = self._battery(i, t, c, op)
-        L.update(battery)
-
-        # taxes ---------------------------------------------------------------------------
-        if inputs.finance.after_tax.enabled:
-            if "battery_replacement" in battery:  # capitalised: depreciated like the truck
-                assets += self._replacement_assets(_dense(battery["battery_replacement"]))
-            L.update(self._taxes(L, interest, assets))
-        return L
+    def truck(self, i: int, keep: bool = True) -> _Lines:
+        """Truck i's lines: its context, then every line of the registry
+        (:func:`tco.cost_lines.registry`) in the order of :func:`_evaluation_order`."""
+        lines = _cl.registry()
+        tc = TruckContext(self, i, keep, lines)
+        for spec in _evaluation_order(lines):
+            v = spec.compute(tc)
+            if v is not None:
+                tc.lines[spec.name] = v
+        return tc.lines
 
     def _tax_fractions(self):
         a = self.inputs.finance.after_tax
@@ -1382,27 +1162,212 @@ class _Context:
                             self._tax_fractions()))
         return out
 
-    def _taxes(self, L: _Lines, interest, assets: list) -> dict:
-        p, N = self.p, self.N
-        a = self.inputs.finance.after_tax
-        tau = p("finance.after_tax.tax_rate")
-        zero = np.zeros((N + 1, 1))
-        out = {}
-        if a.deduct_operating_costs:
-            out["tax_shield_operating"] = -tau * L.deductible
-        out["tax_shield_interest"] = -tau * (_dense(interest) * self.op_mask)
-        dep = zero
+
+_UNSET = object()
+
+
+class TruckContext:
+    """What the cost lines of one truck are computed from (:mod:`tco.cost_lines`).
+
+    Assembled by :meth:`_Context.truck`; each line's ``compute`` reads it. Layout: years
+    first, year vectors are (N+1, 1) columns, a parameter is a float or an (n,) row of
+    draws. Quantities several lines share (the loan schedule, the value by age, the
+    battery replacements, the depot plan, the tax depreciation) are worked out once, when
+    a line first asks.
+
+    Attributes
+    ----------
+    i : int
+        Truck index.
+    t, op, c, f
+        The truck (:class:`TruckSpec`), its :class:`~tco.operation.AnnualOperation`, its
+        :class:`~tco.scenario.costs.TruckCosts` and the financing of the view (a truck
+        paid in cash in the unlevered view).
+    tp : str
+        Parameter path prefix of the truck's costs (``trucks[i].costs``).
+    p : callable
+        Parameter reader (SI; floats or (n,) rows of draws).
+    N : int
+        Years owned after the purchase; ``y`` the (N+1, 1) column of years 0..N.
+    keep : bool
+        The lines are kept as a table (False: only their sum, for Monte Carlo).
+    lines : _Lines
+        The lines made so far (lines with ``reads_lines`` read them).
+    price, taxes, grant, credit : float or ndarray
+        Purchase price (grown to the purchase year), purchase taxes and fees, grant and tax
+        credit. [currency]
+    buyout_year : int or None
+        Year of a lease buy-out inside the period.
+    owned_at_end : bool
+        The truck is owned at the end of the period (sold at its residual value).
+    """
+
+    def __init__(self, ctx: "_Context", i: int, keep: bool, lines):
+        self.ctx, self.i, self.keep = ctx, i, keep
+        inputs, p = ctx.inputs, ctx.p
+        self.inputs, self.p, self.N, self.y = inputs, p, ctx.N, ctx.y
+        self.e0, self.eN, self.op_mask = ctx.e0, ctx.eN, ctx.op_mask
+        self.unit, self.at, self.running, self.one_off = (ctx.unit, ctx.at, ctx.running,
+                                                          ctx.one_off)
+        self.served = ctx.served
+        t = self.t = inputs.trucks[i]
+        op = self.op = inputs.operations[i]
+        c = self.c = t.costs
+        f = c.financing
+        if ctx.view == "unlevered" and f.method != "cash":
+            f = f.model_copy(update={"method": "cash"})  # paid in cash: financing apart
+        self.f = f
+        tp = self.tp = f"trucks[{i}].costs"
+        self.lines = _Lines(ctx.N, keep, tax=inputs.finance.after_tax.enabled, lines=lines)
+        price = p(f"{tp}.purchase_price")
+        if ctx.t0:  # bought later: today's price grown to the year of purchase
+            price = price * ctx.at(ctx.one_off("prices.escalation.equipment"), 0)
+        self.price = price
+        self.taxes = price * p(f"{tp}.purchase_tax_rate") + p(f"{tp}.purchase_fees")
+        self.grant = p(f"{tp}.grant")
+        self.credit = p(f"{tp}.tax_credit")
+        self.buyout_year = None
+        if f.method == "lease" and f.lease_end == "buy_out":
+            T, N = f.lease_years, ctx.N
+            self.buyout_year = T if T <= N else (N if f.beyond_period == "settle" else None)
+        self.owned_at_end = f.method != "lease" or self.buyout_year is not None
+        self.uses_depot = ctx._uses_depot(t, op)
+        self._cache: dict = {}
+        if f.method == "lease" and (c.purchase_tax_rate or c.purchase_fees or c.grant
+                                    or c.tax_credit):
+            self.note(f"{t.name}: leased, so purchase taxes, fees, grant and tax credit belong "
+                      "to the lessor (reflected in the lease payment) and are not counted")
+
+    # quantities ------------------------------------------------------------------------
+    def note(self, text: str) -> None:
+        """Add a statement about how the case was read (summary.json assumptions)."""
+        self.ctx.assumptions.append(text)
+
+    @property
+    def scale(self):
+        """Yearly quantities scaled to the route's days and trips. [-]"""
+        return self.ctx.scale(self.i)
+
+    def q(self, name: str):
+        """A quantity of the truck's operation; yearly ones scaled to the route (SI)."""
+        return self.ctx.q(self.i, name)
+
+    def has(self, name: str) -> bool:
+        """The operation has this yearly quantity (or it varies across draws)."""
+        return getattr(self.op, name) > 0 or self.p.varies(f"operations[{self.i}].{name}")
+
+    def depot_price(self):
+        """Charging-profile-weighted depot energy price. [currency/J]"""
+        return self.ctx.depot_price(self.i)
+
+    @property
+    def tax_rate(self):
+        """Income tax rate. [-]"""
+        return self.p("finance.after_tax.tax_rate")
+
+    def _cached(self, key: str, make):
+        v = self._cache.get(key, _UNSET)
+        if v is _UNSET:
+            v = self._cache[key] = make()
+        return v
+
+    @property
+    def aged(self) -> dict | None:
+        """Yearly en-route energy, driver time and depot share as the battery ages
+        (:meth:`_Context.aged`), or None."""
+        return self._cached("aged", lambda: self.ctx.aged(self.i))
+
+    @property
+    def value_share(self) -> tuple[np.ndarray, np.ndarray]:
+        """The truck's value as a share of its price at ages 0..N and at the start of
+        each year (0 in year 0), years first. [-]"""
+        def make():
+            share_age = self.ctx._residual_shares(self.i, self.t, self.c)
+            start = np.concatenate([np.zeros((1, share_age.shape[1])), share_age[:-1]])
+            return share_age, start
+        return self._cached("value_share", make)
+
+    @property
+    def loan(self) -> dict:
+        """The loan: ``principal`` borrowed [currency], ``interest`` and ``repaid``
+        principal by year (the balance left after the period settled in its last year)."""
+        return self._cached("loan", self._loan)
+
+    def _loan(self) -> dict:
+        p, f, tp, N = self.p, self.f, self.tp, self.N
+        due = np.maximum(self.price + self.taxes - self.grant, 0.0)
+        principal = due * (1.0 - p(f"{tp}.financing.down_payment_share"))
+        rate_path = f"{tp}.financing.loan_rate"
+        # For the totals, a loan at a rate that does not vary is the schedule of a loan
+        # of 1 times each draw's principal (the schedule is linear in the principal).
+        per_unit = not self.keep and not p.varies(rate_path)
+        s = fin.loan_schedule(1.0 if per_unit else principal, p(rate_path), f.loan_years,
+                              f.payments_per_year, N)
+        times = (lambda x: _Outer(x, principal)) if per_unit else (lambda x: x)
+        interest = times(_first(s.interest))
+        repaid = _first(s.principal)
+        if f.loan_years > N:  # beyond_period == "settle" (checked)
+            repaid = repaid + self.eN * self.at(_first(s.balance), N)
+            self.note(f"{self.t.name}: the loan's balance left after year {N} is paid off in "
+                      f"year {N}")
+        return {"principal": principal, "interest": interest, "repaid": times(repaid)}
+
+    @property
+    def interest(self):
+        """Loan interest by year (0.0 without a loan)."""
+        return self.loan["interest"] if self.f.method == "loan" else 0.0
+
+    @property
+    def battery(self) -> dict:
+        """``battery_replacement`` and ``battery_remaining_life`` lines, those that apply."""
+        return self._cached("battery", lambda: self.ctx._battery(self.i, self.t, self.c,
+                                                                 self.op))
+
+    @property
+    def depot_plan(self) -> dict:
+        """The depot's chargers and their share (:meth:`_Context.depot_plan`)."""
+        return self.ctx.depot_plan()
+
+    def depot_part(self, v):
+        """This truck's part of a depot line already divided equally (None when the truck
+        does not charge at the depot; a shared-depot schedule's share when set)."""
+        if not self.uses_depot:
+            return None
+        if self.op.depot_cost_share is None:
+            return v
+        return _scaled(v, self.op.depot_cost_share * self.served)  # tco.depot set it
+
+    @property
+    def depreciation(self) -> tuple[np.ndarray, float | np.ndarray]:
+        """Tax depreciation by year, years first, and the tax book value left at the end,
+        of the truck (or lease buy-out), its depot share and each battery replacement.
+        [currency]"""
+        return self._cached("depreciation", self._depreciation)
+
+    def _depreciation(self):
+        ctx, N = self.ctx, self.N
+        assets: list = []  # (basis, year bought, fractions)
+        if self.f.method != "lease":
+            assets.append((self.price + self.taxes - self.grant, 0, ctx._tax_fractions()))
+        elif self.buyout_year is not None:
+            assets.append((self.p(f"{self.tp}.financing.lease_buyout_price"),
+                           self.buyout_year, ctx._tax_fractions()))
+        if self.uses_depot:
+            d = self.depot_plan["assets"]
+            if self.op.depot_cost_share is None:
+                assets += d
+            else:
+                f = self.op.depot_cost_share * self.served
+                assets += [(b * f, yr, fr) for b, yr, fr in d]
+        if "battery_replacement" in self.battery:  # capitalised: depreciated like the truck
+            assets += ctx._replacement_assets(_dense(self.battery["battery_replacement"]))
+        dep = np.zeros((N + 1, 1))
         book_left = 0.0
         for basis, start, fractions in assets:  # bases are floats or (1,)/(n,) rows
             d, left = fin.depreciation_flows(basis, start, fractions, N)
             dep = dep + _first(d)
             book_left = book_left + left
-        out["tax_shield_depreciation"] = -tau * dep
-        # Sold or valued at the end: proceeds (the credits, negative lines) less book value.
-        # Hardware sold at the end of a life before the period ends is fully depreciated.
-        out["tax_on_sale"] = tau * (-L.credits - self.eN * book_left)
-        return out
-
+        return dep, book_left
 
 # --------------------------------------------------------------------------- break-even
 #: Break-even quantities, the parameter they move, and the searched range as multiples of

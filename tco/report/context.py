@@ -379,9 +379,9 @@ GROUP_LABELS = {
 
 def _grouped_lines(table: pd.DataFrame) -> pd.DataFrame:
     """The cash-flow table summed by group of cost lines (tidy: truck, year, line, value)."""
-    from tco.cashflow import LINES
+    from tco.cost_lines import registry
 
-    group = {spec.name: GROUP_LABELS.get(spec.group, spec.group) for spec in LINES}
+    group = {spec.name: GROUP_LABELS.get(spec.group, spec.group) for spec in registry()}
     order = list(dict.fromkeys(group[n] for n in table["line"].unique()))
     out = (table.assign(line=table["line"].map(group))
            .groupby(["truck", "year", "line"], sort=False, as_index=False)["amount"].sum()
@@ -657,9 +657,9 @@ def _tables(result, u: DisplayUnits, summary: dict) -> list[dict]:
     if fin_table is not None:
         tables.append(fin_table)
     # present value by line: human labels, a total and the difference to the baseline
-    from tco.cashflow import LINES
+    from tco.cost_lines import registry
 
-    described = {spec.name: spec.description for spec in LINES}
+    described = {spec.name: spec.description for spec in registry()}
     lines = []
     for m in cf.trucks:
         for k in m.present_value_by_line:

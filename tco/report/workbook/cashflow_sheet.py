@@ -30,6 +30,82 @@ from tco.report.workbook._common import (
 )
 
 
+class FormulaEnv:
+    """What a cost line's formula template (:mod:`tco.cost_lines`) is resolved against:
+    one truck, one year column of the Cash flow sheet.
+
+    Attributes
+    ----------
+    P : str
+        The truck's prefix of defined names (``t1_``...).
+    y : str
+        The cell holding the column's year (0..N).
+    N : str
+        Defined name of the period length.
+    S : str
+        Defined name of the truck's scale of yearly quantities to the route's days/trips.
+    col : str
+        The column letter.
+    rows : dict of str to int
+        Rows of the truck's lines written so far (line name -> row).
+    names : dict of str to str
+        The template names: ``y``, ``P``, ``N``, ``S``, ``srv``, ``GE``.
+    costs : TruckCosts
+        The truck's costs as given (structure: financing terms, residual method...).
+    bands : list of (str, str)
+        Depot energy per time-of-use band and its price, as defined names.
+    aged : bool
+        The truck carries year-by-year battery-ageing rows (en-route energy, time,
+        depot share).
+    deductible, proceeds : set of str
+        Lines deducted from taxable profit; end-of-period proceeds.
+    """
+
+    def __init__(self, sheet: "CashflowSheet", i: int, y: str, col: str, rows: dict):
+        self._sheet, self._i = sheet, i
+        self.P, self.y, self.N, self.col, self.rows = sheet.pre(i), y, "analysis_years", col, rows
+        self.S = f"{self.P}scale"
+        self.costs = sheet.inputs.trucks[i].costs
+        self.bands = sheet.bands_of.get(i, [])
+        self.aged = sheet._aged(i)
+        self.deductible, self.proceeds = sheet._ded, sheet._proceeds
+        self.names = {"y": y, "P": self.P, "N": self.N, "S": self.S,
+                      "srv": "depot_trucks_served", "GE": sheet._g("esc_equipment")}
+
+    def run(self, expr: str, esc: str) -> str:
+        """A running cost: ``expr × (1 + e)^y`` in years 1..N, 0 in year 0 (``esc`` the
+        defined name of the escalation)."""
+        return self._sheet._run(expr, esc, self.y)
+
+    def g(self, esc: str) -> str:
+        """Nominal growth base of an escalation name."""
+        return self._sheet._g(esc)
+
+    def defl(self, y: str) -> str:
+        """The real-basis deflator of year ``y`` ('' in the nominal basis)."""
+        return self._sheet._defl(y)
+
+    def share_age(self, age: str) -> str:
+        """The truck's value as a share of its price at age ``age`` (a formula)."""
+        return self._sheet._share_age(self._i, age)
+
+    def unit_price(self, yexpr: str) -> str:
+        """Price of one replacement battery bought in year ``yexpr``."""
+        return self._sheet._unit_price(self._i, yexpr)
+
+    def battery(self, line: str) -> str:
+        """The battery replacement and remaining-life formulas (shared schedule)."""
+        return self._sheet._battery(self._i, line, self.y)
+
+    def depreciation(self) -> str:
+        """Tax depreciation of the year (truck, depot share, battery replacements)."""
+        return self._sheet._depreciation(self._i, self.y, self.rows)
+
+    def book_left(self) -> str:
+        """Tax book value left at the end of the period."""
+        return self._sheet._book_left(self._i, self.rows)
+
+
 class CashflowSheet:
     """The Cash flow sheet: one formula per cost line and year, totals, present values,
     levelized cost; the comparisons with the baseline (live payback, IRR, break-evens
@@ -65,117 +141,18 @@ class CashflowSheet:
 
     def _formula(self, i: int, line: str, y: str, col: str, rows: dict) -> tuple[str, bool]:
         """The nominal-basis formula body of one line in one year, and whether the caller
-        adds the real-basis deflator (False: it already refers to deflated cells)."""
-        P, N = self.pre(i), "analysis_years"
-        S = f"{P}scale"
-        c = self.inputs.trucks[i].costs
-        fi = c.financing
-        srv = "depot_trucks_served"
-        GE = self._g("esc_equipment")
-        if line == "purchase_price":
-            return f"IF({y}=0,{P}purchase_price,0)", True
-        if line == "purchase_taxes_fees":
-            return f"IF({y}=0,{P}purchase_price*{P}purchase_tax_rate+{P}purchase_fees,0)", True
-        if line == "grant":
-            return f"IF({y}=0,-{P}grant,0)", True
-        if line == "tax_credit":
-            return f"IF({y}={P}tax_credit_year,-{P}tax_credit,0)", True
-        if line == "loan_drawdown":
-            return f"IF({y}=0,-{P}loan_amount,0)", True
-        if line in ("loan_interest", "loan_principal"):
-            m = f"{P}payments_per_year"
-            args = (f"{P}loan_rate/{m},{P}loan_years*{m},{P}loan_amount,({y}-1)*{m}+1,"
-                    f"{y}*{m},0")
-            ok = f"AND({P}loan_rate>0,{P}loan_amount>0)"
-            if line == "loan_interest":
-                return (f"IF(AND({y}>=1,{y}<={P}loan_years),IF({ok},-CUMIPMT({args}),0),0)",
-                        True)
-            settle = (f"IF(AND({y}={N},{P}loan_years>{N}),{P}loan_amount-IF({ok},"
-                      f"-CUMPRINC({P}loan_rate/{m},{P}loan_years*{m},{P}loan_amount,1,"
-                      f"{N}*{m},0),{P}loan_amount*{N}/{P}loan_years),0)")
-            return (f"IF(AND({y}>=1,{y}<={P}loan_years),IF({ok},-CUMPRINC({args}),"
-                    f"{P}loan_amount/{P}loan_years),0)+{settle}", True)
-        if line == "lease_upfront":
-            return f"IF({y}=0,{P}lease_upfront,0)", True
-        if line == "lease_payment":
-            body = (f"IF(AND({y}>=1,{y}<=MIN({P}lease_years,{N})),12*{P}lease_payment,0)")
-            if fi.beyond_period == "settle":
-                body += (f"+IF(AND({y}={N},{P}lease_years>{N}),12*{P}lease_payment*"
-                         f"({P}lease_years-{N}),0)")
-            return body, True
-        if line == "lease_buyout":
-            when = (f"MIN({P}lease_years,{N})" if fi.beyond_period == "settle"
-                    else f"{P}lease_years")
-            return f"IF({y}={when},{P}lease_buyout_price,0)", True
-        if line == "insurance":
-            return self._run(f"{self._share_age(i, f'{y}-1')}*{P}insurance_rate*"
-                             f"{P}purchase_price+{P}insurance_fixed", P + "esc_insurance", y), True
-        if line == "residual_value":
-            return f"IF({y}={N},-{P}purchase_price*{self._share_age(i, y)},0)", True
-        if line == "depot_chargers":
-            return (f"IF(AND(MOD({y},depot_life)=0,{y}<{N}),(depot_chargers*depot_hardware_cost"
-                    f"+depot_chargers*depot_installation_cost)*{GE}^{y},0)/{srv}"), True
-        if line == "depot_grid_connection":
-            return f"IF({y}=0,depot_grid_connection_cost,0)/{srv}", True
-        if line == "depot_maintenance":
-            return self._run(f"depot_chargers*depot_maintenance_per_year/{srv}",
-                             "esc_equipment", y), True
-        if line == "depot_residual":
-            tl = f"depot_life*INT(({N}-1)/depot_life)"
-            return (f"(IF(AND({y}>0,{y}<{N},MOD({y},depot_life)=0),-depot_residual_share"
-                    f"*depot_chargers*depot_hardware_cost*{GE}^({y}-depot_life),0)"
-                    f"+IF({y}={N},-depot_chargers*depot_hardware_cost*{GE}^({tl})"
-                    f"*(1-(1-depot_residual_share)*({N}-{tl})/depot_life),0))/{srv}"), True
-        if line == "diesel":
-            return self._run(f"{P}diesel_L*{S}*diesel_price", "esc_diesel", y), True
-        if line == "diesel_exhaust_fluid":
-            return self._run(f"{P}def_L*{S}*def_price", "esc_def", y), True
-        if line == "electricity_energy":
-            bands = "+".join(f"{kwh}*{price}" for kwh, price in self.bands_of[i])
-            aged = f"*INDEX({P}depot_share_by_year,{y})" if self._aged(i) else ""
-            return self._run(f"({bands})*{S}{aged}", "esc_electricity", y), True
-        if line == "electricity_demand":
-            peak = f"{P}depot_peak_kw*{srv}"
-            cap = "depot_chargers*depot_charger_power_kw"
-            return self._run(f"12*demand_charge*MIN({peak},IF({cap}>0,{cap},{peak}))/{srv}",
-                             "esc_electricity", y), True
-        if line == "electricity_fixed":
-            return self._run(f"12*fixed_fee/{srv}", "esc_electricity", y), True
-        if line == "public_charging":
-            kwh = f"INDEX({P}public_kwh_by_year,{y})" if self._aged(i) else f"{P}public_kwh"
-            return self._run(f"{kwh}*{S}*public_charging_price",
-                             "esc_public_charging", y), True
-        if line in ("maintenance", "tyres", "tolls"):
-            return self._run(f"{P}distance_km*{S}*{P}{line}_per_km", f"{P}esc_{line}", y), True
-        if line == "registration":
-            return self._run(f"{P}registration", f"{P}esc_registration", y), True
-        if line == "charging_driver_time":
-            h = f"INDEX({P}charging_h_by_year,{y})" if self._aged(i) else f"{P}charging_time_h"
-            return self._run(f"{h}*{S}*driver_cost_per_hour",
-                             "driver_cost_escalation", y), True
-        if line == "driver_wages":  # every trip's duty time, the extra ones included
-            return self._run(f"({P}base_trips_per_day*{P}operating_days+{P}extra_trips)*{S}"
-                             f"*{P}trip_duration_h*driver_cost_per_hour",
-                             "driver_cost_escalation", y), True
-        if line == "extra_trips_driver_time":
-            return self._run(f"{P}extra_trips*{S}*{P}trip_duration_h*driver_cost_per_hour",
-                             "driver_cost_escalation", y), True
-        if line in ("battery_replacement", "battery_remaining_life"):
-            return self._battery(i, line, y), True
-        if line == "tax_shield_operating":
-            cells = "+".join(f"{col}{r}" for name, r in rows.items() if name in self._ded)
-            return f"-tax_rate*({cells or 0})", False
-        if line == "tax_shield_interest":
-            if "loan_interest" not in rows:
-                return "0*tax_rate", False
-            return f"-tax_rate*IF({y}>=1,{col}{rows['loan_interest']},0)", False
-        if line == "tax_shield_depreciation":
-            return f"-tax_rate*({self._depreciation(i, y, rows)})", True
-        if line == "tax_on_sale":
-            cells = "+".join(f"{col}{r}" for name, r in rows.items() if name in self._proceeds)
-            return (f"tax_rate*(-({cells or 0})-IF({y}={N},{self._book_left(i, rows)},0)"
-                    f"{self._defl(y)})"), False
-        raise KeyError(line)
+        adds the real-basis deflator (False: it already refers to deflated cells). The
+        line's template is its :class:`tco.cost_lines.CostLine` ``formula``.
+
+        Raises
+        ------
+        KeyError
+            The line is not in the registry in use.
+        """
+        from tco import cost_lines
+
+        spec = cost_lines.by_name()[line]
+        return spec.render(FormulaEnv(self, i, y, col, rows)), spec.deflate
 
     def _battery(self, i: int, line: str, y: str) -> str:
         P, N = self.pre(i), "analysis_years"
@@ -252,10 +229,12 @@ class CashflowSheet:
         return "(" + ("+".join(parts) or "0") + ")"
 
     def _cashflow_sheet(self) -> None:
-        from tco.cashflow import DEDUCTIBLE, PROCEEDS, LINES
+        from tco import cost_lines
 
-        self._ded, self._proceeds = set(DEDUCTIBLE), set(PROCEEDS)
-        desc = {s.name: s.description for s in LINES}
+        lines = cost_lines.registry()
+        self._ded = {s.name for s in lines if s.deductible}
+        self._proceeds = {s.name for s in lines if s.group == "end"}
+        desc = {s.name: s.description for s in lines}
         ws, N, cur = self.ws_cf, self.N, self.cur
         basis = "real, money of year 0" if self.real else "nominal"
         _title(ws, f"Cash flow by truck and year [{cur}, {basis}]")
@@ -707,24 +686,6 @@ class CashflowSheet:
         ws.cell(row=r, column=c_pv, value=f"={npv(r)}").number_format = fmt
 
     def _line_note(self, i: int, line: str) -> str:
-        c = self.inputs.trucks[i].costs
-        if line.startswith("depot_") or line in ("electricity_demand", "electricity_fixed"):
-            return "depot cost ÷ depot_trucks_served"
-        if line in ("loan_interest", "loan_principal"):
-            return "CUMIPMT/CUMPRINC over the year's instalments (in arrears)"
-        if line == "electricity_energy":
-            return "Σ kWh per time-of-use band × band price"
-        if line in ("insurance", "residual_value"):
-            how = ("(1 − rate)^age" if c.residual.method == "declining_balance"
-                   else "value table by age")
-            return f"value share by age: {how}"
-        if line == "battery_replacement" and c.battery_replacement.when == "cycles":
-            return "a replacement each time the summed battery lives pass a whole number"
-        if line == "tax_shield_operating":
-            return "−tax rate × the deductible lines above"
-        if line == "tax_shield_depreciation":
-            return ("depreciation fractions from the Inputs sheet (the truck and each battery "
-                    "replacement, capitalised)")
-        if line == "tax_on_sale":
-            return "tax rate × (end proceeds − tax book value left)"
-        return ""
+        from tco import cost_lines
+
+        return cost_lines.by_name()[line].note_for(self.inputs.trucks[i].costs)
