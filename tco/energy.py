@@ -4,8 +4,9 @@ Glue between the scenario and the physics: it maps a truck's validated parameter
 kernel's parameter sets (:class:`tco.roadload.Vehicle`,
 :class:`tco.diesel.DieselPowertrain`, :class:`tco.electric.ElectricPowertrain`), drives
 one operating day (the trip repeated ``ceil(trips_per_day)`` times, so the battery is
-tracked across the whole day), and turns the result into per-trip figures, plain-language
-feasibility findings and an :class:`tco.operation.AnnualOperation`.
+tracked across the whole day), and turns the result into per-trip figures, feasibility
+findings (numbers and codes; :mod:`tco.report.findings` writes the sentences) and an
+:class:`tco.operation.AnnualOperation`.
 
 Simplifications (stated in the report's method notes):
 
@@ -29,8 +30,6 @@ from tco.diesel import DieselPowertrain
 from tco.electric import ElectricPowertrain
 from tco.operation import AnnualOperation
 from tco.result import TruckResult
-
-from tco.units import J_PER_KWH  # noqa: E402  [J/kWh]
 
 
 def vehicle_parameters(truck, ambient, mean_elevation: float) -> roadload.Vehicle:
@@ -89,6 +88,9 @@ def electric_parameters(e, temperature: float, state_of_health: float = 1.0
 # both; the unused one is ignored).
 NO_DIESEL = DieselPowertrain(1e9, 1.0, 0.5)
 NO_ELECTRIC = ElectricPowertrain(1e12, 1e9, 1.0, 1.0, 0.0)
+#: Speed deficit on grades below which a power limit is not reported as a warning
+#: (1 km/h) [m/s].
+SPEED_DEFICIT_SHOWN = 1000.0 / 3600.0
 
 
 def operating_day(trip: pd.DataFrame, trips_per_day: float) -> tuple[pd.DataFrame, int]:
@@ -123,6 +125,10 @@ def simulate(truck, scenario, trip: pd.DataFrame) -> TruckResult:
     Returns
     -------
     TruckResult
+        Its ``feasibility`` holds findings as SI numbers with a ``code`` and a ``warn``
+        flag (payload, power, battery new / end of life, depot charger, battery by year);
+        the sentences a reader sees are written by :mod:`tco.report.findings` in the
+        study's units. ``warnings`` is left empty for the caller to fill.
     """
     route, ambient = scenario.route, scenario.ambient
     n_legs = len(route.legs)
@@ -194,19 +200,16 @@ def simulate(truck, scenario, trip: pd.DataFrame) -> TruckResult:
     if car_pd < req_pd:
         lost = float(np.max(requested - carried))
         feas["payload"] = {
-            "ok": False, "lost_per_trip": lost, "extra_trips_per_year": x_trips,
-            "text": f"{truck.name} can legally carry {capacity / 1000:.1f} t; up to "
-                    f"{lost / 1000:.1f} t per trip is left behind, needing "
-                    f"{x_trips:.0f} extra trips a year to move the same tonnage."}
-        warnings.append(feas["payload"]["text"])
+            "ok": False, "code": "left_behind", "warn": True, "capacity": capacity,
+            "lost_per_trip": lost, "extra_trips_per_year": x_trips}
     else:
-        feas["payload"] = {"ok": True, "lost_per_trip": 0.0, "extra_trips_per_year": 0.0,
-                           "text": f"Payload fits: capacity {capacity / 1000:.1f} t."}
+        feas["payload"] = {"ok": True, "code": "fits", "warn": False, "capacity": capacity,
+                           "lost_per_trip": 0.0, "extra_trips_per_year": 0.0}
 
     if is_e:
-        op_fields = _electric_day(truck, scenario, tot, n_trips, summary, feas, warnings, ele)
+        op_fields = _electric_day(truck, scenario, tot, n_trips, summary, feas, ele)
         per_trip = {k: v / n_trips for k, v in op_fields["day"].items()}
-        aged = _ageing(truck, scenario, tot, n_trips, trips, op_fields, feas, warnings, summary)
+        aged = _ageing(truck, scenario, tot, n_trips, trips, op_fields, feas, summary)
         op = AnnualOperation(
             truck=truck.name, powertrain="electric", operating_days=annual_days,
             trips=trips, extra_trips=x_trips, distance=trips * trip_distance,
@@ -234,7 +237,7 @@ def simulate(truck, scenario, trip: pd.DataFrame) -> TruckResult:
             "engine_energy": tot["diesel_engine_energy"] / n_trips,
             "fuel_per_distance": fuel_trip / trip_distance,
         })
-        feas["power"] = _power_limit(tot, "diesel", "engine", truck.name, warnings, slowed)
+        feas["power"] = _power_limit(tot, "diesel", "engine", slowed)
         op = AnnualOperation(
             truck=truck.name, powertrain="diesel", operating_days=annual_days, trips=trips,
             extra_trips=x_trips, distance=trips * trip_distance,
@@ -348,36 +351,29 @@ def _leg_distances(trip: pd.DataFrame, n_legs: int) -> np.ndarray:
     return out
 
 
-def _power_limit(tot, prefix: str, what: str, name: str, warnings: list[str],
-                 slowed: dict | None = None) -> dict:
+def _power_limit(tot, prefix: str, what: str, slowed: dict | None = None) -> dict:
+    """The power-limit finding (SI numbers and a ``code``; the report layer writes it).
+
+    ``code``: ``"slowed"`` (the trace was re-timed to the speed the power holds),
+    ``"limited"`` (the truck falls short of the trace's speed on grades: a warning),
+    ``"accelerating"`` (short of power only while accelerating) or ``"within"``.
+    ``what`` is ``"motor"`` or ``"engine"``.
+    """
     t = tot[f"{prefix}_limited_time"]
-    info = {"ok": t <= 0, "limited_time": t, "limited_distance": tot[f"{prefix}_limited_distance"],
+    info = {"ok": t <= 0, "what": what, "warn": False, "limited_time": t,
+            "limited_distance": tot[f"{prefix}_limited_distance"],
             "speed_deficit_max": tot[f"{prefix}_speed_deficit_max"],
             "speed_deficit_mean": tot[f"{prefix}_speed_deficit_mean"]}
     if slowed and slowed["time_added"] > 0:
-        info.update({"ok": True, "slowed_time_added": slowed["time_added"],
+        info.update({"ok": True, "code": "slowed", "slowed_time_added": slowed["time_added"],
                      "slowed_distance": slowed["slowed_distance"],
                      "slowed_speed_deficit_max": slowed["speed_deficit_max"]})
-        info["text"] = (
-            f"{name}: where the cycle asks for more than the rated {what} power the truck "
-            f"slows to the speed its power holds (up to "
-            f"{slowed['speed_deficit_max'] * 3.6:.0f} km/h below the trace over "
-            f"{slowed['slowed_distance'] / 1000:.2f} km); each trip takes "
-            f"{slowed['time_added'] / 60:.1f} min longer, counted in its time and energy.")
-        return info
-    if t > 0 and info["speed_deficit_max"] * 3.6 >= 1.0:
-        info["text"] = (
-            f"{name}: the cycle asks for more than the rated {what} power for {t:.0f} s "
-            f"over {info['limited_distance'] / 1000:.2f} km; on those grades it can hold "
-            f"up to {info['speed_deficit_max'] * 3.6:.0f} km/h less than the trace asks.")
-        warnings.append(info["text"])
+    elif t > 0 and info["speed_deficit_max"] >= SPEED_DEFICIT_SHOWN:
+        info.update({"code": "limited", "warn": True})
     elif t > 0:
-        info["text"] = (
-            f"{name}: the cycle asks for more than the rated {what} power for {t:.0f} s "
-            f"while accelerating; the truck takes a little longer to reach speed but holds "
-            f"the trace's speeds on every grade.")
+        info["code"] = "accelerating"
     else:
-        info["text"] = f"{name} holds the trace within its rated {what} power."
+        info["code"] = "within"
     return info
 
 
@@ -401,12 +397,6 @@ def enroute_time(e, usable_capacity: float, deficit: float) -> tuple[float, int]
     return t, int(electric.enroute_stops(deficit, usable_capacity, arrival))
 
 
-def _driver_time_words(e) -> str:
-    """What :func:`driver_time_lost` counts, in words."""
-    return ("driver time beyond the required breaks" if e.enroute.charge_during_breaks
-            else "driver time")
-
-
 def driver_time_lost(e, charging_time: float, stops: int, driving_time: float) -> float:
     """Driver time the en-route charging costs [s]: with ``charge_during_breaks``, only
     the charging beyond the required breaks, plus each stop's overhead."""
@@ -417,7 +407,7 @@ def driver_time_lost(e, charging_time: float, stops: int, driving_time: float) -
         charging_time, stops, r.overhead, driving_time, r.break_after, r.break_duration))
 
 
-def _electric_day(truck, scenario, tot, n_trips, summary, feas, warnings, ele) -> dict:
+def _electric_day(truck, scenario, tot, n_trips, summary, feas, ele) -> dict:
     e = truck.electric
     driving_time = summary["day_driving_time"]
     depot = scenario.depot
@@ -438,8 +428,7 @@ def _electric_day(truck, scenario, tot, n_trips, summary, feas, warnings, ele) -
         "usable_capacity_eol": cap_eol, "aux_power": ele.aux_power,
         "battery_per_distance": net_day / tot["distance"] if tot["distance"] else 0.0,
     })
-    feas["power"] = _power_limit(tot, "electric", "motor", truck.name, warnings,
-                                 summary.get("power_limit_slowing"))
+    feas["power"] = _power_limit(tot, "electric", "motor", summary.get("power_limit_slowing"))
 
     verdicts = {}
     for label, cap in (("new", cap_new), ("end_of_life", cap_eol)):
@@ -447,7 +436,9 @@ def _electric_day(truck, scenario, tot, n_trips, summary, feas, warnings, ele) -
         deficit = max(drawdown - available, 0.0)
         v = {"ok": deficit <= 0, "usable_capacity": cap, "available": available,
              "needed": drawdown, "deficit": deficit, "enroute_energy": 0.0,
-             "enroute_time": 0.0, "enroute_stops": 0, "driver_time_lost": 0.0}
+             "enroute_time": 0.0, "enroute_stops": 0, "driver_time_lost": 0.0,
+             "reserve": e.reserve, "state_of_health": 1.0 if label == "new"
+             else e.eol_state_of_health, "warn": deficit > 0}
         if deficit > 0 and e.enroute.power > 0:
             v["enroute_energy"] = deficit
             charge_t, stops = enroute_time(e, cap, deficit)
@@ -455,29 +446,16 @@ def _electric_day(truck, scenario, tot, n_trips, summary, feas, warnings, ele) -
             v["enroute_stops"] = stops
             v["driver_time_lost"] = driver_time_lost(e, charge_t, stops, driving_time)
             v["enroute_grid_energy"] = deficit / e.enroute.efficiency
-            v["text"] = (f"With the {label.replace('_', '-')} battery"
-                         + (f" (state of health {e.eol_state_of_health:.0%})"
-                            if label == "end_of_life" else "")
-                         + f", on the scenario's mean day, the day needs "
-                         f"{deficit / J_PER_KWH:.0f} kWh of en-route charging into the "
-                         f"battery ({v['enroute_grid_energy'] / J_PER_KWH:.0f} kWh at the "
-                         f"meter): {v['enroute_time'] / 60:.0f} min a day at the "
-                         f"{e.enroute.power / 1000:.0f} kW charger, stop overhead included, "
-                         f"of which {v['driver_time_lost'] / 60:.0f} min is "
-                         f"{_driver_time_words(e)}.")
+            v["enroute_power"] = e.enroute.power
+            v["charge_during_breaks"] = bool(e.enroute.charge_during_breaks)
+            v["code"] = "enroute"
             v["ok_with_enroute"] = True
         elif deficit > 0:
-            v["text"] = (f"With the {label.replace('_', '-')} battery the day is not "
-                         f"feasible: it is {deficit / J_PER_KWH:.0f} kWh short of the "
-                         f"{e.reserve:.0%} reserve and no en-route charging is given.")
+            v["code"] = "short"
             v["ok_with_enroute"] = False
         else:
-            v["text"] = (f"With the {label.replace('_', '-')} battery the day ends with "
-                         f"{(available - drawdown) / J_PER_KWH:.0f} kWh above the "
-                         f"{e.reserve:.0%} reserve.")
+            v["code"] = "fits"
             v["ok_with_enroute"] = True
-        if not v["ok"]:
-            warnings.append(f"{truck.name}: {v['text']}")
         verdicts[label] = v
     feas["battery"] = verdicts
 
@@ -491,18 +469,10 @@ def _electric_day(truck, scenario, tot, n_trips, summary, feas, warnings, ele) -
     required = float(electric.depot_charger_power(grid_depot, window_h * 3600.0))
     charger = depot.charger_power if depot.chargers > 0 and depot.charger_power > 0 else 0.0
     power = charger if charger > 0 else required
-    if charger > 0 and required > charger * (1 + 1e-9):
-        text = (f"{truck.name}: the depot charger ({charger / 1000:.0f} kW) cannot refill "
-                f"the battery in the {window_h} h window; it needs {required / 1000:.0f} kW.")
-        ok = False
-        warnings.append(text)
-    else:
-        text = (f"{truck.name} needs at least {required / 1000:.0f} kW at the depot to "
-                f"refill {grid_depot / J_PER_KWH:.0f} kWh in the {window_h} h window"
-                + (f"; the {charger / 1000:.0f} kW charger suffices." if charger else "."))
-        ok = True
-    feas["depot_charger"] = {"ok": ok, "required_power": required, "charger_power": charger,
-                             "window_hours": window_h, "grid_energy": grid_depot, "text": text}
+    ok = not (charger > 0 and required > charger * (1 + 1e-9))
+    feas["depot_charger"] = {"ok": ok, "code": "fits" if ok else "short", "warn": not ok,
+                             "required_power": required, "charger_power": charger,
+                             "window_hours": window_h, "grid_energy": grid_depot}
     profile = operation.charging_profile(grid_depot, power, depot.charging_start_hour,
                                          depot.charging_end_hour)
     summary.update({"grid_energy_depot": grid_depot / n_trips,
@@ -516,7 +486,7 @@ def _electric_day(truck, scenario, tot, n_trips, summary, feas, warnings, ele) -
     }
 
 
-def _ageing(truck, scenario, tot, n_trips, trips, op_fields, feas, warnings, summary
+def _ageing(truck, scenario, tot, n_trips, trips, op_fields, feas, summary
             ) -> dict:
     """State of health year by year and its consequences (:mod:`tco.battery`): the first
     year the day no longer fits the battery, and the en-route charging, driver time and
@@ -555,61 +525,19 @@ def _ageing(truck, scenario, tot, n_trips, trips, op_fields, feas, warnings, sum
         "feasible": ag.feasible, "rule": b.when,
     }
     fy = ag.first_short_year
+    info.update({"analysis_years": N, "start_year": start_year,
+                 "eol_state_of_health": e.eol_state_of_health,
+                 "enroute_power": e.enroute.power, "enroute_efficiency": e.enroute.efficiency,
+                 "charge_during_breaks": bool(e.enroute.charge_during_breaks),
+                 "warn": fy is not None})
     if fy is None and b.when == "range" and ag.replacements:
-        first = ag.replacements[0] + 1
-        info["text"] = (f"The day would no longer fit the battery in year {first} "
-                        f"({start_year + first - 1}); by the replacement rule 'range' the "
-                        f"battery is replaced at the end of year "
-                        f"{', '.join(map(str, ag.replacements))}, so no en-route charging is "
-                        "needed.")
-        info["first_short_year_without_replacement"] = first
+        info["code"] = "replaced_in_time"
+        info["first_short_year_without_replacement"] = ag.replacements[0] + 1
     elif fy is None:
-        info["text"] = (f"The battery's state of health stays above what the day needs for "
-                        f"all {N} years (lowest {ag.soh_low.min():.0%}"
-                        + (f"; replaced at the end of year {', '.join(map(str, ag.replacements))}"
-                           if ag.replacements else "") + ").")
+        info["code"] = "fits_all_years"
     else:
-        cal = f"year {fy} ({start_year + fy - 1})"
-        if e.enroute.power > 0:
-            worst = int(np.argmax(ag.enroute_energy))  # 0-based year with the most
-            below = (f", below the {e.eol_state_of_health:.0%} end-of-life state of health "
-                     f"until the battery is replaced at the end of that year"
-                     if ag.soh_low[worst] < e.eol_state_of_health - 5e-4 else "")
-            info["text"] = (
-                f"From {cal} the day no longer fits the battery (state of health "
-                f"{ag.soh_low[fy - 1]:.0%} at its lowest that year): from then on it needs "
-                f"en-route charging, costed as public charging and driver time in each year "
-                f"it is short. The most is in year {worst + 1} ({start_year + worst}), "
-                f"state of health down to {ag.soh_low[worst]:.0%}{below}: averaged over "
-                f"that year's operating days, "
-                f"{ag.enroute_energy[worst] / J_PER_KWH:.0f} kWh a day into the battery "
-                f"({ag.enroute_energy[worst] / e.enroute.efficiency / J_PER_KWH:.0f} kWh at "
-                f"the meter) and {ag.enroute_time[worst] / 60:.0f} min a day of "
-                f"{_driver_time_words(e)}.")
-        else:
-            info["text"] = (
-                f"From {cal} the day no longer fits the battery (state of health "
-                f"{ag.soh_low[fy - 1]:.0%} at its lowest that year) and no en-route charging "
-                f"is given: the job cannot be done as planned from then on; replace the "
-                f"battery earlier ([trucks.costs.battery_replacement] when = \"range\") or "
-                f"give en-route charging.")
-        if ag.replacements:
-            info["text"] += (f" The battery is replaced at the end of year "
-                             f"{', '.join(map(str, ag.replacements))}.")
-        warnings.append(f"{truck.name}: {info['text']}")
-    if fy is None and info.get("first_short_year_without_replacement"):
-        first = info["first_short_year_without_replacement"]
-        info["verdict"] = (f"its battery is replaced at the end of year "
-                           f"{', '.join(map(str, ag.replacements))}, before the day would no "
-                           f"longer fit it in year {first} ({start_year + first - 1})")
-    elif fy is None:
-        info["verdict"] = f"its battery does the day in all {N} years"
-    elif e.enroute.power > 0:
-        info["verdict"] = (f"from year {fy} ({start_year + fy - 1}) its aged battery needs "
-                           "en-route charging, costed at the public price plus driver time")
-    else:
-        info["verdict"] = (f"from year {fy} ({start_year + fy - 1}) the day no longer fits "
-                           "its aged battery and no en-route charging is given")
+        info["code"] = "short_enroute" if e.enroute.power > 0 else "short_no_enroute"
+        info["worst_year"] = int(np.argmax(ag.enroute_energy)) + 1  # the most en-route energy
     info["calendar_year"] = None if fy is None else start_year + fy - 1
     feas["battery_by_year"] = info
     enroute_grid = ag.enroute_energy / e.enroute.efficiency

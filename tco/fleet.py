@@ -405,7 +405,7 @@ def _row_energy(args) -> RouteEnergy:
     base, row, fleet_file = args
     from tco import energy
     from tco.fleet_telematics import logged_for, rescale_operation
-    from tco.pipeline import build_trip
+    from tco.pipeline import build_trip, with_finding_warnings
 
     raw = row_scenario(base, row, fleet_file)
     where = f"row {row.row} ({row.vehicle})"
@@ -422,7 +422,8 @@ def _row_energy(args) -> RouteEnergy:
                 raise InputError(f"annual distance needs {tpd:.2f} trips a day on this "
                                  "cycle (allowed up to 50)", where="annual_distance")
             s.route.trips_per_day = tpd
-        trucks = [energy.simulate(t, s, trip) for t in s.trucks]
+        trucks = [with_finding_warnings(energy.simulate(t, s, trip), s.study.units)
+                  for t in s.trucks]
     except InputError as exc:
         raise InputError(exc.message, file=fleet_file,
                          where=f"{where}: " + ": ".join(

@@ -397,6 +397,15 @@ def _unset_escalations_text(keys: list[str], trucks: list[str]) -> str:
     return "; ".join(parts)
 
 
+def with_finding_warnings(tr, units: str):
+    """``tr`` with the warnings among its feasibility findings first in its warnings,
+    as sentences written by the report layer (:mod:`tco.report.findings`) in ``units``."""
+    from tco.report.findings import truck_warnings
+
+    tr.warnings = truck_warnings(tr, units) + list(tr.warnings)
+    return tr
+
+
 def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
     """Evaluate a loaded scenario end to end.
 
@@ -435,7 +444,8 @@ def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
     trip = timed("building the duty cycle", build_trip, loaded)
     trucks = {}
     for t in s.trucks:
-        trucks[t.name] = timed(f"energy of {t.name}", energy.simulate, t, s, trip)
+        trucks[t.name] = with_finding_warnings(
+            timed(f"energy of {t.name}", energy.simulate, t, s, trip), s.study.units)
     ops = [trucks[t.name].operation for t in s.trucks]
     sd = timed("depot charging schedule", depot_schedule, loaded, ops)
     ops = depot_model.with_schedule(ops, sd)

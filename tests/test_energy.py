@@ -149,7 +149,9 @@ def test_infeasible_day_is_a_finding_not_an_error(tmp_path):
     ev = evaluate(loaded).trucks["E"]
     new = ev.feasibility["battery"]["new"]
     assert not new["ok"] and not new["ok_with_enroute"]
-    assert "not feasible" in new["text"]
+    assert new["code"] == "short" and new["warn"]
+    from tco.report.findings import battery_sentence
+    assert "not feasible" in battery_sentence("new", new)
     assert ev.trace["soc"].min() < 0.1  # SOC is tracked below the reserve, not hidden
 
 
@@ -372,10 +374,12 @@ def test_end_of_life_sentence_states_battery_and_meter_energy(tmp_path):
     usable = eol["usable_capacity"] / 0.8  # new usable capacity [J]
     deficit = eol["needed"] - (e.start_soc - e.reserve) * usable * 0.8
     assert eol["deficit"] == pytest.approx(deficit, rel=1e-9)
-    m = re.search(r"state of health 80%.*?(\d+) kWh of en-route charging into the battery "
-                  r"\((\d+) kWh at the meter\)", eol["text"])
-    assert m, eol["text"]
+    from tco.report.findings import battery_sentence
+    text = battery_sentence("end_of_life", eol)
+    m = re.search(r"state of health 80 %.*?(\d+) kWh of en-route charging into the battery "
+                  r"\((\d+) kWh at the meter\)", text)
+    assert m, text
     assert abs(int(m.group(1)) - deficit / 3.6e6) <= 0.5
     assert abs(int(m.group(2)) - deficit / 0.9 / 3.6e6) <= 0.5
     assert deficit / 3.6e6 > 10  # big enough that the two roundings differ
-    assert "driver time" in eol["text"]
+    assert "driver time" in text

@@ -19,11 +19,10 @@ def print_summary(result) -> None:
                      f"{per}")
     for c in result.cashflow.comparisons:
         word = "more" if c.present_value_difference > 0 else "less"
-        lines.append(f"  {c.truck} costs {abs(c.present_value_difference):,.0f} {cur} {word} "
+        diff = fm.money(abs(c.present_value_difference), cur)
+        lines.append(f"  {c.truck} costs {diff} {word} "
                      f"than {c.baseline} over {result.cashflow.analysis_years} years "
                      "(present value)")
-    from tco.report.findings import rewrite_warnings
-
-    for w in rewrite_warnings(list(result.warnings), result, fm.Units(system)):
+    for w in result.warnings:
         lines.append(f"  warning: {w}")
     print("\n".join(lines), file=sys.stdout)

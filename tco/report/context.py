@@ -14,7 +14,7 @@ from tco import __version__
 from tco.report import charts
 from tco.report import formatting as fm
 from tco.report.assumptions import build_appendix
-from tco.report.findings import rewrite_warnings
+from tco.report.findings import ageing_verdict
 from tco.report.formatting import money as fmt_money  # noqa: F401 - public for other writers
 from tco.report.formatting import number as _auto_number
 from tco.units import J_PER_KWH as KWH
@@ -198,7 +198,7 @@ def _feasible_text(tr) -> str:
     if aged and depot_ok and (b["new"]["ok"] or b["new"]["ok_with_enroute"]):
         start = ("it can do the day on its new battery" if b["new"]["ok"]
                  else "it can do the day only with en-route charging")
-        return f"{start}; {aged['verdict']}"
+        return f"{start}; {ageing_verdict(aged)}"
     if b["new"]["ok"] and b["end_of_life"]["ok"] and depot_ok:
         return "it can do the day on its battery, new and at end of life"
     if b["new"]["ok"] and depot_ok:
@@ -217,14 +217,14 @@ def _feasible_short(tr) -> tuple[str, str]:
         return "No", "the depot charger cannot refill the battery in the window"
     aged = tr.feasibility.get("battery_by_year")
     if b["new"]["ok"] and aged:
-        return "Yes", f"on the new battery; {aged['verdict']}"
+        return "Yes", f"on the new battery; {ageing_verdict(aged)}"
     if b["new"]["ok"]:
         eol = ("also at end of life" if b["end_of_life"]["ok"] else
                "at end of life it needs en-route charging" if b["end_of_life"]["ok_with_enroute"]
                else "not at end of life")
         return "Yes", f"on the new battery; {eol}"
     if b["new"]["ok_with_enroute"]:
-        return "With en-route charging", f"{b['new']['enroute_time'] / 60:.0f} min a day"
+        return "With en-route charging", f"{fm.minutes(b['new']['enroute_time'])} a day"
     return "No", "the battery cannot do the day and no en-route charging is given"
 
 
@@ -284,22 +284,16 @@ def _key_figures(result, u: DisplayUnits, summary: dict) -> list[dict]:
 
 
 def _feasibility(result, u: DisplayUnits | None = None) -> list[dict]:
-    from tco.report.findings import sentences
+    from tco.report.findings import truck_sentences
 
     u = u or fm.Units(result.scenario.study.units)
     rows = []
+    order = ("payload", "power", "battery.new", "battery.end_of_life", "battery_by_year",
+             "depot_charger")
     for name, tr in result.trucks.items():
-        f = tr.feasibility
-        said = sentences(tr, u)
-        texts = [said.get(f["payload"]["text"], f["payload"]["text"]),
-                 said.get(f["power"]["text"], f["power"]["text"])]
-        if tr.powertrain == "electric":
-            texts += [f["battery"]["new"]["text"], f["battery"]["end_of_life"]["text"]]
-            if f.get("battery_by_year"):
-                texts.append(f["battery_by_year"]["text"])
-            texts.append(f["depot_charger"]["text"])
+        said = truck_sentences(tr, u)
         rows.append({"truck": name, "verdict": _feasible_text(tr).capitalize(),
-                     "detail": " ".join(texts)})
+                     "detail": " ".join(said[k] for k in order if k in said)})
     return rows
 
 
@@ -847,7 +841,7 @@ def build_context(result, summary: dict) -> dict:
         "key_figures": _key_figures(result, u, summary),
         "charts": _charts(result, u),
         "feasibility": _feasibility(result, u),
-        "warnings": rewrite_warnings(list(result.warnings), result, u),
+        "warnings": list(result.warnings),
         "tables": _tables(result, u, summary),
         "assumptions": _appendix(result, summary, u),
         "method_notes": notes,

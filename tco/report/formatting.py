@@ -22,12 +22,13 @@ from __future__ import annotations
 import math
 import re
 
-from tco.units import from_si
+from tco.units import J_PER_KWH, from_si
 
 __all__ = [
     "DASH", "number", "money", "signed_money", "percent", "unit_price", "per_unit_label",
     "quantity", "Units", "input_value", "label_from_description", "field_label", "hours_text",
-    "irr_text", "range_text", "client_line", "EXCEL_FORMATS",
+    "irr_text", "range_text", "client_line", "EXCEL_FORMATS", "kwh", "kw", "minutes",
+    "seconds", "count", "tonnes", "per_year", "years_list",
 ]
 
 #: Shown for a missing or non-finite figure.
@@ -97,6 +98,46 @@ def percent(share, digits: int = 1) -> str:
     if float(share) == 0:
         return "0 %"
     return f"{number(100.0 * float(share), digits)} %"
+
+
+def count(n) -> str:
+    """A whole count with thousands separators (``1,250``)."""
+    return number(n, 0)
+
+
+def kwh(joules, digits: int = 0) -> str:
+    """Energy [J] in kWh: ``kwh(3.6e8)`` → ``'100 kWh'``."""
+    return DASH if not _finite(joules) else f"{number(float(joules) / J_PER_KWH, digits)} kWh"
+
+
+def kw(watts, digits: int = 0) -> str:
+    """Power [W] in kW: ``kw(150e3)`` → ``'150 kW'``."""
+    return DASH if not _finite(watts) else f"{number(float(watts) / 1000.0, digits)} kW"
+
+
+def minutes(s, digits: int = 0) -> str:
+    """A duration [s] in minutes: ``minutes(1500)`` → ``'25 min'``."""
+    return DASH if not _finite(s) else f"{number(float(s) / 60.0, digits)} min"
+
+
+def seconds(s, digits: int = 0) -> str:
+    """A duration [s] in seconds: ``seconds(42.4)`` → ``'42 s'``."""
+    return DASH if not _finite(s) else f"{number(s, digits)} s"
+
+
+def tonnes(kg, digits: int = 0) -> str:
+    """A mass of CO2e or goods [kg] in tonnes: ``tonnes(122400)`` → ``'122 t'``."""
+    return DASH if not _finite(kg) else f"{number(float(kg) / 1000.0, digits)} t"
+
+
+def per_year(text: str) -> str:
+    """A formatted amount per year: ``per_year('1,200 EUR')`` → ``'1,200 EUR/year'``."""
+    return text if text == DASH else f"{text}/year"
+
+
+def years_list(years) -> str:
+    """Years of the study as a list: ``[4, 8]`` → ``'4, 8'``."""
+    return ", ".join(str(int(y)) for y in years)
 
 
 # --------------------------------------------------------------------------- units

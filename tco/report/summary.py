@@ -100,18 +100,21 @@ def _per_year(tr) -> dict:
     }
 
 
-def _feasibility(tr) -> dict:
+def _feasibility(tr, units: str = "metric") -> dict:
+    from tco.report import findings
+
     f = tr.feasibility
+    said = findings.truck_sentences(tr, units)
     out: dict[str, Any] = {
         "payload": {"ok": f["payload"]["ok"],
                     "capacity_t": tr.summary["payload_capacity"] / 1000,
                     "lost_per_trip_t": f["payload"]["lost_per_trip"] / 1000,
                     "extra_trips_per_year": f["payload"]["extra_trips_per_year"],
-                    "text": f["payload"]["text"]},
+                    "text": said["payload"]},
         "power": {"ok": f["power"]["ok"], "limited_time_s": f["power"]["limited_time"],
                   "limited_distance_km": f["power"]["limited_distance"] / 1000,
                   "speed_deficit_max_kmh": f["power"]["speed_deficit_max"] * 3.6,
-                  "text": f["power"]["text"]},
+                  "text": said["power"]},
     }
     if tr.powertrain == "electric":
         out["battery"] = {
@@ -123,13 +126,14 @@ def _feasibility(tr) -> dict:
                     "enroute_minutes": v["enroute_time"] / 60,
                     "enroute_stops": v.get("enroute_stops", 0),
                     "driver_minutes_lost": v.get("driver_time_lost", 0.0) / 60,
-                    "text": v["text"]}
+                    "text": said[f"battery.{label}"]}
             for label, v in f["battery"].items()}
         d = f["depot_charger"]
         a = f.get("battery_by_year")
         if a:
             out["battery_by_year"] = {
-                "verdict": a["verdict"], "text": a["text"], "rule": a["rule"],
+                "verdict": findings.ageing_verdict(a), "text": said["battery_by_year"],
+                "rule": a["rule"],
                 "first_short_year": a["first_short_year"],
                 "first_short_calendar_year": a["calendar_year"],
                 "feasible": a["feasible"], "replacement_years": a["replacements"],
@@ -143,7 +147,8 @@ def _feasibility(tr) -> dict:
             }
         out["depot_charger"] = {"ok": d["ok"], "required_kW": d["required_power"] / 1000,
                                 "charger_kW": d["charger_power"] / 1000,
-                                "window_hours": d["window_hours"], "text": d["text"]}
+                                "window_hours": d["window_hours"],
+                                "text": said["depot_charger"]}
         out["soc_min"] = tr.summary["soc_min"]
         out["soc_end"] = tr.summary["soc_end"]
     out["feasible"] = bool(out["payload"]["ok"]) and _battery_ok(out) and bool(
@@ -255,7 +260,7 @@ def build_summary(result) -> dict:
         "trucks": {
             name: {"powertrain": tr.powertrain, "per_trip": _per_trip(tr),
                    "per_distance": _per_distance(tr), "per_year": _per_year(tr),
-                   "feasibility": _feasibility(tr), "warnings": tr.warnings}
+                   "feasibility": _feasibility(tr, s.study.units), "warnings": tr.warnings}
             for name, tr in result.trucks.items()
         },
         "cashflow": cashflow_summary(result.cashflow),
