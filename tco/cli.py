@@ -168,6 +168,7 @@ def _cmd_run(args) -> int:
 
 def _cmd_check(args) -> int:
     from tco.pipeline import validate
+    from tco.report import formatting as fm
     from tco.scenario import load_scenario
     from tco.text import one_line
 
@@ -177,7 +178,7 @@ def _cmd_check(args) -> int:
     total = float(result.route["distance"].iloc[-1] - result.route["distance"].iloc[0])
     print(one_line(f"{args.scenario}: valid — '{s.study.name}', {len(s.trucks)} trucks "
                    f"({', '.join(t.name for t in s.trucks)}), {len(s.route.legs)} legs, "
-                   f"{total / 1000:.1f} km per trip", limit=None))
+                   f"{fm.quantity(total, 'km', s.study.units, 1)} per trip", limit=None))
     for w in result.warnings:
         print(one_line(f"warning: {w}", limit=None))
     return EXIT_OK
@@ -193,6 +194,7 @@ def _at_least_one(value, option: str = "--jobs") -> int | None:
 def _cmd_fleet(args) -> int:
     from tco.fleet import evaluate_fleet, read_fleet
     from tco.progress import Steps
+    from tco.report import formatting as fm
     from tco.report.atomic import check_writable
     from tco.resources import inputs_dir
     from tco.scenario import load_scenario
@@ -232,10 +234,11 @@ def _cmd_fleet(args) -> int:
         plan = result.depot_plan
         cur = result.currency
         sav, avo = result.plan_saving, result.plan_avoided_t
-        money = f"saves {sav:,.0f} {cur}" if sav >= 0 else f"costs {-sav:,.0f} {cur} more"
+        money = (f"saves {fm.money(sav, cur)}" if sav >= 0
+                 else f"costs {fm.money(-sav, cur)} more")
         print(f"{len(result.plan)} of {len(result.routes)} routes feasible; the plan {money} "
-              f"(present value), avoids {avo:,.0f} t CO2e well-to-wheel, "
-              f"needs {plan.chargers} chargers and {plan.peak_power / 1000:,.0f} kW peak")
+              f"(present value), avoids {fm.number(avo, 0)} t CO2e well-to-wheel, "
+              f"needs {fm.count(plan.chargers)} chargers and {fm.kw(plan.peak_power)} peak")
         for note in logged_notes:
             print(f"  {note}")
         tr = result.transition
@@ -243,8 +246,8 @@ def _cmd_fleet(args) -> int:
             sch = tr.schedule
             n_e = int((sch["decision"] == "electric").sum())
             print(f"transition plan: {n_e} of {len(sch)} vehicles go electric; present "
-                  f"value {tr.present_value:,.0f} {cur} against {tr.present_value_diesel:,.0f} "
-                  f"{cur} staying diesel")
+                  f"value {fm.money(tr.present_value, cur)} against "
+                  f"{fm.money(tr.present_value_diesel, cur)} staying diesel")
             for note in tr.notes[:-1]:
                 print(f"  {note}")
     for f in written:
@@ -258,6 +261,7 @@ def _cmd_batch(args) -> int:
 
     jobs = _at_least_one(args.jobs)
     folder = Path(args.folder) if args.folder else demo_batch_dir()
+    from tco.report import formatting as fm
     from tco.report.batch_index import outcome_row
     from tco.report.formatting import client_line
 
@@ -273,7 +277,7 @@ def _cmd_batch(args) -> int:
     if not args.quiet:
         print(f"{len(outcome.ok)} of {len(outcome.scenarios)} scenarios done"
               + (f", {len(outcome.errors)} skipped (see above and the index)"
-                 if outcome.errors else "") + f" in {outcome.seconds:.1f} s")
+                 if outcome.errors else "") + f" in {fm.seconds(outcome.seconds, 1)}")
     for name in outcome.index:
         print(name)
     return EXIT_OK if outcome.all_ok else EXIT_INPUT

@@ -292,9 +292,10 @@ def schedule(arrive, depart, energy, charger_power, rule: str = "first_come",
     500 kWh from 100 kW chargers: one charger cannot do it (the last truck would finish at
     07:00), two can.
 
+    >>> from tco.units import J_PER_KWH
     >>> h = 3600.0
     >>> s = schedule([18 * h, 19 * h, 20 * h], [6 * h] * 3,
-    ...              np.array([300, 500, 500]) * 3.6e6, 100e3)
+    ...              np.array([300, 500, 500]) * J_PER_KWH, 100e3)
     >>> s.chargers, round(s.peak_power / 1e3)
     (2, 200)
     """

@@ -16,7 +16,7 @@ where ``P_loss`` is the friction and pumping loss power (a fraction of rated pow
 consumption is the special case ``P_loss = 0`` with ``eta_marginal = 1 / (BSFC · LHV)``:
 :meth:`DieselPowertrain.from_bsfc` builds it, so one code path serves both models.
 
-Units: BSFC is kept in kg/J inside. 1 g/kWh = 1e-3 kg / 3.6e6 J = 2.7778e-10 kg/J;
+Units: BSFC is kept in kg/J inside. 1 g/kWh = 1e-3 kg / J_PER_KWH (tco.units) = 2.7778e-10 kg/J;
 multiply a figure in g/kWh by :data:`G_PER_KWH` to get kg/J.
 
 This module is the readable reference; :mod:`tco.kernel` compiles the same private

@@ -48,7 +48,7 @@ class ElectricPowertrain(NamedTuple):
     Attributes
     ----------
     usable_capacity : float
-        Usable battery energy between empty and full. [J] (1 kWh = 3.6e6 J)
+        Usable battery energy between empty and full. [J] (1 kWh = ``tco.units.J_PER_KWH`` J)
     motor_power : float
         Motor power limit expressed at the wheel, for traction and regeneration. [W]
     drivetrain_efficiency : float
@@ -241,7 +241,8 @@ def preconditioning_energy(temperature, heat_below, pack_mass,
 
     Examples
     --------
-    >>> float(preconditioning_energy(258.15, 283.15, 4000.0)) / 3.6e6   # 4 t, 25 K
+    >>> from tco.units import J_PER_KWH
+    >>> float(preconditioning_energy(258.15, 283.15, 4000.0)) / J_PER_KWH   # 4 t, 25 K
     27.77777777777778
     """
     (t,), restore = _inputs(temperature)
@@ -530,7 +531,8 @@ def day_feasibility(net_battery_energy_per_day, usable_capacity_new, usable_capa
     Examples
     --------
     >>> r = day_feasibility(1.2e9, 1.8e9, 1.44e9, 0.1)
-    >>> r["feasible_new"], r["feasible_eol"], round(r["required_capacity"] / 3.6e6, 1)
+    >>> from tco.units import J_PER_KWH
+    >>> r["feasible_new"], r["feasible_eol"], round(r["required_capacity"] / J_PER_KWH, 1)
     (True, True, 370.4)
     """
     e_day = np.asarray(net_battery_energy_per_day, dtype=float)
@@ -612,7 +614,8 @@ def energy_above_reserve(usable_capacity: float, start_soc: float, reserve: floa
 
     Examples
     --------
-    >>> energy_above_reserve(500 * 3.6e6, 1.0, 0.1) / 3.6e6
+    >>> from tco.units import J_PER_KWH
+    >>> energy_above_reserve(500 * J_PER_KWH, 1.0, 0.1) / J_PER_KWH
     450.0
     """
     return usable_capacity * (start_soc - reserve)

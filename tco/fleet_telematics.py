@@ -29,6 +29,7 @@ import numpy as np
 import pandas as pd
 
 from tco.errors import InputError
+from tco.report import formatting as fm
 
 __all__ = ["read_logged_duty", "apply_logged_duty", "rescale_operation"]
 
@@ -157,6 +158,7 @@ def apply_logged_duty(rows: list, logged: pd.DataFrame, base, source=None) -> tu
     vehicles = set(logged["vehicle"])
     out, notes = [], []
     dep = base.scenario.depot
+    units = base.scenario.study.units
     for row in rows:
         if row.vehicle not in vehicles:
             out.append(row)
@@ -184,8 +186,8 @@ def apply_logged_duty(rows: list, logged: pd.DataFrame, base, source=None) -> tu
             depart = row.depart if row.depart is not None else dep.charging_end_hour * 3600.0
             upd["arrive"] = float((depart + cur["span_s"]) % _DAY_S)
         out.append(dataclasses.replace(row, **upd))
-        notes.append(f"{row.vehicle}: logged duty of {int(cur['days'])} day(s), "
-                     f"{cur['distance_per_day_m'] / 1000:,.1f} km a day")
+        notes.append(f"{row.vehicle}: logged duty of {fm.count(cur['days'])} day(s), "
+                     f"{fm.quantity(cur['distance_per_day_m'], 'km', units, 1)} a day")
     return out, notes
 
 

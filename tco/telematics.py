@@ -92,6 +92,7 @@ import pandas as pd
 
 from tco import dutycycle, electric, energy, kernel, operation
 from tco.errors import InputError
+from tco.report import formatting as fm
 
 __all__ = [
     "DAY_COLUMNS",
@@ -448,19 +449,22 @@ def _read_columns(table, file, hive):
     speed = _numeric(table, "speed", file)
     bad = np.flatnonzero(speed < 0)
     if bad.size:
-        _fail(f"negative speed {speed[bad[0]]:g} m/s at row {bad[0]} (rows count from 0)",
+        _fail(f"negative speed {fm.number(speed[bad[0]])} m/s at row {bad[0]} (rows count "
+              "from 0)",
               file, "speed")
     payload = _numeric(table, "payload", file)
     bad = np.flatnonzero(payload < 0)
     if bad.size:
-        _fail(f"negative payload {payload[bad[0]]:g} kg at row {bad[0]} (rows count from 0)",
+        _fail(f"negative payload {fm.number(payload[bad[0]])} kg at row {bad[0]} (rows count "
+              "from 0)",
               file, "payload")
     if has_g:
         zg = _numeric(table, "grade", file)
         bad = np.flatnonzero(np.abs(zg) > dutycycle.MAX_GRADE + 1e-12)
         if bad.size:
-            _fail(f"grade {100 * zg[bad[0]]:+.1f} % at row {bad[0]} is beyond "
-                  f"±{100 * dutycycle.MAX_GRADE:.0f} % (grade is rise over run, not percent)",
+            _fail(f"grade {fm.percent(zg[bad[0]], 1)} at row {bad[0]} is beyond "
+                  f"±{fm.percent(dutycycle.MAX_GRADE, 0)} (grade is rise over run, not "
+                  "percent)",
                   file, "grade")
     else:
         zg = _numeric(table, "elevation", file)
@@ -642,7 +646,7 @@ def _process_columns(columns, scenario, source, file, gap_limit) -> PartitionRes
     scenario = getattr(scenario, "scenario", scenario)
     gap_limit = float(gap_limit)
     if not gap_limit > 0:
-        raise InputError(f"gap limit must be positive, got {gap_limit:g} s",
+        raise InputError(f"gap limit must be positive, got {fm.number(gap_limit)} s",
                          where="gap_limit")
     codes, ids, day, t, speed, zg, is_grade, payload = columns
     del columns
@@ -1201,14 +1205,16 @@ def write_outputs(result: TelematicsResult, out_folder) -> list[Path]:
         wbb.safe_text(ws.cell(row=r, column=1), "Settings").font = bold
         s = result.settings
         n_days = len(result.vehicle_days[["vehicle", "day"]].drop_duplicates())
+        nan = float("nan")
         lines = [f"Scenario: {s.get('scenario', '')}",
                  f"Trucks: {', '.join(s.get('trucks', []))}",
-                 f"Time step: {s.get('time_step', float('nan')):g} s",
-                 f"Gap limit: {s.get('gap_limit', float('nan')) / 60:g} min",
-                 f"Elevation smoothing window: {s.get('smoothing_window', float('nan')):g} m",
-                 f"Ambient temperature: {s.get('temperature', float('nan')) - 273.15:.1f} °C",
-                 f"Partitions read: {len(result.partitions)}; rows read: {result.rows_read:,}",
-                 f"Vehicle-days: {n_days:,}; skipped: {len(result.skipped):,}",
+                 f"Time step: {fm.quantity(s.get('time_step', nan), 's')}",
+                 f"Gap limit: {fm.quantity(s.get('gap_limit', nan), 'min')}",
+                 f"Elevation smoothing window: {fm.quantity(s.get('smoothing_window', nan), 'm')}",
+                 f"Ambient temperature: {fm.quantity(s.get('temperature', nan), 'degC', digits=1)}",
+                 f"Partitions read: {fm.count(len(result.partitions))}; rows read: "
+                 f"{fm.count(result.rows_read)}",
+                 f"Vehicle-days: {fm.count(n_days)}; skipped: {fm.count(len(result.skipped))}",
                  f"Processed by: {result.backend}"]
         for line in lines:
             r += 1

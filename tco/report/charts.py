@@ -45,6 +45,8 @@ from matplotlib.figure import Figure
 from matplotlib.patches import Patch
 from matplotlib.ticker import FuncFormatter, MaxNLocator
 
+from tco.report import formatting as fm
+
 __all__ = [
     "PALETTE",
     "cumulative_cost",
@@ -162,16 +164,8 @@ def plain_text(text) -> str:
     return str(text).replace("$", r"\$")
 
 
-def compact_number(x: float, _pos=None) -> str:
-    """Tick label with thousands shortened: 1500 → '1.5k', 2 500 000 → '2.5M'."""
-    ax = abs(x)
-    for factor, suffix in ((1e9, "G"), (1e6, "M"), (1e3, "k")):
-        if ax >= factor:
-            v = x / factor
-            return f"{v:.{0 if float(v).is_integer() else 1}f}{suffix}".replace("-", "\u2212")
-    if ax == 0:
-        return "0"
-    return f"{x:g}".replace("-", "\u2212")
+#: Tick labels: the report layer's one formatter (tco.report.formatting).
+compact_number = fm.compact_number
 
 
 def _truck_colors(names) -> dict:
@@ -262,7 +256,7 @@ def cumulative_cost(df_years_by_truck: pd.DataFrame, breakeven_year: float | Non
             ax.axvline(breakeven_year, color=INK, linewidth=0.7, linestyle=(0, (3, 2)))
             ax.plot([breakeven_year], [y], marker="D", markersize=6, color=INK, zorder=5,
                     linestyle="none")
-            text = breakeven_label or f"Break-even: year {breakeven_year:.1f}"
+            text = breakeven_label or f"Break-even: year {fm.number(breakeven_year, 1)}"
             ax.annotate(plain_text(text), (breakeven_year, y), xytext=(-8, 10),
                         textcoords="offset points", fontsize=8, color=INK, ha="right",
                         bbox={"boxstyle": "round,pad=0.25", "fc": "white", "ec": "none",

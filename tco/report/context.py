@@ -298,13 +298,49 @@ def _feasibility(result, u: DisplayUnits | None = None) -> list[dict]:
 
 
 def _breakeven_year(cum: pd.DataFrame) -> float | None:
+    """The year (fractional) at which the second truck's cumulative cost line falls below
+    the first's for good, by linear interpolation within the year; None if it never does
+    or was never above. "For good" is the rule of the payback year
+    (:func:`tco.finance.payback_year`: the year after the last one the cumulative saving
+    is negative), so a crossing at 5.4 is a payback in year 6."""
     if cum.shape[1] < 2:
         return None
-    d = (cum.iloc[:, 1] - cum.iloc[:, 0]).to_numpy()
-    for k in range(1, len(d)):
-        if d[k - 1] > 0 >= d[k]:
-            return float(k - 1 + d[k - 1] / (d[k - 1] - d[k]))
-    return None
+    d = (cum.iloc[:, 1] - cum.iloc[:, 0]).to_numpy(float)
+    tol = 1e-9 * max(float(np.max(np.abs(np.diff(d, prepend=0.0)))), 1.0)
+    dearer = np.nonzero(d > tol)[0]
+    if len(dearer) == 0 or dearer[-1] + 1 >= len(d):
+        return None
+    k = int(dearer[-1]) + 1
+    return float(k - 1 + d[k - 1] / (d[k - 1] - d[k]))
+
+
+def _payback_of(result, names: list[str], be: float | None) -> int | None:
+    """The payback key figure (whole years) that the chart's crossing ``be`` falls in,
+    or None when no comparison of these two trucks has it."""
+    if be is None or len(names) < 2:
+        return None
+    c = next((c for c in result.cashflow.comparisons
+              if c.truck == names[1] and c.baseline == names[0]), None)
+    ok = c is not None and c.simple_payback_year == math.ceil(be)
+    return c.simple_payback_year if ok else None
+
+
+def _breakeven_caption(be: float | None, payback: int | None) -> str:
+    """The cumulative chart's sentence on its crossing, tied to the payback key figure."""
+    if be is None:
+        return " The lines do not cross within the period."
+    text = f" The lines cross at year {fm.number(be, 1)}, within year {math.ceil(be)}"
+    if payback is not None:
+        return text + (f": the extra purchase cost is paid back in year {payback}, the "
+                       "payback of the key figures (counted in whole years).")
+    return text + "."
+
+
+def _breakeven_label(be: float | None, payback: int | None) -> str | None:
+    if be is None:
+        return None
+    tail = f" (payback year {payback})" if payback is not None else ""
+    return f"Break-even: year {fm.number(be, 1)}{tail}"
 
 
 def _charts(result, u: DisplayUnits) -> dict:
@@ -314,13 +350,14 @@ def _charts(result, u: DisplayUnits) -> dict:
     totals = cf.yearly_totals()[names]
     cum = totals.cumsum()
     be = _breakeven_year(cum)
+    payback = _payback_of(result, names, be)
     table = _grouped_lines(cf.table)
     cost = [
         {"title": "Cumulative cost of ownership",
          "caption": f"Net cash out, cumulative by year ({cf.money_basis} money, not "
-                    "discounted)." + (f" The lines cross in year {be:.1f}." if be else
-                                      " The lines do not cross within the period."),
-         "uri": _later(charts.cumulative_cost, cum, be, ylabel=f"Cumulative cost [{cur}]")},
+                    "discounted)." + _breakeven_caption(be, payback),
+         "uri": _later(charts.cumulative_cost, cum, be, ylabel=f"Cumulative cost [{cur}]",
+                       breakeven_label=_breakeven_label(be, payback))},
         {"title": "Yearly cost by group of lines",
          "caption": "Costs stack upward, income (grant, loan received, residual value) "
                     "downward; the black bar is the net of each year. Line by line: the "

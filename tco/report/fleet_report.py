@@ -33,7 +33,6 @@ All keys are required (``StrictUndefined``). Tables are ``{"title", "columns": [
 """
 from __future__ import annotations
 
-import math
 from pathlib import Path
 from typing import Literal
 
@@ -46,6 +45,7 @@ from tco.errors import InputError
 from tco.report import charts
 from tco.report import workbook_base as wbb
 from tco.report.atomic import staged_output
+from tco.report import formatting as fm
 from tco.report.context import DisplayUnits, fmt_money
 from tco.report.context import fmt_number as _n
 from tco.report.fleet_plan import add_transition_sheets, transition_context
@@ -86,7 +86,7 @@ SHARING_TEXT = (
     "How the depot's costs are shared: charger hardware, installation, grid connection, "
     "charger maintenance and the fixed fee by charger occupancy (the time each truck holds "
     "a charger in a day); the demand charge by each truck's contribution to the depot's "
-    "coincident peak (its mean power in the peak {interval:g}-minute interval, averaged "
+    "coincident peak (its mean power in the peak {interval}-minute interval, averaged "
     "over every interval that reaches the peak), since that peak is what the charge bills. "
     "This sharing rule is the tool's own convention.")
 
@@ -135,9 +135,14 @@ METHOD_NOTES = [
 
 # =========================================================================== formatting
 def _pct(x, digits: int = 1) -> str:
-    if x is None or (isinstance(x, float) and not math.isfinite(x)):
-        return "–"
-    return f"{x:.{digits}%}"
+    return fm.percent(x, digits)
+
+
+def _irr_cell(r: dict) -> str:
+    """IRR in a table cell: a percentage, or "n/a" where the extra cost is never paid
+    back (the reason is in the table's note)."""
+    text = fm.irr_text(r["irr"], None, r["simple_payback_year"], check_payback=True)
+    return "n/a" if text.startswith("n/a") else text
 
 
 def _cap(text: str) -> str:
@@ -155,7 +160,7 @@ def _table(title: str, columns: list[str], align: str, rows: list[list[str]],
 
 # =========================================================================== charts
 def _clock_ticks(start_hour: int):
-    return FuncFormatter(lambda x, _pos=None: f"{int(round(start_hour + x)) % 24:02d}:00")
+    return FuncFormatter(lambda x, _pos=None: fm.clock(start_hour + x))
 
 
 def depot_power_chart(frame: pd.DataFrame, *, start_hour: int, ylabel: str,
@@ -366,7 +371,7 @@ def _key_figures(s: dict) -> list[dict]:
     st = s["study"]
     dep = s["depot"]
     years = st["analysis_years"]
-    basis = f"{years} years at {st['discount_rate']:.1%} a year"
+    basis = f"{years} years at {fm.percent(st['discount_rate'])} a year"
     per_t = ("present-value cost over discounted tonnes" if p["tonnes_discounted"]
              else "present-value cost over tonnes")
     return [
@@ -384,7 +389,7 @@ def _key_figures(s: dict) -> list[dict]:
         {"label": "Depot chargers", "value": f"{p['chargers']} × {_n(dep['charger_kW'])} kW",
          "note": f"charging rule: {RULES.get(s['charging_rule'], s['charging_rule'])}"},
         {"label": "Depot peak power", "value": f"{_n(p['peak_kW'])} kW",
-         "note": (f"highest {dep['demand_interval_min']:g}-minute mean, from "
+         "note": (f"highest {fm.number(dep['demand_interval_min'], trim=True)}-minute mean, from "
                   f"{dep['plan']['peak_interval_start']}")},
         {"label": "Depot energy per operating day",
          "value": f"{_n(dep['plan']['energy_kWh_per_day'])} kWh",
@@ -433,21 +438,23 @@ def _routes_tables(s: dict, u: DisplayUnits) -> list[dict]:
     for r in s["routes"]:
         ops.append([r["vehicle"], r["route"], f"{r['current']} → {r['candidate']}",
                     _n(r["annual_distance_km"] / per), _n(r["trips_per_day"], 2),
-                    _n(r["diesel_L_per_year"]), _n(r["grid_kWh_per_year"] / 1000, 1),
+                    _n(u.convert(r["diesel_L_per_year"] / 1000.0, "L")[0]),
+                    _n(r["grid_kWh_per_year"] / 1000, 1),
                     _pct(r["soc_min"], 0), f"{r['arrive'] or '–'}–{r['depart'] or '–'}",
                     _cap(r["status"])])
         money.append([r["vehicle"], _n(r["pv_current"]), _n(r["pv_candidate"]),
                       _n(r["pv_saving"]), _n(r["levelized_current_per_km"] * per, 3),
                       _n(r["levelized_candidate_per_km"] * per, 3),
                       "–" if r["simple_payback_year"] is None
-                      else str(r["simple_payback_year"]), _pct(r["irr"]),
+                      else str(r["simple_payback_year"]), _irr_cell(r),
                       _n(r["wtw_current_t"]), _n(r["wtw_candidate_t"]), _n(r["avoided_t"]),
                       _n(r["abatement_cost_per_t"])])
     years = s["study"]["analysis_years"]
     return [
         _table("Routes: operation and feasibility",
                ["Vehicle", "Route", "Current → candidate", f"Distance [{u.dist}/yr]",
-                "Trips per day", "Diesel, current [L/yr]", "Electricity, candidate [MWh/yr]",
+                "Trips per day", f"Diesel, current [{u.volume}/yr]",
+                "Electricity, candidate [MWh/yr]",
                 "Lowest state of charge", "At the depot", "Status"],
                "lllrrrrrll", ops,
                "Electricity at the meter, depot and en-route charging; lowest state of "
@@ -463,7 +470,9 @@ def _routes_tables(s: dict, u: DisplayUnits) -> list[dict]:
                f"Present values over {years} years at the base scenario's discount rate, "
                "with each route's share of the depot (the plan's depot for routes in the "
                "plan, the depot of every candidate for the others). Emissions well-to-wheel, "
-               "location-based, over the period."),
+               "location-based, over the period."
+               + (" IRR n/a: the savings never recover the extra cost."
+                  if any(row[7] == "n/a" for row in money) else "")),
     ]
 
 
@@ -487,7 +496,7 @@ def _yearly_table(s: dict) -> dict:
         "rrrrrrrrrrr", rows,
         f"Net cost of every route ({st['money_basis']} money, year 0 = purchase); emissions "
         "well-to-wheel, location-based. Present value at "
-        f"{st['discount_rate']:.1%} a year.", foot)
+        f"{fm.percent(st['discount_rate'])} a year.", foot)
 
 
 def _depot_section(result, s: dict) -> dict:
@@ -514,24 +523,24 @@ def _depot_section(result, s: dict) -> dict:
     cap = plan["chargers"] * dep["charger_kW"]
     uri = depot_power_chart(
         frame, start_hour=start, ylabel="Depot power [kW]", peak_kW=plan["peak_kW"],
-        peak_label=f"Peak, {interval:g}-minute mean: {_n(plan['peak_kW'])} kW",
+        peak_label=f"Peak, {fm.number(interval, trim=True)}-minute mean: {_n(plan['peak_kW'])} kW",
         capacity_kW=cap,
         capacity_label=f"Chargers: {plan['chargers']} × {_n(dep['charger_kW'])} kW")
     a = dep["all"]
     return {
         "rule": RULE_TEXT.get(s["charging_rule"], s["charging_rule"]),
-        "sharing": SHARING_TEXT.format(interval=interval),
+        "sharing": SHARING_TEXT.format(interval=fm.number(interval, trim=True)),
         "facts": [
             f"Chargers: {plan['chargers']} × {_n(dep['charger_kW'])} kW",
-            f"Peak power: {_n(plan['peak_kW'])} kW ({interval:g}-minute mean from "
+            f"Peak power: {_n(plan['peak_kW'])} kW ({fm.number(interval, trim=True)}-minute mean from "
             f"{plan['peak_interval_start']})",
             f"Energy per operating day: {_n(plan['energy_kWh_per_day'])} kWh at the meter",
             f"Trucks charging: {len(plan['trucks'])}",
         ],
         "chart": {"title": "Depot power over the day with the plan",
-                  "caption": f"Mean power in each {plan['interval_min']:g}-minute interval, "
-                             "stacked by truck, over one operating day starting at "
-                             f"{start:02d}:00.", "uri": uri},
+                  "caption": f"Mean power in each {fm.number(plan['interval_min'], trim=True)}"
+                             "-minute interval, stacked by truck, over one operating day "
+                             f"starting at {fm.clock(start)}.", "uri": uri},
         "shares": shares,
         "all_candidates": (
             f"With every candidate charging (routes outside the plan included) the depot "
@@ -898,7 +907,8 @@ class _FleetBook:
             ("Charging rule", "text", RULES.get(s["charging_rule"], s["charging_rule"])),
             ("Chargers", "value", plan["chargers"]),
             ("Charger power [kW]", "value", dep["charger_kW"]),
-            (f"Peak, highest {dep['demand_interval_min']:g}-minute mean [kW]", "formula",
+            (f"Peak, highest {fm.number(dep['demand_interval_min'], trim=True)}-minute mean "
+             "[kW]", "formula",
              f"=MAX(C{first}:C{last})"),
             ("Energy per operating day [kWh]", "formula",
              f"=SUM(C{first}:C{last})*{step / 3600:g}"),

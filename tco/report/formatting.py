@@ -28,7 +28,7 @@ __all__ = [
     "DASH", "number", "money", "signed_money", "percent", "unit_price", "per_unit_label",
     "quantity", "Units", "input_value", "label_from_description", "field_label", "hours_text",
     "irr_text", "range_text", "client_line", "EXCEL_FORMATS", "kwh", "kw", "minutes",
-    "seconds", "count", "tonnes", "per_year", "years_list",
+    "seconds", "count", "tonnes", "per_year", "years_list", "compact_number", "clock",
 ]
 
 #: Shown for a missing or non-finite figure.
@@ -138,6 +138,29 @@ def per_year(text: str) -> str:
 def years_list(years) -> str:
     """Years of the study as a list: ``[4, 8]`` → ``'4, 8'``."""
     return ", ".join(str(int(y)) for y in years)
+
+
+def compact_number(x, _pos=None) -> str:
+    """A chart tick label with thousands shortened (``1500`` → ``'1.5k'``, ``2_500_000``
+    → ``'2.5M'``), a true minus sign, never e-notation (``0.00001`` → ``'0.00001'``).
+    The second argument lets matplotlib's ``FuncFormatter`` call it."""
+    if not _finite(x):
+        return ""
+    x = float(x)
+    ax = abs(x)
+    for factor, suffix in ((1e9, "G"), (1e6, "M"), (1e3, "k")):
+        if ax >= factor:
+            v = x / factor
+            return f"{number(v, 0 if v.is_integer() else 1)}{suffix}".replace("-", "\u2212")
+    if ax == 0:
+        return "0"
+    return number(x, trim=True).replace("-", "\u2212")
+
+
+def clock(hour) -> str:
+    """An hour of the day as a clock time: ``clock(22)`` → ``'22:00'``, ``clock(25)``
+    → ``'01:00'``."""
+    return f"{int(round(float(hour))) % 24:02d}:00"
 
 
 # --------------------------------------------------------------------------- units

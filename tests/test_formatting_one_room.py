@@ -1,0 +1,117 @@
+"""Formatting in one room: every number a person reads in the fleet report, telematics
+outputs, the command line's fleet / telematics / batch lines, the charts and the feasibility
+sentences goes through tco.report.formatting; conversion constants live in tco.units only.
+
+The scan reads the source with the standard library's ``ast`` module: a format spec that
+formats a number (``:,.0f``, ``:.1%``, ``:g``...) inside an f-string, ``"%.1f" % x``,
+``format(x, ".2f")``, ``"{:.1f}".format(x)`` or a ``round(...)`` written into an f-string is
+a local number format. Only the allow-list below may keep one, each with its reason.
+"""
+import ast
+import re
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+
+#: Modules whose human-facing text must use tco.report.formatting.
+SCANNED = ["tco/report/fleet_report.py", "tco/telematics.py", "tco/fleet_telematics.py",
+           "tco/cli.py", "tco/report/charts.py", "tco/report/findings.py",
+           "tco/report/console.py", "tco/energy.py"]
+
+#: (module, text on the line) → why it may format locally. Keep it short.
+ALLOWED = {
+    ("tco/telematics.py", 'f"V{k + 1:03d}"'): "demo vehicle identifiers, not a figure",
+    ("tco/telematics.py", 'f"part-{int(block[0]):03d}.parquet"'): "a file name",
+    ("tco/report/fleet_report.py", '{step / 3600:g}"'): "a constant inside a spreadsheet "
+    "formula (hours per sample), read by the spreadsheet, not by a person",
+}
+
+#: A format spec that formats a number: thousands separators, a precision, a float, percent
+#: or general type. Alignment and width alone (``<28``, ``>18``) and ``d`` of an identifier
+#: are not number formatting.
+NUMBER_SPEC = re.compile(r"[,_]|\.\d|[eEfFgG%n]$")
+PERCENT_OP = re.compile(r"%[-+ 0#]*\d*(\.\d+)?[dieEfFgG]")
+
+
+def _spec_text(node: ast.JoinedStr) -> str:
+    return "".join(v.value for v in node.values if isinstance(v, ast.Constant))
+
+
+def local_formats(source: str) -> list[tuple[int, str]]:
+    """(line, what) of every local number format in ``source``."""
+    tree = ast.parse(source)
+    found = []
+    for node in ast.walk(tree):
+        if isinstance(node, ast.FormattedValue):
+            if node.format_spec is not None and NUMBER_SPEC.search(_spec_text(node.format_spec)):
+                found.append((node.lineno, f"format spec :{_spec_text(node.format_spec)}"))
+            if isinstance(node.value, ast.Call) and getattr(node.value.func, "id", "") == "round":
+                found.append((node.lineno, "round() into text"))
+        elif (isinstance(node, ast.BinOp) and isinstance(node.op, ast.Mod)
+              and isinstance(node.left, ast.Constant) and isinstance(node.left.value, str)
+              and PERCENT_OP.search(node.left.value)):
+            found.append((node.lineno, "% formatting"))
+        elif isinstance(node, ast.Call):
+            f = node.func
+            if (getattr(f, "id", "") == "format" and len(node.args) == 2
+                    and isinstance(node.args[1], ast.Constant)
+                    and NUMBER_SPEC.search(str(node.args[1].value))):
+                found.append((node.lineno, "format()"))
+            if (isinstance(f, ast.Attribute) and f.attr == "format"
+                    and isinstance(f.value, ast.Constant) and isinstance(f.value.value, str)
+                    and re.search(r"\{[^{}]*:[^{}]*([,_]|\.\d|[eEfFgG%])[^{}]*\}",
+                                  f.value.value)):
+                found.append((node.lineno, "str.format with a number spec"))
+    return found
+
+
+@pytest.mark.parametrize("module", SCANNED)
+def test_no_local_number_formats(module):
+    text = (ROOT / module).read_text(encoding="utf-8")
+    lines = text.splitlines()
+    bad = []
+    for line, what in local_formats(text):
+        src = lines[line - 1]
+        if any(m == module and snippet in src for (m, snippet) in ALLOWED):
+            continue
+        bad.append(f"{module}:{line}: {what}: {src.strip()}")
+    assert not bad, "format these through tco.report.formatting:\n" + "\n".join(bad)
+
+
+@pytest.mark.parametrize("snippet, expected", [
+    ('x = f"{a:,.0f} EUR"', 1), ('x = f"{a:.1%}"', 1), ('x = f"{a:g} s"', 1),
+    ('x = "%.2f" % a', 1), ('x = format(a, ".3f")', 1), ('x = "{:,.1f}".format(a)', 1),
+    ('x = f"{round(a, 1)} t"', 1), ('x = f"{name:<28} {n:02d}"', 0), ('x = f"{a}"', 0),
+])
+def test_the_scan_finds_what_it_should(snippet, expected):
+    # the scan itself: each local number format is found, alignment alone is not
+    assert len(local_formats(snippet)) == expected
+
+
+def test_conversion_constants_only_in_units():
+    # 1 kWh = 3.6e6 J and 1 mile = 1609.344 m (NIST SP 811, B.8) are written once, in
+    # tco/units.py; everything else imports J_PER_KWH / M_PER_MILE
+    pattern = re.compile(r"3\.6e\+?0?6|3[_,]?600[_,]?000(?![\d.])|1609\.344|1\.609344")
+    bad = []
+    for path in sorted((ROOT / "tco").rglob("*.py")):
+        rel = path.relative_to(ROOT).as_posix()
+        if rel == "tco/units.py":
+            continue
+        for k, line in enumerate(path.read_text(encoding="utf-8").splitlines(), 1):
+            if pattern.search(line):
+                bad.append(f"{rel}:{k}: {line.strip()}")
+    assert not bad, "\n".join(bad)
+    units = (ROOT / "tco/units.py").read_text(encoding="utf-8")
+    assert "3.6e6" in units and "1609.344" in units
+
+
+def test_dead_code_is_gone():
+    import tco.emissions
+    import tco.resources
+    import tco.units
+
+    assert not hasattr(tco.units, "display") and not hasattr(tco.units, "DISPLAY_UNITS")
+    assert not hasattr(tco.resources, "data_dir")
+    assert not hasattr(tco.emissions, "TTW_LINES")
