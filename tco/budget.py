@@ -40,6 +40,14 @@ MAX_DRAWS = 1_000_000
 #: metrics): the demo's peak memory grew by about 340 bytes per draw from 1,000 to
 #: 1,000,000 draws; rounded up. [bytes]
 BYTES_PER_DRAW = 400
+#: The longest simulation time step accepted (``route.time_step``). [s]
+LONGEST_TIME_STEP = 10.0
+#: Most stops in one stretch: a stop takes at least two samples (standing, and moving
+#: again), so more than half the trip budget can never fit. [-]
+MAX_STOPS = MAX_TRIP_SAMPLES // 2
+#: Longest standing time of one leg or stop: the whole trip budget at the longest time
+#: step (about 347 days). [s]
+MAX_DWELL = MAX_TRIP_SAMPLES * LONGEST_TIME_STEP
 
 
 def size_text(n_bytes: float) -> str:
@@ -72,6 +80,21 @@ def check_samples(n: float, dt: float, what: str = "this trip",
             f"is {MAX_TRIP_SAMPLES:,} samples (about "
             f"{size_text(MAX_TRIP_SAMPLES * BYTES_PER_SAMPLE)}): use a longer time_step or a "
             "shorter trip", file=file, where=where)
+
+
+def least_samples_problem(n: float, what: str) -> str | None:
+    """Why ``n`` samples, the fewest an input needs at any time step, are too many, or None.
+
+    For a single field (a number of stops, a dwell) before the trip is put together:
+    ``1,000,000,000 stops would need at least 2e+09 samples, about 1.1 TiB; the limit is
+    3,000,000 samples (about 1.7 GiB)``.
+    """
+    if math.isfinite(n) and n <= MAX_TRIP_SAMPLES:
+        return None
+    need = size_text(n * BYTES_PER_SAMPLE) if math.isfinite(n) else "no end"
+    return (f"{what} would need at least {_count(n)} samples, about {need}; the limit is "
+            f"{MAX_TRIP_SAMPLES:,} samples (about "
+            f"{size_text(MAX_TRIP_SAMPLES * BYTES_PER_SAMPLE)})")
 
 
 def segments_duration(segments: Iterable, max_accel: float, max_decel: float) -> float:

@@ -256,6 +256,11 @@ def gwp_sets(table: pd.DataFrame) -> list[str]:
     return list(dict.fromkeys(table.loc[table.quantity == "gwp.ch4", "set"]))
 
 
+#: Largest value of an hourly intensity profile: above any grid in g/kWh (about four times
+#: lignite generation), and room for a shape written in another unit. [g/kWh or a shape]
+MAX_PROFILE_VALUE = 5_000.0
+
+
 def hourly_profile_24(values) -> np.ndarray:
     """Reduce an hourly intensity profile to 24 hour-of-day values.
 
@@ -285,6 +290,10 @@ def hourly_profile_24(values) -> np.ndarray:
     if bad.size:
         raise ValueError(f"hourly profile value {v[bad[0]]:g} at hour {bad[0]} must be a "
                          "finite number, zero or more")
+    big = np.flatnonzero(v > MAX_PROFILE_VALUE)
+    if big.size:
+        raise ValueError(f"hourly profile value {v[big[0]]:g} at hour {big[0]} is above "
+                         f"{MAX_PROFILE_VALUE:,.0f} (g/kWh, or a shape in any unit)")
     if not np.any(v > 0):
         raise ValueError("hourly profile is all zero")
     return v.reshape(-1, 24).mean(axis=0)

@@ -69,7 +69,7 @@ from tco.scenario.base import TEXT_LIMIT
 from tco.scenario.files import input_file
 from tco.text import clean_text
 from tco.scenario import LoadedScenario, parse_scenario
-from tco.units import UnitError, to_si
+from tco.units import UnitError, from_si, to_si
 
 from tco.units import J_PER_KWH  # noqa: E402  [J/kWh]
 
@@ -82,6 +82,32 @@ COLUMNS: dict[str, tuple[bool, str | None]] = {
     "resale_value": (False, None),
 }
 _YEAR_S = 365.25 * 86400.0  # the unit registry's (Julian) year [s]
+#: Hard limits of the numeric columns, in each column's default unit (low, high, low
+#: included?), and why there is no usual-range warning per cell: the row's scenario fields
+#: (base.toml and the cycle) carry those. A value outside is refused with one line naming
+#: the row and column. ``tests/test_field_bounds.py`` checks each limit is enforced.
+COLUMN_LIMITS: dict[str, tuple[float, float, bool]] = {
+    # a truck driving 24 h a day at 150 km/h every day of a leap year covers 1.3e6 km
+    "annual_distance": (0.0, 1_500_000.0, False),  # [km]
+    "payload": (0.0, 500.0, True),  # [t], as the scenario's leg payload
+    "days_per_year": (0.0, 366.0, False),  # [1/yr]
+    "age": (0.0, 50.0, True),  # [yr], as the plan's service life
+    "replacement_year": (1990.0, 2100.0, True),  # calendar year, as study.start_year
+    "resale_value": (0.0, 1e13, True),  # [currency], the money ceiling
+}
+COLUMN_USUAL = ("none: a fleet cell is checked against its hard limits; the usual ranges "
+                "are those of the scenario fields it replaces")
+
+
+def _limit_problem(name: str, v: float) -> str | None:
+    low, high, low_in = COLUMN_LIMITS[name]
+    unit = COLUMNS[name][1] or ""
+    u = f" {unit}" if unit else ""
+    if not math.isfinite(v) or v > high:
+        return f"must be at most {high:,.0f}{u}"
+    if v < low or (v == low and not low_in):
+        return f"must be {'at least' if low_in else 'more than'} {low:,.0f}{u}"
+    return None
 _HEADER = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_ ]*?)\s*(?:\[(.*)\])?\s*$")
 _CLOCK = re.compile(r"^\s*(\d{1,2}):(\d{2})(?::00)?\s*$")  # a workbook time adds ":00"
 
@@ -267,11 +293,10 @@ def read_fleet(path: str | Path) -> list[FleetRow]:
                     to_si(text, cols[name][1] or "")
             except (UnitError, ValueError) as exc:
                 raise InputError(str(exc), file=path, where=f"{where}, {name}") from None
-            if not math.isfinite(v) or v < 0 or (v == 0 and name != "payload"):
-                raise InputError(f"must be {'≥ 0' if name == 'payload' else '> 0'}",
-                                 file=path, where=f"{where}, {name}")
-            if name == "days_per_year" and v > 366:
-                raise InputError("must be at most 366", file=path, where=f"{where}, {name}")
+            default = COLUMNS[name][1]
+            problem = _limit_problem(name, float(from_si(v, default)) if default else v)
+            if problem:
+                raise InputError(problem, file=path, where=f"{where}, {name}")
             extra[name] = v
         for name in ("arrive", "depart"):
             text = cell(name)
@@ -284,21 +309,28 @@ def read_fleet(path: str | Path) -> list[FleetRow]:
                     to_si(text, cols["age"][1])
             except (UnitError, ValueError) as exc:
                 raise InputError(str(exc), file=path, where=f"{where}, age") from None
-            if not math.isfinite(v) or v < 0:
-                raise InputError("must be ≥ 0", file=path, where=f"{where}, age")
+            problem = _limit_problem("age", v / _YEAR_S)
+            if problem:
+                raise InputError(problem, file=path, where=f"{where}, age")
             extra["age"] = v / _YEAR_S
         text = cell("replacement_year")
         if text:
             if not re.fullmatch(r"\d{4}(\.0)?", text):
                 raise InputError(f"'{text}' is not a calendar year", file=path,
                                  where=f"{where}, replacement_year")
+            problem = _limit_problem("replacement_year", float(text))
+            if problem:
+                raise InputError(problem, file=path, where=f"{where}, replacement_year")
             extra["replacement_year"] = int(float(text))
         text = cell("resale_value")
         if text:
             v = float(text) if _is_number(text) else math.nan
-            if not math.isfinite(v) or v < 0:
-                raise InputError(f"'{text}' is not an amount ≥ 0", file=path,
+            if math.isnan(v):
+                raise InputError(f"'{text}' is not an amount", file=path,
                                  where=f"{where}, resale_value")
+            problem = _limit_problem("resale_value", v)
+            if problem:
+                raise InputError(problem, file=path, where=f"{where}, resale_value")
             extra["resale_value"] = v
         out.append(FleetRow(row=line, vehicle=vid, cycle=cyc,  # as the user gave it
                             current=vals["current"], candidate=vals["candidate"],

@@ -561,24 +561,48 @@ def _shadow_prices(pb, model: _Model, xsol, extra, gap, time_limit, objective) -
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator  # noqa: E402
 
 from tco.errors import InputError  # noqa: E402
-from tco.scenario.base import ASSUMPTION, Qty, mfield, qfield  # noqa: E402
+from tco.scenario.base import (  # noqa: E402
+    ASSUMPTION,
+    MONEY_CEILING,
+    Qty,
+    Section,
+    mfield,
+    qfield,
+)
 
 _YEAR_S = 365.25 * 86400.0  # the unit registry's year (Julian). [s]
 
 
-class TargetSettings(BaseModel):
+#: Calendar years accepted in the plan (as the scenario's start_year). [yr]
+YEARS = (1990, 2100)
+_YEAR = dict(bounds=YEARS, usual="none: any calendar year of the plan")
+
+
+def _year(v):
+    if v is not None and not YEARS[0] <= v <= YEARS[1]:
+        raise ValueError(f"must be a calendar year between {YEARS[0]} and {YEARS[1]}")
+    return v
+
+
+class TargetSettings(Section):
     """An emissions target: Scope 1 + 2 down by ``reduction`` by ``year`` against
     ``base_year``."""
 
     model_config = ConfigDict(extra="forbid", validate_default=True)
     reduction: Qty("", ge=0, le=1) = qfield(..., "", "Cut of Scope 1 + 2 emissions against "
-                                            "the base year, share")
-    year: int = mfield(..., "", "Calendar year by which the cut is reached (and kept)")
+                                            "the base year, share",
+                                            usual="none: any share is a possible target")
+    year: int = mfield(..., "", "Calendar year by which the cut is reached (and kept)",
+                       **_YEAR)
     base_year: int | None = mfield(None, "", "Calendar year of the base emissions "
-                                   "(default: the first year of service)")
-    base_emissions: Qty("t", ge=0) | None = qfield(
+                                   "(default: the first year of service)", **_YEAR)
+    base_emissions: Qty("t", ge=0, le=1e9) | None = qfield(
         None, "t", "Base-year Scope 1 + 2 emissions of the fleet (default: the fleet as it "
-        "is, in the base year)")
+        "is, in the base year; at most a billion tonnes)",
+        usual=(None, 1e7), usual_source="from memory: a heavy truck emits about 50–150 t "
+        "CO2e a year, so 10 million tonnes is a fleet of about 100,000 trucks")
+
+    _years = field_validator("year", "base_year")(classmethod(lambda cls, v: _year(v)))
     basis: str = mfield("location", "", "Scope 2 basis: location or market", ASSUMPTION)
 
     @field_validator("basis")
@@ -589,28 +613,45 @@ class TargetSettings(BaseModel):
         return v
 
 
-class PlanSettings(BaseModel):
+class PlanSettings(Section):
     """Fleet-wide inputs of the transition plan (``plan.toml``, table ``[plan]``); all
     optional. Money in the base scenario's currency and money basis."""
 
     model_config = ConfigDict(extra="forbid", validate_default=True)
-    service_life: Qty("yr", gt=0) = qfield(
+    service_life: Qty("yr", gt=0, le=50) = qfield(
         10, "yr", "Age at which a diesel truck is replaced when its replacement year is not "
-        "given", ASSUMPTION)
+        "given", ASSUMPTION, usual=(5, 20), usual_source="common practice: heavy trucks "
+        "are kept about 5 to 15 years by a first owner, longer by later ones")
     earliest_year: int | None = mfield(None, "", "First calendar year a truck may be "
-                                       "bought (default: the first year of service)")
+                                       "bought (default: the first year of service)", **_YEAR)
     capital_budget: float | dict[str, float] | None = mfield(
         None, "currency", "Capital budget: one amount for every year, or a table by "
-        "calendar year (years left out: no limit)")
-    grid_capacity: Qty("kW", ge=0) | None = qfield(
-        None, "kW", "Depot grid capacity available for charging (default: no limit)")
-    grid_upgrade_capacity: Qty("kW", ge=0) = qfield(0, "kW", "Capacity an upgrade adds")
-    grid_upgrade_cost: float = mfield(0.0, "currency", "Cost of the upgrade", ge=0)
+        "calendar year (years left out: no limit)", bounds=(0, MONEY_CEILING),
+        usual="none: scales with the fleet")
+    grid_capacity: Qty("kW", ge=0, le=1e6) | None = qfield(
+        None, "kW", "Depot grid capacity available for charging (default: no limit; at most "
+        "1 GW)", usual=(None, 50_000), usual_source="common practice: a depot on a "
+        "medium-voltage connection draws up to a few tens of MW")
+    grid_upgrade_capacity: Qty("kW", ge=0, le=1e6) = qfield(
+        0, "kW", "Capacity an upgrade adds (at most 1 GW)", usual=(None, 50_000),
+        usual_source="common practice: a depot on a medium-voltage connection draws up to "
+        "a few tens of MW")
+    grid_upgrade_cost: float = mfield(0.0, "currency", "Cost of the upgrade", ge=0,
+                                      usual=(None, 20e6), usual_source="from memory: a "
+                                      "new medium-voltage depot connection costs from about "
+                                      "0.1 to a few million")
     grid_upgrade_lead_time: int = mfield(0, "yr", "Years from ordering the upgrade to using "
-                                         "it", ge=0, le=50)
+                                         "it", ge=0, le=50, usual=(0, 10),
+                                         usual_source="from memory: grid connections take "
+                                         "months to several years")
     carbon_price: float = mfield(0.0, "currency/t", "Internal carbon price on Scope 1 + 2 "
-                                 "(basis of the target, location by default)", ge=0)
+                                 "(basis of the target, location by default)", ge=0,
+                                 usual=(None, 1000), usual_source="from memory: carbon "
+                                 "prices and internal prices are mostly below 200 per tonne; "
+                                 "published social costs of carbon reach several hundred")
     target: TargetSettings | None = Field(None, description="Emissions target")
+
+    _years = field_validator("earliest_year")(classmethod(lambda cls, v: _year(v)))
 
     @field_validator("capital_budget")
     @classmethod
@@ -619,10 +660,11 @@ class PlanSettings(BaseModel):
             for k, amount in v.items():
                 if not str(k).strip().isdigit():
                     raise ValueError(f"budget key '{k}' is not a calendar year")
-                if not math.isfinite(float(amount)) or amount < 0:
-                    raise ValueError(f"budget of {k} must be a number ≥ 0")
-        elif v is not None and (not math.isfinite(v) or v < 0):
-            raise ValueError("must be a number ≥ 0")
+                if not math.isfinite(float(amount)) or not 0 <= amount <= MONEY_CEILING:
+                    raise ValueError(f"budget of {k} must be a number from 0 to "
+                                     f"{MONEY_CEILING:.0e}")
+        elif v is not None and (not math.isfinite(v) or not 0 <= v <= MONEY_CEILING):
+            raise ValueError(f"must be a number from 0 to {MONEY_CEILING:.0e}")
         return v
 
 

@@ -105,6 +105,7 @@ from tco.scenario.uncertainty import (
     check_distribution,
     correlation_problem,
     pearson_matrix,
+    unmatched_correlation,
 )
 from tco.units import UnitError, from_si, to_si
 
@@ -1124,6 +1125,11 @@ def resolve_distributions(case: Case, settings: UncertaintySettings
                              distribution(d["kind"], **conv), where))
     pearson = None
     if settings.correlations and settings.distributions:
+        problem = unmatched_correlation([d.input for d in settings.distributions],
+                                        settings.correlations)
+        if problem:
+            k, _, rest = problem.partition("]: ")
+            raise InputError(rest, where=f"uncertainty.correlations{k}]")
         pearson = pearson_matrix([d.input for d in settings.distributions],
                                  settings.correlations)
         problem = correlation_problem(pearson)

@@ -217,9 +217,15 @@ def test_gpx_points_off_the_globe_or_too_fast(tmp_path, capsys, out, points, fra
 
 # --------------------------------------------------------------------------- 3. budgets
 @pytest.mark.parametrize("field, value, fragment", [
-    ("route.legs[0].segments[0].stops", 1e9, "less than or equal to 10000"),
+    # two samples a stop at least: 2e9 samples x 600 bytes = 1.2e12 bytes = 1.1 TiB
+    ("route.legs[0].segments[0].stops", 1e9, "1,000,000,000 stops would need at least "
+     "2e+09 samples, about 1.1 TiB; the limit is 3,000,000 samples"),
     ("route.time_step", "0.0001 s", "samples at 0.0001 s"),
-    ("route.legs[0].dwell_end", "1e9 min", "samples at 1 s"),
+    # 6e10 s at the longest step, 10 s: 6e9 samples x 600 bytes = 3.6e12 bytes = 3.3 TiB
+    ("route.legs[0].dwell_end", "1e9 min", "would need at least 6e+09 samples, about 3.3 TiB; "
+     "the limit is 3,000,000 samples"),
+    # below the stop limit, but the leg's time is over the budget at the demo's 1 s step
+    ("route.legs[0].segments[0].stops", 1_000_000, "samples at 1 s"),
     ("uncertainty.draws", 10**9, "the limit is 1,000,000 draws"),
 ])
 def test_runs_too_big_are_refused_before_building(tmp_path, capsys, out, field, value,
@@ -498,11 +504,33 @@ def test_many_stops_close_together_are_driven(tmp_path, capsys):
     assert legs[0]["speed"].max() > 0
 
 
-def test_a_misspelt_distribution_input_is_named(tmp_path, capsys, out):
+def test_a_misspelt_distribution_input_is_named_at_the_distribution(tmp_path, capsys, out):
+    """The demo correlates prices.diesel; a misspelt distribution input used to be reported
+    at the correlation, naming the correct input."""
     data = demo()
     data["uncertainty"]["distributions"][0]["input"] = "prices.diesl"
     path = write(tmp_path, data)
-    assert_refused(["check", path], capsys, out, "prices.diesl")
+    line = assert_refused(["check", path], capsys, out,
+                          "uncertainty.distributions[0].input", "'prices.diesl'",
+                          "did you mean 'prices.diesel'")
+    assert "correlations" not in line
+    assert_refused(["run", path, "--out", out, "--json-only"], capsys, out,
+                   "uncertainty.distributions[0].input")
+
+
+def test_a_misspelt_correlation_input_is_named_at_the_correlation(tmp_path, capsys, out):
+    data = demo()
+    data["uncertainty"]["correlations"][0]["inputs"][0] = "prices.diesle"
+    path = write(tmp_path, data)
+    line = assert_refused(["check", path], capsys, out, "uncertainty.correlations[0]",
+                          "'prices.diesle' has no distribution",
+                          "did you mean 'prices.diesel', the input of distributions[0]")
+    assert "distributions[0].input" not in line
+    # far from every distribution input: refused by the schema, before any model runs
+    data["uncertainty"]["correlations"][0]["inputs"][0] = "finance.inflation"
+    with pytest.raises(InputError, match=r"correlations.*\[0\]: 'finance.inflation' has no "
+                       "distribution"):
+        parse_scenario(data)
 
 
 def test_paths_in_errors_are_as_the_user_gave_them(tmp_path, capsys, monkeypatch, out):

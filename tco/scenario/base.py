@@ -10,6 +10,15 @@ Bounds live beside each field, in its declared unit:
   ``mfield`` for counts: a value outside is refused with one line;
 * **usual range** — ``qfield(..., usual=(low, high))`` (either may be ``None``): a value
   outside is accepted and named in the report's warnings (:func:`unusual_values`);
+* **hard bounds a custom validator enforces** (a rate's band, a calendar year, a budget) —
+  declared with ``qfield(..., bounds=(low, high))`` so that they are documented beside the
+  field like the others (``tests/test_field_bounds.py`` checks that each declared bound is
+  enforced);
+* **usual range sources** — ``usual_source=`` says where a usual range comes from (a
+  published figure, "common practice" or "from memory"); a numeric field with no sensible
+  usual range says why with ``usual="none: …"``. Money usual ranges are written for
+  currencies worth roughly one US dollar (:data:`DOLLAR_LIKE`) and are checked only in
+  those; a currency of another size is held to the hard bounds alone;
 * **rules every field gets** (:meth:`Section._plausible`, so a new field needs nothing
   extra): numbers are finite; money (unit ``currency…``) and prices (unit ``1/…``) are at
   most :data:`MONEY_CEILING` in the scenario's currency; whole numbers are at most
@@ -19,6 +28,7 @@ Bounds live beside each field, in its declared unit:
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 from typing import Annotated, Any
 
 from pydantic import (
@@ -48,6 +58,20 @@ INT_CEILING = 2**53
 #: The longest text accepted in a one-line field (names, labels, choices) unless the
 #: field sets ``text_limit``. [characters]
 TEXT_LIMIT = 200
+#: Currencies in which the money usual ranges (written in US dollars or euros, which are
+#: within a factor of about two of these) are checked. [ISO 4217 codes]
+DOLLAR_LIKE = frozenset({"USD", "EUR", "GBP", "CHF", "CAD", "AUD", "NZD", "SGD"})
+
+
+@dataclass(frozen=True)
+class Bounds:
+    """The hard limits of a quantity field in its declared unit, kept in the field's type
+    (:func:`Qty`) so that they can be listed (:func:`field_limits`)."""
+
+    ge: float | None = None
+    gt: float | None = None
+    le: float | None = None
+    lt: float | None = None
 
 def _converter(unit: str):
     def convert(value: Any) -> float:
@@ -97,11 +121,14 @@ def Qty(unit: str, *, ge=None, gt=None, le=None, lt=None):
         float,
         BeforeValidator(conv),
         AfterValidator(_bounds(si(ge), si(gt), si(le), si(lt), unit)),
+        Bounds(ge, gt, le, lt),
     ]
 
 
 def qfield(default: Any, unit: str, description: str, source: str | None = None, *,
-           usual: tuple[float | None, float | None] | None = None,
+           usual: tuple[float | None, float | None] | str | None = None,
+           usual_source: str | None = None,
+           bounds: tuple[float, float] | None = None,
            text_limit: int | None = None, multiline: bool = False, **kw):
     """A documented field: ``description [unit]``, its default and the default's source.
 
@@ -109,17 +136,29 @@ def qfield(default: Any, unit: str, description: str, source: str | None = None,
 
     Parameters
     ----------
-    usual : (low, high), optional
+    usual : (low, high) or str, optional
         The usual range in ``unit`` (either end may be None); a value outside is accepted
-        and reported as a warning (:func:`unusual_values`).
+        and reported as a warning (:func:`unusual_values`). A string ``"none: why"`` says
+        why the field has none.
+    usual_source : str, optional
+        Where the usual range comes from ("common practice", "from memory", a publication).
+    bounds : (low, high), optional
+        Hard limits in ``unit`` that a validator of the field enforces (a rate's band, a
+        calendar year, a budget): written here so that they are documented beside the field.
     text_limit : int, optional
         Longest accepted text [characters] (default :data:`TEXT_LIMIT`).
     multiline : bool
         Text may hold line breaks.
     """
     extra: dict[str, Any] = {"unit": unit, "source": source or ASSUMPTION}
-    if usual is not None:
+    if isinstance(usual, str):
+        extra["usual"] = usual
+    elif usual is not None:
         extra["usual"] = list(usual)
+    if usual_source is not None:
+        extra["usual_source"] = usual_source
+    if bounds is not None:
+        extra["bounds"] = list(bounds)
     if text_limit is not None:
         extra["text_limit"] = text_limit
     if multiline:
@@ -198,47 +237,128 @@ class Section(BaseModel):
         return _check_value(value, extra)
 
 
+def _unit_text(unit: str) -> str:
+    """A field's unit after a number: ' km', ' per kWh' for a price, '' for money."""
+    if not unit or unit.startswith("currency"):
+        return ""
+    if unit.startswith("1/"):
+        return f" per {unit[2:]}"
+    return f" {unit}"
+
+
 def _show_usual(low, high, unit: str) -> str:
-    u = f" {unit}" if unit and not unit.startswith("currency") else ""
+    u = _unit_text(unit)
     if low is not None and high is not None:
         return f"{low:g} to {high:g}{u}"
     return f"at least {low:g}{u}" if low is not None else f"at most {high:g}{u}"
 
 
-def unusual_values(model: BaseModel, prefix: str = "") -> list[str]:
+def unusual_values(model: BaseModel, prefix: str = "", currency: str | None = None
+                   ) -> list[str]:
     """Warnings for values outside their field's usual range (``qfield(usual=...)``).
 
     Such values are possible, so they are not refused; the report lists them so that a
     slip (a rate written as 8 instead of 0.08, a price in the wrong unit) is seen.
+
+    Parameters
+    ----------
+    currency : str, optional
+        The ISO 4217 code money is written in; default: the model's ``study.currency``, if
+        any. Money and price fields are checked only in :data:`DOLLAR_LIKE` currencies.
 
     Returns
     -------
     list of str
         One plain sentence per unusual value, naming the field.
     """
+    if currency is None:
+        currency = getattr(getattr(model, "study", None), "currency", None)
     out: list[str] = []
     for name, info in type(model).model_fields.items():
         value = getattr(model, name)
         path = f"{prefix}{name}"
         extra = info.json_schema_extra if isinstance(info.json_schema_extra, dict) else {}
         if isinstance(value, BaseModel):
-            out += unusual_values(value, path + ".")
+            out += unusual_values(value, path + ".", currency)
             continue
         if isinstance(value, list) and value and all(isinstance(v, BaseModel) for v in value):
             for i, item in enumerate(value):
-                out += unusual_values(item, f"{path}[{i}].")
+                out += unusual_values(item, f"{path}[{i}].", currency)
             continue
         usual = extra.get("usual")
-        if not usual or isinstance(value, bool) or not isinstance(value, (int, float)):
-            continue
+        if not usual or isinstance(usual, str) or name not in model.model_fields_set:
+            continue  # only values the user gave: defaults of unused options may be 0
         unit = extra.get("unit", "") or ""
-        shown = _plain_value(float(value), unit)
-        low, high = usual
-        if (low is not None and shown < low) or (high is not None and shown > high):
-            u = f" {unit}" if unit and not unit.startswith("currency") else ""
-            out.append(f"{path} = {shown:g}{u} is outside the usual range "
-                       f"({_show_usual(low, high, unit)}); check that it is meant")
+        if _is_money(unit) and currency not in DOLLAR_LIKE:
+            continue
+        if not _is_quantity(info):
+            unit = "currency" if _is_money(unit) else ""  # held as written: no conversion
+        items = value if isinstance(value, list) else \
+            list(value.values()) if isinstance(value, dict) else [value]
+        for k, item in enumerate(items):
+            if isinstance(item, bool) or not isinstance(item, (int, float)):
+                continue
+            shown = _plain_value(float(item), unit)
+            low, high = usual
+            if (low is not None and shown < low) or (high is not None and shown > high):
+                where = path if items is not value else f"{path}[{k}]"
+                if isinstance(value, dict):
+                    where = f"{path}[{list(value)[k]}]"
+                shown_unit = extra.get("unit", "") or ""
+                out.append(f"{where} = {shown:g}{_unit_text(shown_unit)} is outside the "
+                           f"usual range ({_show_usual(low, high, shown_unit)}); check that "
+                           "it is meant")
+                break
     return out
+
+
+def _is_quantity(info) -> bool:
+    """The field is read with :func:`Qty` (held in SI), not as written."""
+    return any(isinstance(m, Bounds) for m in info.metadata) or bool(_limits_in(info.annotation))
+
+
+def _limits_in(annotation: Any) -> list[Bounds]:
+    """Every :class:`Bounds` marker in a type, through Optional, list and dict."""
+    import typing
+
+    found: list[Bounds] = []
+    for meta in getattr(annotation, "__metadata__", ()):
+        if isinstance(meta, Bounds):
+            found.append(meta)
+    for arg in typing.get_args(annotation):
+        if arg is not annotation:
+            found += _limits_in(arg)
+    return found
+
+
+def field_limits(info) -> tuple[float | None, float | None]:
+    """The hard (low, high) limits of a field in its declared unit, or None where open.
+
+    Read from the field's :func:`Qty` type, its ``ge``/``gt``/``le``/``lt``, its declared
+    ``bounds`` and, for money and prices, :data:`MONEY_CEILING` (the rule every field gets).
+    """
+    import annotated_types as at
+
+    lows: list[float] = []
+    highs: list[float] = []
+    for b in _limits_in(info.annotation):
+        lows += [v for v in (b.ge, b.gt) if v is not None]
+        highs += [v for v in (b.le, b.lt) if v is not None]
+    for m in info.metadata:
+        if isinstance(m, Bounds):
+            lows += [v for v in (m.ge, m.gt) if v is not None]
+            highs += [v for v in (m.le, m.lt) if v is not None]
+        if isinstance(m, (at.Ge, at.Gt)):
+            lows.append(getattr(m, "ge", getattr(m, "gt", None)))
+        if isinstance(m, (at.Le, at.Lt)):
+            highs.append(getattr(m, "le", getattr(m, "lt", None)))
+    extra = info.json_schema_extra if isinstance(info.json_schema_extra, dict) else {}
+    if "bounds" in extra:
+        lows.append(extra["bounds"][0])
+        highs.append(extra["bounds"][1])
+    if _is_money(extra.get("unit", "") or ""):
+        highs.append(MONEY_CEILING)
+    return (max(lows) if lows else None, min(highs) if highs else None)
 
 
 def field_sources(model: BaseModel, prefix: str = "") -> list[dict]:

@@ -24,7 +24,7 @@ from typing import Annotated, Literal
 
 from pydantic import AfterValidator, Field, field_validator, model_validator
 
-from tco.scenario.base import ASSUMPTION, Qty, Section, mfield, qfield
+from tco.scenario.base import ASSUMPTION, Bounds, Qty, Section, mfield, qfield
 
 __all__ = [
     "AfterTax", "BatteryReplacement", "Depot", "Finance", "Financing", "PriceEscalation",
@@ -84,16 +84,19 @@ def _rate_check(value: float) -> float:
 
 #: A yearly escalation rate: a fraction per year (``0.03`` or ``"3 %"``), above -100 % and
 #: at most :data:`RATE_CEILING`. [-]
-Escalation = Annotated[Qty(""), AfterValidator(_escalation_check)]
+Escalation = Annotated[Qty(""), AfterValidator(_escalation_check),
+                       Bounds(gt=-1.0, le=RATE_CEILING)]
 #: A discount or inflation rate per year, above -100 % and at most :data:`RATE_CEILING`. [-]
-Rate = Annotated[Qty(""), AfterValidator(_rate_check)]
+Rate = Annotated[Qty(""), AfterValidator(_rate_check), Bounds(gt=-1.0, le=RATE_CEILING)]
 #: A share between 0 and 1 (``0.2`` or ``"20 %"``). [-]
 Share = Qty("", ge=0, le=1)
 
 
 def _esc(description: str, source: str = NO_ESCALATION):
     return qfield(0.0, "", f"{description}, change per year (fraction, '3 %' accepted; usual "
-                  "-15 % to +15 %)", source, usual=(-0.15, 0.15))
+                  "-15 % to +15 %)", source, usual=(-0.15, 0.15),
+                  usual_source="common practice: prices seldom move more than 15 % a year "
+                  "on average over a truck's life")
 
 
 # --------------------------------------------------------------------------- finance
@@ -103,16 +106,20 @@ class AfterTax(Section):
     enabled: bool = mfield(False, "", "Show the after-tax view (off: pre-tax cash flows)",
                            ASSUMPTION)
     tax_rate: Qty("", ge=0, le=1) = qfield(
-        0.25, "", "Income tax rate on the business's profit", ASSUMPTION
-    )
+        0.25, "", "Income tax rate on the business's profit", ASSUMPTION,
+        usual=(0.05, 0.5),
+        usual_source="from memory: corporate income tax rates mostly 10–35 %, with local taxes up "
+            "to about 40–50 %")
     depreciation: Literal["straight_line", "declining_balance", "macrs"] = mfield(
         "straight_line", "", "Tax depreciation of the truck: straight_line, declining_balance "
         "(switching to straight line) or macrs (US MACRS GDS, half-year, IRS Pub. 946 "
         "Table A-1)", ASSUMPTION
     )
     depreciation_years: int = mfield(
-        5, "yr", "Tax life for straight_line and declining_balance", ASSUMPTION, ge=1, le=40
-    )
+        5, "yr", "Tax life for straight_line and declining_balance", ASSUMPTION, ge=1, le=40,
+        usual=(3, 12),
+        usual_source="IRS Publication 946, Table B-1: over-the-road tractors 3 years; common "
+            "practice 5–8 years elsewhere")
     declining_balance_percent: Literal[150, 200] = mfield(
         200, "%", "Declining-balance rate as a percent of the straight-line rate",
         "common practice: 200 % (double declining balance) or 150 %"
@@ -139,19 +146,20 @@ class Finance(Section):
     analysis_years: int = mfield(
         10, "yr", "Analysis period (year 0 = purchase, years 1..N of operation)", ASSUMPTION,
         ge=1, le=50,
-    )
+        usual=(3, 20),
+        usual_source="common practice: 5–12 years, a truck's time with its first owner")
     discount_rate: Rate = qfield(
         0.08, "", "Discount rate per year (nominal or real, as money_basis says; usual 0 to "
-        "25 %)", ASSUMPTION, usual=(0.0, 0.25)
-    )
+        "25 %)", ASSUMPTION, usual=(0.0, 0.25),
+        usual_source="common practice: a firm's cost of capital, mostly 5–15 % nominal")
     money_basis: Literal["nominal", "real"] = mfield(
         "nominal", "", "nominal: money of each year; real: money of year 0", ASSUMPTION
     )
     inflation: Rate = qfield(
         0.02, "", "General inflation per year: turns real rates nominal when money_basis is "
         "real; in nominal money, the escalation of every price whose escalation is left unset "
-        "(usual -2 % to 20 %)", ASSUMPTION, usual=(-0.02, 0.20)
-    )
+        "(usual -2 % to 20 %)", ASSUMPTION, usual=(-0.02, 0.20),
+        usual_source="from memory: 0–10 % a year in most economies in most years")
     after_tax: AfterTax = Field(default_factory=AfterTax, description="After-tax view")
     baseline: str | None = mfield(
         None, "", "Name of the reference truck the others are compared with (default: the "
@@ -159,8 +167,10 @@ class Finance(Section):
     )
     driver_cost_per_hour: Qty("1/h", ge=0) = qfield(
         0.0, "1/h", "Driver cost per hour, wages and overheads (currency per hour), charged "
-        "for time lost at en-route chargers and for extra trips", ASSUMPTION
-    )
+        "for time lost at en-route chargers and for extra trips", ASSUMPTION,
+        usual=(10, 100),
+        usual_source="from memory: heavy-truck drivers' wages with overheads about 20–60 USD or "
+            "EUR an hour")
     driver_cost_escalation: Escalation = _esc("Driver cost")
     valuation: Literal["unlevered", "as_financed"] = mfield(
         "unlevered", "", "Flows behind the headline present value, levelized cost, payback and "
@@ -171,8 +181,9 @@ class Finance(Section):
     cost_of_debt: Rate | None = qfield(
         None, "", "Pre-tax borrowing rate per year (nominal) at which a loan or lease is "
         "judged against paying cash; empty: each truck's own loan rate, or the discount rate "
-        "for a lease", ASSUMPTION
-    )
+        "for a lease", ASSUMPTION,
+        usual=(0, 0.25),
+        usual_source="common practice: truck loans about 3–12 % a year")
     driver_wages: bool = mfield(
         False, "", "Count the driver's wages as a cost line: driver_cost_per_hour for the "
         "duty time of every trip (driving, loading and unloading; extra trips included) on "
@@ -190,10 +201,14 @@ class TouBand(Section):
                        text_limit=80)
     hours: list[int] = mfield(
         ..., "h", "Hours of the day in the band: 0 is the hour from 00:00 to 01:00, 23 the hour "
-        "from 23:00 to 24:00", min_length=1
+        "from 23:00 to 24:00", min_length=1, bounds=(0, 23),
+        usual="none: any hour of the day"
     )
     price: Qty("1/kWh", ge=0) = qfield(..., "1/kWh", "Energy price in the band (currency per "
-                                       "kWh)")
+                                       "kWh)",
+        usual=(0.01, 0.8),
+        usual_source="from memory: commercial electricity about 0.05–0.40 USD or EUR per kWh, up "
+            "to about 0.6 at peak")
 
     @field_validator("hours")
     @classmethod
@@ -211,18 +226,24 @@ class Tariff(Section):
 
     energy_price: Qty("1/kWh", ge=0) | None = qfield(
         None, "1/kWh", "Energy price for the hours not in any band (currency per kWh); needed "
-        "when a truck charges at the depot in such hours", NO_DEFAULT
-    )
+        "when a truck charges at the depot in such hours", NO_DEFAULT,
+        usual=(0.01, 0.8),
+        usual_source="from memory: commercial electricity about 0.05–0.40 USD or EUR per kWh, up "
+            "to about 0.6 at peak")
     bands: list[TouBand] = Field(
         default_factory=list, description="Time-of-use bands; hours outside every band pay "
         "energy_price"
     )
     demand_charge: Qty("1/kW", ge=0) = qfield(
         0.0, "1/kW", "Demand charge per kW of the depot's monthly peak, per month (currency "
-        "per kW per month)", ASSUMPTION
-    )
+        "per kW per month)", ASSUMPTION,
+        usual=(0, 60),
+        usual_source="from memory: demand charges mostly 5–30 USD per kW and month, a few above 50")
     fixed_fee: float = mfield(0.0, "currency/month", "Fixed connection fee of the depot meter",
-                              ASSUMPTION, ge=0)
+                              ASSUMPTION, ge=0,
+        usual=(0, 10_000),
+        usual_source="from memory: tens to a few thousand USD or EUR a month for a commercial "
+            "meter")
 
     @model_validator(mode="after")
     def _bands(self):
@@ -253,17 +274,21 @@ class Prices(Section):
 
     diesel: Qty("1/L", ge=0) | None = qfield(
         None, "1/L", "Diesel price at the pump (currency per litre; '4.10 / gal' accepted); "
-        "needed when a truck burns diesel", NO_DEFAULT
-    )
+        "needed when a truck burns diesel", NO_DEFAULT,
+        usual=(0.5, 3.0),
+        usual_source="from memory: about 0.9–1.2 USD per litre (US) and 1.4–2.0 EUR per litre "
+            "(Europe) in the 2020s")
     diesel_exhaust_fluid: Qty("1/L", ge=0) | None = qfield(
         None, "1/L", "Diesel exhaust fluid price (currency per litre); needed when a truck "
-        "uses it", NO_DEFAULT
-    )
+        "uses it", NO_DEFAULT,
+        usual=(0.2, 2.0),
+        usual_source="from memory: 0.3–1.0 USD or EUR per litre in bulk or at the pump")
     electricity: Tariff = Field(default_factory=Tariff, description="Depot electricity tariff")
     public_charging: Qty("1/kWh", ge=0) | None = qfield(
         None, "1/kWh", "Price of energy bought at public or en-route chargers (currency per "
-        "kWh); needed when a truck charges en route", NO_DEFAULT
-    )
+        "kWh); needed when a truck charges en route", NO_DEFAULT,
+        usual=(0.1, 1.5),
+        usual_source="from memory: public truck charging about 0.3–0.8 USD or EUR per kWh")
     escalation: PriceEscalation = Field(default_factory=PriceEscalation,
                                         description="Yearly price changes")
 
@@ -284,40 +309,59 @@ class Depot(Section):
     """
 
     chargers: int = mfield(0, "", "Number of depot chargers (at most 10,000)", ASSUMPTION,
-                           ge=0, le=10_000)
+                           ge=0, le=10_000,
+        usual=(None, 500),
+        usual_source="common practice: about one charger per one or two trucks; large depots have "
+            "hundreds of trucks")
     charger_power: Qty("kW", ge=0, le=10_000) = qfield(
-        0.0, "kW", "Rated power of one charger (0: no cap on the depot's peak)", ASSUMPTION
-    )
+        0.0, "kW", "Rated power of one charger (0: no cap on the depot's peak)", ASSUMPTION,
+        usual=(None, 1500),
+        usual_source="common practice: depot chargers 20–400 kW (AC to DC); megawatt chargers "
+            "above")
     hardware_cost: float = mfield(0.0, "currency", "Hardware cost of one charger",
-                                  ASSUMPTION, ge=0)
+                                  ASSUMPTION, ge=0,
+        usual=(None, 400_000),
+        usual_source="from memory: a few thousand (AC) to 50,000–200,000 (high-power DC) USD or "
+            "EUR per charger")
     installation_cost: float = mfield(0.0, "currency", "Installation cost of one charger",
-                                      ASSUMPTION, ge=0)
+                                      ASSUMPTION, ge=0,
+        usual=(None, 300_000),
+        usual_source="from memory: installation about half to one times the hardware cost")
     grid_connection_cost: float = mfield(0.0, "currency", "Grid connection of the depot, once",
-                                         ASSUMPTION, ge=0)
-    life: int = mfield(10, "yr", "Life of the charger hardware", ASSUMPTION, ge=1, le=50)
+                                         ASSUMPTION, ge=0,
+        usual=(None, 2e7),
+        usual_source="from memory: from nothing (spare capacity) to a few million for a new "
+            "medium-voltage connection")
+    life: int = mfield(10, "yr", "Life of the charger hardware", ASSUMPTION, ge=1, le=50,
+        usual=(5, 15),
+        usual_source="from memory: charger hardware lasts about 8–12 years")
     residual_share: Share = qfield(
-        0.0, "", "Value of the hardware at the end of its life, share of its cost", ASSUMPTION
-    )
+        0.0, "", "Value of the hardware at the end of its life, share of its cost", ASSUMPTION,
+        usual=(0, 0.3),
+        usual_source="common practice: chargers are worth little at the end of their life")
     maintenance_per_year: float = mfield(
         0.0, "currency/yr", "Maintenance and software fees of one charger per year",
         ASSUMPTION, ge=0,
-    )
+        usual=(None, 30_000),
+        usual_source="from memory: maintenance and software fees about 2–10 % of the hardware cost "
+            "a year")
     trucks_served: int | None = mfield(
         None, "", "Trucks sharing the depot (default: the electric trucks of the scenario "
-        "that charge at the depot; at most 100,000)", ASSUMPTION, ge=1, le=100_000
-    )
+        "that charge at the depot; at most 100,000)", ASSUMPTION, ge=1, le=100_000,
+        usual=(None, 1000),
+        usual_source="common practice: a depot serves a few to several hundred trucks")
     charging: Literal["managed", "unmanaged"] = mfield(
         "managed", "", "Depot charging rule: managed (smart charging: each truck draws the "
         "steady power that refills it just in time for departure) or unmanaged (each truck "
         "charges at the charger's full power from plug-in until full)", MANAGED_DEFAULT
     )
     charging_start_hour: int = mfield(
-        20, "h", "Hour of the day depot charging may start (0..23)", ASSUMPTION, ge=0, le=23
-    )
+        20, "h", "Hour of the day depot charging may start (0..23)", ASSUMPTION, ge=0, le=23,
+        usual="none: any hour of the day")
     charging_end_hour: int = mfield(
         6, "h", "Hour of the day depot charging must end (0..23; equal to the start: all "
-        "day)", ASSUMPTION, ge=0, le=23
-    )
+        "day)", ASSUMPTION, ge=0, le=23,
+        usual="none: any hour of the day")
 
 
 # --------------------------------------------------------------------------- truck costs
@@ -333,25 +377,41 @@ class Financing(Section):
     method: Literal["cash", "loan", "lease"] = mfield("cash", "", "cash, loan or lease",
                                                       ASSUMPTION)
     loan_rate: Qty("", ge=0, le=1) = qfield(0.0, "", "Loan interest rate per year (nominal)",
-                                            ASSUMPTION)
-    loan_years: int = mfield(5, "yr", "Loan term", ASSUMPTION, ge=1, le=40)
+                                            ASSUMPTION,
+        usual=(0, 0.25),
+        usual_source="common practice: truck loans about 3–12 % a year")
+    loan_years: int = mfield(5, "yr", "Loan term", ASSUMPTION, ge=1, le=40,
+        usual=(2, 10),
+        usual_source="common practice: truck loans run 3–7 years")
     down_payment_share: Share = qfield(
         0.0, "", "Down payment, share of the amount due at purchase (price plus taxes and "
-        "fees, less the grant)", ASSUMPTION
-    )
+        "fees, less the grant)", ASSUMPTION,
+        usual=(0, 0.5),
+        usual_source="common practice: 0–30 % down")
     payments_per_year: int = mfield(12, "1/yr", "Loan instalments per year", COMMON_MONTHLY,
-                                    ge=1, le=52)
+                                    ge=1, le=52,
+        usual=(1, 12),
+        usual_source="common practice: monthly instalments; quarterly or yearly ones exist")
     lease_payment: float = mfield(0.0, "currency/month", "Lease payment per month", ASSUMPTION,
-                                  ge=0)
+                                  ge=0,
+        usual=(300, 20_000),
+        usual_source="from memory: heavy-truck leases about 1,500–6,000 USD or EUR a month, "
+            "electric more")
     lease_upfront: float = mfield(0.0, "currency", "Lease payment due at signing (year 0)",
-                                  ASSUMPTION, ge=0)
-    lease_years: int = mfield(5, "yr", "Lease term", ASSUMPTION, ge=1, le=40)
+                                  ASSUMPTION, ge=0,
+        usual=(None, 200_000),
+        usual_source="from memory: a few monthly payments at signing")
+    lease_years: int = mfield(5, "yr", "Lease term", ASSUMPTION, ge=1, le=40,
+        usual=(2, 10),
+        usual_source="common practice: truck leases run 3–7 years")
     lease_end: Literal["return", "buy_out"] = mfield(
         "return", "", "At the end of the lease: return the truck, or buy it out (then it is "
         "owned and sold at its residual value at the end of the period)", ASSUMPTION
     )
     lease_buyout_price: float = mfield(0.0, "currency", "Buy-out price at the end of the lease",
-                                       ASSUMPTION, ge=0)
+                                       ASSUMPTION, ge=0,
+        usual=(None, 600_000),
+        usual_source="common practice: a share of the truck's price")
     beyond_period: Literal["error", "settle", "drop"] = mfield(
         "error", "", "A loan or lease longer than the analysis period: settle (pay it off in "
         "the last year), drop (lease only: leave later payments out) or error", ASSUMPTION
@@ -383,13 +443,19 @@ class BatteryReplacement(Section):
         "longer fits)", ASSUMPTION)
     year: int | None = mfield(None, "yr", "Year of the replacement (when = year)",
                               "no default: needed when when = 'year'",
-                              ge=1, le=100)
+                              ge=1, le=100,
+        usual=(1, 20),
+        usual_source="common practice: within the truck's life")
     cost: float = mfield(0.0, "currency", "Fixed part of the replacement price", ASSUMPTION,
-                         ge=0)
+                         ge=0,
+        usual=(None, 200_000),
+        usual_source="from memory: a fixed part of a few thousand for labour and parts")
     cost_per_kwh: Qty("1/kWh", ge=0) = qfield(
         0.0, "1/kWh", "Replacement price per kWh of nominal capacity (currency per kWh)",
-        ASSUMPTION
-    )
+        ASSUMPTION,
+        usual=(50, 600),
+        usual_source="from memory: battery pack prices about 100–200 USD per kWh in the early "
+            "2020s (industry surveys); truck packs and replacements cost more")
     credit_remaining_life: bool = mfield(
         True, "", "Credit the unused share of a replacement battery's life at the end of the "
         "period", ASSUMPTION
@@ -412,11 +478,13 @@ class Residual(Section):
     method: Literal["declining_balance", "table"] = mfield(
         "declining_balance", "", "declining_balance or table", ASSUMPTION
     )
-    rate: Share = qfield(0.15, "", "Loss of value per year (declining_balance)", ASSUMPTION)
+    rate: Share = qfield(0.15, "", "Loss of value per year (declining_balance)", ASSUMPTION,
+        usual=(0.05, 0.3),
+        usual_source="common practice: trucks lose about 10–20 % of their value a year")
     shares: list[Share] = mfield(
         [], "", "Value at the end of each year of age, share of the purchase price (table)",
-        "no default: needed when method = 'table'"
-    )
+        "no default: needed when method = 'table'",
+        usual="none: a value table by age, any share")
 
     @model_validator(mode="after")
     def _table_given(self):
@@ -444,32 +512,58 @@ class TruckCosts(Section):
     """
 
     purchase_price: float = mfield(0.0, "currency", "Purchase price before taxes and fees",
-                                   "placeholder 0: set the truck's price", ge=0)
+                                   "placeholder 0: set the truck's price", ge=0,
+        usual=(20_000, 800_000),
+        usual_source="from memory: a new heavy tractor about 100,000–180,000 USD or EUR, "
+            "battery-electric 250,000–500,000; light rigids from about 40,000")
     purchase_tax_rate: Share = qfield(0.0, "", "Purchase (sales) tax, share of the price",
-                                      ASSUMPTION)
+                                      ASSUMPTION,
+        usual=(0, 0.25),
+        usual_source="from memory: sales taxes and VAT mostly 0–25 %")
     purchase_fees: float = mfield(0.0, "currency", "Fees at purchase (registration, delivery)",
-                                  ASSUMPTION, ge=0)
-    grant: float = mfield(0.0, "currency", "Grant paid at purchase", ASSUMPTION, ge=0)
+                                  ASSUMPTION, ge=0,
+        usual=(None, 50_000),
+        usual_source="from memory: registration and delivery about 1–5 % of the price")
+    grant: float = mfield(0.0, "currency", "Grant paid at purchase", ASSUMPTION, ge=0,
+        usual=(None, 300_000),
+        usual_source="from memory: purchase grants for zero-emission trucks from tens of thousands "
+            "to about 200,000 USD or EUR")
     tax_credit: float = mfield(0.0, "currency", "Tax credit received in tax_credit_year",
-                               ASSUMPTION, ge=0)
+                               ASSUMPTION, ge=0,
+        usual=(None, 100_000),
+        usual_source="from memory: tax credits for clean trucks of up to about 40,000 USD per "
+            "truck")
     tax_credit_year: int = mfield(1, "yr", "Year the tax credit is received", ASSUMPTION,
-                                  ge=0, le=100)
+                                  ge=0, le=100,
+        usual=(0, 3),
+        usual_source="common practice: the first tax year or the one after")
     financing: Financing = Field(default_factory=Financing, description="Cash, loan or lease")
     maintenance: Qty("1/km", ge=0) = qfield(
-        0.0, "1/km", "Maintenance and repair per distance (currency per km)", ASSUMPTION
-    )
+        0.0, "1/km", "Maintenance and repair per distance (currency per km)", ASSUMPTION,
+        usual=(0.01, 0.5),
+        usual_source="from memory: maintenance and repair of heavy trucks about 0.05–0.20 USD or "
+            "EUR per km")
     tyres: Qty("1/km", ge=0) = qfield(0.0, "1/km", "Tyres per distance (currency per km)",
-                                      ASSUMPTION)
+                                      ASSUMPTION,
+        usual=(0, 0.1),
+        usual_source="from memory: tyres about 0.01–0.05 USD or EUR per km")
     tolls: Qty("1/km", ge=0) = qfield(0.0, "1/km", "Road tolls per distance (currency per km)",
-                                      ASSUMPTION)
+                                      ASSUMPTION,
+        usual=(0, 1.0),
+        usual_source="from memory: distance tolls for heavy trucks about 0.1–0.5 EUR per km")
     insurance_rate: Qty("", ge=0, le=1) = qfield(
         0.0, "", "Insurance per year, share of the truck's value at the start of the year",
-        ASSUMPTION
-    )
+        ASSUMPTION,
+        usual=(0, 0.1),
+        usual_source="from memory: 2–6 % of the truck's value a year")
     insurance_fixed: float = mfield(0.0, "currency/yr", "Insurance per year, fixed part",
-                                    ASSUMPTION, ge=0)
+                                    ASSUMPTION, ge=0,
+        usual=(None, 30_000),
+        usual_source="from memory: a few thousand to about 20,000 USD or EUR a year")
     registration: float = mfield(0.0, "currency/yr", "Registration and road taxes per year",
-                                 ASSUMPTION, ge=0)
+                                 ASSUMPTION, ge=0,
+        usual=(None, 20_000),
+        usual_source="from memory: a few hundred to several thousand USD or EUR a year")
     battery_replacement: BatteryReplacement = Field(
         default_factory=BatteryReplacement, description="Traction battery replacement"
     )

@@ -20,6 +20,7 @@ import numpy as np
 from pydantic import Field, PrivateAttr, ValidationInfo, field_validator, model_validator
 
 from tco.emission_factors import (
+    MAX_PROFILE_VALUE,
     UPSTREAM_FALLBACK_SET,
     diesel_sets,
     factor_table,
@@ -108,13 +109,20 @@ class LifecycleAddon(Section):
         "tool default: off (no published default figures are shipped)")
     vehicle_diesel: Qty("kg", ge=0, le=1e7) | None = qfield(
         None, "kg", "Manufacturing emissions of the diesel truck, CO2e",
-        "none: you give it when include is true")
+        "none: you give it when include is true",
+        usual=(None, 100_000),
+        usual_source="from memory: manufacturing a heavy truck emits about 10–50 t CO2e")
     vehicle_electric: Qty("kg", ge=0, le=1e7) | None = qfield(
         None, "kg", "Manufacturing emissions of the electric truck without its battery, CO2e",
-        "none: you give it when include is true")
+        "none: you give it when include is true",
+        usual=(None, 100_000),
+        usual_source="from memory: manufacturing a heavy truck emits about 10–50 t CO2e")
     battery: Qty("kg/kWh", ge=0, le=1000) | None = qfield(
         None, "kg/kWh", "Battery manufacturing emissions per kWh of nominal capacity, CO2e",
-        "none: you give it when include is true")
+        "none: you give it when include is true",
+        usual=(30, 200),
+        usual_source="from memory: published studies put battery manufacturing at about 50–150 kg "
+            "CO2e per kWh")
 
     @model_validator(mode="after")
     def _complete(self):
@@ -149,29 +157,48 @@ class EmissionsSettings(Section):
         None, "kg/L", "Well-to-tank emissions of diesel per litre, CO2e; empty: the diesel "
         "set's own figure, or the DESNZ 2025 well-to-tank when the set has none",
         f"the diesel set; otherwise {UPSTREAM_FALLBACK_SET} (UK DESNZ conversion factors "
-        "2025, WTT- fuels, diesel; tco/data/desnz_2025.csv)")
+        "2025, WTT- fuels, diesel; tco/data/desnz_2025.csv)",
+        usual=(0.3, 1.0),
+        usual_source="UK DESNZ conversion factors 2025, WTT- fuels, diesel: about 0.6 kg CO2e/L "
+            "(tco/data/desnz_2025.csv)")
     def_density: Qty("kg/L", gt=0, le=3) = qfield(
-        1.09, "kg/L", "Density of diesel exhaust fluid", "ISO 22241-1 (from memory)")
+        1.09, "kg/L", "Density of diesel exhaust fluid", "ISO 22241-1 (from memory)",
+        usual=(1.08, 1.1),
+        usual_source="ISO 22241-1: 1.087–1.093 kg/L at 20 °C (from memory)")
     def_urea_share: Qty("percent", ge=0, le=100) = qfield(
         32.5, "percent", "Urea mass share of diesel exhaust fluid",
-        "ISO 22241-1, nominal urea content (from memory)")
+        "ISO 22241-1, nominal urea content (from memory)",
+        usual=(31.8, 33.2),
+        usual_source="ISO 22241-1: urea 31.8–33.2 % by mass (from memory)")
     grid_intensity: Qty("g/kWh", ge=0, le=MAX_GRID_G_PER_KWH) = qfield(
         "823.1 lb/MWh", "g/kWh", "Location-based grid intensity in the first year of service, "
-        "CO2e per kWh at the meter (373.4 g/kWh)", GRID_DEFAULT_SOURCE)
+        "CO2e per kWh at the meter (373.4 g/kWh)", GRID_DEFAULT_SOURCE,
+        usual=(0, 1200),
+        usual_source="European Environment Agency (2020): EU-27 generation 281 g CO2e/kWh in 2018; "
+            "lignite plants about 1,100–1,200 g/kWh (from memory)")
     grid_change: Qty("percent", ge=-100, le=100) = qfield(
         0.0, "percent", "Compound change of the grid intensity per year (-3 means 3 % lower "
-        "each year)", ASSUMPTION + ": no change")
+        "each year)", ASSUMPTION + ": no change",
+        usual=(-15, 5),
+        usual_source="from memory: grids decarbonise by 0–10 % a year in current plans")
     grid_floor: Qty("g/kWh", ge=0, le=MAX_GRID_G_PER_KWH) = qfield(
         0.0, "g/kWh", "A declining grid intensity stops at this value",
-        ASSUMPTION + ": no floor")
+        ASSUMPTION + ": no floor",
+        usual=(0, 1200),
+        usual_source="European Environment Agency (2020): EU-27 generation 281 g CO2e/kWh in 2018; "
+            "lignite plants about 1,100–1,200 g/kWh (from memory)")
     grid_table: dict[int, Qty("g/kWh", ge=0, le=MAX_GRID_G_PER_KWH)] | None = qfield(
         None, "g/kWh", "Grid intensity by calendar year, instead of grid_intensity with "
         "grid_change (linear between listed years, flat outside them)",
-        "none: the trajectory is used")
+        "none: the trajectory is used",
+        usual=(0, 1200),
+        usual_source="European Environment Agency (2020): EU-27 generation 281 g CO2e/kWh in 2018; "
+            "lignite plants about 1,100–1,200 g/kWh (from memory)")
     hourly_profile: list[float] | None = mfield(
         None, "", "Grid intensity by hour: 24 hour-of-day values, or 8760 (8784) hourly "
         "values from 00:00 on 1 January, averaged by hour of day; read as a shape or in "
-        "g/kWh (see hourly_profile_kind)", "none: no hour matching")
+        "g/kWh (see hourly_profile_kind); each value 0 to 5,000", "none: no hour matching",
+        bounds=(0, MAX_PROFILE_VALUE), usual="none: a shape has no unit")
     hourly_profile_file: Path | None = mfield(
         None, "", "The same profile from a CSV file, one value per line (last column)",
         "none")
@@ -182,49 +209,73 @@ class EmissionsSettings(Section):
     supplier_intensity: Qty("g/kWh", ge=0, le=MAX_GRID_G_PER_KWH) | None = qfield(
         None, "g/kWh", "Market-based: your depot supplier's contractual emission factor "
         "(held constant over the years; public charging stays at the grid intensity)",
-        "none: the market-based figure uses the grid intensity")
+        "none: the market-based figure uses the grid intensity",
+        usual=(0, 1200),
+        usual_source="European Environment Agency (2020): EU-27 generation 281 g CO2e/kWh in 2018; "
+            "lignite plants about 1,100–1,200 g/kWh (from memory)")
     residual_mix_intensity: Qty("g/kWh", ge=0, le=MAX_GRID_G_PER_KWH) | None = qfield(
         None, "g/kWh", "Market-based: residual-mix emission factor, for electricity bought "
         "without a contractual instrument (depot electricity not covered by the supplier "
         "factor or the renewable share, and public charging), in the year of grid_intensity; "
         "it follows the grid intensity's path in proportion",
         "none: the market-based figure falls back on the grid average (a caution says so; the "
-        "GHG Protocol Scope 2 Guidance asks for a residual mix where one is published)")
+        "GHG Protocol Scope 2 Guidance asks for a residual mix where one is published)",
+        usual=(0, 1200),
+        usual_source="European Environment Agency (2020): EU-27 generation 281 g CO2e/kWh in 2018; "
+            "lignite plants about 1,100–1,200 g/kWh (from memory)")
     residual_mix_source: str | None = mfield(
         None, "", "Where the residual-mix factor comes from (publisher, year, table; at most "
         "200 characters); needed with residual_mix_intensity", "none", text_limit=200)
     renewable_share: Qty("percent", ge=0, le=100) = qfield(
         0.0, "percent", "Market-based: share of depot electricity covered by contracted "
         "renewable supply with certificates (counted at zero)",
-        ASSUMPTION + ": none contracted")
+        ASSUMPTION + ": none contracted",
+        usual="none: any share can be contracted")
     td_loss: Qty("percent", ge=0, lt=100) = qfield(
         5.0, "percent", "Transmission-and-distribution loss share of the grid, for Scope 3 "
         "category 3; 0 when the grid intensity already includes losses",
-        ASSUMPTION + ": a typical order of magnitude for national grids")
+        ASSUMPTION + ": a typical order of magnitude for national grids",
+        usual=(0, 20),
+        usual_source="from memory: national grids lose about 3–10 % in transmission and "
+            "distribution, up to 20 % in some")
     electricity_upstream: Qty("g/kWh", ge=0, le=MAX_GRID_G_PER_KWH) | None = qfield(
         None, "g/kWh", "Upstream (well-to-tank of the power plants' fuels) emissions per kWh "
         "at the meter, Scope 3 category 3; empty: electricity_upstream_share of the grid "
-        "intensity", "none: electricity_upstream_share is used")
+        "intensity", "none: electricity_upstream_share is used",
+        usual=(0, 300),
+        usual_source="from memory: well-to-tank of grid electricity about a tenth of the "
+            "generation factor")
     electricity_upstream_share: Qty("percent", ge=0, le=100) = qfield(
         10.0, "percent", "Upstream emissions of electricity as a share of the grid intensity "
         "of each year, used when electricity_upstream is empty (ISO 14083 well-to-wheel "
         "includes them)",
         "from memory: national factor sets (e.g. the UK government conversion factors) put "
         "the well-to-tank of grid electricity generation at roughly a tenth of the "
-        "generation factor; replace with your grid's published figure")
+        "generation factor; replace with your grid's published figure",
+        usual=(0, 30),
+        usual_source="from memory: national factor sets put it at roughly a tenth of the "
+            "generation factor")
     diesel_blend_share: Qty("percent", ge=0, le=100) = qfield(
         0.0, "percent", "Biodiesel (FAME) share of the diesel by volume; its CO2 is biogenic "
         "and reported apart from the scopes",
         ASSUMPTION + ": pure fossil diesel (road diesel is often a blend with up to 7 % "
-        "biodiesel by volume, EN 590; from memory)")
+        "biodiesel by volume, EN 590; from memory)",
+        usual=(0, 30),
+        usual_source="EN 590: up to 7 % FAME by volume (from memory); B20 and B30 blends exist")
     biodiesel_co2: Qty("kg/L", ge=0, le=20) = qfield(
         2.50, "kg/L", "Biogenic CO2 from burning a litre of biodiesel (FAME), reported "
         "outside the scopes",
         "from memory: rapeseed methyl ester about 0.88 kg/L and 77 % carbon by mass, "
-        "× 44/12 = 2.5 kg CO2/L")
+        "× 44/12 = 2.5 kg CO2/L",
+        usual=(2.3, 2.7),
+        usual_source="from memory: FAME about 0.88 kg/L and 77 % carbon by mass: 2.5 kg "
+        "CO2/L")
     biodiesel_upstream: Qty("kg/L", ge=0, le=20) | None = qfield(
         None, "kg/L", "Well-to-tank emissions of a litre of biodiesel, CO2e (Scope 3 "
-        "category 3); empty: the diesel upstream factor", ASSUMPTION + ": as fossil diesel")
+        "category 3); empty: the diesel upstream factor", ASSUMPTION + ": as fossil diesel",
+        usual=(0, 3),
+        usual_source="from memory: well-to-tank of biodiesel depends on the feedstock, mostly "
+            "below 2 kg CO2e/L")
     discount_tonnes: bool = mfield(
         True, "", "Abatement cost on discounted tonnes (present-value cost over tonnes "
         "discounted at the finance discount rate); false: over undiscounted tonnes. Both are "

@@ -45,7 +45,16 @@ from typing import Literal
 import numpy as np
 from pydantic import Field, ValidationInfo, field_validator, model_validator
 
-from tco.scenario.base import ASSUMPTION, Qty, Section, mfield, qfield
+from tco.budget import MAX_DRAWS
+from tco.scenario.base import (
+    ASSUMPTION,
+    INT_CEILING,
+    MONEY_CEILING,
+    Qty,
+    Section,
+    mfield,
+    qfield,
+)
 from tco.units import UnitError, to_si
 
 __all__ = ["KINDS", "Correlation", "Distribution", "TornadoInput", "UncertaintySettings",
@@ -63,6 +72,17 @@ KINDS: dict[str, tuple[tuple[str, ...], tuple[str, ...]]] = {
 _NUMBERS = ("low", "mode", "high", "mean", "sd")
 
 Number = float | str
+#: Largest size of a tornado or distribution number: the money ceiling, since a number may
+#: be an amount of money. [input's unit, or a factor]
+NUMBER_LIMIT = MONEY_CEILING
+_NUMBER_BOUNDS = dict(bounds=(-NUMBER_LIMIT, NUMBER_LIMIT),
+                      usual="none: the input's own unit, or a factor")
+
+
+def _number_size(value):
+    if isinstance(value, float) and abs(value) > NUMBER_LIMIT:
+        raise ValueError(f"{value:.3g} is above {NUMBER_LIMIT:.0e} in size")
+    return value
 _AS_NEEDED = "none: given by you where the kind needs it"
 SCALE_TEXT = ("relative: multipliers of the scenario's value (0.8, '120 %'); absolute: "
               "values in the input's documented unit, or a string with units")
@@ -180,12 +200,17 @@ class TornadoInput(Section):
     """One input of the tornado with its own low and high values."""
 
     input: str = mfield(..., "", "Parameter path or named group (see the section's notes)")
-    low: Number = mfield(..., "", "Low value of the input (see scale)")
-    high: Number = mfield(..., "", "High value of the input (see scale)")
+    low: Number = mfield(..., "", "Low value of the input (see scale)", **_NUMBER_BOUNDS)
+    high: Number = mfield(..., "", "High value of the input (see scale)", **_NUMBER_BOUNDS)
     scale: Literal["relative", "absolute"] = mfield(..., "", SCALE_TEXT)
     unit: str | None = mfield(None, "", "Unit of absolute numbers given as plain numbers "
                               "(default: the input's documented unit)",
                               "the input's documented unit")
+
+    @field_validator("low", "high")
+    @classmethod
+    def _size(cls, value):
+        return _number_size(value)
 
     @model_validator(mode="after")
     def _order(self):
@@ -204,12 +229,20 @@ class Distribution(Section):
         "beta-PERT, λ = 4), normal (mean, sd; optional low/high truncation), lognormal "
         "(mean, sd of the input itself)")
     scale: Literal["relative", "absolute"] = mfield(..., "", SCALE_TEXT)
-    low: Number | None = mfield(None, "", "Lowest value (see scale)", _AS_NEEDED)
-    mode: Number | None = mfield(None, "", "Most likely value (see scale)", _AS_NEEDED)
-    high: Number | None = mfield(None, "", "Highest value (see scale)", _AS_NEEDED)
-    mean: Number | None = mfield(None, "", "Mean (see scale)", _AS_NEEDED)
+    low: Number | None = mfield(None, "", "Lowest value (see scale)", _AS_NEEDED,
+                                **_NUMBER_BOUNDS)
+    mode: Number | None = mfield(None, "", "Most likely value (see scale)", _AS_NEEDED,
+                                 **_NUMBER_BOUNDS)
+    high: Number | None = mfield(None, "", "Highest value (see scale)", _AS_NEEDED,
+                                 **_NUMBER_BOUNDS)
+    mean: Number | None = mfield(None, "", "Mean (see scale)", _AS_NEEDED, **_NUMBER_BOUNDS)
     sd: Number | None = mfield(None, "", "Standard deviation, above zero (see scale)",
-                               _AS_NEEDED)
+                               _AS_NEEDED, **_NUMBER_BOUNDS)
+
+    @field_validator("low", "mode", "high", "mean", "sd")
+    @classmethod
+    def _size(cls, value):
+        return _number_size(value)
     unit: str | None = mfield(None, "", "Unit of absolute numbers given as plain numbers "
                               "(default: the input's documented unit)",
                               "the input's documented unit")
@@ -241,7 +274,8 @@ class Correlation(Section):
 
     inputs: list[str] = mfield(..., "", "The two inputs, spelled as in distributions",
                                min_length=2, max_length=2)
-    rank: Qty("", ge=-1, le=1) = qfield(..., "", "Spearman rank correlation, -1 to 1")
+    rank: Qty("", ge=-1, le=1) = qfield(..., "", "Spearman rank correlation, -1 to 1",
+        usual="none: any rank correlation from -1 to 1")
 
     @field_validator("inputs")
     @classmethod
@@ -264,13 +298,19 @@ class UncertaintySettings(Section):
                         "most 1,000,000, see tco.budget)",
                         "derived: at 10,000 draws a probability near 10 % has a standard "
                         "error of √(0.1 × 0.9 / 10,000) = 0.3 percentage points",
-                        ge=0)
+                        ge=0, bounds=(0, MAX_DRAWS), usual=(1000, 100_000),
+                        usual_source="derived: below 1,000 draws a 10 % probability has a "
+                        "standard error near 1 percentage point; above 100,000 the gain is "
+                        "below 0.1 point")
     seed: int = mfield(12345, "", "Seed of the random number generator; the same seed "
                        "gives the same draws", ASSUMPTION + ": a fixed seed so that repeated "
-                       "runs agree", ge=0)
+                       "runs agree", ge=0, le=INT_CEILING,
+                       usual="none: any whole number is as good a seed")
     default_swing: Qty("", gt=0, lt=1) = qfield(
         0.2, "", "Tornado inputs without their own low/high move by this share down and up "
-        "('20 %' accepted)", ASSUMPTION)
+        "('20 %' accepted)", ASSUMPTION,
+        usual=(0.05, 0.5),
+        usual_source="common practice: ±10–30 % for a first sensitivity study")
     default_inputs: bool = mfield(
         True, "", "Include the standard tornado inputs (fuel and electricity prices, demand "
         "charge, operating days, discount rate, and per truck: purchase price, grant, tax "
@@ -322,25 +362,52 @@ class UncertaintySettings(Section):
             return value
         names = [d.input for d in dists]
         pairs: dict[frozenset, int] = {}
+        deferred = False
         for k, c in enumerate(value):
             for name in c.inputs:
                 if name not in names:
-                    # The usual cause is a misspelt distribution input: name that one, so
-                    # the message points at the input that is wrong, not at this one.
-                    close = difflib.get_close_matches(name, names, n=1, cutoff=0.6)
-                    hint = (f" (distributions[{names.index(close[0])}] names '{close[0]}': "
-                            "is one of the two misspelt?)") if close else ""
+                    # A name close to a distribution's input means one of the two is
+                    # misspelt, and only the model's parameter list can tell which: the
+                    # check is left to tco.uncertainty.resolve_distributions, which reports
+                    # an unknown distribution input at the distribution ("did you mean")
+                    # before it looks at the correlations.
+                    if close_distribution(name, names) is not None:
+                        deferred = True
+                        continue
                     raise ValueError(f"[{k}]: '{name}' has no distribution; correlations "
-                                     f"join inputs of distributions{hint}")
+                                     "join inputs of distributions")
             key = frozenset(c.inputs)
             if key in pairs:
                 raise ValueError(f"[{k}]: the pair is already correlated in [{pairs[key]}]")
             pairs[key] = k
-        if value:
+        if value and not deferred:
             problem = correlation_problem(pearson_matrix(names, value))
             if problem:
                 raise ValueError(problem)
         return value
+
+
+def close_distribution(name: str, names: list[str]) -> int | None:
+    """Index of the distribution input that ``name`` is probably a misspelling of, or None."""
+    close = difflib.get_close_matches(name, names, n=1, cutoff=0.6)
+    return names.index(close[0]) if close else None
+
+
+def unmatched_correlation(names: list[str], correlations: list[Correlation]) -> str | None:
+    """One line for the first correlation naming an input without a distribution, or None.
+
+    The line names the correlation (``[k]: …``) and the distribution input it is probably
+    a misspelling of.
+    """
+    for k, c in enumerate(correlations):
+        for name in c.inputs:
+            if name not in names:
+                j = close_distribution(name, names)
+                hint = (f" (did you mean '{names[j]}', the input of distributions[{j}]?)"
+                        if j is not None else "")
+                return (f"[{k}]: '{name}' has no distribution; correlations join inputs of "
+                        f"distributions{hint}")
+    return None
 
 
 def pearson_matrix(names: list[str], correlations: list[Correlation]) -> np.ndarray:
