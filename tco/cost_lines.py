@@ -44,6 +44,7 @@ References
 from __future__ import annotations
 
 import contextlib
+import string
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
 
@@ -692,6 +693,8 @@ def using(lines: tuple[CostLine, ...]) -> Iterator[tuple[CostLine, ...]]:
         _active = before
 
 
+#: The names a string formula template may use (module docstring).
+TEMPLATE_NAMES = ("y", "P", "N", "S", "srv", "GE")
 _SIGNS = ("cost", "income", "either")
 _GROUPS = ("purchase", "financing", "depot", "energy", "running", "battery", "end", "tax")
 
@@ -708,6 +711,12 @@ def _check(lines) -> None:
             raise ValueError(f"cost line '{c.name}' has no computation")
         if not (callable(c.formula) or (isinstance(c.formula, str) and c.formula)):
             raise ValueError(f"cost line '{c.name}' has no formula template")
+        if isinstance(c.formula, str):
+            unknown = {f for _, f, _, _ in string.Formatter().parse(c.formula)
+                       if f is not None} - set(TEMPLATE_NAMES)
+            if unknown:
+                raise ValueError(f"cost line '{c.name}': formula template names "
+                                 f"{sorted(unknown)}, not one of {TEMPLATE_NAMES}")
         if c.sign not in _SIGNS:
             raise ValueError(f"cost line '{c.name}': sign '{c.sign}' is not one of {_SIGNS}")
         if c.group not in _GROUPS:

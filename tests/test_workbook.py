@@ -986,9 +986,10 @@ def test_libreoffice_prints_each_sheet_one_page_wide(demo_xlsx, tmp_path):
 
 
 def test_every_cost_line_has_a_workbook_formula(demo):
-    """Each cost line the model defines (tco.cashflow.LINES) has a spreadsheet formula in
-    the Cash flow builder: a new line without one is named here, not met as a KeyError
-    inside a user's run."""
+    """Each cost line of the registry (tco.cost_lines) renders its spreadsheet formula in
+    the Cash flow builder for some demo truck: a template that fails to render is named
+    here, not met inside a user's run (a line without a template cannot even be
+    registered: tests/test_cost_lines.py)."""
     from tco.cashflow import LINES
     from tco.report.workbook.book import Book
 

@@ -398,6 +398,18 @@ class InputsSheet:
                        "yes" if b.credit_remaining_life else "no", "",
                        src(fpath + "battery_replacement.credit_remaining_life"))
 
+        # named inputs a cost line declares (tco.cost_lines.CostLine.inputs)
+        from tco import cost_lines
+
+        for spec in cost_lines.registry():
+            for si in spec.inputs:
+                path = si.field.format(i=i)
+                if path not in p or P + si.name in self.wb.defined_names:
+                    continue  # a truck without the field, or written above
+                unit = si.unit.format(cur=cur)
+                self._inp(P + si.name, si.label, p[path] * si.factor, unit, src(path),
+                          wbb.MONEY if unit.startswith(cur) else "0.0000", field=path)
+
         # yearly operation as modelled (first year), and its scale
         model = ("model: energy simulation of the duty cycle, scaled to the operating year "
                  "(tco.energy, tco.operation)")
