@@ -205,6 +205,13 @@ class CostInputs:
         Year the trucks leave the fleet at the end of their own life, sold at their
         residual value then (age ``end_year − purchase_year``); no flows after it. None
         (the default): held to the end of the period. [yr]
+    service_life : int, optional
+        The trucks' own life (``finance.residual_at = "end_of_life"``): each truck is sold
+        at its residual value at age ``service_life`` and, when that comes before the
+        period ends, a like truck is bought that year at that year's prices (a replacement
+        chain) until the period ends; the last one is valued at the end of the period.
+        The depot's equipment keeps its own life. None (the default): held to the end.
+        [yr]
     """
 
     finance: Finance
@@ -216,6 +223,7 @@ class CostInputs:
     trips_per_day: float | None = None
     purchase_year: int = 0
     end_year: int | None = None
+    service_life: int | None = None
 
 
 def _base_trips_per_day(op: AnnualOperation) -> float:
@@ -586,6 +594,8 @@ def compute(inputs: CostInputs, overrides: dict | None = None,
     electric trucks that charge at the depot). The depot's peak is taken as all served
     trucks charging at once at this truck's peak power, capped by the chargers' rating.
     """
+    if _segments(inputs) is not None:
+        return _compute_chain(inputs, overrides, params, totals_only, view)
     ctx, made = _make_lines(inputs, overrides, params, keep=not totals_only,
                             view=_view(inputs, view))
     p = ctx.p
@@ -691,6 +701,18 @@ def compute_totals(inputs: CostInputs, overrides: dict | None = None,
     InputError
         As :func:`compute`.
     """
+    if _segments(inputs) is not None:  # a replacement chain: the full path, as parts
+        cf = compute(inputs, overrides, params, totals_only=True, view=view)
+        n_years = len(cf.years)
+        return CostTotals(
+            years=cf.years, trucks=cf.trucks,
+            flows=[fin.FlowParts(const=np.zeros(n_years), shapes=np.zeros((0, n_years)),
+                                 factors=np.zeros((0, 1)), rest=np.asarray(d["total"]),
+                                 scale=np.ones(n_years)) for d in cf.by_year],
+            annual_distance=[_first_service(d, inputs.purchase_year)
+                             for d in cf.distance_by_year],
+            discount_rate=cf.discount_rate, money_basis=cf.money_basis,
+            baseline=cf.baseline, n_draws=cf.n_draws, assumptions=cf.assumptions)
     if inputs.purchase_year or inputs.end_year is not None:
         raise ValueError("compute_totals covers trucks held from year 0 to the end; use "
                          "compute")
@@ -1844,3 +1866,66 @@ def financing_view(inputs: CostInputs, headline: CashFlows,
             entry[f"irr_note_{key}"] = note
         comps.append(entry)
     return FinancingResult(valuation=view, trucks=trucks, comparisons=comps)
+
+
+# --------------------------------------------------------------------------- replacement chain
+def _segments(inputs: CostInputs) -> list[tuple[int, int]] | None:
+    """The (purchase year, sale year) of each truck of a replacement chain, or None when
+    the trucks' own life does not end before they leave (no chain)."""
+    life = inputs.service_life
+    if life is None:
+        return None
+    if life < 1:
+        raise InputError(f"service life {life} is not a whole number of years ≥ 1",
+                         where="finance.service_life")
+    end = _end_year(inputs)
+    if inputs.purchase_year + life >= end:
+        return None
+    starts = range(inputs.purchase_year, end, life)
+    return [(s, min(s + life, end)) for s in starts]
+
+
+def _first_service(distance_years_first: np.ndarray, t0: int):
+    """Distance of the first year in service, as :attr:`CostTotals.annual_distance`."""
+    row = np.asarray(distance_years_first)[t0 + 1]
+    return float(row[0]) if row.shape[0] == 1 else row
+
+
+def _compute_chain(inputs: CostInputs, overrides, params, totals_only: bool,
+                   view: str | None) -> CashFlows:
+    """:func:`compute` for a replacement chain: each truck sold at the end of its own life
+    and a like truck bought then (``CostInputs.service_life``).
+
+    The trucks' lines are those of each link (:func:`compute` with that link's purchase
+    and end year) added up; the depot's lines are those of the whole holding, once (the
+    chargers keep their own life). The after-tax view is refused: its depreciation mixes
+    truck and depot assets per link.
+    """
+    import dataclasses
+
+    if inputs.finance.after_tax.enabled:
+        raise InputError("residual_at = 'end_of_life' with a service life shorter than the "
+                         "period is not available with the after-tax view",
+                         where="finance.residual_at")
+    links = _segments(inputs)
+    whole = dataclasses.replace(inputs, service_life=None)
+    depot = {s.name for s in LINES if s.group == "depot"}
+    held = compute(whole, overrides, params, totals_only=False, view=view)
+    by_year = [{k: v for k, v in d.items() if k in depot} for d in held.by_year]
+    distance = [np.zeros_like(np.asarray(d)) for d in held.distance_by_year]
+    assumptions = list(held.assumptions)
+    for start, end in links:
+        link = compute(dataclasses.replace(whole, purchase_year=start, end_year=end),
+                       overrides, params, totals_only=False, view=view)
+        for k, d in enumerate(link.by_year):
+            for name, v in d.items():
+                if name not in depot:
+                    by_year[k][name] = by_year[k][name] + v if name in by_year[k] else v
+            distance[k] = distance[k] + link.distance_by_year[k]
+        assumptions += [a for a in link.assumptions if a not in assumptions]
+    order = {name: j for j, name in enumerate(_LINE_NAMES)}
+    by_year = [dict(sorted(d.items(), key=lambda kv: order[kv[0]])) for d in by_year]
+    if totals_only:
+        by_year = [{"total": sum(d.values())} for d in by_year]
+    return dataclasses.replace(held, by_year=by_year, distance_by_year=distance,
+                               assumptions=assumptions)

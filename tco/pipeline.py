@@ -118,6 +118,8 @@ def cost_inputs(scenario: Scenario, operations):
         trucks=[TruckSpec(t.name, t.powertrain, t.costs) for t in scenario.trucks],
         operations=operations, days_per_year=scenario.route.days_per_year,
         trips_per_day=scenario.route.trips_per_day,
+        service_life=(scenario.finance.service_life
+                      if scenario.finance.residual_at == "end_of_life" else None),
     )
 
 

@@ -746,7 +746,9 @@ def option_flows(inputs, cf, totals) -> dict:
     -------
     dict
         ``bought`` (2, N, N + 1): each truck bought in plan year t, all lines but the depot
-        equipment, by year [currency]; ``capex`` (2, N): its capital in year t [currency];
+        equipment, by year [currency]; ``capex`` (2, N, N): its capital by plan year (in year t, and again when a
+        like truck replaces it at the end of its own life, ``finance.residual_at``)
+        [currency];
         ``ok`` (2, N) bool: whether that purchase could be costed; ``running`` (N + 1,):
         the current truck's energy and running costs by year [currency]; ``scopes``
         (2, 4, N): emissions by scope (:data:`SCOPES`) and year of service [t].
@@ -760,7 +762,7 @@ def option_flows(inputs, cf, totals) -> dict:
     depot = set(_depot_lines())
     groups = {s.name: s.group for s in LINES}
     bought = np.zeros((2, N, N + 1))
-    capex = np.zeros((2, N))
+    capex = np.zeros((2, N, N))
     ok = np.ones((2, N), dtype=bool)
     settled = _settled(inputs)
     for t in range(N):
@@ -773,7 +775,7 @@ def option_flows(inputs, cf, totals) -> dict:
             lines = flows.lines[k]
             bought[k, t] = sum((v for name, v in lines.items() if name not in depot),
                                np.zeros(N + 1))
-            capex[k, t] = sum(float(lines[name][t]) for name in _CAPEX_LINES if name in lines)
+            capex[k, t] = sum(lines[name][:N] for name in _CAPEX_LINES if name in lines)
     lines0 = cf.flows.lines[0]
     running = sum((v for name, v in lines0.items() if groups[name] in _RUNNING_GROUPS),
                   np.zeros(N + 1))
@@ -997,7 +999,7 @@ def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: P
         # option 0: stay diesel
         if r < N:
             flows = np.where(y <= r, run, 0.0) * (y >= 1) + resale(r) + f["bought"][0, r]
-            capex[v, 0, r] = f["capex"][0, r]
+            capex[v, 0] = f["capex"][0, r]
         else:
             flows = run * (y >= 1) + resale(N)
         pv[v, 0] = flows @ disc
@@ -1006,7 +1008,7 @@ def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: P
             o = 1 + t
             flows = np.where(y <= t, run, 0.0) * (y >= 1) + resale(t) + f["bought"][1, t]
             pv[v, o] = flows @ disc
-            capex[v, o, t] = f["capex"][1, t]
+            capex[v, o] = f["capex"][1, t]
             served = np.arange(1, N + 1) > t
             em_scopes[v, o] = np.where(served, sc[1], sc[0])
             in_window = earliest <= t <= r and f["ok"][1, t]

@@ -128,3 +128,94 @@ def test_sold_at_its_own_end_of_life():
     assert round(sold.lines[0]["residual_value"][4], 2) == -51_200.00
     with pytest.raises(InputError, match="end year"):
         compute(dataclasses.replace(own, end_year=1))
+
+
+# ------------------------------------------------------------------ own end of life, chained
+def _cash(inputs):
+    t = inputs.trucks[0]
+    costs = t.costs.model_copy(update=dict(
+        financing=t.costs.financing.model_copy(update=dict(method="cash"))))
+    return dataclasses.replace(inputs, trucks=[dataclasses.replace(t, costs=costs)])
+
+
+def test_bought_in_year_two_with_a_five_year_life_in_a_ten_year_study():
+    """The hand case paid in cash, bought in year 2 of a 10-year study, with a 5-year own
+    life (finance.residual_at = "end_of_life", service_life = 5), worked by hand:
+
+    - year 2: price 100,000 + fees 2,000 = 102,000 (equipment escalation 0);
+    - years 3..10: diesel 20,000 L × 1.50 × 1.04^y (booked at the end of year y) plus
+      maintenance 5,000 and insurance 1,000;
+    - year 7: sold at age 5, 100,000 × 0.8⁵ = 32,768.00, and a like truck bought for
+      102,000 to serve years 8..10;
+    - year 10: that truck sold at age 3, 100,000 × 0.8³ = 51,200.00.
+
+    1.04^y for y = 3..10: 1.124864, 1.16985856, 1.2166529, 1.26531902, 1.31593178,
+    1.36856905, 1.42331181, 1.48024428 (× 30,000 = the diesel of the year).
+    """
+    inputs = _cash(_later(hand_case(), 10, 2))
+    inputs = dataclasses.replace(inputs, service_life=5)
+    cf = compute(inputs, view="as_financed")
+    lines = cf.lines[0]
+    cents = lambda a: np.round(a, 2).tolist()  # noqa: E731
+    diesel = [0.0, 0.0, 0.0, 33745.92, 35095.76, 36499.59, 37959.57, 39477.95, 41057.07,
+              42699.35, 44407.33]
+    assert cents(lines["diesel"]) == diesel
+    assert cents(lines["maintenance"]) == [0.0] * 3 + [5000.0] * 8
+    assert cents(lines["purchase_price"]) == [0, 0, 100000.0, 0, 0, 0, 0, 100000.0, 0, 0, 0]
+    assert cents(lines["residual_value"]) == [0.0] * 7 + [-32768.0, 0.0, 0.0, -51200.0]
+    total = [0.0, 0.0, 102000.0] + [d + 6000.0 for d in diesel[3:]]
+    total[7] += 102000.0 - 32768.0
+    total[10] -= 51200.0
+    np.testing.assert_allclose(cf.total(0), total, atol=0.006)
+    assert cents(cf.distance[0]) == [0.0] * 3 + [5e7] * 8
+
+
+def test_the_scenario_setting_reaches_the_cost_model():
+    """finance.residual_at = end_of_life with service_life = 5 gives the chain above when
+    the case is built by the pipeline; the default keeps the trucks to the period end."""
+    from tco.pipeline import cost_inputs
+    from tco.scenario.costs import Finance
+
+    f = Finance(analysis_years=10, residual_at="end_of_life", service_life=5)
+    assert f.residual_at == "end_of_life" and f.service_life == 5
+    assert Finance().residual_at == "period_end" and Finance().service_life is None
+    with pytest.raises(ValueError, match="needs finance.service_life"):
+        Finance(residual_at="end_of_life")
+
+    class _S:  # the parts of a Scenario cost_inputs reads
+        finance = f
+        prices = hand_case().prices
+        depot = hand_case().depot
+        trucks = []
+        route = type("R", (), {"days_per_year": None, "trips_per_day": None})
+
+    assert cost_inputs(_S, []).service_life == 5
+    _S.finance = Finance(analysis_years=10)
+    assert cost_inputs(_S, []).service_life is None
+
+
+def test_a_life_as_long_as_the_holding_changes_nothing():
+    """A service life that reaches the end of the period is no chain: every line equal,
+    to the bit, to the truck held to the end (existing results unchanged)."""
+    base = rich_case(9)
+    n = base.finance.analysis_years
+    same = compute(dataclasses.replace(base, service_life=n))
+    held = compute(base)
+    for k in range(2):
+        assert same.lines[k].keys() == held.lines[k].keys()
+        for name in held.lines[k]:
+            assert np.array_equal(same.lines[k][name], held.lines[k][name])
+
+
+def test_monte_carlo_totals_follow_the_chain():
+    """compute_totals of a chained case equals compute's totals, draw by draw."""
+    from tco.cashflow import compute_totals
+
+    inputs = dataclasses.replace(_cash(_later(hand_case(), 10, 0)), service_life=4)
+    draws = {"prices.diesel": np.array([1.2, 1.5, 1.9])}
+    ref = compute(inputs, draws)
+    lean = compute_totals(inputs, draws)
+    np.testing.assert_allclose(lean.total_by_year[0].T, ref.total(0), rtol=1e-12)
+    # sold at age 4 in years 4 and 8, the third truck valued at age 2 in year 10
+    assert np.round(ref.lines[0]["residual_value"][0], 2).tolist() == \
+        [0.0] * 4 + [-40960.0] + [0.0] * 3 + [-40960.0, 0.0, -64000.0]

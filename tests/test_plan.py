@@ -302,3 +302,42 @@ def test_plan_settings_errors(tmp_path):
     s = load_plan_settings(p)
     assert s.grid_capacity == pytest.approx(400e3)
     assert s.service_life == pytest.approx(12 * 365.25 * 86400)
+
+
+# --------------------------------------------------------------------------- own end of life
+def test_option_flows_follow_the_trucks_own_life():
+    """finance.residual_at = end_of_life, service_life = 5, 10-year study: the option
+    "bought in plan year 2" carries the hand-worked chain of
+    tests/test_cashflow_purchase_year.py (cash, 102,000 in year 2, sold at age 5 for
+    32,768.00 in year 7 and a like truck bought for 102,000, sold at age 3 for 51,200.00
+    in year 10; running costs in years 3..10 only), and its capital counts against the
+    budget of both purchase years."""
+    import dataclasses
+
+    import pandas as pd
+    from test_cashflow import hand_case
+
+    from tco.cashflow import TruckSpec, evaluate
+    from tco.plan import option_flows
+
+    inputs = hand_case()
+    inputs.finance = inputs.finance.model_copy(update=dict(analysis_years=10))
+    t = inputs.trucks[0]
+    costs = t.costs.model_copy(update=dict(
+        financing=t.costs.financing.model_copy(update=dict(method="cash"))))
+    trucks = [TruckSpec("D", "diesel", costs), TruckSpec("D2", "diesel", costs)]
+    op2 = dataclasses.replace(inputs.operations[0], truck="D2")
+    inputs = dataclasses.replace(inputs, trucks=trucks, operations=[inputs.operations[0], op2],
+                                 service_life=5)
+    cf = evaluate(inputs, break_evens=False, financing=False)
+    totals = pd.DataFrame(columns=["frame", "truck", "year", "kg_co2e"])
+    f = option_flows(inputs, cf, totals)
+    diesel = [0.0, 0.0, 0.0, 33745.92, 35095.76, 36499.59, 37959.57, 39477.95, 41057.07,
+              42699.35, 44407.33]
+    hand = [0.0, 0.0, 102000.0] + [d + 6000.0 for d in diesel[3:]]
+    hand[7] += 102000.0 - 32768.0
+    hand[10] -= 51200.0
+    np.testing.assert_allclose(f["bought"][1, 2], hand, atol=0.006)
+    assert f["capex"][1, 2].tolist() == [0, 0, 102000.0, 0, 0, 0, 0, 102000.0, 0, 0]
+    # bought in year 6: sold at age 4 at the period end, no second truck
+    assert f["capex"][1, 6].tolist() == [0] * 6 + [102000.0] + [0] * 3

@@ -191,6 +191,26 @@ class Finance(Section):
         "(the same job needs one either way) and the verdict says so",
         "assumption: off, so the comparison shows only what differs between the trucks"
     )
+    residual_at: Literal["period_end", "end_of_life"] = mfield(
+        "period_end", "", "When a truck bought in the study is valued and sold: period_end "
+        "(at the end of the analysis period, whatever its age) or end_of_life (at the end "
+        "of its own service_life; in a fleet plan a like truck is then bought to serve the "
+        "rest of the period). A single case buys its trucks in year 0, so end_of_life needs "
+        "a service_life at least as long as the period there",
+        "assumption: period_end, the usual horizon of a TCO comparison"
+    )
+    service_life: int | None = mfield(
+        None, "yr", "The trucks' own service life: years from purchase to sale when "
+        "residual_at = end_of_life", "no default: needed when residual_at = 'end_of_life'",
+        ge=1, le=50
+    )
+
+    @model_validator(mode="after")
+    def _life_given(self):
+        if self.residual_at == "end_of_life":
+            if self.service_life is None:
+                raise ValueError("residual_at = 'end_of_life' needs finance.service_life")
+        return self
 
 
 # --------------------------------------------------------------------------- prices
