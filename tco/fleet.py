@@ -845,6 +845,13 @@ def _evaluate(base, rows, fleet_file, rule, pool, jobs, steps, timings, plan_set
         transition = plan_fleet(base, energies, money, routes, sched_plan,
                                 [energies[k].row.vehicle for k in idx_plan], plan_settings,
                                 where=plan_file)
+        transition = settle_depot(
+            transition, lambda coeffs: plan_fleet(
+                base, energies, money, routes, sched_plan,
+                [energies[k].row.vehicle for k in idx_plan], plan_settings,
+                where=plan_file, depot_override=coeffs),
+            lambda vehicles: _schedule(energies, base, vehicles, rule),
+            [e.row.vehicle for e in energies])
         timings["plan"] = time.perf_counter() - t0
     return FleetResult(base=base, fleet_file=Path(fleet_file), rule=rule, routes=routes,
                        order=order, yearly=yearly, depot_all=sched_all,
@@ -854,6 +861,118 @@ def _evaluate(base, rows, fleet_file, rule, pool, jobs, steps, timings, plan_set
                        energies=energies,
                        money=money, warnings=warnings, timings=timings,
                        transition=transition)
+
+
+#: Solves of the transition plan with its depot coefficients re-derived (first solve
+#: included) before the plan is kept as it is and said to be unsettled.
+DEPOT_ROUNDS = 4
+#: The re-derived depot peak may exceed the plan's by this share before it is flagged. [-]
+PEAK_TOLERANCE = 0.01
+
+
+def settle_depot(transition, resolve, schedule_of, vehicles: list[str]):
+    """Re-derive the plan's depot from its own trucks, and re-solve until it is stable.
+
+    The programme adds each electric truck's charger need and peak contribution linearly;
+    both come from a depot schedule (:func:`tco.depot.schedule`). The first solve takes
+    them from the schedule of every feasible route. Here the depot schedule is re-run on
+    the trucks the plan makes electric (those in service by its last year); their
+    coefficients replace the old ones and the programme is solved again, until the plan
+    makes the same trucks electric with the coefficients it was solved with, or
+    :data:`DEPOT_ROUNDS` solves. Then the schedule is run for the electric trucks of
+    every year, and the chargers and coincident peak it needs are set beside the plan's
+    (``chargers_rederived``, ``depot_peak_rederived_kw`` in ``transition.yearly``); a year
+    where the schedule needs more chargers than the plan buys, or a peak more than
+    :data:`PEAK_TOLERANCE` above the plan's, is named in the notes.
+
+    Parameters
+    ----------
+    transition : tco.plan.FleetPlan
+    resolve : callable
+        ``resolve(coefficients) -> FleetPlan``: the plan solved with ``{vehicle: (charger
+        need, peak kW)}``.
+    schedule_of : callable
+        ``schedule_of(set of vehicles) -> (row indices, DepotSchedule)``.
+    vehicles : list of str
+        The vehicle of each fleet row (row index -> vehicle).
+
+    Returns
+    -------
+    tco.plan.FleetPlan
+    """
+    def electric_by_year(tp):
+        sched = tp.schedule
+        years = tp.yearly["calendar_year"].tolist()
+        bought = {r["vehicle"]: r["purchase_year"] for r in sched.to_dict("records")
+                  if r["decision"] == "electric"}
+        return [frozenset(v for v, y in bought.items() if y <= yr) for yr in years]
+
+    def coefficients(chosen):
+        idx, sch = schedule_of(set(chosen))
+        return {vehicles[k]: (float(sch.cost_share[j]) * sch.chargers,
+                              float(sch.peak_contribution[j]) / 1000.0)
+                for j, k in enumerate(idx)}, sch
+
+    coeffs: dict = {}
+    rounds, converged = 1, True
+    while True:
+        final = electric_by_year(transition)[-1]
+        if not final:
+            break
+        new, _ = coefficients(final)
+        pb = transition.problem
+        pos = {v: i for i, v in enumerate(pb.vehicles)}
+        used = {v: (float(pb.charger_need[pos[v]]), float(pb.peak[pos[v]])) for v in new}
+        if all(np.allclose(used[v], new[v], rtol=1e-9, atol=1e-9) for v in new):
+            break
+        if rounds >= DEPOT_ROUNDS:
+            converged = False
+            break
+        coeffs.update(new)
+        transition = resolve(dict(coeffs))
+        rounds += 1
+    transition.depot_rounds, transition.depot_converged = rounds, converged
+
+    sets = electric_by_year(transition)
+    y = transition.yearly
+    memo: dict = {}
+    chargers, peak = [], []
+    for chosen in sets:
+        if chosen not in memo:
+            memo[chosen] = (0, 0.0) if not chosen else (
+                lambda sch: (int(sch.chargers), float(sch.peak_power) / 1000.0))(
+                    coefficients(chosen)[1])
+        chargers.append(memo[chosen][0])
+        peak.append(memo[chosen][1])
+    y["chargers_rederived"] = chargers
+    y["depot_peak_rederived_kw"] = peak
+    short = [(int(r.calendar_year), int(r.chargers_rederived), int(r.chargers))
+             for r in y.itertuples() if r.chargers_rederived > r.chargers]
+    over = [(int(r.calendar_year), r.depot_peak_rederived_kw, r.depot_peak_kw)
+            for r in y.itertuples()
+            if r.depot_peak_rederived_kw > r.depot_peak_kw * (1 + PEAK_TOLERANCE) + 1e-6]
+    grid = [(int(r.calendar_year), r.depot_peak_rederived_kw, r.grid_capacity_kw)
+            for r in y.itertuples() if r.grid_capacity_kw is not None
+            and r.depot_peak_rederived_kw > r.grid_capacity_kw + 1e-6]
+    notes = transition.notes
+    how = (f"settled after {rounds} solve(s)" if converged else
+           f"not settled after {rounds} solves (the trucks chosen kept changing); the last "
+           "plan is kept")
+    notes.append("Depot: each electric truck's charger need and peak are its shares in a "
+                 "depot schedule (tco.depot), added linearly in the programme; they were "
+                 "re-derived from the schedule of the plan's own electric trucks and the plan "
+                 f"re-solved, {how}. The schedule re-run on each year's electric trucks "
+                 + ("agrees with the plan's chargers and peak in every year."
+                    if not (short or over or grid) else "disagrees with the plan:"))
+    for yr, need, have in short:
+        notes.append(f"{yr}: the depot schedule needs {need} chargers, the plan buys {have}.")
+    for yr, kw, plan_kw in over:
+        notes.append(f"{yr}: the depot schedule peaks at {kw:,.0f} kW, the plan counts "
+                     f"{plan_kw:,.0f} kW.")
+    for yr, kw, cap in grid:
+        notes.append(f"{yr}: the depot schedule's peak of {kw:,.0f} kW is over the grid "
+                     f"capacity of {cap:,.0f} kW.")
+    return transition
 
 
 def _routes_table(energies, status, money, sched_all, sched_plan, pos_all, pos_plan):

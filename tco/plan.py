@@ -428,8 +428,10 @@ def solve(pb: PlanProblem, gap: float = 1e-9, time_limit: float | None = None,
                 binds = _what_binds(pb, total_short, gap, time_limit)
             row = np.zeros(model.n)
             row[model.i_s:] = 1.0
+            # HiGHS meets rows to its feasibility tolerance (1e-7), so the first stage's
+            # shortfall can be a little under what the second stage can reach exactly
             extra = LinearConstraint(row[None, :], -np.inf,
-                                     total_short * (1 + 1e-9) + 1e-7)
+                                     total_short * (1 + 1e-7) + 1e-6)
     if res is None:
         res = _run_milp(model, c, lb, ub, extra=extra, gap=gap, time_limit=time_limit)
         _check(res)
@@ -558,6 +560,8 @@ def _shadow_prices(pb, model: _Model, xsol, extra, gap, time_limit, objective) -
 
 
 # =========================================================================== fleet inputs
+from typing import Literal  # noqa: E402
+
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator  # noqa: E402
 
 from tco.errors import InputError  # noqa: E402
@@ -628,6 +632,13 @@ class PlanSettings(Section):
         None, "currency", "Capital budget: one amount for every year, or a table by "
         "calendar year (years left out: no limit)", bounds=(0, MONEY_CEILING),
         usual="none: scales with the fleet")
+    budget_basis: Literal["capital", "cash"] = mfield(
+        "capital", "", "What the capital budget counts in a year: capital (truck prices "
+        "with taxes and fees less grants, chargers, grid connection and upgrade, in the "
+        "year bought, before loans and resale) or cash (the money that leaves the company "
+        "that year: down payments and loan or lease payments of the trucks bought in the "
+        "plan, chargers, grid connection and upgrade, less the resale of the trucks they "
+        "replace)", "assumption: capital, the usual basis of a capital expenditure budget")
     grid_capacity: Qty("kW", ge=0, le=1e6) | None = qfield(
         None, "kW", "Depot grid capacity available for charging (default: no limit; at most "
         "1 GW)", usual=(None, 50_000), usual_source="common practice: a depot on a "
@@ -701,6 +712,12 @@ def load_plan_settings(path) -> PlanSettings:
 # =========================================================================== option flows
 _DEPOT_LINES = None
 _CAPEX_LINES = ("purchase_price", "purchase_taxes_fees", "grant")
+#: Lines of the as-financed flows that are cash paid for a truck (``budget_basis = "cash"``):
+#: the price less the loan drawn is the down payment, then the loan or lease payments; a
+#: truck sold at the end of its own life inside the plan years brings its resale.
+_CASH_LINES = _CAPEX_LINES + ("loan_drawdown", "loan_interest", "loan_principal",
+                              "lease_upfront", "lease_payment", "lease_buyout",
+                              "residual_value")
 _RUNNING_GROUPS = ("energy", "running")
 SCOPES = ("scope_1", "scope_2_location", "scope_2_market", "scope_3_cat3")
 
@@ -748,7 +765,8 @@ def option_flows(inputs, cf, totals) -> dict:
         ``bought`` (2, N, N + 1): each truck bought in plan year t, all lines but the depot
         equipment, by year [currency]; ``capex`` (2, N, N): its capital by plan year (in year t, and again when a
         like truck replaces it at the end of its own life, ``finance.residual_at``)
-        [currency];
+        [currency]; ``cash`` (2, N, N): the cash paid for it by plan year (down payment,
+        loan or lease payments, resale at the end of its own life) [currency];
         ``ok`` (2, N) bool: whether that purchase could be costed; ``running`` (N + 1,):
         the current truck's energy and running costs by year [currency]; ``scopes``
         (2, 4, N): emissions by scope (:data:`SCOPES`) and year of service [t].
@@ -763,11 +781,16 @@ def option_flows(inputs, cf, totals) -> dict:
     groups = {s.name: s.group for s in LINES}
     bought = np.zeros((2, N, N + 1))
     capex = np.zeros((2, N, N))
+    cash = np.zeros((2, N, N))
     ok = np.ones((2, N), dtype=bool)
     settled = _settled(inputs)
+    financed = cashflow.headline_view(inputs.finance) == "unlevered" and any(
+        t.costs.financing.method != "cash" for t in inputs.trucks)
     for t in range(N):
         try:
-            flows = cashflow.compute(dataclasses.replace(settled, purchase_year=t))
+            at_t = dataclasses.replace(settled, purchase_year=t)
+            flows = cashflow.compute(at_t)
+            paid = cashflow.compute(at_t, view="as_financed") if financed else flows
         except InputError:
             ok[:, t] = False
             continue
@@ -776,6 +799,8 @@ def option_flows(inputs, cf, totals) -> dict:
             bought[k, t] = sum((v for name, v in lines.items() if name not in depot),
                                np.zeros(N + 1))
             capex[k, t] = sum(lines[name][:N] for name in _CAPEX_LINES if name in lines)
+            lines = paid.lines[k]
+            cash[k, t] = sum(lines[name][:N] for name in _CASH_LINES if name in lines)
     lines0 = cf.flows.lines[0]
     running = sum((v for name, v in lines0.items() if groups[name] in _RUNNING_GROUPS),
                   np.zeros(N + 1))
@@ -787,7 +812,7 @@ def option_flows(inputs, cf, totals) -> dict:
         if row.frame in SCOPES and row.truck in names and pos[row.year] < N:
             scopes[names.index(row.truck), SCOPES.index(row.frame), pos[row.year]] = \
                 row.kg_co2e / 1000.0
-    return {"bought": bought, "capex": capex, "ok": ok, "running": running,
+    return {"bought": bought, "capex": capex, "cash": cash, "ok": ok, "running": running,
             "scopes": scopes}
 
 
@@ -860,7 +885,9 @@ class FleetPlan:
         (staying diesel), ``saving`` (diesel − choice, without shared depot costs and carbon
         price) [currency], ``loses_money`` (bool), ``reason`` (str).
     yearly : pandas.DataFrame
-        By calendar year: ``calendar_year, capital, capital_budget, chargers_bought,
+        By calendar year: ``calendar_year, capital`` (on the budget's basis),
+        ``capital_outlay`` (capital basis), ``cash_outlay`` (cash basis), ``capital_budget,
+        chargers_bought,
         chargers, depot_peak_kw, grid_capacity_kw, grid_upgrade_ordered, electric_trucks,
         scope_1_t, scope_2_location_t, scope_2_market_t, scope_3_cat3_t, target_t,
         shortfall_t``.
@@ -871,7 +898,12 @@ class FleetPlan:
         ``constraint, calendar_year, dual, unit, step, step_saving``.
     notes : list of str
         What the plan found (target met or missed and by how much, what binds, loss-making
-        routes and why, the linear depot approximations).
+        routes and why, the depot re-derived from the plan's own trucks).
+    depot_rounds : int
+        Solves of the programme with the depot coefficients re-derived from the plan's
+        trucks (:func:`tco.fleet.settle_depot`). [-]
+    depot_converged : bool
+        Whether the last round's trucks gave back the coefficients it was solved with.
     objective : float
         Cost of the plan with the carbon price. [currency]
     present_value : float
@@ -893,6 +925,8 @@ class FleetPlan:
     present_value_diesel: float
     start_year: int
     basis: str
+    depot_rounds: int = 1
+    depot_converged: bool = True
 
 
 def _budget_array(settings: PlanSettings, start: int, N: int, where) -> np.ndarray:
@@ -912,7 +946,8 @@ def _budget_array(settings: PlanSettings, start: int, N: int, where) -> np.ndarr
 
 
 def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: PlanSettings,
-               where=None, gap: float = 1e-6, time_limit: float | None = 120.0) -> FleetPlan:
+               where=None, gap: float = 1e-6, time_limit: float | None = 120.0,
+               depot_override: dict | None = None) -> FleetPlan:
     """Build the fleet's :class:`PlanProblem` from its rows and solve it.
 
     Parameters
@@ -936,6 +971,10 @@ def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: P
     time_limit : float, optional
         Seconds for each integer solve; a solve stopped by it keeps its best plan and the
         notes say how far from proven best it may be. [s]
+    depot_override : dict, optional
+        Vehicle -> (charger need [-], peak contribution [kW]) replacing the shares taken
+        from ``sched`` (re-derived from the depot schedule of the plan's own trucks, see
+        :func:`tco.fleet.settle_depot`).
 
     Returns
     -------
@@ -963,6 +1002,7 @@ def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: P
 
     pv = np.zeros((V, O))
     capex = np.zeros((V, O, N))
+    cash = np.zeros((V, O, N))
     em = np.zeros((V, O, N))
     em_scopes = np.zeros((V, O, len(SCOPES), N))
     allowed = np.zeros((V, O), dtype=bool)
@@ -1000,6 +1040,7 @@ def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: P
         if r < N:
             flows = np.where(y <= r, run, 0.0) * (y >= 1) + resale(r) + f["bought"][0, r]
             capex[v, 0] = f["capex"][0, r]
+            cash[v, 0] = f["cash"][0, r] + resale(r)[:N]
         else:
             flows = run * (y >= 1) + resale(N)
         pv[v, 0] = flows @ disc
@@ -1009,6 +1050,7 @@ def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: P
             flows = np.where(y <= t, run, 0.0) * (y >= 1) + resale(t) + f["bought"][1, t]
             pv[v, o] = flows @ disc
             capex[v, o] = f["capex"][1, t]
+            cash[v, o] = f["cash"][1, t] + resale(t)[:N]
             served = np.arange(1, N + 1) > t
             em_scopes[v, o] = np.where(served, sc[1], sc[0])
             in_window = earliest <= t <= r and f["ok"][1, t]
@@ -1025,6 +1067,8 @@ def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: P
     for j, veh in enumerate(sched_vehicles):
         need[vpos[veh]] = float(sched.cost_share[j]) * sched.chargers
         peak[vpos[veh]] = float(sched.peak_contribution[j]) / 1000.0
+    for veh, (k, kw) in (depot_override or {}).items():
+        need[vpos[veh]], peak[vpos[veh]] = k, kw
     d = s.depot
     ch_pv, ch_capex = charger_costs(d, s.prices, fin_, N)
     e_eq = s.prices.escalation.equipment
@@ -1054,7 +1098,8 @@ def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: P
         limit = (1 - target.reduction) * base_t
 
     pb = PlanProblem(
-        vehicles=[e.row.vehicle for e in energies], pv=pv, capex=capex, emissions=em,
+        vehicles=[e.row.vehicle for e in energies], pv=pv,
+        capex=cash if settings.budget_basis == "cash" else capex, emissions=em,
         allowed=allowed, discount=disc[1:], carbon_price=settings.carbon_price,
         charger_need=need, charger_pv=ch_pv, charger_capex=ch_capex,
         connection_pv=conn_capex * disc[:N], connection_capex=conn_capex, peak=peak,
@@ -1112,8 +1157,11 @@ def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: P
     schedule = pd.DataFrame.from_records(rows)
     X = np.zeros((V, O))
     X[np.arange(V), sol.choice] = 1.0
-    cap_by_year = np.einsum("vo,vot->t", X, capex) + ch_capex * sol.chargers_bought + \
-        conn_capex * sol.connection + up_capex * sol.upgrade
+    depot_by_year = ch_capex * sol.chargers_bought + conn_capex * sol.connection + \
+        up_capex * sol.upgrade
+    capital_by_year = np.einsum("vo,vot->t", X, capex) + depot_by_year
+    cash_by_year = np.einsum("vo,vot->t", X, cash) + depot_by_year
+    cap_by_year = cash_by_year if settings.budget_basis == "cash" else capital_by_year
     S = np.zeros((V, N))  # electric in service after plan year t (from service year t + 1)
     for v in range(V):
         if sol.choice[v] > 0:
@@ -1125,6 +1173,7 @@ def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: P
     yearly = pd.DataFrame({
         "calendar_year": start + np.arange(N),
         "capital": cap_by_year,
+        "capital_outlay": capital_by_year, "cash_outlay": cash_by_year,
         "capital_budget": [None if not np.isfinite(b) else float(b) for b in pb.budget],
         "chargers_bought": sol.chargers_bought, "chargers": sol.chargers(),
         "depot_peak_kw": S.T @ peak,
@@ -1159,6 +1208,10 @@ def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: P
 
     notes = []
     cur = s.study.currency
+    if settings.budget_basis == "cash":
+        notes.append("The budget counts cash: down payments and loan or lease payments of "
+                     "the trucks bought in the plan, chargers, grid connection and upgrade, "
+                     "less the resale of the trucks they replace.")
     if sol.status != "optimal":
         notes.append(f"HiGHS stopped before proving the plan best ({sol.status}); the plan "
                      f"kept is within {sol.mip_gap:.2%} of the best possible.")
@@ -1180,9 +1233,6 @@ def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: P
     n_lossy = int(np.sum((best_e > pv[:, 0]) & ~chosen_e & allowed[:, 1:].any(axis=1)))
     if n_lossy:
         notes.append(f"{n_lossy} feasible route(s) that would lose money stay diesel.")
-    notes.append("Each electric truck's charger need and peak are its shares in the depot "
-                 "schedule of every feasible route (tco.depot), added linearly as trucks "
-                 "join; re-run the depot schedule on the final plan before ordering.")
     pv_plan = float(sum(pv[v, sol.choice[v]] for v in range(V)) + ch_pv @ sol.chargers_bought
                     + (conn_capex * disc[:N]) @ sol.connection
                     + (up_capex * disc[:N]) @ sol.upgrade)

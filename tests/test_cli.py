@@ -127,7 +127,7 @@ def test_fleet_demo_json_only(capsys, tmp_path):
     code, out, err = run(capsys, "fleet", "--out", str(tmp_path), "--json-only", "--jobs", "1")
     assert code == 0, err
     data = json.loads((tmp_path / "demo-fleet" / "fleet.json").read_text())
-    assert data["schema"] == "tco.fleet.summary/1.1"
+    assert data["schema"] == "tco.fleet.summary/1.2"
     assert "routes feasible" in out and str(tmp_path / "demo-fleet" / "fleet.json") in out
 
 

@@ -89,7 +89,7 @@ def test_fleet_json_and_workbook_show_the_same_plan(run, tmp_path):
     _, _, _, res, _ = run
     s = build_fleet_summary(res)
     tr = s["transition"]
-    assert s["schema"] == "tco.fleet.summary/1.1"
+    assert s["schema"] == "tco.fleet.summary/1.2"
     assert tr["electric_vehicles"] == int((res.transition.schedule["decision"]
                                            == "electric").sum())
     assert tr["pv_saving"] == pytest.approx(tr["pv_all_diesel"] - tr["pv_plan"])
@@ -175,3 +175,161 @@ def test_plan_sheets_recalculate_to_fleet_json(run, tmp_path):
                  for row in ws.iter_rows() for c in row
                  if c.data_type == "f" and (ws.title, c.coordinate) not in checked]
     assert unchecked == []
+
+
+# ------------------------------------------------------------------ budget basis: cash
+@pytest.fixture(scope="module")
+def cash_run(run):
+    """The same fleet and budget, counted on the cash basis (budget_basis = "cash")."""
+    loaded, rows, fleet, _, budget = run
+    settings = PlanSettings(capital_budget=budget, budget_basis="cash",
+                            target=TargetSettings(reduction=0.4, year=2030))
+    return evaluate_fleet(loaded, rows, fleet, jobs=1, plan=settings)
+
+
+def test_cash_basis_counts_down_payments_loan_service_and_resale(run, cash_run):
+    """Cash basis, worked by hand from the base scenario: both trucks are financed by a
+    loan (20 % down, 5.5 % a year, 60 monthly instalments); each current truck sells for
+    its resale value 40,000 now, declining 16 % a year (the diesel tractor's residual
+    rate): 40,000 × 0.84 = 33,600 in 2028.
+
+    On the capital basis one electric truck must go in 2027 (test above). In cash, the
+    budget of 500,000 no longer binds, so both electric trucks wait for 2028, the cheaper
+    year for a truck that loses money:
+
+    - 2028: down payments 2 × 20 % × (265,000 × 1.02 + 2,500 − 45,000) = 2 × 45,560 and
+      20 % × (125,000 × 1.02 + 2,500) = 26,000 for the new diesel; one charger
+      80,000 × 1.02 = 81,600 and the grid connection 25,000 × 1.02 = 25,500; less three
+      resales of 33,600: 91,120 + 26,000 + 81,600 + 25,500 − 100,800 = 123,420.
+    - 2029 to 2033 (five years): the instalments of the three loans, 12 × monthly payment on
+      2 × 182,240 + 104,000 = 468,480 (numpy_financial.pmt, the reference library).
+    - capital_outlay keeps the capital basis: 2 × 227,800 + 130,000 + 81,600 + 25,500
+      = 692,700 in 2028, more than the budget, which the cash basis does not count.
+    """
+    import numpy_financial as npf
+
+    tp = cash_run.transition
+    sched = tp.schedule
+    assert sorted(sched[sched["decision"] == "electric"]["purchase_year"]) == [2028, 2028]
+    y = tp.yearly
+    assert y["capital"].tolist()[:2] == pytest.approx([0.0, 123_420.0])
+    assert y["cash_outlay"].tolist()[:2] == pytest.approx([0.0, 123_420.0])
+    assert y["capital_outlay"].tolist()[:2] == pytest.approx([0.0, 692_700.0])
+    service = 12 * npf.pmt(0.055 / 12, 60, -468_480.0)
+    assert y["capital"].tolist()[2:7] == pytest.approx([service] * 5, rel=1e-9)
+    assert y["capital"].tolist()[7:] == pytest.approx([0.0] * (len(y) - 7), abs=1e-6)
+    assert (y["capital"] <= 500_000.0).all()
+    # the capital-basis run reports the cash of its own plan beside it: in 2027 the
+    # down payment 20 % × 222,500 = 44,500, charger 80,000 and connection 25,000, less
+    # the resale 40,000 of the truck replaced
+    cap = run[3].transition.yearly
+    assert cap["cash_outlay"].iloc[0] == pytest.approx(109_500.0)
+    assert cap["capital"].tolist()[:2] == cap["capital_outlay"].tolist()[:2]
+
+
+def test_budget_basis_is_shown_in_fleet_json_report_and_workbook(cash_run):
+    from tco.report.fleet_plan import transition_context
+    from tco.report.fleet_report import build_fleet_workbook
+    from tco.report.fleet_summary import build_fleet_summary
+
+    s = build_fleet_summary(cash_run)
+    tr = s["transition"]
+    assert tr["settings"]["budget_basis"] == "cash"
+    assert [r["capital"] for r in tr["yearly"]][:2] == pytest.approx([0.0, 123_420.0])
+    assert tr["yearly"][1]["capital_outlay"] == pytest.approx(692_700.0)
+    ctx = transition_context(s)
+    assert ctx["yearly"]["columns"][1] == "Cash out [EUR]"
+    assert "Cash out (the budget's basis)" in ctx["yearly"]["note"]
+    assert any("The budget counts cash" in n for n in tr["notes"])
+    ws = build_fleet_workbook(cash_run, s)["Plan by year"]
+    assert ws["B1"].value == "Cash out (budget basis) [EUR]"
+    assert ws["B3"].value == pytest.approx(123_420.0)
+    assert ws["Q1"].value == "Capital [EUR]" and ws["Q3"].value == pytest.approx(692_700.0)
+
+
+def test_budget_basis_must_be_capital_or_cash(tmp_path):
+    from tco.plan import load_plan_settings
+
+    p = tmp_path / "plan.toml"
+    p.write_text('[plan]\nbudget_basis = "loans"\n', encoding="utf-8")
+    with pytest.raises(InputError, match=r"plan\.budget_basis.*capital' or 'cash"):
+        load_plan_settings(p)
+
+
+# ------------------------------------------------------------------ the depot re-derived
+def test_depot_is_rederived_from_the_plans_own_trucks(run):
+    """The first solve takes each truck's charger need and peak from the schedule of all
+    three feasible routes (a third of a charger each); the plan's two electric trucks are
+    then scheduled on their own and the plan re-solved with their shares (half a charger
+    each), which gives back the same trucks: settled after 2 solves.
+
+    By hand (first_come, one 100 kW charger): in 2027 one electric truck charges alone at
+    the charger's full 100 kW, so the schedule re-run on that year's trucks peaks at
+    100 kW, while the plan counts that truck's linear share of the two-truck peak (its
+    contribution when both charge, below 100 kW): the note names 2027. From 2028 both
+    trucks share one charger, which draws at most 100 kW: plan and schedule agree.
+    """
+    tp = run[3].transition
+    assert tp.depot_rounds == 2 and tp.depot_converged
+    pb = tp.problem
+    electric = set(tp.schedule[tp.schedule["decision"] == "electric"]["vehicle"])
+    for v, name in enumerate(pb.vehicles):
+        if name in electric:
+            assert pb.charger_need[v] == pytest.approx(0.5)
+    y = tp.yearly
+    assert y["chargers_rederived"].tolist() == [1] * len(y)
+    assert y["depot_peak_rederived_kw"].tolist() == pytest.approx([100.0] * len(y))
+    assert y["depot_peak_kw"].iloc[0] < 100.0
+    assert y["depot_peak_kw"].iloc[1:].tolist() == pytest.approx([100.0] * (len(y) - 1))
+    flagged = [n for n in tp.notes if n.startswith("20")]
+    assert len(flagged) == 1 and flagged[0].startswith("2027: the depot schedule peaks at "
+                                                       "100 kW")
+
+
+def test_depot_rounds_are_bounded_and_say_when_unsettled():
+    """A plan whose chosen trucks and depot coefficients change at every re-solve stops
+    after DEPOT_ROUNDS solves and says it is not settled."""
+    from types import SimpleNamespace
+
+    import numpy as np
+    import pandas as pd
+
+    from tco.fleet import DEPOT_ROUNDS, settle_depot
+
+    def plan(chosen, coeffs):
+        sched = pd.DataFrame({"vehicle": ["A", "B"],
+                              "decision": ["electric" if v == chosen else "diesel"
+                                           for v in "AB"],
+                              "purchase_year": [2027 if v == chosen else None for v in "AB"]})
+        need = np.array([coeffs.get(v, (0.3, 10.0))[0] for v in "AB"])
+        peak = np.array([coeffs.get(v, (0.3, 10.0))[1] for v in "AB"])
+        yearly = pd.DataFrame({"calendar_year": [2027, 2028], "chargers": [1, 1],
+                               "depot_peak_kw": [50.0, 50.0],
+                               "grid_capacity_kw": [None, None]})
+        return SimpleNamespace(schedule=sched, yearly=yearly, notes=[],
+                               problem=SimpleNamespace(vehicles=["A", "B"],
+                                                       charger_need=need, peak=peak))
+
+    solves = []
+
+    def resolve(coeffs):  # flips to the other truck every time
+        solves.append(coeffs)
+        return plan("B" if len(solves) % 2 else "A", coeffs)
+
+    runs = []
+
+    def schedule_of(vehicles):  # a whole charger; a peak that moves with every run
+        runs.append(vehicles)
+        kw = 40_000.0 + 1_000.0 * len(runs)
+        return [0 if v == "A" else 1 for v in sorted(vehicles)], SimpleNamespace(
+            cost_share=np.ones(len(vehicles)), chargers=1,
+            peak_contribution=np.full(len(vehicles), kw), peak_power=kw)
+
+    out = settle_depot(plan("A", {}), resolve, schedule_of, ["A", "B"])
+    assert len(solves) == DEPOT_ROUNDS - 1
+    assert out.depot_rounds == DEPOT_ROUNDS and not out.depot_converged
+    assert "not settled after 4 solves" in out.notes[0]
+    assert out.yearly["chargers_rederived"].tolist() == [1, 1]
+    # the last plan's own year-by-year re-run (one more schedule, same trucks both years)
+    assert out.yearly["depot_peak_rederived_kw"].tolist() == \
+        [40.0 + len(runs), 40.0 + len(runs)]

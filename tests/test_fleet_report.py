@@ -132,10 +132,10 @@ def test_summary_is_strict_json_with_schema_and_fingerprints(fleet, summary):
     text = dumps(summary)
     back = json.loads(text, parse_constant=_reject)  # NaN / Infinity would raise
     assert back == summary
-    assert summary["schema"] == SCHEMA == "tco.fleet.summary/1.1"
+    assert summary["schema"] == SCHEMA == "tco.fleet.summary/1.2"
     assert summary["created"] == CREATED
     # shared with summary.json and the batch index.json (added beside the old keys)
-    assert summary["schema_version"] == "1.1" and summary["generated"] == CREATED
+    assert summary["schema_version"] == "1.2" and summary["generated"] == CREATED
     assert summary["tool"]["name"] == "tco"
     inputs = summary["inputs"]
     assert inputs["base_fingerprint_sha256"] == fleet.base.fingerprint

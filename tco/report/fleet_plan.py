@@ -21,12 +21,17 @@ diesel_replacement_year, pv, pv_diesel, saving, loses_money, reason``) ·
 capital_budget, chargers_bought, chargers, depot_peak_kW, grid_capacity_kW,
 grid_upgrade_ordered, electric_trucks, scope_1_t, scope_2_location_t, scope_2_market_t,
 scope_3_cat3_t, scope_1_2_t`` (Scope 1 + Scope 2 on the target's basis), ``target_t``,
-``shortfall_t``) · ``macc`` (records in order of cost per tonne: ``vehicle,
+``shortfall_t``; since 1.2: ``capital_outlay`` (capital basis), ``cash_outlay`` (cash
+basis; ``capital`` is the one on ``settings.budget_basis``), ``chargers_rederived`` and
+``depot_peak_rederived_kW`` (the depot schedule re-run on that year's electric trucks)) · ``macc`` (records in order of cost per tonne: ``vehicle,
 cost_per_t, avoided_t, cumulative_t``) · ``shadow_prices`` (records: ``constraint``
 (budget, grid or target), ``calendar_year``, ``binding``, ``slack``, ``dual`` (LP
 relaxation, currency per unit of right-hand side), ``near`` (slack within 5 % of the
 limit), ``unit``, ``step``, ``step_saving``
-(integer re-solve, currency)) · ``notes`` (list of str).
+(integer re-solve, currency)) · ``notes`` (list of str) · since 1.2: ``depot_rounds``
+(solves with the depot coefficients re-derived from the plan's trucks), ``depot_settled``
+(bool: the last solve's trucks gave back its coefficients) and ``settings.budget_basis``
+(``capital`` or ``cash``).
 """
 from __future__ import annotations
 
@@ -78,6 +83,10 @@ def transition_summary(result) -> dict | None:
             "scope_2_market_t": _f(r["scope_2_market_t"]),
             "scope_3_cat3_t": _f(r["scope_3_cat3_t"]),
             "target_t": _f(r["target_t"]), "shortfall_t": _f(r["shortfall_t"]),
+            "capital_outlay": _f(r.get("capital_outlay")),
+            "cash_outlay": _f(r.get("cash_outlay")),
+            "chargers_rederived": _i(r.get("chargers_rederived")),
+            "depot_peak_rederived_kW": _f(r.get("depot_peak_rederived_kw")),
         }
         rec["scope_1_2_t"] = rec["scope_1_t"] + rec[s2]
         yearly.append(rec)
@@ -108,6 +117,7 @@ def transition_summary(result) -> dict | None:
             "grid_upgrade_cost": st.grid_upgrade_cost,
             "grid_upgrade_lead_time_yr": st.grid_upgrade_lead_time,
             "carbon_price_per_t": st.carbon_price,
+            "budget_basis": st.budget_basis,
             "target": target,
         },
         "target_met": None if st.target is None else bool(sol.target_met),
@@ -132,6 +142,8 @@ def transition_summary(result) -> dict | None:
             "unit": r["unit"], "step": _f(r["step"]), "step_saving": _f(r["step_saving"])}
             for r in tp.shadow.to_dict("records")],
         "notes": list(tp.notes),
+        "depot_rounds": int(getattr(tp, "depot_rounds", 1)),
+        "depot_settled": bool(getattr(tp, "depot_converged", True)),
     }
 
 
@@ -208,23 +220,33 @@ def transition_context(summary: dict) -> dict | None:
                "Present values of each vehicle's own cash flows (truck, energy, running "
                "costs, resale of the current truck), shared depot costs and the carbon price "
                "left out. An electric truck bought in a year runs from that year.")
+    bb = tr["settings"].get("budget_basis", "capital")
+    spent = "Cash out" if bb == "cash" else "Capital"
     yearly = _t("Capital, depot and emissions by year",
-                ["Year", f"Capital [{cur}]", f"Budget [{cur}]", "Chargers (new)",
-                 "Depot peak [kW]", "Grid capacity [kW]", "Electric trucks",
+                ["Year", f"{spent} [{cur}]", f"Budget [{cur}]", "Chargers (new)",
+                 "Depot peak [kW]", "Schedule re-run: chargers, peak [kW]",
+                 "Grid capacity [kW]", "Electric trucks",
                  "Scope 1 [t]", f"Scope 2 {basis} [t]", "Scope 3 cat. 3 [t]",
-                 "Target [t]", "Over target [t]"], "rrrrrrrrrrrr",
+                 "Target [t]", "Over target [t]"], "rrrrrrrrrrrrr",
                 [[str(r["calendar_year"]), _n(r["capital"]),
                   "–" if r["capital_budget"] is None else _n(r["capital_budget"]),
                   f"{r['chargers']} ({r['chargers_bought']})", _n(r["depot_peak_kW"]),
+                  "–" if r.get("chargers_rederived") is None else
+                  f"{r['chargers_rederived']}, {_n(r['depot_peak_rederived_kW'])}",
                   "–" if r["grid_capacity_kW"] is None else _n(r["grid_capacity_kW"])
                   + (" (upgrade ordered)" if r["grid_upgrade_ordered"] else ""),
                   str(r["electric_trucks"]), _n(r["scope_1_t"], 1),
                   _n(r[f"scope_2_{basis}_t"], 1), _n(r["scope_3_cat3_t"], 1),
                   "–" if r["target_t"] is None else _n(r["target_t"], 1),
                   _n(r["shortfall_t"], 1)] for r in tr["yearly"]],
-                "Capital: truck prices with taxes and fees less grants, chargers, the grid "
-                "connection and upgrade, in the year bought (loans and resale proceeds not "
-                "netted). Emissions of the year's service; the target covers Scope 1 + 2.")
+                (("Cash out (the budget's basis): down payments and loan or lease payments "
+                  "of the trucks bought in the plan, chargers, the grid connection and "
+                  "upgrade, less the resale of the trucks replaced. ") if bb == "cash" else
+                 ("Capital (the budget's basis): truck prices with taxes and fees less "
+                  "grants, chargers, the grid connection and upgrade, in the year bought "
+                  "(loans and resale proceeds not netted). "))
+                + "Schedule re-run: the depot schedule of that year's electric trucks. "
+                "Emissions of the year's service; the target covers Scope 1 + 2.")
     shadow = _t("Shadow prices of the budget, grid and target constraints",
                 ["Constraint", "Year", "Binding", "Slack", "Marginal value (LP)",
                  "Step", f"Saving of the step [{cur}]"], "lrlrrrr",
@@ -327,11 +349,14 @@ def add_transition_sheets(wb, summary: dict) -> None:
                         10: 11, 11: 60})
 
     ws = wb.create_sheet("Plan by year")
-    heads = ["Year", f"Capital [{cur}]", f"Budget [{cur}]", f"Headroom [{cur}]",
+    bb = tr["settings"].get("budget_basis", "capital")
+    heads = ["Year", f"{'Cash out' if bb == 'cash' else 'Capital'} (budget basis) [{cur}]",
+             f"Budget [{cur}]", f"Headroom [{cur}]",
              "Chargers bought", "Chargers", "Depot peak [kW]", "Grid capacity [kW]",
              "Grid headroom [kW]", "Electric trucks", "Scope 1 [t]",
              f"Scope 2 {basis} [t]", "Scope 1 + 2 [t]", "Scope 3 cat. 3 [t]", "Target [t]",
-             "Over target [t]"]
+             "Over target [t]", f"Capital [{cur}]", f"Cash out [{cur}]",
+             "Chargers (schedule re-run)", "Depot peak, schedule re-run [kW]"]
     wbb.header_row(ws, 1, heads)
     wbb.freeze(ws, "B2")
     yr = tr["yearly"]
@@ -356,10 +381,14 @@ def add_transition_sheets(wb, summary: dict) -> None:
         write_value(ws.cell(row=row, column=15), r["target_t"], wbb.MASS)
         ws.cell(row=row, column=16, value=f'=IF(O{row}="",0,MAX(0,M{row}-O{row}))'
                 ).number_format = wbb.MASS
+        write_value(ws.cell(row=row, column=17), r.get("capital_outlay"), wbb.MONEY)
+        write_value(ws.cell(row=row, column=18), r.get("cash_outlay"), wbb.MONEY)
+        write_value(ws.cell(row=row, column=19), r.get("chargers_rederived"), wbb.INTEGER)
+        write_value(ws.cell(row=row, column=20), r.get("depot_peak_rederived_kW"), wbb.ENERGY)
     last = 1 + len(yr)
     safe_text(ws.cell(row=last + 1, column=1), "Total")
     ws.cell(row=last + 1, column=2, value=f"=SUM(B2:B{last})").number_format = wbb.MONEY
-    wbb.set_widths(ws, {c: 14 for c in range(1, 17)})
+    wbb.set_widths(ws, {c: 14 for c in range(1, 21)})
     if len(yr) > 1:
         wbb.add_chart(ws, "line", data_ws=ws, header_row=1, first_row=2, last_row=last,
                       cat_col=1, first_col=13, last_col=13, anchor=f"A{last + 4}",

@@ -1,6 +1,6 @@
 """``fleet.json``: the machine-readable result of a fleet, with stable key names.
 
-Schema id :data:`SCHEMA` (``"tco.fleet.summary/1.1"``; 1.1 added ``transition``). Units are in the key names
+Schema id :data:`SCHEMA` (``"tco.fleet.summary/1.2"``; 1.1 added ``transition``; 1.2 added the plan's budget basis, cash and capital outlays and the re-derived depot by year). Units are in the key names
 (``_km``, ``_kWh``, ``_kW``, ``_L``, ``_t``, ``_h``); money is in the base scenario's
 ISO 4217 currency (``currency``), present values at the base scenario's discount rate;
 shares are fractions (0.25 = 25 %). NaN and infinity are written as null.
@@ -11,7 +11,7 @@ This dict is the one source of every figure the fleet report and workbook show
 Top-level keys
 --------------
 ``schema``, ``tool`` ``{name, version}``, ``created`` (ISO 8601, UTC);
-``schema_version`` (``"1.1"``, the version part of ``schema``) and ``generated`` (equal
+``schema_version`` (``"1.2"``, the version part of ``schema``) and ``generated`` (equal
 to ``created``), added so that summary.json, fleet.json and a batch's index.json share
 ``schema_version``, ``tool`` and ``generated``
 ``study``
@@ -65,7 +65,7 @@ from tco.report.summary import clean_json, dumps
 __all__ = ["SCHEMA", "build_fleet_summary", "dumps", "file_sha256", "depot_vehicles",
            "interval_means", "route_records", "order_records", "yearly_records", "clock"]
 
-SCHEMA = "tco.fleet.summary/1.1"
+SCHEMA = "tco.fleet.summary/1.2"
 from tco.units import J_PER_KWH  # noqa: E402  [J/kWh]
 W_PER_KW = 1e3
 M_PER_KM = 1e3
