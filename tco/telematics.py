@@ -52,7 +52,9 @@ Per vehicle-day
    used as given, integrated to an elevation z_{i+1} = z_i + g_i · Δd_i starting at the
    scenario's ``ambient.altitude``. The stint is resampled to the scenario's
    ``route.time_step`` with :func:`tco.dutycycle.resample`. A stint shorter than one time
-   step is dropped (``samples_unused``).
+   step is dropped (``samples_unused``). Steps 1–3 and the payload of step 4 run as one
+   compiled pass per vehicle-day, :func:`tco.stints.prepare_day` (the same methods, the
+   same numbers to about 1e-14; see there).
 4. Legs: wherever the payload changes the kernel starts a new leg with mass
    curb mass + payload. The payload of a resampled sample is that of the latest source
    sample at or before its time. The measured payload is driven even where a candidate
@@ -90,7 +92,7 @@ from urllib.parse import unquote
 import numpy as np
 import pandas as pd
 
-from tco import dutycycle, electric, energy, kernel, operation
+from tco import dutycycle, electric, energy, kernel, operation, stints
 from tco.errors import InputError
 from tco.report import formatting as fm
 
@@ -472,51 +474,6 @@ def _read_columns(table, file, hive):
 
 
 # ============================================================================ one vehicle-day
-class _Day(NamedTuple):
-    speed: np.ndarray      # [m/s] at each resampled sample, stints back to back
-    grade: np.ndarray      # [-]
-    elevation: np.ndarray  # [m]
-    payload: np.ndarray    # [kg]
-    gaps: int
-    gap_time: float        # [s]
-    unused: int            # source samples in dropped stints
-
-
-def _stint(t, v, zg, is_grade, payload, dt, window, base_altitude):
-    """Resample one stint; returns (speed, grade, elevation, payload) per sample."""
-    s = np.concatenate(([0.0], np.cumsum(0.5 * (v[1:] + v[:-1]) * np.diff(t))))
-    if is_grade:
-        z = base_altitude + np.concatenate(([0.0], np.cumsum(zg[:-1] * np.diff(s))))
-    elif window:
-        z = dutycycle.smooth_elevation(s, zg, window)
-    else:
-        z = zg
-    tr = dutycycle.resample_arrays(t, s, z, dt, speed=v)
-    # source time of each output sample (the time axis may be stretched by time_scale)
-    src = tr.time / tr.time_scale
-    k = np.clip(np.searchsorted(t - t[0], src * (1 + 1e-12), side="right") - 1, 0, t.size - 1)
-    return tr.speed, tr.grade, tr.elevation, payload[k]
-
-
-def _vehicle_day(t, v, zg, is_grade, payload, dt, window, gap_limit, base_altitude):
-    """Stints of a sorted, de-duplicated vehicle-day, resampled and joined; None when no
-    stint lasts a time step."""
-    cuts = np.flatnonzero(np.diff(t) > gap_limit) + 1
-    edges = np.concatenate(([0], cuts, [t.size]))
-    parts, unused = [], 0
-    for a, b in zip(edges[:-1], edges[1:]):
-        if b - a < 2 or t[b - 1] - t[a] < dt * (1 - 1e-9):
-            unused += b - a
-            continue
-        parts.append(_stint(t[a:b], v[a:b], zg[a:b], is_grade, payload[a:b], dt, window,
-                            base_altitude))
-    if not parts:
-        return None
-    gap_time = float(np.sum(t[cuts] - t[cuts - 1])) if cuts.size else 0.0
-    speed, grade, elev, pay = (np.concatenate(x) for x in zip(*parts))
-    return _Day(speed, grade, elev, pay, int(cuts.size), gap_time, unused)
-
-
 class _Truck(NamedTuple):
     """A scenario truck's kernel parameters that do not depend on the day."""
 
@@ -543,7 +500,7 @@ def _trucks(scenario) -> list[_Truck]:
     return out
 
 
-def _drive(day: _Day, tk: _Truck, ambient, dt, mean_elevation) -> dict:
+def _drive(day: stints.PreparedDay, tk: _Truck, ambient, dt, mean_elevation) -> dict:
     """One truck through one vehicle-day: the figures of its output row."""
     truck = tk.truck
     veh = energy.vehicle_parameters(truck, ambient, mean_elevation)
@@ -669,18 +626,15 @@ def _process_columns(columns, scenario, source, file, gap_limit) -> PartitionRes
     for a, b in zip(bounds[:-1], bounds[1:]):
         vehicle = ids[codes[a]]
         date = str(np.datetime64(int(day[a]), "D"))
-        tg = t[a:b]
-        keep = np.concatenate(([True], np.diff(tg) > 0))
-        dups = int(b - a - keep.sum())
-        args = (tg[keep], speed[a:b][keep], zg[a:b][keep], is_grade, payload[a:b][keep])
         try:
-            d = _vehicle_day(*args, dt, window, gap_limit, float(ambient.altitude))
+            d = stints.prepare_day(t[a:b], speed[a:b], zg[a:b], payload[a:b], is_grade, dt,
+                                   window, gap_limit, float(ambient.altitude))
         except InputError as exc:
             where = f" ({exc.where})" if exc.where else ""
             raise InputError(f"vehicle {vehicle!r} on {date}: {exc.message}{where}",
                              file=file, where="grade" if is_grade else "elevation") from None
-        used = int(keep.sum())
-        if d is None:
+        dups, used = d.duplicates, d.kept
+        if d.speed is None:
             skipped.append((vehicle, date, source, used,
                             "no stretch of samples lasting one time step between gaps"))
             continue
