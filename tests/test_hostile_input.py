@@ -614,6 +614,42 @@ def test_batch_file_names_and_errors_are_cleaned():
     assert o.file == "a\ufffd[2Jb.toml" and o.error == "first\\nsecond\ufffd"
 
 
+NAMES_WITH_EMOJI_AND_RTL = "חשמלי 🚚 كهربائي ✓ 🚛"
+
+
+def test_chart_fonts_have_every_character_of_emoji_and_rtl_names():
+    """The charts' font list has a glyph for each character (DejaVu Sans: Hebrew, Arabic,
+    ✓; Symbola, Debian package fonts-symbola, installed by .ci/run: the emoji), so a chart
+    drawn with such a name raises no missing-glyph warning even with the warning filter
+    of tco.report.charts turned off."""
+    import warnings
+
+    from matplotlib import font_manager
+    from matplotlib.ft2font import FT2Font
+
+    from tco.report.charts import chart_style, font_families, new_figure
+
+    fonts = [FT2Font(font_manager.findfont(f, fallback_to_default=False))
+             for f in font_families()]
+    missing = [c for c in NAMES_WITH_EMOJI_AND_RTL
+               if c != " " and not any(f.get_char_index(ord(c)) for f in fonts)]
+    assert missing == [], f"no chart font has {missing} (fonts: {font_families()})"
+
+    import io
+
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.resetwarnings()
+        warnings.simplefilter("always")
+        with chart_style():
+            fig, axes = new_figure(1.5)
+            ax = axes[0, 0]
+            ax.set_title(NAMES_WITH_EMOJI_AND_RTL)
+            ax.bar([NAMES_WITH_EMOJI_AND_RTL, "Diesel"], [1.0, 2.0])
+            fig.savefig(io.BytesIO(), format="png")  # Agg draws every glyph
+    glyph = [str(w.message) for w in caught if "missing from" in str(w.message)]
+    assert glyph == []
+
+
 @pytest.mark.slow
 def test_full_report_with_emoji_rtl_and_control_characters(tmp_path):
     """Every output of a run whose names hold emoji, right-to-left text and control
@@ -633,6 +669,15 @@ def test_full_report_with_emoji_rtl_and_control_characters(tmp_path):
     html = (folder / "report.html").read_text(encoding="utf-8")
     assert "\x1b" not in html and "\x07" not in html and "\x00" not in html
     assert "חשמלי 🚚 كهربائي" in html
+    # the text reaches the PDF as text (poppler's pdftotext), the emoji from a font that has
+    # it (Symbola, from fonts-symbola; pdffonts lists the embedded fonts)
+    pdf = subprocess.run(["pdftotext", str(folder / "report.pdf"), "-"], capture_output=True,
+                         text=True, check=True).stdout
+    for word in ("חשמלי", "🚚", "كهربائي", "✓", "🚛"):
+        assert word in pdf, word
+    fonts = subprocess.run(["pdffonts", str(folder / "report.pdf")], capture_output=True,
+                           text=True, check=True).stdout
+    assert "Symbola" in fonts
     summary = (folder / "summary.json").read_text(encoding="utf-8")
     assert "\\u001b" not in summary and "\\u0007" not in summary
     import openpyxl

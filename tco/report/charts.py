@@ -88,7 +88,19 @@ def font_families() -> list[str]:
     """DejaVu Sans, then every installed font of :data:`FALLBACK_FONTS`."""
     from matplotlib import font_manager
 
-    installed = {f.name for f in font_manager.fontManager.ttflist}
+    fm = font_manager.fontManager
+    installed = {f.name for f in fm.ttflist}
+    if not set(FALLBACK_FONTS) <= installed:
+        # matplotlib's font cache is written once; a font installed after it (e.g. the
+        # fonts-symbola package) is found by adding the system's font files it lacks
+        known = {f.fname for f in fm.ttflist}
+        for path in font_manager.findSystemFonts():
+            if path not in known:
+                try:
+                    fm.addfont(path)
+                except (OSError, RuntimeError, ValueError):
+                    continue  # an unreadable font file: skipped
+        installed = {f.name for f in fm.ttflist}
     return ["DejaVu Sans"] + [f for f in FALLBACK_FONTS if f in installed]
 
 

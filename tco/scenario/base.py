@@ -249,8 +249,8 @@ def _unit_text(unit: str) -> str:
 def _show_usual(low, high, unit: str) -> str:
     u = _unit_text(unit)
     if low is not None and high is not None:
-        return f"{low:g} to {high:g}{u}"
-    return f"at least {low:g}{u}" if low is not None else f"at most {high:g}{u}"
+        return f"{low:,g} to {high:,g}{u}"
+    return f"at least {low:,g}{u}" if low is not None else f"at most {high:,g}{u}"
 
 
 def unusual_values(model: BaseModel, prefix: str = "", currency: str | None = None
@@ -305,7 +305,7 @@ def unusual_values(model: BaseModel, prefix: str = "", currency: str | None = No
                 if isinstance(value, dict):
                     where = f"{path}[{list(value)[k]}]"
                 shown_unit = extra.get("unit", "") or ""
-                out.append(f"{where} = {shown:g}{_unit_text(shown_unit)} is outside the "
+                out.append(f"{where} = {shown:,g}{_unit_text(shown_unit)} is outside the "
                            f"usual range ({_show_usual(low, high, shown_unit)}); check that "
                            "it is meant")
                 break
