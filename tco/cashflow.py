@@ -122,7 +122,6 @@ LineSpec = _cl.CostLine
 #: the model reads :func:`tco.cost_lines.registry`, which a test may extend). A line that
 #: is zero in every year for a truck is left out of that truck's table rows.
 LINES: tuple[LineSpec, ...] = _cl.REGISTRY
-_LINE_NAMES = tuple(s.name for s in LINES)
 DEDUCTIBLE = tuple(s.name for s in LINES if s.deductible)
 
 #: The order in which the lines of the default registry enter a truck's running sums (the

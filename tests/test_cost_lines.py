@@ -13,6 +13,7 @@ reference library for the annuity factor), never the code under test.
 """
 from __future__ import annotations
 
+import dataclasses
 import tomllib
 
 import numpy as np
@@ -113,16 +114,64 @@ def _run(with_fee: bool):
     return result, build_summary(result)
 
 
+@pytest.fixture(scope="module")
+def plain():
+    return _run(False)
+
+
+@pytest.fixture(scope="module")
+def permit():
+    with cost_lines.using(REGISTRY + (PERMIT,)):
+        return _run(True)
+
+
+def test_a_new_line_is_in_the_monte_carlo_totals_and_the_tax_shield(permit):
+    """The lean Monte Carlo path and the after-tax view follow the new line too: with a
+    25 % tax rate, the deductible fee saves 0.25 × fee a year (hand calculation), so the
+    net cost grows by 0.75 × fee."""
+    from tco import cashflow
+    from tco.pipeline import cost_inputs
+
+    result, _ = permit
+    s = result.scenario
+    ops = [tr.operation for tr in result.trucks.values()]
+    fin = s.finance.model_copy(update={"after_tax": s.finance.after_tax.model_copy(
+        update={"enabled": True, "tax_rate": 0.25})})
+    inputs = cost_inputs(s, ops)
+    taxed = dataclasses.replace(inputs, finance=fin)
+    N = s.finance.analysis_years
+    params = cashflow.flat_params(inputs)
+    assert params["trucks[1].costs.permit_fee"] == FEES[1]
+    draws = {"prices.diesel": params["prices.diesel"] * np.array([0.9, 1.0, 1.1])}
+    with cost_lines.using(REGISTRY + (PERMIT,)):
+        lean = cashflow.compute_totals(inputs, draws, params)
+        with_tax = cashflow.compute(taxed)
+    lean0 = cashflow.compute_totals(inputs, draws, params)
+    without_tax = cashflow.compute(taxed)
+    for k, fee in enumerate(FEES):
+        want = np.array([0.0] + [fee] * N)[:, None]  # years first, one column per draw
+        got = (np.broadcast_to(lean.total_by_year[k], (N + 1, 3))
+               - np.broadcast_to(lean0.total_by_year[k], (N + 1, 3)))
+        np.testing.assert_allclose(got, np.broadcast_to(want, (N + 1, 3)), rtol=0, atol=1e-8)
+        np.testing.assert_allclose(
+            with_tax.lines[k]["tax_shield_operating"]
+            - without_tax.lines[k]["tax_shield_operating"], -0.25 * want[:, 0], rtol=0,
+            atol=1e-8)
+        np.testing.assert_allclose(with_tax.total(k) - without_tax.total(k),
+                                   0.75 * want[:, 0], rtol=0, atol=1e-8)
+
+
 @pytest.mark.slow
 @needs_soffice
-def test_a_new_line_reaches_flows_totals_and_a_live_workbook_formula(tmp_path):
+def test_a_new_line_reaches_flows_totals_and_a_live_workbook_formula(plain, permit,
+                                                                      tmp_path):
     from tco.report.workbook import write_workbook
     from tco.report.workbook._common import _CF, _FIRST_COL
 
-    plain, _ = _run(False)
+    plain, _ = plain
+    result, summary = permit
+    path = tmp_path / "permit.xlsx"
     with cost_lines.using(REGISTRY + (PERMIT,)):
-        result, summary = _run(True)
-        path = tmp_path / "permit.xlsx"
         write_workbook(result, summary, path)
     s = result.scenario
     assert s.finance.money_basis == "nominal"  # the hand calculation below is nominal
@@ -145,6 +194,7 @@ def test_a_new_line_reaches_flows_totals_and_a_live_workbook_formula(tmp_path):
         assert t["present_value"] == pytest.approx(before.present_value(k) + annuity,
                                                    rel=1e-12)
         assert t["present_value_by_line"]["permit_fee"] == pytest.approx(annuity, rel=1e-12)
+    assert summary["cashflow"]["lines"][-1] == "permit_fee"
     # the line appears in the table after the registry's own lines (its place in it)
     assert list(flows.lines[0])[-1] == "permit_fee"
     # outside the temporary registry the model has no such line

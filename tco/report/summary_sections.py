@@ -13,9 +13,9 @@ from typing import Any
 
 import numpy as np
 
+from tco import cost_lines
 from tco.cashflow import (
     _J_PER_KWH,
-    _LINE_NAMES,
     _M3_PER_L,
     _M_PER_KM,
     _M_PER_MILE,
@@ -151,7 +151,7 @@ def cashflow_summary(result: CashflowResult) -> dict:
         "discount_rate": float(result.discount_rate),
         "analysis_years": int(result.analysis_years),
         "baseline": result.baseline,
-        "lines": list(_LINE_NAMES),
+        "lines": [c.name for c in cost_lines.registry()],
         "trucks": trucks,
         "comparisons": comps,
         "assumptions": list(result.assumptions),
