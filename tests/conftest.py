@@ -27,6 +27,20 @@ HOSTILE = [
     "$x$ and {{ meta }} and {% raw %}",
 ]
 
+@pytest.fixture(autouse=True, scope="session")
+def _own_cache_folder(tmp_path_factory):
+    """Typeset equations are cached in a folder of the test session, not the user's."""
+    import os
+
+    old = os.environ.get("TCO_CACHE_DIR")
+    os.environ["TCO_CACHE_DIR"] = str(tmp_path_factory.mktemp("tco-cache"))
+    yield
+    if old is None:
+        os.environ.pop("TCO_CACHE_DIR", None)
+    else:
+        os.environ["TCO_CACHE_DIR"] = old
+
+
 _YEARS = np.arange(0, 11)
 BREAKEVEN = "6.4"  # year the sample's cumulative cost lines cross (checked when built)
 _TRUCKS = ["Diesel 6x4", "Electric 6x4"]

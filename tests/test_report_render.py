@@ -534,3 +534,41 @@ def test_recalc_parallel_calls_each_write_a_result(tmp_path):
         outs = list(pool.map(lambda p: recalculate(p, p.parent / "out"), paths))
     values = [openpyxl.load_workbook(o, data_only=True).active["A2"].value for o in outs]
     assert values == [10, 20]
+
+
+def test_equation_cache_gives_the_typeset_svg_and_survives_bad_files(tmp_path, monkeypatch):
+    """Typeset equations are kept on disk; a cached one is the same bytes as typesetting
+    it now, a damaged file is typeset again, and an unusable folder changes nothing."""
+    import base64
+
+    tex = r"E = \dfrac{m\,g\,h}{\eta}"
+    monkeypatch.setenv("TCO_CACHE_DIR", str(tmp_path))
+    charts._cached_equation_svg.cache_clear()
+    fresh = charts._typeset_equation(tex, 11.0)
+    first = charts.equation(tex)
+    assert base64.b64decode(first.split(",", 1)[1]) == fresh
+    files = list((tmp_path / "equations").glob("*.svg"))
+    assert len(files) == 1 and files[0].read_bytes() == fresh
+    assert not list((tmp_path / "equations").glob("*.tmp"))
+    # from the file, without typesetting
+    charts._cached_equation_svg.cache_clear()
+    monkeypatch.setattr(charts, "_typeset_equation", lambda *a: pytest.fail("typeset"))
+    assert charts.equation(tex) == first
+    # another size is another key
+    monkeypatch.undo()
+    monkeypatch.setenv("TCO_CACHE_DIR", str(tmp_path))
+    charts._cached_equation_svg.cache_clear()
+    assert charts.equation(tex, fontsize=14.0) != first
+    assert len(list((tmp_path / "equations").glob("*.svg"))) == 2
+    # a damaged file is replaced
+    files[0].write_bytes(b"<?xml broken")
+    charts._cached_equation_svg.cache_clear()
+    assert charts.equation(tex) == first
+    assert files[0].read_bytes() == fresh
+    # a cache "folder" that is a file: typeset every time, no error
+    blocked = tmp_path / "blocked"
+    blocked.write_text("not a folder")
+    monkeypatch.setenv("TCO_CACHE_DIR", str(blocked))
+    charts._cached_equation_svg.cache_clear()
+    assert charts.equation(tex) == first
+    charts._cached_equation_svg.cache_clear()

@@ -32,11 +32,15 @@ presentations that are friendly to colorblind people." https://jfly.uni-koeln.de
 from __future__ import annotations
 
 import base64
+import contextlib
 import io
 import math
+import os
+import tempfile
 import warnings
 from contextlib import contextmanager
 from functools import lru_cache
+from pathlib import Path
 
 import matplotlib
 import numpy as np
@@ -671,6 +675,13 @@ def equation(tex: str, *, fontsize: float = 11.0) -> str:
     For the method notes: the SVG keeps its natural size (in points), so at
     ``fontsize`` 11 it sits beside 9.5 pt body text at a readable size.
 
+    The report's equations are the same in every run, and typesetting them (mathtext's
+    parser, glyph outlines) is a sixth of the charts' time, so the SVG is kept in a
+    cache folder (:func:`equation_cache_dir`) under a key made of everything that
+    shapes it: the formula, the size, this module's source (colours, chart style and
+    typesetting code) and the matplotlib version. A file that cannot be read or written
+    there only means typesetting again.
+
     Parameters
     ----------
     tex : str
@@ -690,6 +701,62 @@ def equation(tex: str, *, fontsize: float = 11.0) -> str:
     ValueError
         ``tex`` is not valid mathtext.
     """
+    return "data:image/svg+xml;base64," + base64.b64encode(
+        _cached_equation_svg(tex, float(fontsize))).decode("ascii")
+
+
+def equation_cache_dir() -> Path:
+    """Where typeset equations are kept: ``$TCO_CACHE_DIR/equations``, else
+    ``$XDG_CACHE_HOME/tco/equations``, else ``~/.cache/tco/equations``."""
+    own = os.environ.get("TCO_CACHE_DIR")
+    if own:
+        return Path(own) / "equations"
+    base = os.environ.get("XDG_CACHE_HOME") or Path.home() / ".cache"
+    return Path(base) / "tco" / "equations"
+
+
+@lru_cache(maxsize=1)
+def _code_digest() -> str:
+    """Digest of this module's source: its style, colours and typesetting code."""
+    import hashlib
+
+    return hashlib.sha256(Path(__file__).read_bytes()).hexdigest()
+
+
+def _equation_key(tex: str, fontsize: float) -> str:
+    import hashlib
+
+    parts = [matplotlib.__version__, _code_digest(), tex, repr(fontsize)]
+    return hashlib.sha256("\x00".join(parts).encode("utf-8")).hexdigest()
+
+
+@lru_cache(maxsize=64)
+def _cached_equation_svg(tex: str, fontsize: float) -> bytes:
+    folder = equation_cache_dir()
+    path = folder / f"{_equation_key(tex, fontsize)}.svg"
+    try:
+        svg = path.read_bytes()
+        if svg.startswith(b"<?xml") and svg.rstrip().endswith(b"</svg>"):
+            return svg
+    except OSError:
+        pass
+    svg = _typeset_equation(tex, fontsize)
+    temp = None
+    try:  # atomically: a reader sees the whole file or none
+        folder.mkdir(parents=True, exist_ok=True)
+        with tempfile.NamedTemporaryFile(dir=folder, suffix=".tmp", delete=False) as f:
+            temp = f.name
+            f.write(svg)
+        os.replace(temp, path)
+    except OSError:
+        if temp is not None:
+            with contextlib.suppress(OSError):
+                os.unlink(temp)
+    return svg
+
+
+def _typeset_equation(tex: str, fontsize: float) -> bytes:
+    """The SVG of :func:`equation`, typeset now."""
     # Glyphs as outlines ("path"), from the DejaVu Serif that ships inside matplotlib:
     # the PDF then needs no font of its own for them, so an accent such as the dot of
     # ṁ can never fall back to a placeholder glyph (tests/test_report_layout.py checks
@@ -701,4 +768,4 @@ def equation(tex: str, *, fontsize: float = 11.0) -> str:
         buf = io.BytesIO()
         fig.savefig(buf, format="svg", metadata={"Date": None}, bbox_inches="tight",
                     pad_inches=0.02, transparent=True)
-    return "data:image/svg+xml;base64," + base64.b64encode(buf.getvalue()).decode("ascii")
+    return buf.getvalue()

