@@ -588,7 +588,8 @@ def compute(inputs: CostInputs, overrides: dict | None = None,
 
     Notes
     -----
-    Cost lines and their formulas are listed in :data:`LINES` and the module docstring.
+    Cost lines, their computations and workbook formulas are defined in
+    :mod:`tco.cost_lines` (:func:`tco.cost_lines.registry`).
     The depot's costs are split equally among ``depot.trucks_served`` trucks (default: the
     electric trucks that charge at the depot). The depot's peak is taken as all served
     trucks charging at once at this truck's peak power, capped by the chargers' rating.

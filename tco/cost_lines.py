@@ -196,18 +196,22 @@ def _owned(tc) -> bool:
 
 
 def _c_purchase_price(tc):
+    """Purchase price in year 0 (not for a leased truck). [currency]"""
     return Outer(tc.e0, tc.price) if _owned(tc) else None
 
 
 def _c_purchase_taxes_fees(tc):
+    """Purchase taxes (price × rate) and fees in year 0. [currency]"""
     return Outer(tc.e0, tc.taxes) if _owned(tc) else None
 
 
 def _c_grant(tc):
+    """Grant received in year 0, negative. [currency]"""
     return Outer(tc.e0, -tc.grant) if _owned(tc) else None
 
 
 def _c_tax_credit(tc):
+    """Tax credit in its year, negative; noted and left out after the period. [currency]"""
     if not _owned(tc):
         return None
     c, N = tc.c, tc.N
@@ -220,24 +224,30 @@ def _c_tax_credit(tc):
 
 
 def _c_loan_drawdown(tc):
+    """Loan received in year 0, negative. [currency]"""
     return Outer(tc.e0, -tc.loan["principal"]) if tc.f.method == "loan" else None
 
 
 def _c_loan_interest(tc):
+    """Loan interest of each year's instalments (in arrears). [currency]"""
     return tc.loan["interest"] if tc.f.method == "loan" else None
 
 
 def _c_loan_principal(tc):
+    """Principal repaid by year; the balance left after the period settled in its last year.
+    [currency]"""
     return tc.loan["repaid"] if tc.f.method == "loan" else None
 
 
 def _c_lease_upfront(tc):
+    """Lease payment at signing, year 0. [currency]"""
     if tc.f.method != "lease":
         return None
     return Outer(tc.e0, tc.p(f"{tc.tp}.financing.lease_upfront"))
 
 
 def _c_lease_payment(tc):
+    """12 × monthly payment in years 1..min(T, N); the rest in year N when settled. [currency]"""
     f, N, y = tc.f, tc.N, tc.y
     if f.method != "lease":
         return None
@@ -254,12 +264,15 @@ def _c_lease_payment(tc):
 
 
 def _c_lease_buyout(tc):
+    """Lease buy-out price in the buy-out year. [currency]"""
     if tc.f.method != "lease" or tc.buyout_year is None:
         return None
     return Outer(tc.unit(tc.buyout_year), tc.p(f"{tc.tp}.financing.lease_buyout_price"))
 
 
 def _c_insurance(tc):
+    """(rate × price × value share at the start of the year + fixed) × index, years 1..N.
+    [currency]"""
     insurance = tc.running(f"{tc.tp}.escalation.insurance")
     start_value = tc.value_share[1]
     on_value = tc.p(f"{tc.tp}.insurance_rate") * tc.price
@@ -271,21 +284,25 @@ def _c_insurance(tc):
 
 
 def _c_residual_value(tc):
+    """−price × value share at age N, in year N, for a truck owned at the end. [currency]"""
     if not tc.owned_at_end:
         return None
     return Outer(tc.eN, -tc.price * tc.at(tc.value_share[0], tc.N))
 
 
 def _c_depot_chargers(tc):
+    """Charger hardware and installation at 0, L, 2L... ÷ trucks served. [currency]"""
     return tc.depot_part(tc.depot_plan["capex"] * tc.depot_plan["share"])
 
 
 def _c_depot_grid_connection(tc):
+    """Grid connection in year 0 ÷ trucks served. [currency]"""
     d = tc.depot_plan
     return tc.depot_part(Outer(tc.e0, tc.p("depot.grid_connection_cost") * d["share"]))
 
 
 def _c_depot_maintenance(tc):
+    """Chargers × maintenance per year × index ÷ trucks served. [currency]"""
     d = tc.depot_plan
     return tc.depot_part(Outer(tc.running("prices.escalation.equipment"),
                                tc.inputs.depot.chargers * tc.p("depot.maintenance_per_year")
@@ -293,6 +310,7 @@ def _c_depot_maintenance(tc):
 
 
 def _c_depot_residual(tc):
+    """−hardware value at the end of each life and of the period ÷ trucks served. [currency]"""
     return tc.depot_part(tc.depot_plan["residual"] * tc.depot_plan["share"])
 
 
@@ -300,6 +318,7 @@ _ESC = "prices.escalation."
 
 
 def _c_diesel(tc):
+    """Diesel volume [m³/yr] × price [currency/m³] × index. [currency]"""
     if not tc.has("diesel_volume"):
         return None
     price = tc.p.needed("prices.diesel", f"{tc.t.name} burns diesel")
@@ -307,13 +326,17 @@ def _c_diesel(tc):
 
 
 def _c_diesel_exhaust_fluid(tc):
+    """DEF volume [m³/yr] × price [currency/m³] × index. [currency]"""
     if not tc.has("def_volume"):
         return None
-    price = tc.p.needed("prices.diesel_exhaust_fluid", f"{tc.t.name} uses diesel exhaust fluid")
+    price = tc.p.needed("prices.diesel_exhaust_fluid",
+                        f"{tc.t.name} uses diesel exhaust fluid")
     return Outer(tc.running(_ESC + "diesel_exhaust_fluid"), tc.q("def_volume") * price)
 
 
 def _c_electricity_energy(tc):
+    """Depot energy [J/yr] × profile-weighted price [currency/J] × index (× the ageing share by
+    year). [currency]"""
     if not tc.has("grid_energy_depot"):
         return None
     aged = tc.aged
@@ -322,6 +345,8 @@ def _c_electricity_energy(tc):
 
 
 def _c_electricity_demand(tc):
+    """12 × demand charge [currency/W/month] × depot peak (capped by the chargers) ÷
+    trucks served. [currency]"""
     if not tc.uses_depot:
         return None
     op, served = tc.op, tc.served
@@ -336,6 +361,7 @@ def _c_electricity_demand(tc):
 
 
 def _c_electricity_fixed(tc):
+    """12 × fixed fee per month × this truck's share. [currency]"""
     if not tc.uses_depot:
         return None
     op = tc.op
@@ -345,6 +371,8 @@ def _c_electricity_fixed(tc):
 
 
 def _c_public_charging(tc):
+    """En-route energy [J/yr] (by year as the battery ages) × public price [currency/J] × index.
+    [currency]"""
     aged = tc.aged
     if aged and aged["public"].any():  # en-route charging as the battery ages
         price = tc.p.needed("prices.public_charging", f"{tc.t.name} charges en route")
@@ -366,6 +394,7 @@ def _per_distance(name: str):
 
 
 def _c_registration(tc):
+    """Registration and road taxes per year × index. [currency]"""
     return Outer(tc.running(f"{tc.tp}.escalation.registration"),
                  tc.p(f"{tc.tp}.registration"))
 
@@ -376,6 +405,7 @@ def _wage(tc):
 
 
 def _c_charging_driver_time(tc):
+    """Time lost at en-route chargers [s/yr] × driver cost [currency/s] × index. [currency]"""
     wage, driver = _wage(tc)
     aged = tc.aged
     if aged:
@@ -384,6 +414,8 @@ def _c_charging_driver_time(tc):
 
 
 def _c_driver_wages(tc):
+    """Every trip's duty time [s/yr] × driver cost [currency/s] × index (finance.driver_wages on).
+    [currency]"""
     if not tc.inputs.finance.driver_wages:
         return None
     wage, driver = _wage(tc)
@@ -393,6 +425,7 @@ def _c_driver_wages(tc):
 
 
 def _c_extra_trips_driver_time(tc):
+    """Extra trips × trip duration [s] × driver cost [currency/s] × index. [currency]"""
     if tc.inputs.finance.driver_wages:
         return None
     wage, driver = _wage(tc)
@@ -400,14 +433,17 @@ def _c_extra_trips_driver_time(tc):
 
 
 def _c_battery_replacement(tc):
+    """Battery replacements by year (the truck's battery schedule). [currency]"""
     return tc.battery.get("battery_replacement")
 
 
 def _c_battery_remaining_life(tc):
+    """−unused life of the last replacement at the end, in year N. [currency]"""
     return tc.battery.get("battery_remaining_life")
 
 
 def _c_tax_shield_operating(tc):
+    """−tax rate × the deductible lines (after-tax view). [currency]"""
     a = tc.inputs.finance.after_tax
     if not (a.enabled and a.deduct_operating_costs):
         return None
@@ -415,18 +451,21 @@ def _c_tax_shield_operating(tc):
 
 
 def _c_tax_shield_interest(tc):
+    """−tax rate × loan interest (after-tax view). [currency]"""
     if not tc.inputs.finance.after_tax.enabled:
         return None
     return -tc.tax_rate * (dense(tc.interest) * tc.op_mask)
 
 
 def _c_tax_shield_depreciation(tc):
+    """−tax rate × tax depreciation of the truck, depot share and replacements. [currency]"""
     if not tc.inputs.finance.after_tax.enabled:
         return None
     return -tc.tax_rate * tc.depreciation[0]
 
 
 def _c_tax_on_sale(tc):
+    """Tax rate × (end proceeds − tax book value left), in year N. [currency]"""
     if not tc.inputs.finance.after_tax.enabled:
         return None
     # sold or valued at the end: proceeds (the credits, negative lines) less book value;
