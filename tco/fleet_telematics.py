@@ -10,9 +10,14 @@ row whose ``vehicle`` id was logged, replaces the row's duty by the logs:
 * **energy**: each truck's diesel, battery and grid energy per distance as logged (the
   simulated year of the row's cycle is rescaled to the logged figures per metre, so the
   cost lines, emissions and the depot's nightly energy follow the logs);
-* **depot dwell**: when the row gives no arrival time, the truck is taken back at the
-  depot after its mean logged span of the day (driving time plus parked gaps) from its
-  departure (the row's ``depart``, or the base depot's charging end hour).
+* **depot dwell**: the logged first departure and last arrival of each day (clock
+  times, UTC as logged, see :func:`tco.telematics.dwell_window`), averaged on the clock
+  (a circular mean, so 23:30 and 00:30 average to midnight), become the row's ``depart``
+  and ``arrive`` where the row gives none; the depot schedule then charges each truck
+  in its logged dwell window. Logs without those columns (older ``tco telematics``
+  output): the truck is taken back at the depot after its mean logged span of the day
+  (driving time plus parked gaps) from its departure (the row's ``depart``, or the base
+  depot's charging end hour).
 
 Rows whose vehicle has no logs keep their cycle; a row whose vehicle was logged without
 one of its two trucks is an input error (run ``tco telematics`` with the same base
@@ -31,7 +36,7 @@ import pandas as pd
 from tco.errors import InputError
 from tco.report import formatting as fm
 
-__all__ = ["read_logged_duty", "apply_logged_duty", "rescale_operation"]
+__all__ = ["apply_logged_duty", "clock_mean", "read_logged_duty", "rescale_operation"]
 
 _DAY_S = 86_400.0
 _M_PER_KM = 1000.0
@@ -45,6 +50,30 @@ _COLUMNS = {
     "battery energy [kWh]": ("battery_J", _J_PER_KWH),
     "grid energy [kWh]": ("grid_J", _J_PER_KWH),
 }
+#: Optional columns (written by tco telematics since the dwell window was added).
+_OPTIONAL = {
+    "first departure [h after 00:00 UTC]": ("depart_s", 3600.0),
+    "last arrival [h after 00:00 UTC]": ("arrive_s", 3600.0),
+}
+
+
+def clock_mean(seconds) -> float:
+    r"""Mean of clock times on the 24-hour circle (NaN values left out; NaN when none).
+
+    .. math:: \bar t = \frac{D}{2\pi} \operatorname{atan2}\Big(\sum \sin\frac{2\pi
+       t_i}{D}, \sum \cos\frac{2\pi t_i}{D}\Big) \bmod D, \quad D = 86\,400 s
+
+    The circular mean (Fisher, *Statistical Analysis of Circular Data*, 1993, §2.2; from
+    memory). [s after midnight]
+    """
+    t = np.asarray(seconds, dtype=float)
+    t = t[np.isfinite(t)]
+    if t.size == 0:
+        return math.nan
+    a = 2 * math.pi * t / _DAY_S
+    m = math.atan2(float(np.sin(a).sum()), float(np.cos(a).sum()))
+    out = round(m / (2 * math.pi) * _DAY_S, 6) % _DAY_S  # to the microsecond
+    return float(out if out < _DAY_S else 0.0)
 
 
 def read_logged_duty(folder) -> pd.DataFrame:
@@ -60,7 +89,9 @@ def read_logged_duty(folder) -> pd.DataFrame:
     pandas.DataFrame
         ``vehicle, truck, days, distance_per_day_m`` [m], ``span_s`` (mean logged span of
         a day: driving plus parked gaps) [s], ``diesel_per_m`` [m³/m], ``battery_per_m``,
-        ``grid_per_m`` [J/m].
+        ``grid_per_m`` [J/m], ``depart_s`` and ``arrive_s`` (the clock mean of the
+        logged first departures and last arrivals; NaN when the logs do not give them)
+        [s after midnight].
 
     Raises
     ------
@@ -80,7 +111,9 @@ def read_logged_duty(folder) -> pd.DataFrame:
     if missing:
         raise InputError(f"missing column '{missing[0]}'", file=f, where="header")
     out = pd.DataFrame()
-    for head, (name, factor) in _COLUMNS.items():
+    columns = dict(_COLUMNS)
+    columns.update({h: v for h, v in _OPTIONAL.items() if h in df.columns})
+    for head, (name, factor) in columns.items():
         col = df[head]
         if factor is None:
             out[name] = col.astype(str)
@@ -88,7 +121,10 @@ def read_logged_duty(folder) -> pd.DataFrame:
         x = pd.to_numeric(col, errors="coerce").fillna(0.0 if name in
                                                        ("diesel_m3", "battery_J", "grid_J",
                                                         "gap_time_s") else np.nan)
-        bad = ~np.isfinite(x) | (x < 0)
+        if name in ("depart_s", "arrive_s"):  # blank: a day without moving samples
+            bad = (x < 0) | (x > 24) | (~np.isfinite(x) & col.notna())
+        else:
+            bad = ~np.isfinite(x) | (x < 0)
         if bad.any():
             k = int(np.flatnonzero(bad.to_numpy())[0])
             raise InputError(f"'{col.iloc[k]}' is not a number ≥ 0", file=f,
@@ -108,6 +144,9 @@ def read_logged_duty(folder) -> pd.DataFrame:
             "battery_per_m": agg["battery"] / agg["distance"],
             "grid_per_m": agg["grid"] / agg["distance"],
         })
+    for name in ("depart_s", "arrive_s"):
+        res[name] = (g[name].agg(clock_mean).reset_index(drop=True) if name in out
+                     else np.nan)
     return res
 
 
@@ -148,7 +187,8 @@ def apply_logged_duty(rows: list, logged: pd.DataFrame, base, source=None) -> tu
     Returns
     -------
     rows : list of FleetRow
-        With ``annual_distance``, ``arrive`` (when not given) and ``logged`` set for the
+        With ``annual_distance``, ``depart`` and ``arrive`` (when not given) and
+        ``logged`` set for the
         vehicles that were logged.
     notes : list of str
         One line per row: logged or not.
@@ -182,8 +222,13 @@ def apply_logged_duty(rows: list, logged: pd.DataFrame, base, source=None) -> tu
                "logged": tuple((t, k, float(r[k])) for t, r in recs.items()
                                for k in ("diesel_per_m", "battery_per_m", "grid_per_m")
                                if math.isfinite(float(r[k])))}
-        if row.arrive is None:
-            depart = row.depart if row.depart is not None else dep.charging_end_hour * 3600.0
+        if row.depart is None and math.isfinite(cur.get("depart_s", math.nan)):
+            upd["depart"] = float(cur["depart_s"])
+        if row.arrive is None and math.isfinite(cur.get("arrive_s", math.nan)):
+            upd["arrive"] = float(cur["arrive_s"])
+        elif row.arrive is None:
+            depart = upd.get("depart", row.depart)
+            depart = depart if depart is not None else dep.charging_end_hour * 3600.0
             upd["arrive"] = float((depart + cur["span_s"]) % _DAY_S)
         out.append(dataclasses.replace(row, **upd))
         notes.append(f"{row.vehicle}: logged duty of {fm.count(cur['days'])} day(s), "

@@ -38,7 +38,10 @@ truck's ``start_soc`` (charged overnight) and a day that crosses midnight UTC is
 Per vehicle-day
 ---------------
 1. Samples are sorted by time; repeated timestamps keep their first row (counted in
-   ``duplicates_dropped``).
+   ``duplicates_dropped``). The day's first departure and last arrival (clock times,
+   UTC: :func:`dwell_window`) are read from these samples; ``tco fleet --telematics``
+   takes them as the depot dwell window. Naive timestamps are taken as UTC, so logs
+   written in the depot's local time give local clock times.
 2. Gaps longer than ``gap_limit`` (default 10 min) split the day into *stints*. A gap is
    taken as the truck parked and switched off: no time, distance, idle fuel or auxiliary
    power is counted for it (its length is reported as ``gap_time_s``). Consecutive stints
@@ -101,6 +104,7 @@ __all__ = [
     "GAP_LIMIT",
     "INPUT_COLUMNS",
     "SKIPPED_COLUMNS",
+    "dwell_window",
     "VEHICLE_COLUMNS",
     "PartitionResult",
     "TelematicsResult",
@@ -136,6 +140,8 @@ DAY_COLUMNS = {
     "gaps": "int64",                       # gaps longer than the gap limit [-]
     "gap_time_s": "float64",               # time parked in those gaps [s]
     "duration_s": "float64",               # time simulated: logged, gaps excluded [s]
+    "first_departure_s": "float64",        # clock time leaving rest, UTC [s after 00:00]
+    "last_arrival_s": "float64",           # clock time back at rest, UTC [s after 00:00]
     "distance_m": "float64",               # distance [m]
     "payload_max_kg": "float64",           # heaviest payload of the day [kg]
     "payload_distance_kg_m": "float64",    # payload × distance [kg·m]
@@ -474,6 +480,33 @@ def _read_columns(table, file, hive):
 
 
 # ============================================================================ one vehicle-day
+def dwell_window(t, v) -> tuple[float, float]:
+    """The day's first departure and last arrival: the depot dwell window of a vehicle-day.
+
+    First departure: the time of the last sample at rest (speed 0) before the first moving
+    sample, or the first sample when the day starts moving. Last arrival: the time of the
+    first sample at rest after the last moving sample, or the last sample when the day
+    ends moving. A day without a moving sample has neither (NaN).
+
+    Parameters
+    ----------
+    t : ndarray
+        Sorted clock times of the day's samples, UTC. [s after midnight]
+    v : ndarray
+        Speed at each sample. [m/s]
+
+    Returns
+    -------
+    first_departure, last_arrival : float
+        [s after midnight, UTC]
+    """
+    moving = np.flatnonzero(np.asarray(v) > 0)
+    if moving.size == 0:
+        return math.nan, math.nan
+    a, b = int(moving[0]), int(moving[-1])
+    return float(t[a - 1] if a > 0 else t[a]), float(t[b + 1] if b + 1 < len(t) else t[b])
+
+
 class _Truck(NamedTuple):
     """A scenario truck's kernel parameters that do not depend on the day."""
 
@@ -639,7 +672,11 @@ def _process_columns(columns, scenario, source, file, gap_limit) -> PartitionRes
                             "no stretch of samples lasting one time step between gaps"))
             continue
         mean_z = float(d.elevation.mean())
+        tg = t[a:b]  # sorted; a repeated timestamp keeps its first row, as prepare_day
+        keep = np.concatenate(([True], np.diff(tg) > 0))
+        first, last = dwell_window(tg[keep], speed[a:b][keep])
         common = {"samples": used - d.unused, "duplicates_dropped": dups,
+                  "first_departure_s": first, "last_arrival_s": last,
                   "samples_unused": d.unused, "gaps": d.gaps, "gap_time_s": d.gap_time,
                   "payload_max_kg": float(d.payload.max()),
                   # payload × interval distance, intervals as in the kernel (numpy's
@@ -997,6 +1034,8 @@ _DAY_FILE = [
     ("gaps", "gaps", 1, "#,##0"),
     ("gap_time_s", "gap time [h]", 1 / 3600, "0.00"),
     ("duration_s", "duration [h]", 1 / 3600, "0.00"),
+    ("first_departure_s", "first departure [h after 00:00 UTC]", 1 / 3600, "0.000"),
+    ("last_arrival_s", "last arrival [h after 00:00 UTC]", 1 / 3600, "0.000"),
     ("distance_m", "distance [km]", 1e-3, "#,##0.0"),
     ("payload_max_kg", "payload max [t]", 1e-3, "0.0"),
     ("payload_distance_kg_m", "payload-distance [t·km]", 1e-6, "#,##0"),

@@ -84,8 +84,9 @@ def test_bad_logs_name_the_row(tmp_path):
 
 def test_real_telematics_output_feeds_the_fleet(tmp_path):
     """tco telematics on an invented dataset (two vehicles, two days), then the fleet:
-    each vehicle's yearly distance is its mean logged day × operating days, and its
-    diesel per distance the logged total over the logged distance."""
+    each vehicle's yearly distance is its mean logged day × operating days, its diesel
+    per distance the logged total over the logged distance, and the depot schedule holds
+    each truck between its logged last arrival and first departure."""
     from tco.telematics import process, write_example_dataset, write_outputs
 
     base = load_scenario(inputs_dir() / "fleet" / "base.toml")
@@ -111,3 +112,66 @@ def test_real_telematics_output_feeds_the_fleet(tmp_path):
         assert d_op.distance / 1e3 == pytest.approx(per_day_km * year_days, rel=1e-3)
         assert d_op.diesel_volume / d_op.distance * 1e6 == pytest.approx(
             mine["diesel [L]"].sum() / mine["distance [km]"].sum(), rel=2e-3)
+        # the depot dwell window from the logs: two days each, less than 12 h apart, so
+        # their clock mean is the plain mean of the two logged times
+        dep = mine["first departure [h after 00:00 UTC]"]
+        arr = mine["last arrival [h after 00:00 UTC]"]
+        assert dep.max() - dep.min() < 12 and arr.max() - arr.min() < 12
+        k = res.depot_all_vehicles.index(e.row.vehicle)
+        assert float(res.depot_all.depart[k]) == pytest.approx(dep.mean() * 3600, rel=1e-9)
+        assert float(res.depot_all.arrive[k]) == pytest.approx(arr.mean() * 3600, rel=1e-9)
+
+
+HEAD_DWELL = HEAD.rstrip("\n") + (",first departure [h after 00:00 UTC],"
+                                  "last arrival [h after 00:00 UTC]\n")
+
+
+def test_logged_dwell_window_sets_the_depot_schedule(tmp_path):
+    """T1 logged two days leaving at 04:30 and 05:30 and back at 23:30 and 00:30 (the
+    second day's arrival after midnight). The clock mean (circular, so the arrivals
+    average to midnight, not noon): departure 05:00 = 18,000 s, arrival 00:00 = 0 s.
+    The fleet file gives T1 no departure here, so both come from the logs; the depot
+    schedule then holds T1 from 00:00 to 05:00."""
+    base = load_scenario(_base(tmp_path))
+    d = tmp_path / "tel"
+    d.mkdir()
+    (d / "vehicle_days.csv").write_text(
+        HEAD_DWELL
+        + "T1,2030-03-04,Diesel tractor,300,9,1,90,,,4.5,23.5\n"
+          "T1,2030-03-05,Diesel tractor,500,11,1,150,,,5.5,0.5\n"
+          "T1,2030-03-04,Electric tractor,300,9,1,,330,360,4.5,23.5\n"
+          "T1,2030-03-05,Electric tractor,500,11,1,,550,600,5.5,0.5\n", encoding="utf-8")
+    fleet = tmp_path / "fleet.csv"
+    fleet.write_text("vehicle,route,cycle,current,candidate\n"
+                     "T1,loop,cycle.toml,Diesel tractor,Electric tractor\n", encoding="utf-8")
+    logged = read_logged_duty(d)
+    assert logged["depart_s"].tolist() == pytest.approx([18_000.0, 18_000.0])
+    arrive = logged["arrive_s"].to_numpy() % 86_400.0
+    assert min(arrive[0], 86_400.0 - arrive[0]) == pytest.approx(0.0, abs=1e-6)
+    rows, _ = apply_logged_duty(read_fleet(fleet), logged, base)
+    assert rows[0].depart == pytest.approx(18_000.0)
+    res = evaluate_fleet(base, rows, fleet, jobs=1)
+    sched = res.depot_all
+    assert float(sched.depart[0]) == pytest.approx(18_000.0)
+    a = float(sched.arrive[0]) % 86_400.0
+    assert min(a, 86_400.0 - a) == pytest.approx(0.0, abs=1e-6)
+
+
+def test_clock_mean_by_hand():
+    """Circular mean on the 24-hour clock: 22:00 and 02:00 → 00:00; 06:00 and 08:00 →
+    07:00; blanks left out."""
+    from tco.fleet_telematics import clock_mean
+    h = 3600.0
+    m = clock_mean([22 * h, 2 * h]) % 86_400.0
+    assert min(m, 86_400.0 - m) == pytest.approx(0.0, abs=1e-6)
+    assert clock_mean([6 * h, 8 * h, float("nan")]) == pytest.approx(7 * h)
+    assert clock_mean([float("nan")]) != clock_mean([float("nan")])  # NaN
+
+
+def test_logged_times_outside_the_day_are_refused(tmp_path):
+    d = tmp_path / "tel"
+    d.mkdir()
+    (d / "vehicle_days.csv").write_text(
+        HEAD_DWELL + "T1,2030-03-04,Diesel tractor,300,9,1,90,,,25,18\n", encoding="utf-8")
+    with pytest.raises(InputError, match=r"row 2, first departure"):
+        read_logged_duty(d)

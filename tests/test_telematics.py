@@ -536,3 +536,30 @@ def test_example_dataset_is_reproducible_and_partitioned_by_day(tmp_path):
     t = pq.read_table(a[0]).to_pandas()
     assert set(t.columns) == {"vehicle", "timestamp", "speed", "elevation", "payload"}
     assert (t["speed"] >= 0).all() and t["timestamp"].dt.date.nunique() == 1
+
+
+def test_dwell_window_first_departure_and_last_arrival(tmp_path):
+    """A day parked at the depot from 05:00, moving from 05:10:00 to 15:00:00 (with the
+    last moving sample at 14:59:59) and parked again until 16:00; samples every second.
+    By hand: the last sample at rest before moving is 05:09:59 = 18,599 s, the first at
+    rest after the last moving one is 15:00:00 = 54,000 s (UTC clock)."""
+    loaded = write_scenario(tmp_path)
+    start = pd.Timestamp("2030-03-04 05:00:00", tz="UTC")
+    n = 11 * 3600 + 1
+    t = np.arange(n)
+    speed = np.where((t >= 600) & (t < 10 * 3600), 10.0, 0.0)
+    write(tmp_path / "d" / "p.parquet", day_frame(n=n, speed=speed, start=start))
+    res = tm.process(tmp_path / "d", loaded)
+    for truck in ("D", "E"):
+        row = only_row(res, truck)
+        assert row["first_departure_s"] == 5 * 3600 + 599
+        assert row["last_arrival_s"] == 15 * 3600
+    assert tm.dwell_window(np.array([1.0, 2.0, 3.0]), np.array([4.0, 0.0, 4.0])) == (1.0, 3.0)
+    first, last = tm.dwell_window(np.array([1.0, 2.0]), np.zeros(2))
+    assert math.isnan(first) and math.isnan(last)
+    out = tmp_path / "out"
+    tm.write_outputs(res, out)
+    csv = pd.read_csv(out / "vehicle_days.csv")
+    assert csv["first departure [h after 00:00 UTC]"].tolist() == \
+        pytest.approx([(5 * 3600 + 599) / 3600] * 2, rel=1e-12)
+    assert csv["last arrival [h after 00:00 UTC]"].tolist() == pytest.approx([15.0] * 2)
