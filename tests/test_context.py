@@ -64,3 +64,25 @@ def test_metric_and_us_display(demo, monkeypatch):
     energy = next(t for t in ctx["tables"] if t["title"] == "Energy and operation")
     assert energy["rows"][0][0] == "Distance per trip [mi]"
     assert any(r[0] == "Fuel use [mpg]" for r in energy["rows"])
+
+
+def test_breakeven_caption_ties_the_crossing_to_the_payback_year(demo):
+    # The cumulative cost chart shows a fractional crossing; the key figure counts whole
+    # years. By hand: the crossing is the linear interpolation within the year where the
+    # cumulative difference (electric − diesel) turns from positive to not positive, and
+    # the payback is that year, counted from 1 (year k spans k − 1 .. k).
+    import math
+
+    ctx = _context(demo)
+    cf = demo.cashflow
+    names = [m.name for m in cf.trucks]
+    cum = cf.yearly_totals()[names].cumsum()
+    d = (cum[names[1]] - cum[names[0]]).to_numpy()
+    k = next(k for k in range(1, len(d)) if d[k - 1] > 0 >= d[k] and all(d[k:] <= 0))
+    crossing = k - 1 + d[k - 1] / (d[k - 1] - d[k])
+    payback = next(f["value"] for f in ctx["key_figures"]
+                   if f["label"] == "Payback of the extra purchase cost")
+    assert payback == f"year {math.ceil(crossing)}"
+    chart = next(c for c in ctx["charts"]["cost"] if c["title"] == "Cumulative cost of ownership")
+    assert (f"The lines cross at year {crossing:.1f}, within year {math.ceil(crossing)}: the "
+            f"extra purchase cost is paid back in year {math.ceil(crossing)}") in chart["caption"]

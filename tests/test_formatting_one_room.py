@@ -18,7 +18,9 @@ ROOT = Path(__file__).resolve().parents[1]
 #: Modules whose human-facing text must use tco.report.formatting.
 SCANNED = ["tco/report/fleet_report.py", "tco/telematics.py", "tco/fleet_telematics.py",
            "tco/cli.py", "tco/report/charts.py", "tco/report/findings.py",
-           "tco/report/console.py", "tco/energy.py"]
+           "tco/report/console.py", "tco/energy.py", "tco/report/context.py",
+           "tco/report/batch_index.py", "tco/report/summary.py", "tco/report/assumptions.py",
+           "tco/report/fleet_summary.py"]
 
 #: (module, text on the line) → why it may format locally. Keep it short.
 ALLOWED = {

@@ -284,3 +284,67 @@ def _dejavu_sans_cmap():
     from matplotlib import font_manager
 
     return TTFont(font_manager.findfont("DejaVu Sans")).getBestCmap()
+
+
+# ---------------------------------------------------------------- wide tables ---------
+@pytest.fixture(scope="module")
+def four_truck_pdf(tmp_path_factory):
+    """The demo with four trucks (each of its two copied under another name): the net
+    cost by year and the present value by cost line then have 8 columns (the line, four
+    trucks, three differences), more than a portrait page holds (context.WIDE_COLUMNS)."""
+    from tco.pipeline import evaluate
+    from tco.report.context import build_context
+    from tco.report.html import render_html
+    from tco.report.pdf import render_pdf
+    from tco.report.summary import build_summary
+    from tco.resources import demo_path
+    from tco.scenario import load_scenario
+
+    loaded = load_scenario(demo_path())
+    s = loaded.scenario
+    s.uncertainty.enabled = False
+    for t in list(s.trucks):
+        twin = t.model_copy(deep=True)
+        twin.name = t.name + " B"
+        s.trucks.append(twin)
+    result = evaluate(loaded)
+    ctx = build_context(result, build_summary(result))
+    html = render_html(ctx, for_print=True, page_size="A4")
+    folder = tmp_path_factory.mktemp("wide")
+    pdf = render_pdf(html, folder / "report.pdf")
+    bbox = folder / "bbox.html"
+    subprocess.run(["pdftotext", "-bbox-layout", str(pdf.path), str(bbox)], check=True)
+    pages = ET.parse(bbox).getroot().findall(f".//{NS}page")
+    return {"ctx": ctx, "pages": pages, "path": pdf.path}
+
+
+def test_wide_tables_print_on_landscape_pages(four_truck_pdf):
+    import pypdf
+
+    wide = {t["title"]: " ".join(t["note"].split()[:4])
+            for t in four_truck_pdf["ctx"]["tables"] if t["wide"]}
+    assert "Net cost by year" in wide and "Present value by cost line" in wide
+    narrow = [t["title"] for t in four_truck_pdf["ctx"]["tables"] if not t["wide"]]
+    assert narrow  # tables with few columns stay on portrait pages
+    reader = pypdf.PdfReader(str(four_truck_pdf["path"]))
+    pages = four_truck_pdf["pages"]
+    assert len(reader.pages) == len(pages)
+    found = set()
+    for n, (page, box) in enumerate(zip(pages, reader.pages), start=1):
+        words = [w[0] for w in _words(page)]
+        text = " ".join(words)
+        w, h = float(box.mediabox.width), float(box.mediabox.height)
+        for title, note in wide.items():
+            if title in text and note in text:  # the table's own page, not the contents
+                found.add(title)
+                # A4 landscape: 297 mm × 210 mm (ISO 216)
+                assert w == pytest.approx(PAGE_H, abs=0.5) and h == pytest.approx(PAGE_W,
+                                                                                  abs=0.5), \
+                    f"page {n} with '{title}' is {w:.0f} × {h:.0f} pt"
+        # nothing past the right margin on any page, portrait or landscape
+        right = w - MARGIN_RIGHT + 0.5
+        for t, x0, y0, x1, y1 in _words(page):
+            assert x1 <= right, f"page {n}: '{t}' ends at {x1:.1f} pt (> {right:.1f})"
+    assert found == set(wide)
+    portrait = sum(float(b.mediabox.width) < float(b.mediabox.height) for b in reader.pages)
+    assert portrait >= len(reader.pages) - 4  # only the wide tables' pages turn

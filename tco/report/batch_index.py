@@ -48,6 +48,7 @@ from markupsafe import Markup
 
 from tco import __version__
 from tco.errors import InputError
+from tco.report import formatting as fm
 from tco.report.context import fmt_money, fmt_number
 
 __all__ = ["INDEX_SCHEMA", "TEMPLATE", "index_data", "index_rows", "currency_totals",
@@ -245,7 +246,7 @@ def _money(x, cur: str, digits: int = 0) -> str:
 
 
 def _pct(x, digits: int = 0) -> str:
-    return f"{x:.{digits}%}" if _finite(x) else "–"
+    return fm.percent(x, digits)
 
 
 def verdict_text(row: dict) -> str:
@@ -308,7 +309,7 @@ def _context_row(r: dict) -> dict:
                     f"{_short_feasible(r['battery_end_of_life'])}")
     depot = "" if r["depot_charger_ok"] in (None, True) else "depot charger too small"
     prob = _cell(_pct(r["probability_cheaper"]),
-                 f"{r['draws']:,} draws" if r["draws"] else "")
+                 f"{fm.count(r['draws'])} draws" if r["draws"] else "")
     cells = [
         client,
         _cell(verdict_text(r), f"{r['truck']} vs {r['baseline']}", "verdict-cell"),

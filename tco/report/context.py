@@ -154,6 +154,9 @@ def fmt_number(x: float | None, digits: int | None = 0) -> str:
     return _auto_number(x, digits)
 
 
+#: Tables with more columns than this go on a landscape page in the PDF.
+WIDE_COLUMNS = 7
+
 #: The study's display units (kept under its old name for the other report writers).
 DisplayUnits = fm.Units
 
@@ -303,7 +306,7 @@ def _key_figures(result, u: DisplayUnits, summary: dict) -> list[dict]:
         for r in pr[pr["event"] == "cheaper"].itertuples():
             out.append({"label": f"Probability the {r.truck} is cheaper",
                         "value": fm.percent(r.probability, 0),
-                        "note": f"Monte Carlo, {result.uncertainty.draws:,} draws"})
+                        "note": f"Monte Carlo, {fm.count(result.uncertainty.draws)} draws"})
     return out
 
 
@@ -474,7 +477,7 @@ def _uncertainty_charts(result, cur: str) -> list[dict]:
         draws = unc.samples[unc.samples["truck"] == truck]["present_value_difference"]
         if len(draws):
             out.append({"title": f"How sure is the answer: {truck}",
-                        "caption": f"{unc.draws:,} Monte Carlo draws (seed {unc.seed}) of the "
+                        "caption": f"{fm.count(unc.draws)} Monte Carlo draws (seed {unc.seed}) of the "
                                    "present value difference; below zero the "
                                    f"{truck} is cheaper.",
                         "uri": _later(charts.distribution, draws.to_numpy(),
@@ -529,7 +532,7 @@ def _uncertainty_tables(result, cur: str, system: str = "metric") -> list[dict]:
                        "rows": rows, "note": "ΔPV: present value of the compared truck minus "
                        f"the {unc.baseline}; negative means the compared truck is cheaper. "
                        "Range from: P10–P90 of the input's distribution in the scenario (the "
-                       f"one the Monte Carlo draws from); ±{unc.default_swing:.0%}: the default "
+                       f"one the Monte Carlo draws from); ±{fm.percent(unc.default_swing, 0)}: the default "
                        "swing, only for inputs without a range. Depot inputs are scheduled and costed again "
                        "at each value. The emissions tornado's figures are in the workbook "
                        "and summary.json."})
@@ -549,8 +552,8 @@ def _uncertainty_tables(result, cur: str, system: str = "metric") -> list[dict]:
                                                   for v in (r.p10, r.p50, r.p90)])
     tables.append({"title": "Monte Carlo statistics", "columns": ["Quantity", "P10", "P50",
                                                                   "P90"], "rows": rows,
-                   "note": f"{unc.draws:,} draws, seed {unc.seed}. P10, P50, P90: the values "
-                           "that 10 %, 50 % and 90 % of the draws fall below."})
+                   "note": f"{fm.count(unc.draws)} draws, seed {unc.seed}. P10, P50, P90: the "
+                           "values that 10 %, 50 % and 90 % of the draws fall below."})
     events = {"cheaper": "is cheaper than the " + unc.baseline}
     prows = [[f"The {r.truck} " + events.get(r.event, r.event.replace("_", " ")),
               fm.percent(r.probability, 1), "± " + fm.percent(r.standard_error, 1)]
@@ -574,7 +577,7 @@ def _break_even_table(result, summary: dict, cur: str, system: str) -> dict:
         for r in b.itertuples():
             k = getattr(r, key)
             factor = getattr(r, "factor", None)
-            change = (f"{(factor - 1) * 100:+,.1f} %" if fm._finite(factor) else fm.DASH)
+            change = fm.signed_percent(factor - 1.0) if fm._finite(factor) else fm.DASH
             label = (f"{r.truck}: " if len(unc.trucks) > 1 else "") + r.input
             if r.note:
                 notes.append(f"{label}: {r.note}")
@@ -765,6 +768,9 @@ def _tables(result, u: DisplayUnits, summary: dict) -> list[dict]:
         tables += _uncertainty_tables(result, cur, u.system)
     for t in tables:
         t.setdefault("total", False)
+        # more columns than a portrait page holds legibly: the PDF prints the table on a
+        # landscape page of its own (report.html.j2: @page wide); the HTML scrolls it
+        t["wide"] = len(t["columns"]) > WIDE_COLUMNS
     return tables
 
 

@@ -29,6 +29,7 @@ __all__ = [
     "quantity", "Units", "input_value", "label_from_description", "field_label", "hours_text",
     "irr_text", "range_text", "client_line", "EXCEL_FORMATS", "kwh", "kw", "minutes",
     "seconds", "count", "tonnes", "per_year", "years_list", "compact_number", "clock",
+    "signed_percent",
 ]
 
 #: Shown for a missing or non-finite figure.
@@ -161,6 +162,12 @@ def clock(hour) -> str:
     """An hour of the day as a clock time: ``clock(22)`` → ``'22:00'``, ``clock(25)``
     → ``'01:00'``."""
     return f"{int(round(float(hour))) % 24:02d}:00"
+
+
+def signed_percent(share, digits: int = 1) -> str:
+    """A change as a percentage with its sign: ``signed_percent(0.123)`` → ``'+12.3 %'``."""
+    text = percent(share, digits)
+    return text if text == DASH or text.startswith(("-", "0 ")) else "+" + text
 
 
 # --------------------------------------------------------------------------- units

@@ -40,11 +40,12 @@ lists may be empty, and an empty chart group or list leaves its heading out.
     Plain-word warnings (model range exceeded, defaults relied on, ...).
 ``tables`` : list of dict
     ``{"title", "columns": [str], "rows": [[str]], "note"}`` and optionally ``"total"``
-    (the last row is a total, set in bold): detailed tables
+    (the last row is a total, set in bold) and ``"wide"`` (more than
+    ``context.WIDE_COLUMNS`` columns: the PDF prints it on a landscape page of its own,
+    the named page ``wide``): detailed tables
     (cash flow per year, per-truck summary ...). The first column is text (left-aligned),
-    the others figures (right-aligned); ``note`` may be ``""``. Columns share the page
-    width equally, so a table reads well up to about 9 columns on a portrait page: put
-    years in rows, not columns.
+    the others figures (right-aligned); ``note`` may be ``""``. Put years in rows, not
+    columns.
 ``assumptions`` : dict
     The appendix from :func:`tco.report.assumptions.build_appendix`: ``sections``
     (``{"title", "columns", "rows", "tables"}``, rows of preformatted strings, tables

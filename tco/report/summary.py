@@ -195,8 +195,10 @@ def driver_sentence(result) -> str:
     f = result.scenario.finance
     cur = result.scenario.study.currency
     if f.driver_wages:
-        return (f"Driver wages are included ({f.driver_cost_per_hour * 3600:,.2f} {cur} an "
-                "hour of duty), so the cost per km is the full operating cost.")
+        from tco.report import formatting as fm
+
+        return (f"Driver wages are included ({fm.money(f.driver_cost_per_hour * 3600, cur, 2)} "
+                "an hour of duty), so the cost per km is the full operating cost.")
     return ("Driver wages are not included, only driver time that differs between the "
             "trucks ([finance] driver_wages = true adds them).")
 
