@@ -155,7 +155,10 @@ def compact_number(x, _pos=None) -> str:
             return f"{number(v, 0 if v.is_integer() else 1)}{suffix}".replace("-", "\u2212")
     if ax == 0:
         return "0"
-    return number(x, trim=True).replace("-", "\u2212")
+    text = number(x, trim=True)
+    if "." in text:  # a tick reads 0.25, not 0.250
+        text = text.rstrip("0").rstrip(".")
+    return text.replace("-", "\u2212")
 
 
 def clock(hour) -> str:
