@@ -443,6 +443,9 @@ def run_batch(folder, out_root, jobs: int | None = None, json_only: bool = False
         raise InputError("must be a whole number, 1 or more", where="--jobs")
     folder = Path(folder)
     files = scenario_files(folder)
+    from tco import budget
+
+    budget.check_batch_size(len(files), file=folder)
     name = batch_name(folder)
     batch_dir = Path(out_root) / name
     check_writable(batch_dir)
@@ -461,7 +464,10 @@ def run_batch(folder, out_root, jobs: int | None = None, json_only: bool = False
     tasks, skipped = _load_all(files)
     for outcome in skipped.values():
         done(outcome)
-    workers = min(jobs, len(tasks))
+    # as many workers as the largest scenarios fit in the memory budget (tco.budget)
+    workers = min(jobs, len(tasks),
+                  budget.workers_for([budget.scenario_bytes(ld.scenario) for _, ld in tasks],
+                                     jobs))
     try:
         batch_dir.mkdir(parents=True, exist_ok=True)
     except OSError as exc:

@@ -9,7 +9,12 @@ one line, a run that would exceed a documented limit:
 * :data:`MAX_TRIP_SAMPLES` samples in one trip (all legs, dwells included) at the time
   step; a sample costs about :data:`BYTES_PER_SAMPLE` bytes over a whole run;
 * :data:`MAX_DRAWS` Monte Carlo draws, from the scenario or ``--draws``; a draw costs about
-  :data:`BYTES_PER_DRAW` bytes.
+  :data:`BYTES_PER_DRAW` bytes;
+* :data:`MAX_RUN_BYTES` for a whole command: a fleet (:data:`MAX_FLEET_ROWS` vehicles, each
+  keeping :data:`BYTES_PER_FLEET_ROW`, plus the trips its workers build at once:
+  :func:`fleet_problem`), a batch (:data:`MAX_BATCH_SCENARIOS` files; its workers are as
+  many as fit, :func:`workers_for` over :func:`scenario_bytes`), a telematics partition
+  (:data:`MAX_PARTITION_ROWS` rows, read from the Parquet metadata before the data).
 
 The estimates are deliberately simple (time on a segment = its length over its speed,
 plus the time to brake to and start from each stop, plus the dwells); they only need to
@@ -22,8 +27,12 @@ from typing import Iterable
 
 from tco.errors import InputError
 
-__all__ = ["BYTES_PER_DRAW", "BYTES_PER_SAMPLE", "MAX_DRAWS", "MAX_TRIP_SAMPLES",
-           "check_draws", "check_samples", "check_trip", "draws_problem", "segments_duration", "trip_samples", "size_text"]
+__all__ = ["BYTES_PER_DRAW", "BYTES_PER_FLEET_ROW", "BYTES_PER_SAMPLE",
+           "BYTES_PER_TELEMATICS_ROW", "BYTES_PER_WORKER", "MAX_BATCH_SCENARIOS", "MAX_DRAWS",
+           "MAX_FLEET_ROWS", "MAX_PARTITION_ROWS", "MAX_RUN_BYTES", "MAX_TRIP_SAMPLES",
+           "check_batch_size", "check_draws", "check_samples", "check_trip", "draws_problem",
+           "fleet_problem", "fleet_workers", "least_samples_problem", "partition_problem", "scenario_bytes",
+           "segments_duration", "size_text", "trip_samples", "workers_for"]
 
 #: Most samples in one trip. At a 1 s step that is about 35 days of driving and standing;
 #: at 0.1 s about 3.5 days. [-]
@@ -48,6 +57,29 @@ MAX_STOPS = MAX_TRIP_SAMPLES // 2
 #: Longest standing time of one leg or stop: the whole trip budget at the longest time
 #: step (about 347 days). [s]
 MAX_DWELL = MAX_TRIP_SAMPLES * LONGEST_TIME_STEP
+
+
+#: The memory one command (a fleet, a batch, a telematics partition) plans for at most:
+#: what a laptop or a small cloud machine can give it. [bytes]
+MAX_RUN_BYTES = 8 * 2**30
+#: Memory a worker process takes before its work: the measured peak of a run refused at
+#: its input (imports only) was about 180 MB; rounded up. [bytes]
+BYTES_PER_WORKER = 200 * 2**20
+#: Most vehicles in one fleet file. [-]
+MAX_FLEET_ROWS = 10_000
+#: Memory one fleet row keeps until the end of a fleet run (its energy and money results,
+#: its rows of the tables): the demo fleet's result pickles to about 40 KB per row; five
+#: times that for the Python objects and the report. [bytes]
+BYTES_PER_FLEET_ROW = 200_000
+#: Most scenario files in one batch folder (each is read before the batch starts). [-]
+MAX_BATCH_SCENARIOS = 10_000
+#: Memory one row of a telematics partition takes while the partition is processed (the
+#: columns as read, the validated arrays, the sort order, a vehicle-day's work arrays):
+#: about ten 8-byte columns twice, rounded up. [bytes]
+BYTES_PER_TELEMATICS_ROW = 200
+#: Most rows in one telematics partition file: :data:`MAX_RUN_BYTES` over
+#: :data:`BYTES_PER_TELEMATICS_ROW`, about 43 million (some 500 vehicle-days at 1 Hz). [-]
+MAX_PARTITION_ROWS = MAX_RUN_BYTES // BYTES_PER_TELEMATICS_ROW
 
 
 def size_text(n_bytes: float) -> str:
@@ -172,3 +204,72 @@ def check_draws(draws: int, where: str = "uncertainty.draws", file=None) -> int:
     if problem:
         raise InputError(problem, file=file, where=where)
     return draws
+
+
+# --------------------------------------------------------------------------- whole runs
+def scenario_bytes(scenario) -> float:
+    """An estimate of the memory one scenario's run takes: a worker, its trip at the time
+    step (synthetic legs and dwells; legs from files are held to the trip budget when they
+    are read, so they count at most that), and its Monte Carlo draws. [bytes]"""
+    total, _ = trip_samples(scenario)
+    if any(leg.file for leg in scenario.route.legs):
+        total = MAX_TRIP_SAMPLES  # unknown until read; the budget is the most it may take
+    draws = scenario.uncertainty.draws if getattr(scenario.uncertainty, "enabled", False) \
+        else 0
+    return (BYTES_PER_WORKER + min(total, MAX_TRIP_SAMPLES) * BYTES_PER_SAMPLE
+            + min(draws, MAX_DRAWS) * BYTES_PER_DRAW)
+
+
+def workers_for(estimates: list[float], jobs: int) -> int:
+    """How many of ``jobs`` workers may run at once so that the largest estimates running
+    together stay within :data:`MAX_RUN_BYTES` (at least one)."""
+    largest = sorted(estimates, reverse=True)
+    k, used = 0, 0.0
+    while k < min(jobs, len(largest)) and used + largest[k] <= MAX_RUN_BYTES:
+        used += largest[k]
+        k += 1
+    return max(1, k)
+
+
+def check_batch_size(n_files: int, file=None) -> None:
+    """Refuse a batch folder with more than :data:`MAX_BATCH_SCENARIOS` scenario files."""
+    if n_files > MAX_BATCH_SCENARIOS:
+        raise InputError(
+            f"{n_files:,} scenario files would be read before the batch starts; the limit "
+            f"is {MAX_BATCH_SCENARIOS:,} scenarios: split the folder", file=file)
+
+
+def fleet_problem(n_rows: int, trip_samples_each: float) -> str | None:
+    """Why a fleet of ``n_rows`` vehicles, each trip up to ``trip_samples_each`` samples,
+    cannot fit :data:`MAX_RUN_BYTES` even on one worker, or None."""
+    kept = n_rows * BYTES_PER_FLEET_ROW
+    one = BYTES_PER_WORKER + trip_samples_each * BYTES_PER_SAMPLE
+    if n_rows > MAX_FLEET_ROWS:
+        return (f"{n_rows:,} vehicles would keep about {size_text(kept)} of results; the "
+                f"limit is {MAX_FLEET_ROWS:,} vehicles (about "
+                f"{size_text(MAX_FLEET_ROWS * BYTES_PER_FLEET_ROW)}): split the fleet file")
+    if kept + one > MAX_RUN_BYTES:
+        return (f"this fleet would need about {size_text(kept + one)} ({n_rows:,} vehicles "
+                f"and a trip of up to {_count(trip_samples_each)} samples); the limit is "
+                f"{size_text(MAX_RUN_BYTES)}: split the fleet file or use shorter cycles")
+    return None
+
+
+def fleet_workers(n_rows: int, jobs: int, trip_samples_each: float) -> int:
+    """How many of ``jobs`` workers may build trips of ``trip_samples_each`` samples at
+    once beside the results of ``n_rows`` vehicles within :data:`MAX_RUN_BYTES` (at least
+    one; :func:`fleet_problem` refuses a fleet that does not fit one)."""
+    room = MAX_RUN_BYTES - n_rows * BYTES_PER_FLEET_ROW
+    one = BYTES_PER_WORKER + trip_samples_each * BYTES_PER_SAMPLE
+    return max(1, min(jobs, int(room // one)))
+
+
+def partition_problem(n_rows: int) -> str | None:
+    """Why a telematics partition of ``n_rows`` rows is too big to read, or None."""
+    if n_rows > MAX_PARTITION_ROWS:
+        return (f"this partition has {_count(n_rows)} rows and would need about "
+                f"{size_text(n_rows * BYTES_PER_TELEMATICS_ROW)}; the limit is "
+                f"{MAX_PARTITION_ROWS:,} rows (about {size_text(MAX_RUN_BYTES)}): write the "
+                "data in smaller files (one per vehicle or per month)")
+    return None
+

@@ -753,6 +753,63 @@ def _schedule(energies, base, vehicles, rule):
     return idx, depot_model.schedule(a, d, need, dep.charger_power, rule=rule)
 
 
+def _cycle_samples(base: LoadedScenario, row: FleetRow, fleet_file: Path) -> float:
+    """An estimate of the samples of a row's trip, before it is built: a TOML cycle's
+    synthetic legs and dwells (:func:`tco.budget.trip_samples`); a trace file counts as the
+    trip budget, the most it may take when read. [-]"""
+    from tco import budget
+
+    if row.cycle.suffix.lower() != ".toml":
+        # a logged trace: one sample a line (a GPX point takes a line or more), taken as
+        # 1 s apart (common practice: logged at 1 Hz) and resampled to the time step
+        with row.cycle.open("rb") as fh:
+            lines = sum(chunk.count(b"\n") for chunk in iter(lambda: fh.read(1 << 20), b""))
+        per_line = max(1.0, 1.0 / base.scenario.route.time_step)
+        return min(lines * per_line, float(budget.MAX_TRIP_SAMPLES))
+    raw = row_scenario(base, row, fleet_file)
+    s = parse_scenario(raw, row.cycle)
+    if any(leg.file for leg in s.route.legs):
+        return float(budget.MAX_TRIP_SAMPLES)
+    return min(budget.trip_samples(s)[0], float(budget.MAX_TRIP_SAMPLES))
+
+
+def check_fleet_memory(base: LoadedScenario, rows: list[FleetRow], fleet_file: Path,
+                       jobs: int) -> int:
+    """The workers a fleet may use within :data:`tco.budget.MAX_RUN_BYTES`, worked out
+    before any row is simulated: the results every row keeps, and the trips the workers
+    build at once (each distinct cycle estimated once, :func:`_cycle_samples`; the largest
+    counts for every worker).
+
+    Returns
+    -------
+    int
+        At most ``jobs``, at least 1.
+
+    Raises
+    ------
+    InputError
+        The fleet does not fit even one worker: one line naming the size, the limit and
+        what to change.
+    """
+    from tco import budget
+
+    if len(rows) > budget.MAX_FLEET_ROWS:
+        largest = 0.0
+    else:
+        seen: dict[Path, float] = {}
+        for row in rows:
+            if row.cycle not in seen:
+                try:
+                    seen[row.cycle] = _cycle_samples(base, row, fleet_file)
+                except InputError:
+                    seen[row.cycle] = 0.0  # reported with its row when the row is run
+        largest = max(seen.values(), default=0.0)
+    problem = budget.fleet_problem(len(rows), largest)
+    if problem:
+        raise InputError(problem, file=fleet_file)
+    return budget.fleet_workers(len(rows), jobs, largest)
+
+
 def evaluate_fleet(base: LoadedScenario, rows: list[FleetRow], fleet_file: Path,
                    rule: str | None = None, jobs: int | None = None, progress=None,
                    plan=None, plan_file: Path | None = None) -> FleetResult:
@@ -787,6 +844,7 @@ def evaluate_fleet(base: LoadedScenario, rows: list[FleetRow], fleet_file: Path,
     timings = {}
     rule = depot_model.rule_name(rule or base.scenario.depot.charging)
     jobs = jobs or os.cpu_count() or 1
+    jobs = check_fleet_memory(base, rows, fleet_file, jobs)
     pool = _pool(jobs, len(rows))
     try:
         return _evaluate(base, rows, fleet_file, rule, pool, jobs, steps, timings, plan,

@@ -342,6 +342,11 @@ def process_partition(path, scenario, root=None, gap_limit: float = GAP_LIMIT
     try:
         pf = pq.ParquetFile(path)
         present = [c for c in INPUT_COLUMNS if c in pf.schema_arrow.names]
+        from tco.budget import partition_problem
+
+        problem = partition_problem(pf.metadata.num_rows)  # before reading any data
+        if problem:
+            raise InputError(problem, file=path)
         table = pf.read(columns=present)
     except (OSError, pa.ArrowException) as exc:
         text = " ".join(str(exc).split())

@@ -719,3 +719,113 @@ def test_bad_arguments_are_one_line(capsys, argv):
     assert info.value.code == 2
     assert len(err.splitlines()) == 1 and err.startswith("tco: error: ")
     assert "\x1b" not in err
+
+
+# --------------------------------------------------------------------------- whole-run budgets
+def test_a_fleet_of_too_many_vehicles_is_refused_before_any_row_runs(tmp_path, capsys, out):
+    from tco import budget
+    from tco.resources import inputs_dir
+
+    src = inputs_dir() / "fleet"
+    folder = tmp_path / "fl"
+    folder.mkdir()
+    (folder / "c.csv").write_text("time [s],speed [km/h]\n0,0\n60,50\n120,0\n")
+    n = budget.MAX_FLEET_ROWS + 1
+    rows = "".join(f"V{i},c.csv,Diesel tractor,Electric tractor\n" for i in range(n))
+    (folder / "fleet.csv").write_text("vehicle,cycle,current,candidate\n" + rows)
+    t0 = time.perf_counter()
+    line = assert_refused(["fleet", folder / "fleet.csv", "--base", src / "base.toml",
+                           "--out", out, "--json-only"], capsys, out,
+                          "10,001 vehicles would keep about",
+                          "the limit is 10,000 vehicles", "split the fleet file")
+    # 10,001 x 200,000 bytes = 2.0e9 bytes = 1.9 GiB (2**30 bytes to a GiB)
+    assert "1.9 GiB" in line
+    assert time.perf_counter() - t0 < 120  # refused before simulating: a guard, not a speed check
+
+
+def test_fleet_workers_are_held_to_the_memory_budget():
+    from tco import budget
+
+    # 8 GiB = 8,589,934,592 bytes; 1,000 rows keep 2e8; a trip of 3e6 samples takes
+    # 200 MiB + 3e6 x 600 = 2,009,715,200 bytes: (8,589,934,592 - 2e8) // 2,009,715,200 = 4
+    assert budget.fleet_workers(1000, 16, 3e6) == 4
+    assert budget.fleet_workers(1000, 2, 3e6) == 2
+    # a small trip (the demo fleet's largest, about 23,000 samples) leaves 16 cores free;
+    # on 64: 200 MiB + 23,000 x 600 = 223,515,200 bytes a worker,
+    # (8,589,934,592 - 12 x 200,000) // 223,515,200 = 38 workers
+    assert budget.fleet_workers(12, 16, 23_000) == 16
+    assert budget.fleet_workers(12, 64, 23_000) == 38
+    assert budget.fleet_problem(12, 23_000) is None
+
+
+def test_batch_workers_are_as_many_as_fit_the_memory_budget():
+    from tco import budget
+
+    gib = 2**30
+    assert budget.workers_for([3 * gib, 3 * gib, 3 * gib], 4) == 2  # 6 GiB fits, 9 does not
+    assert budget.workers_for([10 * gib], 4) == 1  # never fewer than one
+    assert budget.workers_for([0.3 * gib] * 8, 16) == 8
+
+
+def test_a_batch_folder_of_too_many_scenarios_is_refused_before_reading_them(tmp_path,
+                                                                               capsys, out):
+    from tco import budget
+
+    folder = tmp_path / "many"
+    folder.mkdir()
+    for i in range(budget.MAX_BATCH_SCENARIOS + 1):
+        (folder / f"s{i:05d}.toml").write_text("not read")
+    assert_refused(["batch", folder, "--out", out, "--json-only"], capsys, out,
+                   "10,001 scenario files", "the limit is 10,000 scenarios")
+
+
+def test_a_telematics_partition_too_big_is_refused_from_its_metadata(tmp_path, monkeypatch):
+    """The row count comes from the Parquet footer, before any column is read. (The limit
+    is lowered here: a partition of 43 million rows is too big for a test.)"""
+    import pandas as pd
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    from tco import budget
+    from tco import telematics as tm
+
+    monkeypatch.setattr(budget, "MAX_PARTITION_ROWS", 10)
+    path = tmp_path / "d" / "p.parquet"
+    path.parent.mkdir()
+    df = pd.DataFrame({"vehicle": "A", "timestamp": pd.date_range("2030-01-01", periods=11,
+                                                                  freq="s"),
+                       "speed": 1.0, "payload": 0.0, "elevation": 0.0})
+    pq.write_table(pa.Table.from_pandas(df, preserve_index=False), path)
+    with pytest.raises(InputError) as info:
+        tm.process_partition(path, load_scenario(demo_path()).scenario)
+    # 11 rows x 200 bytes = 2,200 bytes = 2.1 KiB (1,024 bytes to a KiB)
+    assert str(info.value).count("\n") == 0
+    assert "has 11 rows and would need about 2.1 KiB; the limit is 10 rows" in \
+        info.value.message
+    assert str(info.value.file) == str(path)
+
+
+def test_telematics_errors_name_the_paths_as_the_user_gave_them(tmp_path, capsys, monkeypatch,
+                                                                out):
+    import pandas as pd
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    monkeypatch.chdir(tmp_path)
+    df = pd.DataFrame({"vehicle": "A", "timestamp": pd.date_range("2030-01-01", periods=30,
+                                                                  freq="s"),
+                       "speed": -1.0, "payload": 0.0, "elevation": 0.0})
+    (tmp_path / "d" / "day=1").mkdir(parents=True)
+    pq.write_table(pa.Table.from_pandas(df, preserve_index=False),
+                   tmp_path / "d" / "day=1" / "bad.parquet")
+    line = assert_refused(["telematics", "d", "--out", out], capsys, out)
+    assert line.startswith("tco: error: d/day=1/bad.parquet: speed: ")
+    assert str(tmp_path) not in line
+    (tmp_path / "logs").mkdir()
+    (tmp_path / "logs" / "vehicle_days.csv").write_text("vehicle,truck\nx,y\n")
+    from tco.resources import inputs_dir
+
+    src = inputs_dir() / "fleet"
+    line = assert_refused(["fleet", src / "fleet.csv", "--base", src / "base.toml",
+                           "--telematics", "logs", "--out", out, "--json-only"], capsys, out)
+    assert line.startswith("tco: error: logs/vehicle_days.csv: ")
