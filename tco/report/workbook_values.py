@@ -217,6 +217,12 @@ def _mod(a: float, b: float) -> float:
     return a - b * math.floor(a / b)
 
 
+def _ln(a: float) -> float:
+    if a <= 0:
+        raise _Fail(_NUM)
+    return math.log(a)
+
+
 def _index(rng, row, col=None):
     a = rng if isinstance(rng, np.ndarray) else np.array([[rng]], dtype=object)
     r = int(_num(row))
@@ -239,6 +245,7 @@ FUNCTIONS = {
     "NOT": lambda a: not _truth(a),
     "ABS": lambda a: abs(_num(a)),
     "INT": lambda a: np.floor(_num(a)),
+    "LN": lambda a: _ln(_num(a)),
     "MOD": lambda a, b: _mod(_num(a), _num(b)),
     "ROUND": lambda a, d: float(round(_num(a), int(_num(d)))),
     "SUMPRODUCT": lambda *a: float(np.nansum(np.prod([_arr(x) for x in a], axis=0))),

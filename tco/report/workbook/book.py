@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 from openpyxl import Workbook
+from openpyxl.styles import Alignment
 from openpyxl.workbook.properties import CalcProperties
 
 from tco.report import workbook_base as wbb
@@ -20,6 +21,7 @@ from tco.report.workbook._common import (
     _col,
     _uses_depot,
 )
+from tco.report.workbook.ageing_rows import AgeingRows
 from tco.report.workbook.inputs_sheet import InputsSheet
 from tco.report.workbook.cashflow_sheet import CashflowSheet
 from tco.report.workbook.emissions_sheet import EmissionsSheet
@@ -28,8 +30,8 @@ from tco.report.workbook.summary_sheet import SummarySheet
 from tco.report.workbook.uncertainty_sheets import UncertaintySheets
 
 
-class Book(InputsSheet, CashflowSheet, EmissionsSheet, EnergySheet, SummarySheet,
-           UncertaintySheets):
+class Book(InputsSheet, CashflowSheet, AgeingRows, EmissionsSheet, EnergySheet,
+           SummarySheet, UncertaintySheets):
     """Builds the workbook; one instance per call. Each sheet has its builder (a mixin in
     its own module); this class holds the shared state and the order of the build."""
 
@@ -93,18 +95,39 @@ class Book(InputsSheet, CashflowSheet, EmissionsSheet, EnergySheet, SummarySheet
         money = {wbb.MONEY: wbb.money_format(self.cur, 0),
                  wbb.MONEY_CENTS: wbb.money_format(self.cur, 2)}
         years = range(_FIRST_COL, _FIRST_COL + self.N + 1)
+        cur = self.cur
+        chart = getattr(self, "su_chart", (0, -1))
+
+        def names_currency(t) -> bool:  # a unit cell or a label stating the currency
+            return isinstance(t, str) and (t == cur or t.startswith((cur + "/", cur + " "))
+                                           or f"[{cur}" in t)
+
         for ws in self.wb.worksheets:
             if ws.title == _IN:
                 continue  # the Unit column names the currency of every input
             for row in ws.iter_rows():
-                # year grids keep plain amounts (the sheet title names the currency);
-                # single figures, sums and present values show the code
+                # the unit is shown once: year grids and tables whose title names the
+                # currency, rows with a Unit column or a label "[EUR…]" keep plain
+                # amounts; a figure with its unit nowhere else shows the code
                 grid = ws.title == _CF and row[_FIRST_COL].data_type == "f" \
                     if len(row) > _FIRST_COL else False
+                if any(names_currency(c.value) for c in row) or (
+                        ws.title == _SU and chart[0] <= row[0].row <= chart[1]):
+                    continue
                 for c in row:
                     f = money.get(c.number_format)
                     if f and not (grid and c.column in years):
                         c.number_format = f
+        # a unit after a right-aligned number: one character apart, not touching it
+        nt = len(self.trucks)
+        for title, col in ((_IN, 4), (_SU, 3 + nt), (_EN, 3 + nt)):
+            ws = self.wb[title]
+            for (cell,) in ws.iter_rows(min_row=2, min_col=col, max_col=col):
+                if isinstance(cell.value, str):
+                    a = cell.alignment
+                    cell.alignment = Alignment(horizontal="left", indent=1,
+                                               vertical=a.vertical,
+                                               wrap_text=a.wrap_text)
         study = self.summary.get("scenario", {}).get("name", self.s.study.name)
         titles = {_SU: ("1:1", None), _IN: ("1:1", None),
                   _CF: (f"1:{_YEAR_ROW}", "A:B"), _EM: (f"1:{_YEAR_ROW}", "A:B"),

@@ -13,6 +13,7 @@ from tco.report.workbook_base import safe_text, write_value
 from tco.report.workbook._common import (
     _CF,
     _BOLD,
+    _FACTOR,
     _BUMP,
     _Block,
     _FIRST_COL,
@@ -162,15 +163,17 @@ class CashflowSheet:
                 return f"IF({y}={P}battery_year,{self._unit_price(i, y)},0)"
             return (f"IF({y}={N},-MAX(0,1-({N}-{P}battery_year)/{P}battery_year)"
                     f"*{self._unit_price(i, P + 'battery_year')},0)")
-        if b.when == "range":
-            years = self.ops[i].battery_replacement_years
-            if not years:
+        if b.when == "range":  # the live ageing rows find the replacement years
+            if not self._aged(i):
                 return "0"
             if line == "battery_replacement":
-                hit = "OR(" + ",".join(f"{y}={Y}" for Y in years) + ")"
-                return f"IF({hit},{self._unit_price(i, y)},0)"
+                return (f"IF({y}>=1,IF(INDEX({P}battery_replaced,MAX({y},1))=1,"
+                        f"{self._unit_price(i, y)},0),0)")
+            yrs = (f"${_col(_FIRST_COL + 1)}${_YEAR_ROW}:"
+                   f"${_col(_FIRST_COL + self.N)}${_YEAR_ROW}")
+            last = f"SUMPRODUCT(MAX({P}battery_replaced*{yrs}))"
             left = f"MIN(MAX(({P}battery_soh_end-{P}eol_soh)/(1-{P}eol_soh),0),1)"
-            return f"IF({y}={N},-{left}*{self._unit_price(i, str(years[-1]))},0)"
+            return (f"IF(AND({y}={N},{last}>0),-{left}*{self._unit_price(i, last)},0)")
         if f"{P}battery_lives_per_year" not in self.wb.defined_names:
             return "0"  # no cycle limit: the model counts no replacement
         L = f"{P}battery_lives_per_year"
@@ -285,6 +288,7 @@ class CashflowSheet:
                         value=f"={first}{getattr(blk, base_attr)}-{first}"
                               f"{getattr(ref, base_attr)}")
         self._comparisons()
+        self._ageing_rows(self.cf_next + 1)
 
     # ------------------------------------------------------------------------ comparisons
     #: Break-even quantities (keys of summary.json ``break_even``): the workbook names they
@@ -306,9 +310,11 @@ class CashflowSheet:
             ("annual_distance_km", "days_per_year", ["days_per_year"], None, (0.02, 5.0)),
         ]
 
-    def _substituted(self, names: list[str]):
+    def _substituted(self, names: list[str], frozen=(), repl: dict | None = None):
         """A function rewriting a formula as if every name in ``names`` were 1 % higher,
-        following the derived inputs (loan amount, scale...) that read them."""
+        following the derived inputs (loan amount, scale...) that read them, except the
+        derived inputs in ``frozen`` (held at their value). ``repl``: names replaced by
+        given expressions instead."""
         pat = {}
 
         def rx(n):
@@ -316,26 +322,132 @@ class CashflowSheet:
 
         for n in names:
             pat[n] = (rx(n), f"({n}*{_BUMP})")
+        for n, expr in (repl or {}).items():
+            pat[n] = (rx(n), f"({expr})")
 
         def sub(f: str) -> str:
-            for r, repl in pat.values():
-                f = r.sub(repl, f)
+            for r, text in pat.values():
+                f = r.sub(lambda m: text, f)
             return f
 
         for d, formula in self.derived_f.items():  # definition order: inputs first
+            if d in frozen or d in (repl or {}):
+                continue
             new = sub(formula)
             if new != formula:
                 pat[d] = (rx(d), f"({new})")
         return sub
 
-    def _shadow(self, i: int, names: list[str], row: int, title: str) -> tuple[int, int]:
-        """Truck i's cost lines that change when ``names`` are 1 % higher, at the bottom of
-        the Cash flow sheet; the changed total and its present value. Returns (row of the
-        total, next free row)."""
+    def _cycled_lives(self) -> set[str]:
+        """Derived names of the lives used per year of trucks whose battery is replaced by
+        cycles (their replacements step with the distance)."""
+        return {f"{self.pre(t)}battery_lives_per_year" for t in range(len(self.trucks))
+                if self.inputs.trucks[t].costs.battery_replacement.when == "cycles"
+                and f"{self.pre(t)}battery_lives_per_year" in self.derived_f}
+
+    #: Iterations of the annual-distance break-even across battery-replacement steps.
+    _REGIME_STEPS = 3
+
+    def _distance_regimes(self, i: int, cyc: list[int], D: str, slope: str, row: int):
+        """Annual-distance break-even when battery replacements by cycles step the cost.
+
+        Present value is affine in the days multiplier k between replacement steps (the
+        lives used per year are affine in k; the replacements are whole-number steps of
+        y·L). From k = 1: evaluate the difference at k and 0.1 % above it with the
+        replacements of k (workings rows: each cycled truck's battery lines at the lives of
+        k), take the root of that affine piece, and move there; the root is exact when it
+        lies in the piece it was computed from (the same replacement years). The 0.1 %
+        step keeps the slope well conditioned (present values of 10⁵–10⁶ differ by about
+        10² there); a step across a replacement shows as "not in this piece". Returns
+        (cell of k at the root, cell of the consistency flag, flat-slope test, next row).
+        """
+        ws = self.ws_cf
+        c_pv = self._cf_ctx[2]
+        first, pv = _col(_FIRST_COL), _col(c_pv)
+        yrs = (f"${_col(_FIRST_COL + 1)}${_YEAR_ROW}:${_col(_FIRST_COL + self.N)}"
+               f"${_YEAR_ROW}")
+
+        def lives(t: int, K: str) -> str:
+            P = self.pre(t)
+            cal = f"{P}calendar_fade/(1-{P}eol_soh)"
+            return f"(({P}battery_lives_per_year-{cal})*{K}+{cal})"
+
+        def steps(t: int, K: str) -> str:
+            return f"INT({yrs}*{lives(t, K)}+1E-9)"
+
+        s_k = f"({slope})*days_per_year"  # change of the PV difference per unit of k
+        prev_root = None
+        out = None
+        for j in range(self._REGIME_STEPS):
+            r_k = row
+            safe_text(ws.cell(row=r_k, column=1), f"Annual distance, step {j + 1}: days × k "
+                      "(1: the case)").font = _BOLD
+            safe_text(ws.cell(row=r_k, column=2), "workings")
+            ws.cell(row=r_k, column=_FIRST_COL,
+                    value="=1" if prev_root is None else f"={first}{prev_root}"
+                    ).number_format = _FACTOR
+            row += 1
+            K = {"at": f"{first}{r_k}", "above": f"{first}{r_k}*(1+1E-3)"}
+            pvs = {}
+            for tag in ("at", "above"):
+                for t in cyc:
+                    name = f"{self.pre(t)}battery_lives_per_year"
+                    sub = self._substituted([], repl={name: lives(t, K[tag])})
+                    at = "k" if tag == "at" else "k × (1 + 1e-3)"
+                    tot, row = self._shadow(t, [], row, f"{self.trucks[t]}: lives of {at}",
+                                            sub, what=f"lives of {at}")
+                    pvs[(tag, t)] = f"{pv}{tot}"
+
+            def diff(tag: str) -> str:
+                expr = f"{D}+{s_k}*({K[tag]}-1)"
+                for t in cyc:
+                    sign = "+" if t == i else "-"
+                    expr += (f"{sign}({pvs[(tag, t)]}-{first}"
+                             f"{self.blocks[t].present_value})")
+                return expr
+
+            cells = {}
+            for key, text, f, fmt in (
+                    ("at", "PV difference at k", diff("at"), wbb.MONEY),
+                    ("above", "PV difference at k × (1 + 1e-3)", diff("above"), wbb.MONEY)):
+                cells[key] = row
+                safe_text(ws.cell(row=row, column=1), f"  {text}")
+                safe_text(ws.cell(row=row, column=2), "workings")
+                ws.cell(row=row, column=_FIRST_COL, value="=" + f).number_format = fmt
+                row += 1
+            a, b = f"{first}{cells['at']}", f"{first}{cells['above']}"
+            flat = f"{b}-{a}=0"
+            r_root = row
+            safe_text(ws.cell(row=row, column=1), "  Root of this piece: k − difference ÷ "
+                      "slope")
+            safe_text(ws.cell(row=row, column=2), "workings")
+            ws.cell(row=row, column=_FIRST_COL,
+                    value=f"=IF({flat},{K['at']},{K['at']}-{a}*({K['at']}*1E-3)/({b}-{a}))"
+                    ).number_format = _FACTOR
+            row += 1
+            r_ok = row
+            root = f"{first}{r_root}"
+            same = ",".join(f"SUMPRODUCT(ABS({steps(t, root)}-{steps(t, K['at'])}))=0,"
+                            f"SUMPRODUCT(ABS({steps(t, K['above'])}-{steps(t, K['at'])}))=0"
+                            for t in cyc)
+            safe_text(ws.cell(row=row, column=1), "  Root in this piece (same replacement "
+                      "years)")
+            safe_text(ws.cell(row=row, column=2), "workings")
+            ws.cell(row=row, column=_FIRST_COL, value=f"=AND({same})")
+            row += 1
+            prev_root = r_root
+            out = (root, f"{first}{r_ok}", flat)
+        return out[0], out[1], out[2], row
+
+    def _shadow(self, i: int, names: list[str], row: int, title: str,
+                sub=None, what: str = "input 1 % higher") -> tuple[int, int]:
+        """Truck i's cost lines that change when ``names`` are 1 % higher (or as ``sub``
+        rewrites them), at the bottom of the Cash flow sheet; the changed total and its
+        present value. Returns (row of the total, next free row)."""
         ws = self.ws_cf
         cols, c_sum, c_pv, c_note, npv = self._cf_ctx
         blk = self.blocks[i]
-        sub = self._substituted(names)
+        sub = sub or self._substituted(names)
         safe_text(ws.cell(row=row, column=1), title).font = _BOLD
         safe_text(ws.cell(row=row, column=2), "workings")
         row += 1
@@ -359,12 +471,12 @@ class CashflowSheet:
                 continue
             rows[line] = row
             changed.append(line)
-            safe_text(ws.cell(row=row, column=1), f"  {line}, input 1 % higher")
+            safe_text(ws.cell(row=row, column=1), f"  {line}, {what}")
             safe_text(ws.cell(row=row, column=2), "workings")
             for c, f in zip(cols, cells):
                 ws.cell(row=row, column=c, value="=" + f).number_format = wbb.MONEY
             row += 1
-        safe_text(ws.cell(row=row, column=1), "  Net cost with the input 1 % higher")
+        safe_text(ws.cell(row=row, column=1), f"  Net cost, {what}")
         safe_text(ws.cell(row=row, column=2), "workings")
         for c in cols:
             col = _col(c)
@@ -374,30 +486,11 @@ class CashflowSheet:
         ws.cell(row=row, column=c_pv, value=f"={npv(row)}").number_format = wbb.MONEY
         return row, row + 1
 
-    def _no_replacement(self, trucks, i: int) -> bool:
-        """True when no battery replacement by cycles falls in the period for these trucks,
-        at the case's days per year nor at the model's break-even distance."""
-        b = self._model_comparison(i).get("break_even", {}).get("annual_distance_km", {})
-        ref_km = self.ops[self.ref].distance / _M_PER_KM
-        k = max(1.0, (b.get("value") or 0.0) / ref_km) if ref_km > 0 else 1.0
-        from tco.battery import lives_per_year
-
-        for t in trucks:
-            op = self.ops[t]
-            thru = op.battery_discharge_energy if op.battery_discharge_energy > 0 \
-                else op.battery_energy
-            # the distance scales the cycling; calendar fade does not move with it
-            cyc = lives_per_year(thru / op.battery_capacity, op.battery_cycle_life,
-                                 op.eol_state_of_health, 0.0)
-            cal = lives_per_year(0.0, op.battery_cycle_life, op.eol_state_of_health,
-                                 op.calendar_fade)
-            if (cyc * k + cal) * self.N + 1e-9 >= 1:
-                return False
-        return True
-
     def _verify_step_cells(self) -> None:
-        """Break-evens across battery-replacement steps: keep the live closed form where it
-        gives the model's root for the case as written, else show the model figure."""
+        """Break-evens across battery-replacement steps: a safety net. The live formula
+        (the root of the affine piece it lands in) is kept where it gives the model's root
+        for the case as written (or both find none); else the model figure is shown,
+        marked (e.g. the model found a root farther from the case)."""
         if not getattr(self, "_step_cells", None):
             return
         from tco.report.workbook_values import evaluate
@@ -408,7 +501,8 @@ class CashflowSheet:
         for r, model in self._step_cells:
             got = values.get((_CF, f"{_col(_FIRST_COL)}{r}"))
             if (model is not None and isinstance(got, float)
-                    and math.isclose(got, model, rel_tol=1e-9)):
+                    and math.isclose(got, model, rel_tol=1e-9)) or (
+                    model is None and isinstance(got, str)):
                 continue
             cell = ws.cell(row=r, column=_FIRST_COL)
             write_value(cell, "-" if model is None else model, wbb.INTEGER).fill = _MODEL_FILL
@@ -502,11 +596,14 @@ class CashflowSheet:
             for key, what, names, reach, _ in self._break_even_specs(i):
                 if not names:
                     continue
+                frozen = self._cycled_lives() if key == "annual_distance_km" else ()
                 for t in ([i] if reach == "truck" else [i, self.ref]):
                     if (key, t) in shadow_pv:
                         continue
                     tot, row = self._shadow(t, names, row, f"{self.trucks[t]}: {what} "
-                                            "1 % higher")
+                                            "1 % higher" + (", battery replacements held"
+                                                            if frozen else ""),
+                                            self._substituted(names, frozen))
                     shadow_pv[(key, t)] = tot
         for i, R, r_be in work:
             blk = self.blocks[i]
@@ -522,15 +619,7 @@ class CashflowSheet:
                          "annual_distance_km": "Break-even annual distance of the baseline "
                          "truck [km/yr]"}[key]
                 cyc = [t for t in (i, self.ref) if key == "annual_distance_km"
-                       and f"{self.pre(t)}battery_lives_per_year" in self.derived_f]
-                steps = bool(cyc) and not self._no_replacement(cyc, i)
-                if steps:  # battery replacements in the period: a step function of the
-                    # distance. The closed form holds between steps: it stays live when it
-                    # equals the model's root (checked once the book is built, else the
-                    # model figure is shown, marked).
-                    b = self._model_comparison(i).get("break_even", {}).get(key, {})
-                    self._step_cells.append((r, b.get("value")))
-                    cyc = []
+                       and self.pre(t) + "battery_lives_per_year" in self._cycled_lives()]
                 if not names:
                     self._metric(r, label, "break_even." + key, None, "0.00")
                     safe_text(ws.cell(row=r, column=_FIRST_COL), "-")
@@ -558,22 +647,27 @@ class CashflowSheet:
                     value = f"{Pr}distance_km*{Pr}scale*{root}/days_per_year"
                 else:
                     value = root
-                if cyc:  # live while no battery replacement falls in the period
-                    ok = ",".join(f"{self.pre(t)}battery_lives_per_year*analysis_years*"
-                                  f"MAX({root},days_per_year)/days_per_year+1E-9<1"
-                                  for t in cyc)
-                    value = (f"IF(AND({ok}),{value},\"a battery replacement makes a step: "
-                             "rerun the model\")")
                 f = (f"=IF({slope}=0,\"-\",IF(AND({root}>={lo}*{x0},{root}<={hi}*{x0}),"
                      f"{value},\"no break-even in the range\"))")
+                if cyc:  # battery replacements by cycles: present value steps with the
+                    # distance; the root of each step's affine piece, found by iteration
+                    k, ok, flat, row = self._distance_regimes(i, cyc, D, slope, row)
+                    b = self._model_comparison(i).get("break_even", {}).get(key, {})
+                    self._step_cells.append((r, b.get("value")))
+                    Pr = self.pre(self.ref)
+                    f = (f"=IF({flat},\"-\",IF({ok},IF(AND({k}>={lo},{k}<={hi}),"
+                         f"{Pr}distance_km*{Pr}scale*{k},\"no break-even in the range\"),"
+                         "\"no exact break-even near the case: the cost steps across zero at "
+                         "a battery replacement\"))")
                 fmt = {"purchase_price": wbb.MONEY, "annual_distance_km": wbb.INTEGER
                        }.get(key, "#,##0.0000")
                 self._metric(r, label, "break_even." + key, f, fmt)
                 safe_text(ws.cell(row=r, column=c_note),
                           f"{what} − PV difference ÷ slope; searched {lo:g}–{hi:g}× the "
-                          "case's value" + ("; live between battery replacements (an edit "
-                                            "that moves a replacement year needs a new run)"
-                                            if steps else ""))
+                          "case's value" + ("; between battery replacements PV is affine in "
+                                            "the distance: the root of the piece it lands in "
+                                            "(workings below)" if cyc else ""))
+        self.cf_next = row
 
     def _truck_block(self, i, name, row, cols, c_sum, c_pv, c_note, desc, npv) -> int:
         ws = self.ws_cf

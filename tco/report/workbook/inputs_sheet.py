@@ -172,7 +172,7 @@ class InputsSheet:
     def _inputs_sheet(self) -> None:
         ws, p, cur = self.ws_in, self.params, self.cur
         wbb.input_header(ws)
-        wbb.set_widths(ws, {"F": 8})
+        wbb.set_widths(ws, {"D": 17, "F": 8})  # "EUR/kW per month" fits
         self.row = 2
         f = self.inputs.finance
         src = self.source
@@ -447,25 +447,7 @@ class InputsSheet:
         self._inp(P + "charging_time_h", "Driver time at en-route chargers per year",
                   op.charging_time_lost / _S_PER_H, "h/yr", model, "0.00")
         if self._aged(i):
-            years = range(1, self.N + 1)
-            aged_src = ("model: battery state of health year by year (tco.battery), scaled "
-                        "by the truck's scale below; not live: a change of days or trips per "
-                        "day moves the ageing itself only on a new run of the tool")
-            self._range(P + "public_kwh_by_year", [f"Public charging electricity, year {y}"
-                                                   for y in years],
-                        op.public_energy_by_year / _J_PER_KWH, "kWh/yr", aged_src, wbb.ENERGY)
-            self._range(P + "charging_h_by_year", [f"Driver time at en-route chargers, year "
-                                                   f"{y}" for y in years],
-                        op.enroute_time_by_year / _S_PER_H, "h/yr", aged_src, "0.00")
-            base = op.grid_energy_depot if op.grid_energy_depot > 0 else 1.0
-            self._range(P + "depot_share_by_year", [f"Depot electricity as a share of the "
-                                                    f"first year's, year {y}" for y in years],
-                        op.depot_energy_by_year / base if op.grid_energy_depot > 0
-                        else np.ones(self.N), "-", aged_src, _FACTOR)
-        if c.battery_replacement.when == "range" and len(op.state_of_health) > self.N:
-            self._inp(P + "battery_soh_end", "Battery state of health at the end of the "
-                      "period (the battery in use)", float(op.state_of_health[self.N]), "-",
-                      "model: tco.battery", _RATE)
+            self._ageing_inputs(i)
         self._inp(P + "extra_trips", "Extra trips per year (lower payload)", op.extra_trips,
                   "1/yr", model, "0.00")
         self._inp(P + "trip_duration_h", "Duration of one trip (not scaled)",
@@ -487,7 +469,8 @@ class InputsSheet:
         else:
             self._derived(P + "scale", "Scale of the yearly cost quantities: days per year ÷ "
                           "modelled days", f"days_per_year/{P}operating_days", "-", _FACTOR)
-        if c.battery_replacement.when == "cycles" and op.battery_capacity > 0:
+        if (c.battery_replacement.when == "cycles" or self._aged(i)) \
+                and op.battery_capacity > 0:
             thru = "battery_discharge_kwh" if op.battery_discharge_energy > 0 \
                 else "battery_kwh"
             cyc = (f"{P}{thru}*{P}scale/{P}battery_capacity_kwh/{P}battery_cycle_life+"
@@ -496,6 +479,48 @@ class InputsSheet:
                           "discharged energy ÷ capacity ÷ cycle life + calendar fade ÷ "
                           "(1 − end-of-life state of health)",
                           f"{cyc}{P}calendar_fade/(1-{P}eol_soh)", "1/yr", _FACTOR)
+
+    def _ageing_inputs(self, i: int) -> None:
+        """The operating day's battery figures the live ageing rows read (Cash flow sheet,
+        tco.report.workbook.ageing_rows): model values of the simulated day."""
+        P, op = self.pre(i), self.ops[i]
+        tr = list(self.result.trucks.values())[i]
+        e = self.s.trucks[i].electric
+        r = e.enroute
+        new = tr.feasibility["battery"]["new"]
+        n_sim = tr.summary["trips_simulated"]
+        model = ("model: the simulated operating day (tco.energy); the battery ageing rows "
+                 "of the Cash flow sheet read it")
+        self._inp(P + "ageing_days", "Operating days of the ageing (extra trips counted as "
+                  "days)", op.trips / n_sim, "d/yr", model, wbb.ENERGY, field="")
+        self._inp(P + "day_need_kwh", "Deepest drawdown of the operating day",
+                  new["needed"] / _J_PER_KWH, "kWh", model, "0.00", field="")
+        self._inp(P + "day_available_kwh", "Energy above the reserve, new battery",
+                  new["available"] / _J_PER_KWH, "kWh", model, "0.00", field="")
+        self._inp(P + "usable_new_kwh", "Usable capacity, new battery",
+                  new["usable_capacity"] / _J_PER_KWH, "kWh", model, "0.00", field="")
+        self._inp(P + "net_day_kwh", "Battery energy of the day, discharge less "
+                  "regeneration", tr.summary["battery_energy_net"] * n_sim / _J_PER_KWH,
+                  "kWh", model, "0.00", field="")
+        self._inp(P + "depot_charge_eff", "Depot charging efficiency (grid to battery)",
+                  e.charging_efficiency, "-", self.source(
+                      f"trucks[{i}].electric.charging_efficiency"), _RATE)
+        self._inp(P + "enroute_kw", "En-route charger power (0: none)", r.power / _W_PER_KW,
+                  "kW", self.source(f"trucks[{i}].electric.enroute.power"), wbb.ENERGY)
+        self._inp(P + "enroute_eff", "En-route charging efficiency (grid to battery)",
+                  r.efficiency, "-", self.source(f"trucks[{i}].electric.enroute.efficiency"),
+                  _RATE)
+        self._inp(P + "stop_overhead_h", "Time lost per en-route stop besides charging",
+                  r.overhead / _S_PER_H, "h", self.source(
+                      f"trucks[{i}].electric.enroute.overhead"), "0.000")
+        if r.charge_during_breaks:
+            drive = tr.summary["day_driving_time"]
+            after, dur = float(r.break_after), float(r.break_duration)
+            breaks = math.floor(drive / after + 1e-12) if math.isfinite(after) and \
+                after > 0 else 0.0
+            self._inp(P + "break_cover_h", "Required breaks of the day (charging during "
+                      "them costs no driver time)", breaks * dur / _S_PER_H, "h", model,
+                      "0.000", field="")
 
     def _band_inputs(self, i: int) -> None:
         """Depot energy by time-of-use band: shares from the charging profile, and kWh."""

@@ -3,6 +3,8 @@ references, feasibility, warnings, cautions, the cumulative-cost chart.
 """
 from __future__ import annotations
 
+from openpyxl.styles import Alignment
+
 from tco.report import workbook_base as wbb
 from tco.report.workbook_base import safe_text, write_value
 from tco.report.workbook._common import (
@@ -36,7 +38,7 @@ class SummarySheet:
         names = self.trucks
         nt = len(names)
         safe_text(ws.cell(row=1, column=1), sc.get("name", self.s.study.name)).font = _TITLE_FONT
-        wbb.set_widths(ws, {"A": 52, "B": 36, **{3 + k: 18 for k in range(nt)}, 3 + nt: 16,
+        wbb.set_widths(ws, {"A": 66, "B": 36, **{3 + k: 18 for k in range(nt)}, 3 + nt: 16,
                             4 + nt: 40})
         info = [
             ("Notes", self.s.study.notes),
@@ -278,7 +280,9 @@ class SummarySheet:
         wbb.header_row(ws, head, ["Year", ""] + list(self.trucks))
         for k in range(self.N + 1):
             r = head + 1 + k
-            ws.cell(row=r, column=1, value=k).number_format = wbb.YEAR
+            c = ws.cell(row=r, column=1, value=k)
+            c.number_format = wbb.YEAR
+            c.alignment = Alignment(horizontal="left")
             for i, blk in enumerate(self.blocks):
                 ws.cell(row=r, column=3 + i, value="=" + _ref(_CF, _FIRST_COL + k,
                                                               blk.cumulative)
