@@ -82,6 +82,16 @@ class PreparedDay(NamedTuple):
         Time in those gaps. [s]
     unused : int
         Kept samples in stints shorter than one time step. [-]
+    leg_starts : numpy.ndarray or None
+        Index of the first sample and of every sample whose payload differs from the one
+        before (int64). [-]
+    mean_elevation : float
+        Mean of ``elevation`` (numpy's pairwise sum, divided by the count). [m]
+    payload_max : float
+        Heaviest payload of the day. [kg]
+    payload_distance : float
+        Σ payload_k · (v_k + v_{k+1})/2 · dt over the intervals (numpy's pairwise sum, as
+        ``np.sum``). [kg·m]
     """
 
     speed: np.ndarray | None
@@ -93,6 +103,10 @@ class PreparedDay(NamedTuple):
     gaps: int
     gap_time: float
     unused: int
+    leg_starts: np.ndarray | None = None
+    mean_elevation: float = float("nan")
+    payload_max: float = float("nan")
+    payload_distance: float = float("nan")
 
 
 # ----------------------------------------------------------------------------- helpers
@@ -182,6 +196,8 @@ def _interp_sorted(x, xp, fp, out):
             out[i] = fp[0]
         return
     j = 0
+    js = -1
+    slope = 0.0
     last = xp[n - 1]
     for i in range(x.size):
         xv = x[i]
@@ -195,7 +211,9 @@ def _interp_sorted(x, xp, fp, out):
             if j == n - 1 or xp[j] == xv:
                 out[i] = fp[j]
             else:
-                slope = (fp[j + 1] - fp[j]) / (xp[j + 1] - xp[j])
+                if j != js:  # numpy too divides once per piece when x is the longer
+                    slope = (fp[j + 1] - fp[j]) / (xp[j + 1] - xp[j])
+                    js = j
                 out[i] = slope * (xv - xp[j]) + fp[j]
 
 
@@ -509,6 +527,31 @@ def _prepare(t_in, v_in, zg_in, p_in, is_grade, dt, window, gap_limit, base_alti
     return sp, gr, el, pl, m, ncut, gap_time, unused, _OK, 0.0, 0.0
 
 
+@njit(**_JIT)
+def _day_figures(sp, el, pl, dt):
+    """Leg starts (payload changes), mean elevation, heaviest payload and payload ×
+    interval distance of a prepared day, summed as numpy sums."""
+    n = sp.size
+    changes = 1
+    for k in range(1, n):
+        if pl[k] != pl[k - 1]:
+            changes += 1
+    starts = np.empty(changes, dtype=np.int64)
+    starts[0] = 0
+    q = 1
+    pmax = pl[0]
+    for k in range(1, n):
+        if pl[k] != pl[k - 1]:
+            starts[q] = k
+            q += 1
+        if pl[k] > pmax:
+            pmax = pl[k]
+    work = np.empty(max(n - 1, 0))
+    for k in range(n - 1):
+        work[k] = pl[k] * (0.5 * (sp[k] + sp[k + 1]) * dt)
+    return (starts, _pairwise_sum(el, 0, n) / n, pmax, _pairwise_sum(work, 0, n - 1))
+
+
 def prepare_day(time, speed, terrain, payload, is_grade: bool, dt: float, window: float,
                 gap_limit: float, base_altitude: float) -> PreparedDay:
     """Cut a sorted vehicle-day into stints and resample them for the kernel.
@@ -571,5 +614,6 @@ def prepare_day(time, speed, terrain, payload, is_grade: bool, dt: float, window
     if sp.size == 0:
         return PreparedDay(None, None, None, None, int(kept), dups, int(gaps),
                            float(gap_time), int(unused))
+    starts, mean_z, pmax, pdist = _day_figures(sp, el, pl, float(dt))
     return PreparedDay(sp, gr, el, pl, int(kept), dups, int(gaps), float(gap_time),
-                       int(unused))
+                       int(unused), starts, float(mean_z), float(pmax), float(pdist))

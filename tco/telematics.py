@@ -94,6 +94,7 @@ from urllib.parse import unquote
 
 import numpy as np
 import pandas as pd
+from numba import njit
 
 from tco import dutycycle, electric, energy, kernel, operation, stints
 from tco.errors import InputError
@@ -340,7 +341,11 @@ def process_partition(path, scenario, root=None, gap_limit: float = GAP_LIMIT
     path = Path(path)
     name = path.relative_to(root).as_posix() if root is not None else path.name
     try:
+        # vehicle ids straight as a dictionary (Parquet stores text that way): no strings
+        # to build and encode again, 40 % less reading time here
         pf = pq.ParquetFile(path)
+        if "vehicle" in pf.schema_arrow.names:  # (naming a missing column is an error)
+            pf = pq.ParquetFile(path, metadata=pf.metadata, read_dictionary=["vehicle"])
         present = [c for c in INPUT_COLUMNS if c in pf.schema_arrow.names]
         from tco.budget import partition_problem
 
@@ -407,12 +412,42 @@ def _vehicle_codes(table, file, hive, n) -> tuple[np.ndarray, list]:
     if col.null_count:
         _fail(f"blank vehicle id at row {_first_null(col)} (rows count from 0)", file,
               "vehicle")
+    t = col.type
+    if (pa.types.is_dictionary(t) and (pa.types.is_string(t.value_type)
+                                       or pa.types.is_large_string(t.value_type))):
+        # read as a dictionary: the same codes as encoding the text (numbered in order of
+        # first appearance), from the dictionary's indices
+        col = col.unify_dictionaries()
+        names = col.chunk(0).dictionary.to_pylist() if col.num_chunks else []
+        if len(set(names)) == len(names):
+            idx = np.concatenate([c.indices.to_numpy(zero_copy_only=False)
+                                  for c in col.chunks]).astype(np.int64, copy=False)
+            codes, first = _first_appearance(idx, len(names))
+            return codes, [names[k] for k in first]
     try:
         col = col.cast(pa.string())
     except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
         _fail(f"vehicle ids must be text, found {col.type}", file, "vehicle")
     enc = pc.dictionary_encode(col.combine_chunks())
     return enc.indices.to_numpy().astype(np.int64), enc.dictionary.to_pylist()
+
+
+@njit(cache=True, nogil=True)
+def _first_appearance(idx, n_values):
+    """Dictionary indices renumbered in order of first appearance: (codes, the index each
+    code stands for) — what ``pyarrow.compute.dictionary_encode`` gives for the text."""
+    new = np.full(n_values, -1, dtype=np.int64)
+    first = np.empty(n_values, dtype=np.int64)
+    codes = np.empty(idx.size, dtype=np.int64)
+    used = 0
+    for i in range(idx.size):
+        k = idx[i]
+        if new[k] < 0:
+            new[k] = used
+            first[used] = k
+            used += 1
+        codes[i] = new[k]
+    return codes, first[:used]
 
 
 def _day_and_time(table, file) -> tuple[np.ndarray, np.ndarray]:
@@ -542,9 +577,8 @@ def _drive(day: stints.PreparedDay, tk: _Truck, ambient, dt, mean_elevation) -> 
     """One truck through one vehicle-day: the figures of its output row."""
     truck = tk.truck
     veh = energy.vehicle_parameters(truck, ambient, mean_elevation)
-    pay = day.payload
-    starts = np.concatenate(([0], np.flatnonzero(np.diff(pay) != 0) + 1)).astype(np.int64)
-    masses = truck.body.curb_mass + pay[starts]
+    starts = day.leg_starts
+    masses = truck.body.curb_mass + day.payload[starts]
     run = kernel.run_trace(day.speed, day.grade, dt, starts, masses, veh, tk.diesel,
                            tk.electric, workers=1)
     tot = run.totals
@@ -626,13 +660,41 @@ def process_table(table, scenario, source: str = "table", file=None,
     return _process_columns(columns, scenario, source, file, gap_limit)
 
 
+@njit(cache=True, nogil=True)
 def _in_order(codes, day, t) -> bool:
     """Whether rows are already sorted by vehicle code, day and time (ties kept in order,
     as the stable sort would keep them)."""
-    if codes.size < 2:
-        return True
-    dc, dd, dtm = np.diff(codes), np.diff(day), np.diff(t)
-    return bool(np.all((dc > 0) | ((dc == 0) & ((dd > 0) | ((dd == 0) & (dtm >= 0))))))
+    for i in range(1, codes.size):
+        if codes[i] != codes[i - 1]:
+            if codes[i] < codes[i - 1]:
+                return False
+            continue
+        if day[i] != day[i - 1]:
+            if day[i] < day[i - 1]:
+                return False
+            continue
+        if not t[i] - t[i - 1] >= 0:
+            return False
+    return True
+
+
+@njit(cache=True, nogil=True)
+def _day_bounds(codes, day):
+    """Start of each run of equal (vehicle code, day), and the end: [0, …, n]."""
+    n = codes.size
+    runs = 1
+    for i in range(1, n):
+        if codes[i] != codes[i - 1] or day[i] != day[i - 1]:
+            runs += 1
+    bounds = np.empty(runs + 1, dtype=np.int64)
+    bounds[0] = 0
+    k = 1
+    for i in range(1, n):
+        if codes[i] != codes[i - 1] or day[i] != day[i - 1]:
+            bounds[k] = i
+            k += 1
+    bounds[runs] = n
+    return bounds
 
 
 def _process_columns(columns, scenario, source, file, gap_limit) -> PartitionResult:
@@ -658,8 +720,7 @@ def _process_columns(columns, scenario, source, file, gap_limit) -> PartitionRes
         codes, day = codes[order], day[order]
         t, speed, zg, payload = t[order], speed[order], zg[order], payload[order]
         del order
-    new = np.flatnonzero((np.diff(codes) != 0) | (np.diff(day) != 0)) + 1
-    bounds = np.concatenate(([0], new, [n]))
+    bounds = _day_bounds(codes, day).tolist()
     rows, skipped = [], []
     for a, b in zip(bounds[:-1], bounds[1:]):
         vehicle = ids[codes[a]]
@@ -676,18 +737,17 @@ def _process_columns(columns, scenario, source, file, gap_limit) -> PartitionRes
             skipped.append((vehicle, date, source, used,
                             "no stretch of samples lasting one time step between gaps"))
             continue
-        mean_z = float(d.elevation.mean())
+        mean_z = d.mean_elevation
         tg = t[a:b]  # sorted; a repeated timestamp keeps its first row, as prepare_day
         keep = np.concatenate(([True], np.diff(tg) > 0))
         first, last = dwell_window(tg[keep], speed[a:b][keep])
         common = {"samples": used - d.unused, "duplicates_dropped": dups,
                   "first_departure_s": first, "last_arrival_s": last,
                   "samples_unused": d.unused, "gaps": d.gaps, "gap_time_s": d.gap_time,
-                  "payload_max_kg": float(d.payload.max()),
+                  "payload_max_kg": d.payload_max,
                   # payload × interval distance, intervals as in the kernel (numpy's
-                  # pairwise sum, not BLAS: the same bits with any thread count)
-                  "payload_distance_kg_m": float(np.sum(
-                      d.payload[:-1] * (0.5 * (d.speed[:-1] + d.speed[1:]) * dt)))}
+                  # pairwise sum order, not BLAS: the same bits with any thread count)
+                  "payload_distance_kg_m": d.payload_distance}
         for tk in trucks:
             try:
                 fig = _drive(d, tk, ambient, dt, mean_z)

@@ -80,7 +80,7 @@ def random_day(rng, n=3000, rate=1.0, stops=True, gaps=True, dups=True, noise=1.
     return t, v, z, payload
 
 
-def assert_day_close(got: stints.PreparedDay, ref, exact_elevation: bool):
+def assert_day_close(got: stints.PreparedDay, ref, exact_elevation: bool, dt: float):
     sp, gr, el, pl, kept, dups, gaps, gap_time, unused = ref
     assert (got.kept, got.duplicates, got.gaps, got.unused) == (kept, dups, gaps, unused)
     assert got.gap_time == gap_time
@@ -90,6 +90,12 @@ def assert_day_close(got: stints.PreparedDay, ref, exact_elevation: bool):
     # speed and payload do not depend on the elevation: the same bits
     np.testing.assert_array_equal(got.speed, sp)
     np.testing.assert_array_equal(got.payload, pl)
+    # the day's figures: numpy's own reductions of the returned arrays, the same bits
+    assert got.mean_elevation == float(got.elevation.mean())
+    assert got.payload_max == float(got.payload.max())
+    assert got.payload_distance == float(np.sum(pl[:-1] * (0.5 * (sp[:-1] + sp[1:]) * dt)))
+    np.testing.assert_array_equal(
+        got.leg_starts, np.concatenate(([0], np.flatnonzero(np.diff(pl) != 0) + 1)))
     if exact_elevation:
         np.testing.assert_array_equal(got.elevation, el)
         np.testing.assert_array_equal(got.grade, gr)
@@ -111,7 +117,7 @@ def test_elevation_day_matches_the_numpy_path(seed, dt):
     t, v, z, p = random_day(rng)
     got = stints.prepare_day(t, v, z, p, False, dt, 250.0, 600.0, 0.0)
     ref = reference_day(t, v, z, p, False, dt, 250.0, 600.0, 0.0)
-    assert_day_close(got, ref, exact_elevation=False)
+    assert_day_close(got, ref, exact_elevation=False, dt=dt)
 
 
 @pytest.mark.parametrize("seed", range(3))
@@ -121,10 +127,10 @@ def test_grade_column_and_no_smoothing_are_the_same_bits(seed):
     g = np.clip(np.gradient(z) / 30, -0.1, 0.1)
     assert_day_close(stints.prepare_day(t, v, g, p, True, 1.0, 250.0, 600.0, 120.0),
                      reference_day(t, v, g, p, True, 1.0, 250.0, 600.0, 120.0),
-                     exact_elevation=True)
+                     exact_elevation=True, dt=1.0)
     assert_day_close(stints.prepare_day(t, v, z, p, False, 1.0, 0.0, 600.0, 0.0),
                      reference_day(t, v, z, p, False, 1.0, 0.0, 600.0, 0.0),
-                     exact_elevation=True)
+                     exact_elevation=True, dt=1.0)
 
 
 @settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
@@ -146,7 +152,7 @@ def test_short_and_odd_days_match_the_numpy_path(seed, n, window, dt, rate):
         assert info.value.message == exc.message
         return
     got = stints.prepare_day(t, v, z, p, False, dt, window, 600.0, 0.0)
-    assert_day_close(got, ref, exact_elevation=not window)
+    assert_day_close(got, ref, exact_elevation=not window, dt=dt)
 
 
 def test_day_without_a_usable_stint():

@@ -563,3 +563,21 @@ def test_dwell_window_first_departure_and_last_arrival(tmp_path):
     assert csv["first departure [h after 00:00 UTC]"].tolist() == \
         pytest.approx([(5 * 3600 + 599) / 3600] * 2, rel=1e-12)
     assert csv["last arrival [h after 00:00 UTC]"].tolist() == pytest.approx([15.0] * 2)
+
+
+def test_vehicle_ids_read_as_a_dictionary_are_numbered_as_the_text():
+    """Vehicle ids arrive as a Parquet dictionary, in chunks with dictionaries of their
+    own order: the codes are those pyarrow.compute.dictionary_encode gives the text
+    (numbered in order of first appearance; pyarrow is the reference)."""
+    import pyarrow.compute as pc
+
+    text = ["V2", "V1", "V2", "V3", "V1", "V3"]
+    chunk1 = pa.DictionaryArray.from_arrays(pa.array([1, 2, 1], pa.int32()),
+                                            pa.array(["V3", "V2", "V1"]))
+    chunk2 = pa.DictionaryArray.from_arrays(pa.array([0, 1, 0], pa.int32()),
+                                            pa.array(["V3", "V1", "V9"]))
+    table = pa.table({"vehicle": pa.chunked_array([chunk1, chunk2])})
+    codes, ids = tm._vehicle_codes(table, "f.parquet", {}, len(text))
+    ref = pc.dictionary_encode(pa.array(text))
+    assert codes.tolist() == ref.indices.to_pylist()
+    assert ids == ref.dictionary.to_pylist() == ["V2", "V1", "V3"]
