@@ -239,6 +239,17 @@ def _cmd_fleet(args) -> int:
         print(f"{len(result.plan)} of {len(result.routes)} routes feasible; the plan {money} "
               f"(present value), avoids {fm.number(avo, 0)} t CO2e well-to-wheel, "
               f"needs {fm.count(plan.chargers)} chargers and {fm.kw(plan.peak_power)} peak")
+        from tco.report.fleet_summary import money_routes, order_records
+
+        mr = money_routes(order_records(result))  # as fleet.json "plan" says
+        losing = mr["vehicles_losing_money"]
+        if losing:
+            m = mr["routes_saving_money"]
+            both = (f"the {fm.count(m)} that save money save "
+                    f"{fm.money(mr['pv_saving_money_routes'], cur)} together"
+                    if m else "none saves money on its own")
+            print(f"  {fm.count(len(losing))} of them cost more electric than diesel "
+                  f"({', '.join(losing)}); {both}")
         for note in logged_notes:
             print(f"  {note}")
         tr = result.transition
@@ -248,7 +259,7 @@ def _cmd_fleet(args) -> int:
             print(f"transition plan: {n_e} of {len(sch)} vehicles go electric; present "
                   f"value {fm.money(tr.present_value, cur)} against "
                   f"{fm.money(tr.present_value_diesel, cur)} staying diesel")
-            for note in tr.notes[:-1]:
+            for note in tr.notes:
                 print(f"  {note}")
     for f in written:
         print(f)

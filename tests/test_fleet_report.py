@@ -313,6 +313,53 @@ def test_key_figures_read_as_written_by_hand(fleet, summary):
                       "3 × 150 kW", "988 kW", "12,345 kWh", "year 4"], values
 
 
+def test_money_routes_from_the_order_by_hand():
+    """Hand-written order (by saving): A +100, B +50, C −10 (feasible), D +80 (not
+    feasible, last). The routes that save money are A and B; together the order's
+    cumulative saving after B, 150; C loses money; D is not counted."""
+    from tco.report.fleet_summary import money_routes
+
+    order = [
+        {"vehicle": "A", "feasible": True, "pv_saving": 100.0, "cumulative_pv_saving": 100.0},
+        {"vehicle": "B", "feasible": True, "pv_saving": 50.0, "cumulative_pv_saving": 150.0},
+        {"vehicle": "C", "feasible": True, "pv_saving": -10.0, "cumulative_pv_saving": 140.0},
+        {"vehicle": "D", "feasible": False, "pv_saving": 80.0, "cumulative_pv_saving": 220.0},
+    ]
+    assert money_routes(order) == {"routes_saving_money": 2, "vehicles_losing_money": ["C"],
+                                   "pv_saving_money_routes": 150.0}
+    assert money_routes(order[:2])["vehicles_losing_money"] == []
+
+
+def test_verdict_names_the_routes_that_lose_money(fleet, summary):
+    """Hand-set fleet.json values, read as the exact sentence a reader should see."""
+    import copy
+
+    from tco.report.fleet_report import build_fleet_context
+
+    s = copy.deepcopy(summary)
+    s["currency"] = "EUR"
+    s["plan"].update(routes_feasible=3, routes_total=4, pv_saving=1_000.0, avoided_t=20.0,
+                     chargers=1, peak_kW=100.0, routes_saving_money=2,
+                     vehicles_losing_money=["MF-9"], pv_saving_money_routes=1_234.4)
+    s["depot"]["charger_kW"] = 100.0
+    s["transition"] = None
+    text = build_fleet_context(fleet, s)["verdict"]
+    assert text.endswith(" 1 of them (MF-9) cost more electric than diesel; the 2 that save "
+                         "money save 1,234 EUR together (electrification order)."), text
+    s["plan"]["vehicles_losing_money"] = []
+    assert "cost more electric" not in build_fleet_context(fleet, s)["verdict"]
+
+
+def test_demo_verdict_counts_agree_with_the_routes(summary):
+    """fleet.json's new plan keys agree with its own routes table: the losing vehicles
+    are the feasible routes whose candidate's present value is above the current one."""
+    p = summary["plan"]
+    losing = sorted(r["vehicle"] for r in summary["routes"]
+                    if r["feasible"] and r["pv_difference"] > 0)
+    assert sorted(p["vehicles_losing_money"]) == losing
+    assert p["routes_saving_money"] + len(losing) == p["routes_feasible"]
+
+
 @pytest.mark.slow
 def test_pdf_shows_key_figures_exactly_as_in_fleet_json(written):
     s = written["json"]

@@ -359,11 +359,27 @@ def _verdict(s: dict) -> str:
     word = "saves" if p["pv_saving"] >= 0 else "costs"
     tail = "" if p["pv_saving"] >= 0 else " more"
     dep = s["depot"]
-    return (f"{n} of {total} {routes} can be run by {own} electric candidate. Electrifying "
+    text = (f"{n} of {total} {routes} can be run by {own} electric candidate. Electrifying "
             f"{them} {word} {fmt_money(abs(p['pv_saving']), cur)}{tail} in present value over "
             f"{years} years and avoids {_n(p['avoided_t'])} t CO2e well-to-wheel; the depot "
             f"needs {p['chargers']} charger{'s' if p['chargers'] != 1 else ''} of "
             f"{_n(dep['charger_kW'])} kW and a peak of {_n(p['peak_kW'])} kW.")
+    return text + _losing_sentence(s)
+
+
+def _losing_sentence(s: dict) -> str:
+    """What the loss-making feasible routes change, from fleet.json (empty when none)."""
+    p, cur = s["plan"], s["currency"]
+    losing = p.get("vehicles_losing_money") or []
+    if not losing:
+        return ""
+    k, m = len(losing), p["routes_saving_money"]
+    keep = (f"the {m} that save money save {fmt_money(p['pv_saving_money_routes'], cur)} "
+            "together (electrification order)" if m else "none saves money on its own")
+    plan = ("; the transition plan says which of them the target or the carbon price "
+            "needs" if s.get("transition") else "")
+    return (f" {k} of them ({', '.join(losing)}) cost more electric than diesel; "
+            f"{keep}{plan}.")
 
 
 def _key_figures(s: dict) -> list[dict]:

@@ -27,7 +27,10 @@ to ``created``), added so that summary.json, fleet.json and a batch's index.json
     location-based, over the period), ``abatement_cost_per_t``, ``payback_year`` (first
     year the plan's cumulative saving, not discounted, is no longer negative),
     ``chargers``, ``peak_kW``, ``tonnes_discounted`` (the abatement costs divide the
-    present-value cost by discounted tonnes; ``avoided_t`` is always physical tonnes).
+    present-value cost by discounted tonnes; ``avoided_t`` is always physical tonnes);
+    since 1.2: ``routes_saving_money`` (feasible routes whose own saving is ≥ 0),
+    ``vehicles_losing_money`` (the other feasible ones) and ``pv_saving_money_routes``
+    (the order's cumulative saving after the last route that saves money).
 ``depot``
     ``charger_kW``, ``demand_interval_min`` and, for ``plan`` and ``all`` (every
     candidate): ``chargers``, ``peak_kW``, ``peak_interval_start`` (``HH:MM``),
@@ -356,6 +359,18 @@ def cautions() -> list[str]:
     ]
 
 
+def money_routes(order: list[dict]) -> dict:
+    """The feasible routes that save money on their own, and their saving together: the
+    electrification order's cumulative saving after the last of them (the order puts
+    them first), so the figure is the one the order table shows."""
+    feasible = [o for o in order if o["feasible"]]
+    keep = [o for o in feasible if (o["pv_saving"] or 0.0) >= 0.0]
+    return {"routes_saving_money": len(keep),
+            "vehicles_losing_money": [o["vehicle"] for o in feasible
+                                      if (o["pv_saving"] or 0.0) < 0.0],
+            "pv_saving_money_routes": (keep[-1]["cumulative_pv_saving"] if keep else 0.0)}
+
+
 def build_fleet_summary(result, created: str | None = None) -> dict:
     """The ``fleet.json`` content of a fleet result (JSON-safe).
 
@@ -378,6 +393,7 @@ def build_fleet_summary(result, created: str | None = None) -> dict:
     pv_saving = result.plan_saving
     avoided = result.plan_avoided_t
     tonnes_discounted = bool(getattr(s.emissions, "discount_tonnes", False))
+    order = order_records(result)
     out = {
         "schema": SCHEMA,
         # shared with summary.json and the batch index.json: schema_version, tool, generated
@@ -398,6 +414,7 @@ def build_fleet_summary(result, created: str | None = None) -> dict:
         "currency": result.currency,
         "charging_rule": result.rule,
         "plan": {
+            **money_routes(order),
             "vehicles": list(result.plan),
             "routes_total": len(routes),
             "routes_feasible": sum(1 for r in routes if r["feasible"]),
@@ -415,7 +432,7 @@ def build_fleet_summary(result, created: str | None = None) -> dict:
                   "plan": _depot(result, "plan", with_profile=True),
                   "all": _depot(result, "all", with_profile=False)},
         "routes": routes,
-        "order": order_records(result),
+        "order": order,
         "yearly": yearly,
         "yearly_totals": _yearly_totals(yearly, s.finance.discount_rate),
         "transition": transition_summary(result),
