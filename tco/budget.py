@@ -31,8 +31,8 @@ __all__ = ["BYTES_PER_DRAW", "BYTES_PER_FLEET_ROW", "BYTES_PER_SAMPLE",
            "BYTES_PER_TELEMATICS_ROW", "BYTES_PER_WORKER", "MAX_BATCH_SCENARIOS", "MAX_DRAWS",
            "MAX_FLEET_ROWS", "MAX_PARTITION_ROWS", "MAX_RUN_BYTES", "MAX_TRIP_SAMPLES",
            "check_batch_size", "check_draws", "check_samples", "check_trip", "draws_problem",
-           "fleet_problem", "fleet_workers", "least_samples_problem", "partition_problem", "scenario_bytes",
-           "segments_duration", "size_text", "trip_samples", "workers_for"]
+           "fleet_problem", "fleet_workers", "least_samples_problem", "partition_problem",
+           "scenario_bytes", "segments_duration", "size_text", "trip_samples", "workers_for"]
 
 #: Most samples in one trip. At a 1 s step that is about 35 days of driving and standing;
 #: at 0.1 s about 3.5 days. [-]

@@ -109,7 +109,7 @@ class AfterTax(Section):
         0.25, "", "Income tax rate on the business's profit", ASSUMPTION,
         usual=(0.05, 0.5),
         usual_source="from memory: corporate income tax rates mostly 10–35 %, with local taxes up "
-            "to about 40–50 %")
+        "to about 40–50 %")
     depreciation: Literal["straight_line", "declining_balance", "macrs"] = mfield(
         "straight_line", "", "Tax depreciation of the truck: straight_line, declining_balance "
         "(switching to straight line) or macrs (US MACRS GDS, half-year, IRS Pub. 946 "
@@ -119,7 +119,7 @@ class AfterTax(Section):
         5, "yr", "Tax life for straight_line and declining_balance", ASSUMPTION, ge=1, le=40,
         usual=(3, 12),
         usual_source="IRS Publication 946, Table B-1: over-the-road tractors 3 years; common "
-            "practice 5–8 years elsewhere")
+        "practice 5–8 years elsewhere")
     declining_balance_percent: Literal[150, 200] = mfield(
         200, "%", "Declining-balance rate as a percent of the straight-line rate",
         "common practice: 200 % (double declining balance) or 150 %"
@@ -170,7 +170,7 @@ class Finance(Section):
         "for time lost at en-route chargers and for extra trips", ASSUMPTION,
         usual=(10, 100),
         usual_source="from memory: heavy-truck drivers' wages with overheads about 20–60 USD or "
-            "EUR an hour")
+        "EUR an hour")
     driver_cost_escalation: Escalation = _esc("Driver cost")
     valuation: Literal["unlevered", "as_financed"] = mfield(
         "unlevered", "", "Flows behind the headline present value, levelized cost, payback and "
@@ -229,7 +229,7 @@ class TouBand(Section):
                                        "kWh)",
         usual=(0.01, 0.8),
         usual_source="from memory: commercial electricity about 0.05–0.40 USD or EUR per kWh, up "
-            "to about 0.6 at peak")
+        "to about 0.6 at peak")
 
     @field_validator("hours")
     @classmethod
@@ -250,7 +250,7 @@ class Tariff(Section):
         "when a truck charges at the depot in such hours", NO_DEFAULT,
         usual=(0.01, 0.8),
         usual_source="from memory: commercial electricity about 0.05–0.40 USD or EUR per kWh, up "
-            "to about 0.6 at peak")
+        "to about 0.6 at peak")
     bands: list[TouBand] = Field(
         default_factory=list, description="Time-of-use bands; hours outside every band pay "
         "energy_price"
@@ -264,7 +264,7 @@ class Tariff(Section):
                               ASSUMPTION, ge=0,
         usual=(0, 10_000),
         usual_source="from memory: tens to a few thousand USD or EUR a month for a commercial "
-            "meter")
+        "meter")
 
     @model_validator(mode="after")
     def _bands(self):
@@ -298,7 +298,7 @@ class Prices(Section):
         "needed when a truck burns diesel", NO_DEFAULT,
         usual=(0.5, 3.0),
         usual_source="from memory: about 0.9–1.2 USD per litre (US) and 1.4–2.0 EUR per litre "
-            "(Europe) in the 2020s")
+        "(Europe) in the 2020s")
     diesel_exhaust_fluid: Qty("1/L", ge=0) | None = qfield(
         None, "1/L", "Diesel exhaust fluid price (currency per litre); needed when a truck "
         "uses it", NO_DEFAULT,
@@ -333,17 +333,17 @@ class Depot(Section):
                            ge=0, le=10_000,
         usual=(None, 500),
         usual_source="common practice: about one charger per one or two trucks; large depots have "
-            "hundreds of trucks")
+        "hundreds of trucks")
     charger_power: Qty("kW", ge=0, le=10_000) = qfield(
         0.0, "kW", "Rated power of one charger (0: no cap on the depot's peak)", ASSUMPTION,
         usual=(None, 1500),
         usual_source="common practice: depot chargers 20–400 kW (AC to DC); megawatt chargers "
-            "above")
+        "above")
     hardware_cost: float = mfield(0.0, "currency", "Hardware cost of one charger",
                                   ASSUMPTION, ge=0,
         usual=(None, 400_000),
         usual_source="from memory: a few thousand (AC) to 50,000–200,000 (high-power DC) USD or "
-            "EUR per charger")
+        "EUR per charger")
     installation_cost: float = mfield(0.0, "currency", "Installation cost of one charger",
                                       ASSUMPTION, ge=0,
         usual=(None, 300_000),
@@ -352,7 +352,7 @@ class Depot(Section):
                                          ASSUMPTION, ge=0,
         usual=(None, 2e7),
         usual_source="from memory: from nothing (spare capacity) to a few million for a new "
-            "medium-voltage connection")
+        "medium-voltage connection")
     life: int = mfield(10, "yr", "Life of the charger hardware", ASSUMPTION, ge=1, le=50,
         usual=(5, 15),
         usual_source="from memory: charger hardware lasts about 8–12 years")
@@ -365,7 +365,7 @@ class Depot(Section):
         ASSUMPTION, ge=0,
         usual=(None, 30_000),
         usual_source="from memory: maintenance and software fees about 2–10 % of the hardware cost "
-            "a year")
+        "a year")
     trucks_served: int | None = mfield(
         None, "", "Trucks sharing the depot (default: the electric trucks of the scenario "
         "that charge at the depot; at most 100,000)", ASSUMPTION, ge=1, le=100_000,
@@ -417,7 +417,7 @@ class Financing(Section):
                                   ge=0,
         usual=(300, 20_000),
         usual_source="from memory: heavy-truck leases about 1,500–6,000 USD or EUR a month, "
-            "electric more")
+        "electric more")
     lease_upfront: float = mfield(0.0, "currency", "Lease payment due at signing (year 0)",
                                   ASSUMPTION, ge=0,
         usual=(None, 200_000),
@@ -476,7 +476,7 @@ class BatteryReplacement(Section):
         ASSUMPTION,
         usual=(50, 600),
         usual_source="from memory: battery pack prices about 100–200 USD per kWh in the early "
-            "2020s (industry surveys); truck packs and replacements cost more")
+        "2020s (industry surveys); truck packs and replacements cost more")
     credit_remaining_life: bool = mfield(
         True, "", "Credit the unused share of a replacement battery's life at the end of the "
         "period", ASSUMPTION
@@ -536,7 +536,7 @@ class TruckCosts(Section):
                                    "placeholder 0: set the truck's price", ge=0,
         usual=(20_000, 800_000),
         usual_source="from memory: a new heavy tractor about 100,000–180,000 USD or EUR, "
-            "battery-electric 250,000–500,000; light rigids from about 40,000")
+        "battery-electric 250,000–500,000; light rigids from about 40,000")
     purchase_tax_rate: Share = qfield(0.0, "", "Purchase (sales) tax, share of the price",
                                       ASSUMPTION,
         usual=(0, 0.25),
@@ -548,12 +548,12 @@ class TruckCosts(Section):
     grant: float = mfield(0.0, "currency", "Grant paid at purchase", ASSUMPTION, ge=0,
         usual=(None, 300_000),
         usual_source="from memory: purchase grants for zero-emission trucks from tens of thousands "
-            "to about 200,000 USD or EUR")
+        "to about 200,000 USD or EUR")
     tax_credit: float = mfield(0.0, "currency", "Tax credit received in tax_credit_year",
                                ASSUMPTION, ge=0,
         usual=(None, 100_000),
         usual_source="from memory: tax credits for clean trucks of up to about 40,000 USD per "
-            "truck")
+        "truck")
     tax_credit_year: int = mfield(1, "yr", "Year the tax credit is received", ASSUMPTION,
                                   ge=0, le=100,
         usual=(0, 3),
@@ -563,7 +563,7 @@ class TruckCosts(Section):
         0.0, "1/km", "Maintenance and repair per distance (currency per km)", ASSUMPTION,
         usual=(0.01, 0.5),
         usual_source="from memory: maintenance and repair of heavy trucks about 0.05–0.20 USD or "
-            "EUR per km")
+        "EUR per km")
     tyres: Qty("1/km", ge=0) = qfield(0.0, "1/km", "Tyres per distance (currency per km)",
                                       ASSUMPTION,
         usual=(0, 0.1),

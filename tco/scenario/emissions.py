@@ -122,7 +122,7 @@ class LifecycleAddon(Section):
         "none: you give it when include is true",
         usual=(30, 200),
         usual_source="from memory: published studies put battery manufacturing at about 50–150 kg "
-            "CO2e per kWh")
+        "CO2e per kWh")
 
     @model_validator(mode="after")
     def _complete(self):
@@ -160,7 +160,7 @@ class EmissionsSettings(Section):
         "2025, WTT- fuels, diesel; tco/data/desnz_2025.csv)",
         usual=(0.3, 1.0),
         usual_source="UK DESNZ conversion factors 2025, WTT- fuels, diesel: about 0.6 kg CO2e/L "
-            "(tco/data/desnz_2025.csv)")
+        "(tco/data/desnz_2025.csv)")
     def_density: Qty("kg/L", gt=0, le=3) = qfield(
         1.09, "kg/L", "Density of diesel exhaust fluid", "ISO 22241-1 (from memory)",
         usual=(1.08, 1.1),
@@ -175,7 +175,7 @@ class EmissionsSettings(Section):
         "CO2e per kWh at the meter (373.4 g/kWh)", GRID_DEFAULT_SOURCE,
         usual=(0, 1200),
         usual_source="European Environment Agency (2020): EU-27 generation 281 g CO2e/kWh in 2018; "
-            "lignite plants about 1,100–1,200 g/kWh (from memory)")
+        "lignite plants about 1,100–1,200 g/kWh (from memory)")
     grid_change: Qty("percent", ge=-100, le=100) = qfield(
         0.0, "percent", "Compound change of the grid intensity per year (-3 means 3 % lower "
         "each year)", ASSUMPTION + ": no change",
@@ -186,14 +186,14 @@ class EmissionsSettings(Section):
         ASSUMPTION + ": no floor",
         usual=(0, 1200),
         usual_source="European Environment Agency (2020): EU-27 generation 281 g CO2e/kWh in 2018; "
-            "lignite plants about 1,100–1,200 g/kWh (from memory)")
+        "lignite plants about 1,100–1,200 g/kWh (from memory)")
     grid_table: dict[int, Qty("g/kWh", ge=0, le=MAX_GRID_G_PER_KWH)] | None = qfield(
         None, "g/kWh", "Grid intensity by calendar year, instead of grid_intensity with "
         "grid_change (linear between listed years, flat outside them)",
         "none: the trajectory is used",
         usual=(0, 1200),
         usual_source="European Environment Agency (2020): EU-27 generation 281 g CO2e/kWh in 2018; "
-            "lignite plants about 1,100–1,200 g/kWh (from memory)")
+        "lignite plants about 1,100–1,200 g/kWh (from memory)")
     hourly_profile: list[float] | None = mfield(
         None, "", "Grid intensity by hour: 24 hour-of-day values, or 8760 (8784) hourly "
         "values from 00:00 on 1 January, averaged by hour of day; read as a shape or in "
@@ -212,7 +212,7 @@ class EmissionsSettings(Section):
         "none: the market-based figure uses the grid intensity",
         usual=(0, 1200),
         usual_source="European Environment Agency (2020): EU-27 generation 281 g CO2e/kWh in 2018; "
-            "lignite plants about 1,100–1,200 g/kWh (from memory)")
+        "lignite plants about 1,100–1,200 g/kWh (from memory)")
     residual_mix_intensity: Qty("g/kWh", ge=0, le=MAX_GRID_G_PER_KWH) | None = qfield(
         None, "g/kWh", "Market-based: residual-mix emission factor, for electricity bought "
         "without a contractual instrument (depot electricity not covered by the supplier "
@@ -222,7 +222,7 @@ class EmissionsSettings(Section):
         "GHG Protocol Scope 2 Guidance asks for a residual mix where one is published)",
         usual=(0, 1200),
         usual_source="European Environment Agency (2020): EU-27 generation 281 g CO2e/kWh in 2018; "
-            "lignite plants about 1,100–1,200 g/kWh (from memory)")
+        "lignite plants about 1,100–1,200 g/kWh (from memory)")
     residual_mix_source: str | None = mfield(
         None, "", "Where the residual-mix factor comes from (publisher, year, table; at most "
         "200 characters); needed with residual_mix_intensity", "none", text_limit=200)
@@ -237,14 +237,14 @@ class EmissionsSettings(Section):
         ASSUMPTION + ": a typical order of magnitude for national grids",
         usual=(0, 20),
         usual_source="from memory: national grids lose about 3–10 % in transmission and "
-            "distribution, up to 20 % in some")
+        "distribution, up to 20 % in some")
     electricity_upstream: Qty("g/kWh", ge=0, le=MAX_GRID_G_PER_KWH) | None = qfield(
         None, "g/kWh", "Upstream (well-to-tank of the power plants' fuels) emissions per kWh "
         "at the meter, Scope 3 category 3; empty: electricity_upstream_share of the grid "
         "intensity", "none: electricity_upstream_share is used",
         usual=(0, 300),
         usual_source="from memory: well-to-tank of grid electricity about a tenth of the "
-            "generation factor")
+        "generation factor")
     electricity_upstream_share: Qty("percent", ge=0, le=100) = qfield(
         10.0, "percent", "Upstream emissions of electricity as a share of the grid intensity "
         "of each year, used when electricity_upstream is empty (ISO 14083 well-to-wheel "
@@ -254,7 +254,7 @@ class EmissionsSettings(Section):
         "generation factor; replace with your grid's published figure",
         usual=(0, 30),
         usual_source="from memory: national factor sets put it at roughly a tenth of the "
-            "generation factor")
+        "generation factor")
     diesel_blend_share: Qty("percent", ge=0, le=100) = qfield(
         0.0, "percent", "Biodiesel (FAME) share of the diesel by volume; its CO2 is biogenic "
         "and reported apart from the scopes",
@@ -275,7 +275,7 @@ class EmissionsSettings(Section):
         "category 3); empty: the diesel upstream factor", ASSUMPTION + ": as fossil diesel",
         usual=(0, 3),
         usual_source="from memory: well-to-tank of biodiesel depends on the feedstock, mostly "
-            "below 2 kg CO2e/L")
+        "below 2 kg CO2e/L")
     discount_tonnes: bool = mfield(
         True, "", "Abatement cost on discounted tonnes (present-value cost over tonnes "
         "discounted at the finance discount rate); false: over undiscounted tonnes. Both are "

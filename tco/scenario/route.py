@@ -124,12 +124,12 @@ class Segment(Section):
     speed: Qty("km/h", gt=0, le=MAX_TRUCK_SPEED_KMH) = qfield(
         ..., "km/h", f"Cruise speed (at most {MAX_TRUCK_SPEED_KMH} km/h)", usual=(None, 110),
         usual_source="common practice: truck speed limiters at 80–90 km/h; highway limits up to "
-            "about 110 km/h")
+        "about 110 km/h")
     grade: Qty("percent", ge=-30, le=30) = qfield(
         0.0, "percent", "Road grade, rise over run (negative downhill)", ASSUMPTION,
         usual=(-12, 12),
         usual_source="common practice: main roads are built to grades below about 6–8 %; steep "
-            "local roads reach 12 %")
+        "local roads reach 12 %")
     stops: int = mfield(0, "", "Stops inside the stretch (evenly spaced; at most "
                         f"{MAX_STOPS:,}: each needs two samples of the trip budget, "
                         "tco.budget)", ASSUMPTION, ge=0, bounds=(0, MAX_STOPS),
@@ -156,7 +156,7 @@ class Leg(Section):
     payload: Qty("t", ge=0, le=500) = qfield(..., "t", "Payload carried on this leg (at most "
                                              "500 t)", usual=(None, 60),
         usual_source="common practice: road laws of 40–44 t gross leave about 25–30 t of payload; "
-            "long combinations up to about 60 t")
+        "long combinations up to about 60 t")
     file: str | None = mfield(
         None, "", "CSV trace or GPX track for this leg, relative to the scenario file",
         "none: the leg is built from segments"
@@ -165,7 +165,7 @@ class Leg(Section):
         None, "km/h", "Constant cruise speed for a CSV with distance and elevation only (at "
         f"most {MAX_TRUCK_SPEED_KMH} km/h)", "none", usual=(None, 110),
         usual_source="common practice: truck speed limiters at 80–90 km/h; highway limits up to "
-            "about 110 km/h")
+        "about 110 km/h")
     segments: list[Segment] = Field(default_factory=list, description="Synthetic stretches")
     dwell_end: DwellEnd = qfield(
         0.0, "min", "Time standing at the end of the leg (loading or unloading); the whole "
@@ -190,12 +190,12 @@ class Route(Section):
     trips_per_day: Qty("", gt=0, le=50) = qfield(1.0, "", "Trips per operating day", ASSUMPTION,
         usual=(0.2, 12),
         usual_source="common practice: from a trip every few days (long haul) to about ten short "
-            "shuttles a day")
+        "shuttles a day")
     days_per_year: Qty("", gt=0, le=366) = qfield(
         250.0, "", "Operating days per year", "common practice: about 250 working days a year",
         usual=(150, 365),
         usual_source="common practice: about 250 working days a year; every day in continuous "
-            "operation")
+        "operation")
     parked_idle_share: Qty("", ge=0, le=1) = qfield(
         0.0, "", "Share of the parked dwell (loading, unloading at the end of a leg) with "
         "the engine or auxiliaries left running, e.g. for cab heating or cooling; traffic "
@@ -208,14 +208,14 @@ class Route(Section):
         "and caps the power (work the truck cannot do is then not counted)",
         "first principles: a truck at full power on a climb slows to its steady speed"
     )
-    time_step: Qty("s", gt=0, le=LONGEST_TIME_STEP) = qfield(1.0, "s", "Simulation time step", ASSUMPTION,
-        usual=(0.1, 2),
+    time_step: Qty("s", gt=0, le=LONGEST_TIME_STEP) = qfield(
+        1.0, "s", "Simulation time step", ASSUMPTION, usual=(0.1, 2),
         usual_source="common practice: drive cycles and logged traces at 1 to 10 Hz (0.1 to 1 s)")
     smoothing_window: Qty("m", ge=0, le=5000) = qfield(
         250.0, "m", "Elevation smoothing window for CSV and GPX traces (0 = off)", ASSUMPTION,
         usual=(0, 1000),
         usual_source="from memory: road elevation data are smoothed over tens to hundreds of "
-            "metres")
+        "metres")
     max_accel: Qty("m/s^2", gt=0, le=3) = qfield(
         0.4, "m/s^2", "Acceleration limit for synthetic routes",
         "common practice: 0.3–0.5 m/s² for a loaded heavy truck",
