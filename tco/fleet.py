@@ -83,9 +83,8 @@ COLUMNS: dict[str, tuple[bool, str | None]] = {
 }
 _YEAR_S = 365.25 * 86400.0  # the unit registry's (Julian) year [s]
 #: Hard limits of the numeric columns, in each column's default unit (low, high, low
-#: included?), and why there is no usual-range warning per cell: the row's scenario fields
-#: (base.toml and the cycle) carry those. A value outside is refused with one line naming
-#: the row and column. ``tests/test_field_bounds.py`` checks each limit is enforced.
+#: included?). A value outside is refused with one line naming the row and column.
+#: ``tests/test_field_bounds.py`` checks each limit is enforced.
 COLUMN_LIMITS: dict[str, tuple[float, float, bool]] = {
     # a truck driving 24 h a day at 150 km/h every day of a leap year covers 1.3e6 km
     "annual_distance": (0.0, 1_500_000.0, False),  # [km]
@@ -95,8 +94,47 @@ COLUMN_LIMITS: dict[str, tuple[float, float, bool]] = {
     "replacement_year": (1990.0, 2100.0, True),  # calendar year, as study.start_year
     "resale_value": (0.0, 1e13, True),  # [currency], the money ceiling
 }
-COLUMN_USUAL = ("none: a fleet cell is checked against its hard limits; the usual ranges "
-                "are those of the scenario fields it replaces")
+#: Usual ranges of the numeric columns in their default units (low, high; None: open) and
+#: where they come from, or why there is none: a value outside is run and named in the
+#: fleet's warnings (money only in the currencies of ``tco.scenario.base.DOLLAR_LIKE``).
+COLUMN_USUAL: dict[str, tuple[float | None, float | None, str] | str] = {
+    "annual_distance": (5_000.0, 250_000.0, "common practice: heavy trucks run about "
+                        "20,000–200,000 km a year"),
+    "payload": (None, 60.0, "as the scenario's leg payload: road laws of 40–44 t gross "
+                "leave about 25–30 t; long combinations up to about 60 t"),
+    "days_per_year": (150.0, 365.0, "as route.days_per_year: about 250 working days a "
+                      "year; every day in continuous operation"),
+    "age": (None, 25.0, "common practice: trucks older than 20–25 years are rare in "
+            "commercial fleets"),
+    "replacement_year": "none: any year of the plan",
+    "resale_value": (None, 800_000.0, "from memory: a new heavy tractor costs about "
+                     "100,000–500,000 USD or EUR, so a used one sells for less"),
+}
+
+
+def column_warnings(rows: list["FleetRow"], currency: str) -> list[str]:
+    """One sentence per fleet cell outside its column's usual range (:data:`COLUMN_USUAL`),
+    naming the row and the vehicle."""
+    from tco.scenario.base import DOLLAR_LIKE, number_text as num
+
+    out = []
+    for row in rows:
+        for name, usual in COLUMN_USUAL.items():
+            value = getattr(row, name)
+            if isinstance(usual, str) or value is None:
+                continue
+            if name == "resale_value" and currency not in DOLLAR_LIKE:
+                continue
+            unit = COLUMNS[name][1] or ""
+            shown = float(from_si(value, unit)) if unit and name != "age" else float(value)
+            low, high, _ = usual
+            if (low is not None and shown < low) or (high is not None and shown > high):
+                rng = (f"{num(low)} to {num(high)}" if low is not None and high is not None
+                       else f"at least {num(low)}" if low is not None else f"at most {num(high)}")
+                u = f" {unit}" if unit else ""
+                out.append(f"{row.vehicle} (row {row.row}): {name} = {num(shown)}{u} is outside "
+                           f"the usual range ({rng}{u}); check that it is meant")
+    return out
 
 
 def _limit_problem(name: str, v: float) -> str | None:
@@ -893,7 +931,11 @@ def _evaluate(base, rows, fleet_file, rule, pool, jobs, steps, timings, plan_set
     routes = _routes_table(energies, status, money, sched_all, sched_plan, pos_all, pos_plan)
     order = _order(routes, energies, base, rule)
     yearly = _yearly(energies, money, set(plan), sched_plan, base)
-    warnings = [f"{e.row.vehicle}: {w}" for e in energies for w in e.warnings]
+    from tco.scenario.base import unusual_values
+
+    warnings = [f"base scenario: {w}" for w in unusual_values(base.scenario)]
+    warnings += column_warnings([e.row for e in energies], base.scenario.study.currency)
+    warnings += [f"{e.row.vehicle}: {w}" for e in energies for w in e.warnings]
     transition = None
     if plan_settings is not None:
         from tco.plan import plan_fleet

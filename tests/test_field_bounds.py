@@ -226,7 +226,32 @@ def test_every_numeric_fleet_column_has_limits():
                "resale_value"}
     assert numeric <= set(COLUMNS)
     assert set(COLUMN_LIMITS) == numeric
-    assert COLUMN_USUAL.startswith("none: ")
+    assert set(COLUMN_USUAL) == numeric
+    for name, usual in COLUMN_USUAL.items():
+        if isinstance(usual, str):
+            assert usual.startswith("none: ") and len(usual) > 12, name
+        else:
+            low, high, source = usual
+            assert source and (low is None or low >= COLUMN_LIMITS[name][0]), name
+            assert high is None or high <= COLUMN_LIMITS[name][1], name
+
+
+def test_fleet_cells_outside_their_usual_range_are_named():
+    from tco.fleet import FleetRow, column_warnings
+
+    # 400,000 km a year: 1,100 km every day of the year, twice what a truck with one driver
+    # covers; kept in SI as 4e8 m
+    row = FleetRow(row=3, vehicle="V7", cycle=None, current="d", candidate="e",
+                   annual_distance=4e8, age=30.0, resale_value=2e6)
+    found = column_warnings([row], "EUR")
+    assert found == [
+        "V7 (row 3): annual_distance = 400,000 km is outside the usual range (5,000 to "
+        "250,000 km); check that it is meant",
+        "V7 (row 3): age = 30 yr is outside the usual range (at most 25 yr); check that it "
+        "is meant",
+        "V7 (row 3): resale_value = 2,000,000 is outside the usual range (at most 800,000); "
+        "check that it is meant"]
+    assert len(column_warnings([row], "JPY")) == 2  # money only in dollar-sized currencies
 
 
 @pytest.mark.parametrize("column", ["annual_distance", "payload", "days_per_year", "age",

@@ -237,6 +237,14 @@ class Section(BaseModel):
         return _check_value(value, extra)
 
 
+def number_text(v: float) -> str:
+    """A number for a warning: thousands separated, whole numbers in full (2,000,000),
+    others to six significant figures (0.45)."""
+    if abs(v) >= 1000 and abs(v) < 1e15 and v == round(v):
+        return f"{v:,.0f}"
+    return f"{v:,.6g}"
+
+
 def _unit_text(unit: str) -> str:
     """A field's unit after a number: ' km', ' per kWh' for a price, '' for money."""
     if not unit or unit.startswith("currency"):
@@ -249,8 +257,9 @@ def _unit_text(unit: str) -> str:
 def _show_usual(low, high, unit: str) -> str:
     u = _unit_text(unit)
     if low is not None and high is not None:
-        return f"{low:,g} to {high:,g}{u}"
-    return f"at least {low:,g}{u}" if low is not None else f"at most {high:,g}{u}"
+        return f"{number_text(low)} to {number_text(high)}{u}"
+    return (f"at least {number_text(low)}{u}" if low is not None
+            else f"at most {number_text(high)}{u}")
 
 
 def unusual_values(model: BaseModel, prefix: str = "", currency: str | None = None
@@ -305,7 +314,7 @@ def unusual_values(model: BaseModel, prefix: str = "", currency: str | None = No
                 if isinstance(value, dict):
                     where = f"{path}[{list(value)[k]}]"
                 shown_unit = extra.get("unit", "") or ""
-                out.append(f"{where} = {shown:,g}{_unit_text(shown_unit)} is outside the "
+                out.append(f"{where} = {number_text(shown)}{_unit_text(shown_unit)} is outside the "
                            f"usual range ({_show_usual(low, high, shown_unit)}); check that "
                            "it is meant")
                 break
