@@ -153,10 +153,20 @@ def _cmd_run(args) -> int:
         from tco.report.atomic import check_writable
 
         check_writable(Path(args.out) / loaded.slug)
-        result = evaluate(loaded, progress=steps)
-        steps.start("writing outputs")
-        written = write_outputs(result, Path(args.out), json_only=args.json_only,
-                                progress=steps)
+        # the base case's charts are drawn beside the uncertainty study (tco.report.context)
+        ahead = None
+        if not args.json_only:
+            from tco.report.context import ChartsAhead
+
+            ahead = ChartsAhead()
+        try:
+            result = evaluate(loaded, progress=steps, on_base_case=ahead)
+            steps.start("writing outputs")
+            written = write_outputs(result, Path(args.out), json_only=args.json_only,
+                                    progress=steps, ahead=ahead)
+        finally:
+            if ahead is not None:
+                ahead.close()
     if not args.quiet:
         from tco.report.console import print_summary
 

@@ -11,6 +11,7 @@ import math
 import re
 import time
 from datetime import datetime, timezone
+from typing import Any, Callable
 
 import numpy as np
 import pandas as pd
@@ -408,7 +409,8 @@ def with_finding_warnings(tr, units: str):
     return tr
 
 
-def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
+def evaluate(loaded: LoadedScenario, progress: Steps | None = None,
+             on_base_case: Callable[[Result], Any] | None = None) -> Result:
     """Evaluate a loaded scenario end to end.
 
     Parameters
@@ -417,6 +419,12 @@ def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
         From :func:`tco.scenario.load_scenario`.
     progress : Steps, optional
         Progress display (the CLI passes one; silent by default).
+    on_base_case : callable, optional
+        Called once the base case is done and before the uncertainty study (only when
+        the scenario has one), with a Result of the base case: no uncertainty, no
+        warnings yet. The caller may start work on it meanwhile (the report draws the
+        charts that do not depend on the study: :class:`tco.report.context.ChartsAhead`);
+        it must not change it.
 
     Returns
     -------
@@ -473,6 +481,11 @@ def evaluate(loaded: LoadedScenario, progress: Steps | None = None) -> Result:
     if getattr(s.uncertainty, "enabled", False):
         from tco import uncertainty
 
+        if on_base_case is not None:
+            on_base_case(Result(
+                loaded=loaded, route=trip, route_summary=dutycycle.trace_summary(trip),
+                trucks=trucks, cashflow=cf, emissions=em, uncertainty=None, depot=depot_info,
+                assumptions=[], warnings=[], created="", timings={}))
         t0 = time.perf_counter()
         advance = steps.bar(s.uncertainty.draws, "uncertainty (Monte Carlo)")
         try:

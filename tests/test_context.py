@@ -86,3 +86,41 @@ def test_breakeven_caption_ties_the_crossing_to_the_payback_year(demo):
     chart = next(c for c in ctx["charts"]["cost"] if c["title"] == "Cumulative cost of ownership")
     assert (f"The lines cross at year {crossing:.1f}, within year {math.ceil(crossing)}: the "
             f"extra purchase cost is paid back in year {math.ceil(crossing)}") in chart["caption"]
+
+
+def test_charts_drawn_ahead_are_the_charts_drawn_after(monkeypatch):
+    """The base case's charts, drawn by a forked child while the uncertainty study runs
+    (ChartsAhead), are taken by build_context and are the same bytes as drawing them
+    afterwards; the study's charts are drawn afterwards either way."""
+    from tco.report import context as C
+    from tco.report.summary import build_summary
+
+    monkeypatch.setattr(C, "CHART_WORKERS", 2)
+    monkeypatch.setattr("os.cpu_count", lambda: 2)
+    loaded = load_scenario(demo_path())
+    loaded.scenario.uncertainty.draws = 500
+    seen = []
+    ahead = C.ChartsAhead()
+
+    def hook(base):
+        seen.append(base.uncertainty)
+        ahead(base)
+
+    result = evaluate(loaded, on_base_case=hook)
+    assert seen == [None]  # called once, before the study
+    assert len(ahead.keys) == 10  # 5 charts of the base case and 5 equations
+    summary = build_summary(result)
+    with_ahead = C.build_context(result, summary, ahead)
+    assert ahead.used == 10
+    assert ahead.keys == frozenset()  # taken: the child is gone
+    assert with_ahead == C.build_context(result, summary)
+    assert len(C.chart_jobs(result)) == 13  # + two tornadoes and the distribution
+
+
+def test_charts_ahead_does_nothing_in_a_batch_worker(monkeypatch):
+    from tco.report import context as C
+
+    monkeypatch.setattr(C, "CHART_WORKERS", 1)
+    ahead = C.ChartsAhead()
+    ahead(object())  # not even looked at
+    assert ahead.keys == frozenset() and ahead.take() == {}

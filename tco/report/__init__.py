@@ -11,8 +11,12 @@ from tco.report.atomic import staged_output
 from tco.report.summary import build_summary, dumps
 
 
-def write_outputs(result, out_root: Path, json_only: bool = False, progress=None) -> list[Path]:
+def write_outputs(result, out_root: Path, json_only: bool = False, progress=None,
+                  ahead=None) -> list[Path]:
     """Write summary.json (and the PDF, HTML and workbook) for a Result.
+
+    ``ahead``: the :class:`tco.report.context.ChartsAhead` given to
+    :func:`tco.pipeline.evaluate`, whose charts are used (drawn while the models ran).
 
     Returns the paths written, inside ``out_root/<slug>/``.
     """
@@ -24,5 +28,6 @@ def write_outputs(result, out_root: Path, json_only: bool = False, progress=None
         if not json_only:
             from tco.report.deliverables import write_deliverables
 
-            names += write_deliverables(result, summary, stage, progress=progress)
+            names += write_deliverables(result, summary, stage, progress=progress,
+                                        ahead=ahead)
     return [target / n for n in names]

@@ -113,28 +113,146 @@ def frozen_heap():
         gc.unfreeze()
 
 
+_AHEAD: list[_Lazy] = []
+
+
+def _draw_ahead() -> list[str]:
+    return [job() for job in _AHEAD]
+
+
+def _job_key(job: _Lazy) -> str:
+    """The chart a job draws, as a digest of its function and arguments (charts are
+    byte-stable: equal arguments draw equal bytes)."""
+    import hashlib
+    import pickle
+
+    blob = pickle.dumps((job.fn.__module__, job.fn.__qualname__, job.args, job.kwargs),
+                        protocol=pickle.HIGHEST_PROTOCOL)
+    return hashlib.sha256(blob).hexdigest()
+
+
+class ChartsAhead:
+    """Draws the charts of the base case in a forked child while the models go on.
+
+    Pass an instance as ``on_base_case`` to :func:`tco.pipeline.evaluate` and then to
+    :func:`build_context` (through :func:`tco.report.write_outputs`). Called with the base
+    case, it forks one child that draws every chart that does not depend on the
+    uncertainty study, and the method notes' equations, while this process runs the
+    study (on a two-core machine the child has the other core). :func:`build_context`
+    then takes each chart whose job (function and arguments, :func:`_job_key`) the child
+    drew, and draws the others itself meanwhile (the study's charts). Nothing is forked
+    where the platform cannot fork, with one core or in a batch worker
+    (:data:`CHART_WORKERS` = 1); a chart the child failed to draw is drawn again, so any
+    error is raised where it would have been. The charts are the same bytes either way.
+
+    Attributes
+    ----------
+    used : int
+        Charts taken from the child by the last :meth:`take`. [-]
+    """
+
+    def __init__(self):
+        self._keys: list[str] = []
+        self._pool = self._future = None
+        self.used = 0
+
+    def __call__(self, base_case) -> None:
+        global _AHEAD
+        import multiprocessing as mp
+        import os
+        from concurrent.futures import ProcessPoolExecutor
+
+        if (self._future is not None or CHART_WORKERS < 2 or (os.cpu_count() or 1) < 2
+                or "fork" not in mp.get_all_start_methods()):
+            return
+        try:
+            jobs = chart_jobs(base_case)
+        except Exception:  # noqa: BLE001 - drawn (and raised) later, in the usual place
+            return
+        self._keys = [_job_key(j) for j in jobs]
+        _AHEAD = jobs
+        try:
+            self._pool = ProcessPoolExecutor(1, mp_context=mp.get_context("fork"))
+            with frozen_heap():
+                self._future = self._pool.submit(_draw_ahead)  # forks here
+        except (OSError, RuntimeError):  # pragma: no cover - no fork in this sandbox
+            self._pool = self._future = None
+        finally:
+            _AHEAD = []
+
+    @property
+    def keys(self) -> frozenset[str]:
+        """Keys of the charts the child is drawing (empty when none was started)."""
+        return frozenset(self._keys) if self._future is not None else frozenset()
+
+    def close(self) -> None:
+        """Wait for the child, if any, and drop its charts (e.g. after an error)."""
+        self.take()
+
+    def take(self) -> dict[str, str]:
+        """Wait for the child: its charts by key ({} when it failed or none ran)."""
+        if self._future is None:
+            return {}
+        try:
+            return dict(zip(self._keys, self._future.result()))
+        except Exception:  # noqa: BLE001 - each chart is drawn again, raising there
+            return {}
+        finally:
+            self._pool.shutdown()
+            self._pool = self._future = None
+
+
+def chart_jobs(result) -> list[_Lazy]:
+    """The charts and equations of a Result's report, as jobs not yet drawn."""
+    u = fm.Units(result.scenario.study.units)
+    found: list[_Lazy] = []
+    _collect(_charts(result, u), found)
+    found += [_later(charts.equation, tex) for *_, tex in METHOD_NOTES]
+    return found
+
+
+def _collect(x, found: list) -> None:
+    if isinstance(x, dict):
+        for v in x.values():
+            _collect(v, found)
+    elif isinstance(x, list):
+        for v in x:
+            _collect(v, found)
+    elif isinstance(x, _Lazy):
+        found.append(x)
+
+
+def _draw_with(jobs: list[_Lazy], ahead: ChartsAhead | None) -> list[str]:
+    """Draw ``jobs``, taking those the child of ``ahead`` drew."""
+    keys = [_job_key(j) for j in jobs] if ahead is not None and ahead.keys else []
+    if not keys:
+        return _draw_all(jobs)
+    pending = ahead.keys
+    mine = [k for k, key in enumerate(keys) if key not in pending]
+    drawn: dict[int, str] = {}
+    if len(mine) <= 4:  # the study's few charts: here, while the child finishes
+        with frozen_heap():
+            drawn.update((k, jobs[k]()) for k in mine)
+    else:
+        drawn.update(zip(mine, _draw_all([jobs[k] for k in mine])))
+    ready = ahead.take()
+    ahead.used = sum(1 for k in range(len(jobs)) if k not in drawn and keys[k] in ready)
+    late = [k for k in range(len(jobs)) if k not in drawn and keys[k] not in ready]
+    drawn.update(zip(late, _draw_all([jobs[k] for k in late])))
+    return [drawn[k] if k in drawn else ready[keys[k]] for k in range(len(jobs))]
+
+
 def _weight(job: _Lazy) -> int:
     heavy = {"duty_cycle": 3, "stacked_yearly_cost": 3, "emissions_by_scope": 2,
              "tornado": 2, "distribution": 2}
     return heavy.get(job.fn.__name__, 1)
 
 
-def _resolve(obj):
+def _resolve(obj, ahead: ChartsAhead | None = None):
     """Replace every _Lazy inside the context by its drawn chart."""
     found: list[_Lazy] = []
-
-    def walk(x):
-        if isinstance(x, dict):
-            for v in x.values():
-                walk(v)
-        elif isinstance(x, list):
-            for v in x:
-                walk(v)
-        elif isinstance(x, _Lazy):
-            found.append(x)
-
-    walk(obj)
-    drawn = dict(zip(map(id, found), _draw_all(found)))
+    _collect(obj, found)
+    drawn = dict(zip(map(id, found), _draw_with(found, ahead)))
 
     def put(x):
         if isinstance(x, dict):
@@ -892,8 +1010,12 @@ METHOD_NOTES = [
 ]
 
 
-def build_context(result, summary: dict) -> dict:
-    """The report context of a Result (see :mod:`tco.report.html` for the structure)."""
+def build_context(result, summary: dict, ahead: ChartsAhead | None = None) -> dict:
+    """The report context of a Result (see :mod:`tco.report.html` for the structure).
+
+    ``ahead``: the :class:`ChartsAhead` given to :func:`tco.pipeline.evaluate`, whose
+    charts are taken where they are the same jobs.
+    """
     s = result.scenario
     u = fm.Units(s.study.units)
     notes = [{"title": t, "text": x, "equation": eq, "equation_uri": _later(charts.equation, tex)}
@@ -913,4 +1035,4 @@ def build_context(result, summary: dict) -> dict:
         "assumptions": _appendix(result, summary, u),
         "method_notes": notes,
         "cautions": cautions,
-    })
+    }, ahead)

@@ -68,8 +68,12 @@ class _Background:
                 self._pool.shutdown()
 
 
-def write_deliverables(result, summary: dict, stage: Path, progress=None) -> list[str]:
-    """Write report.html, report.pdf and workbook.xlsx into ``stage``; return the names."""
+def write_deliverables(result, summary: dict, stage: Path, progress=None, ahead=None
+                       ) -> list[str]:
+    """Write report.html, report.pdf and workbook.xlsx into ``stage``; return the names.
+
+    ``ahead``: the :class:`tco.report.context.ChartsAhead` of the evaluation, if any.
+    """
     from tco.report.context import build_context
     from tco.report.html import render_html
     from tco.report.pdf import write_html_and_pdf
@@ -79,7 +83,7 @@ def write_deliverables(result, summary: dict, stage: Path, progress=None) -> lis
     page = result.scenario.study.page_size
     if steps:
         steps.start("charts and report text")
-    context = build_context(result, summary)
+    context = build_context(result, summary, ahead)
     workbook = _Background(lambda: write_workbook(result, summary, stage / "workbook.xlsx"))
     try:
         write_html_and_pdf(lambda for_print: render_html(context, for_print=for_print,
