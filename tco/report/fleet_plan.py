@@ -426,3 +426,7 @@ def add_transition_sheets(wb, summary: dict) -> None:
               "limit. Saving of the step: the integer plan re-solved with the limit raised "
               "by the step.")
     wbb.set_widths(ws, {1: 12, 2: 8, 3: 9, 4: 12, 5: 10, 6: 26, 7: 12, 8: 20})
+    study = (summary.get("study") or {}).get("name") or ""
+    for title in ("Plan", "Plan by year", "Abatement", "Shadow prices"):
+        # one page wide, the header row and the first column on every page
+        wbb.print_setup(wb[title], study, title_rows="1:1", title_cols="A:A")
