@@ -179,59 +179,76 @@ def test_plan_sheets_recalculate_to_fleet_json(run, tmp_path):
 
 # ------------------------------------------------------------------ budget basis: cash
 @pytest.fixture(scope="module")
-def cash_run(run):
-    """The same fleet and budget, counted on the cash basis (budget_basis = "cash")."""
-    loaded, rows, fleet, _, budget = run
-    settings = PlanSettings(capital_budget=budget, budget_basis="cash",
-                            target=TargetSettings(reduction=0.4, year=2030))
-    return evaluate_fleet(loaded, rows, fleet, jobs=1, plan=settings)
+def case34(tmp_path_factory):
+    """The three vehicles of ``run`` over a 4-year study (2027–2030) with 3-year loans:
+    the 3 × 4 case, planned on the capital basis and on the cash basis, same budget."""
+    from test_fleet import _base as base_with
+
+    tmp = tmp_path_factory.mktemp("plan34")
+    loaded = load_scenario(base_with(tmp, analysis_years="4", loan_years="3"))
+    fleet = _rows(tmp)
+    rows = read_fleet(fleet)
+    out = {}
+    for basis in ("capital", "cash"):
+        settings = PlanSettings(capital_budget=500_000.0, budget_basis=basis,
+                                target=TargetSettings(reduction=0.4, year=2030))
+        out[basis] = evaluate_fleet(loaded, rows, fleet, jobs=1, plan=settings)
+    return out
 
 
-def test_cash_basis_counts_down_payments_loan_service_and_resale(run, cash_run):
-    """Cash basis, worked by hand from the base scenario: both trucks are financed by a
-    loan (20 % down, 5.5 % a year, 60 monthly instalments); each current truck sells for
+def test_cash_basis_counts_down_payments_loan_service_and_resale(case34):
+    """The 3 × 4 case by hand, from the base scenario: both trucks are bought on a loan
+    (20 % down, 5.5 % a year, here 36 monthly instalments); each current truck sells for
     its resale value 40,000 now, declining 16 % a year (the diesel tractor's residual
-    rate): 40,000 × 0.84 = 33,600 in 2028.
+    rate): 40,000 × 0.84 = 33,600 in 2028. The target needs two electric trucks by 2030.
 
-    On the capital basis one electric truck must go in 2027 (test above). In cash, the
-    budget of 500,000 no longer binds, so both electric trucks wait for 2028, the cheaper
-    year for a truck that loses money:
+    Capital basis (as in ``run``): the budget of 500,000 binds in 2028 (two electric
+    trucks and the third's new diesel: 2 × 227,800 + 130,000 = 585,600 > 500,000), so one
+    electric truck goes in 2027: 222,500 + charger 80,000 + connection 25,000 = 327,500;
+    2028: 227,800 + 130,000 = 357,800. Its cash in 2027: the down payment 20 % × 222,500
+    = 44,500, charger and connection 105,000, less the resale 40,000: 109,500.
+
+    Cash basis: the same budget no longer binds, so both electric trucks wait for 2028,
+    the cheaper year for a truck that loses money:
 
     - 2028: down payments 2 × 20 % × (265,000 × 1.02 + 2,500 − 45,000) = 2 × 45,560 and
       20 % × (125,000 × 1.02 + 2,500) = 26,000 for the new diesel; one charger
       80,000 × 1.02 = 81,600 and the grid connection 25,000 × 1.02 = 25,500; less three
-      resales of 33,600: 91,120 + 26,000 + 81,600 + 25,500 − 100,800 = 123,420.
-    - 2029 to 2033 (five years): the instalments of the three loans, 12 × monthly payment on
-      2 × 182,240 + 104,000 = 468,480 (numpy_financial.pmt, the reference library).
-    - capital_outlay keeps the capital basis: 2 × 227,800 + 130,000 + 81,600 + 25,500
-      = 692,700 in 2028, more than the budget, which the cash basis does not count.
+      resales of 33,600: 91,120 + 26,000 + 81,600 + 25,500 − 100,800 = 123,420;
+    - 2029 and 2030: the instalments of the three loans, 12 × monthly payment on
+      2 × 182,240 + 104,000 = 468,480 (numpy_financial.pmt, the reference library);
+    - ``capital_outlay`` keeps the capital basis: 2 × 227,800 + 130,000 + 81,600 +
+      25,500 = 692,700 in 2028, more than the budget, which the cash basis does not count.
     """
     import numpy_financial as npf
 
-    tp = cash_run.transition
+    cap = case34["capital"].transition
+    sched = cap.schedule
+    assert sorted(sched[sched["decision"] == "electric"]["purchase_year"]) == [2027, 2028]
+    assert cap.yearly["capital"].tolist()[:2] == pytest.approx([327_500.0, 357_800.0])
+    assert cap.yearly["capital"].tolist() == cap.yearly["capital_outlay"].tolist()
+    assert cap.yearly["cash_outlay"].iloc[0] == pytest.approx(109_500.0)
+
+    tp = case34["cash"].transition
     sched = tp.schedule
     assert sorted(sched[sched["decision"] == "electric"]["purchase_year"]) == [2028, 2028]
     y = tp.yearly
-    assert y["capital"].tolist()[:2] == pytest.approx([0.0, 123_420.0])
-    assert y["cash_outlay"].tolist()[:2] == pytest.approx([0.0, 123_420.0])
-    assert y["capital_outlay"].tolist()[:2] == pytest.approx([0.0, 692_700.0])
-    service = 12 * npf.pmt(0.055 / 12, 60, -468_480.0)
-    assert y["capital"].tolist()[2:7] == pytest.approx([service] * 5, rel=1e-9)
-    assert y["capital"].tolist()[7:] == pytest.approx([0.0] * (len(y) - 7), abs=1e-6)
+    assert y["calendar_year"].tolist() == [2027, 2028, 2029, 2030]
+    service = 12 * npf.pmt(0.055 / 12, 36, -468_480.0)
+    assert y["capital"].tolist() == pytest.approx([0.0, 123_420.0, service, service],
+                                                  rel=1e-9)
+    assert y["cash_outlay"].tolist() == y["capital"].tolist()
+    assert y["capital_outlay"].tolist() == pytest.approx([0.0, 692_700.0, 0.0, 0.0])
     assert (y["capital"] <= 500_000.0).all()
-    # the capital-basis run reports the cash of its own plan beside it: in 2027 the
-    # down payment 20 % × 222,500 = 44,500, charger 80,000 and connection 25,000, less
-    # the resale 40,000 of the truck replaced
-    cap = run[3].transition.yearly
-    assert cap["cash_outlay"].iloc[0] == pytest.approx(109_500.0)
-    assert cap["capital"].tolist()[:2] == cap["capital_outlay"].tolist()[:2]
+    assert tp.solution.target_met
 
 
-def test_budget_basis_is_shown_in_fleet_json_report_and_workbook(cash_run):
+def test_budget_basis_is_shown_in_fleet_json_report_and_workbook(case34):
     from tco.report.fleet_plan import transition_context
     from tco.report.fleet_report import build_fleet_workbook
     from tco.report.fleet_summary import build_fleet_summary
 
+    cash_run = case34["cash"]
     s = build_fleet_summary(cash_run)
     tr = s["transition"]
     assert tr["settings"]["budget_basis"] == "cash"
