@@ -565,6 +565,7 @@ from typing import Literal  # noqa: E402
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator  # noqa: E402
 
 from tco.errors import InputError  # noqa: E402
+from tco.report import formatting as fm  # noqa: E402
 from tco.scenario.base import (  # noqa: E402
     ASSUMPTION,
     MONEY_CEILING,
@@ -673,9 +674,9 @@ class PlanSettings(Section):
                     raise ValueError(f"budget key '{k}' is not a calendar year")
                 if not math.isfinite(float(amount)) or not 0 <= amount <= MONEY_CEILING:
                     raise ValueError(f"budget of {k} must be a number from 0 to "
-                                     f"{MONEY_CEILING:.0e}")
+                                     f"{fm.number(MONEY_CEILING, 0)}")
         elif v is not None and (not math.isfinite(v) or not 0 <= v <= MONEY_CEILING):
-            raise ValueError(f"must be a number from 0 to {MONEY_CEILING:.0e}")
+            raise ValueError(f"must be a number from 0 to {fm.number(MONEY_CEILING, 0)}")
         return v
 
 
@@ -1217,7 +1218,8 @@ def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: P
                      f"kept is within {sol.mip_gap:.2%} of the best possible.")
     if target is not None:
         if sol.target_met:
-            notes.append(f"The target ({target.reduction:.0%} below {base_t:,.0f} t by "
+            notes.append(f"The target ({fm.percent(target.reduction, 0)} below "
+                         f"{fm.number(base_t, 0)} t by "
                          f"{target.year}, Scope 1 + 2, {basis}-based) is met.")
         else:
             worst = int(np.argmax(sol.shortfall))

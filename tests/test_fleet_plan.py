@@ -350,3 +350,21 @@ def test_depot_rounds_are_bounded_and_say_when_unsettled():
     # the last plan's own year-by-year re-run (one more schedule, same trucks both years)
     assert out.yearly["depot_peak_rederived_kw"].tolist() == \
         [40.0 + len(runs), 40.0 + len(runs)]
+
+
+def test_shadow_prices_read_in_the_currency_and_the_target_in_percent(run):
+    # a reader sees the scenario's ISO 4217 code, never the placeholder word "currency",
+    # and the target as a percentage with the report's spacing ("40 %", not "40%")
+    from tco.report.fleet_plan import transition_context
+    from tco.report.fleet_summary import build_fleet_summary
+
+    s = build_fleet_summary(run[3])
+    ctx = transition_context(s)
+    table = ctx["shadow"]
+    cells = [c for row in table["rows"] for c in row]
+    assert not any("currency" in c for c in cells), cells
+    budget_rows = [row for row in table["rows"] if row[0] == "budget"]
+    assert budget_rows and all(row[5].endswith(" EUR") for row in budget_rows)
+    notes = " ".join(s["transition"]["notes"])
+    if "The target (" in notes:
+        assert "The target (40 % below" in notes, notes

@@ -40,6 +40,7 @@ import math
 import numpy as np
 
 from tco.report import charts
+from tco.report import formatting as fm
 from tco.report.context import fmt_number as _n
 
 __all__ = ["transition_summary", "transition_context", "add_transition_sheets"]
@@ -157,6 +158,11 @@ def _t(title, columns, align, rows, note=""):
             "foot": [], "note": note}
 
 
+def _unit(unit: str, currency: str) -> str:
+    """A constraint's unit as a reader sees it: the currency's code, not "currency"."""
+    return currency if unit == "currency" else unit
+
+
 def macc_chart(macc: list[dict], currency: str) -> str:
     """Marginal abatement cost curve: bars as wide as each route's tonnes, as high as its
     cost per tonne, in order of cost (an SVG data URI)."""
@@ -251,9 +257,10 @@ def transition_context(summary: dict) -> dict | None:
                 ["Constraint", "Year", "Binding", "Slack", "Marginal value (LP)",
                  "Step", f"Saving of the step [{cur}]"], "lrlrrrr",
                 [[r["constraint"], str(r["calendar_year"]), _binding(r),
-                  _n(r["slack"], 1), "–" if r["dual"] is None else
-                  f"{_n(-r['dual'], 3)} {cur} per {r['unit']}",
-                  f"{_n(r['step'], 1)} {r['unit']}",
+                  f"{fm.number(r['slack'])} {_unit(r['unit'], cur)}",
+                  "–" if r["dual"] is None else
+                  f"{fm.number(-r['dual'])} {cur} per {_unit(r['unit'], cur)}",
+                  f"{fm.number(r['step'])} {_unit(r['unit'], cur)}",
                   "–" if r["step_saving"] is None else _n(r["step_saving"])]
                  for r in tr["shadow_prices"]],
                 "Marginal value: what one more unit of the constraint's limit saves in the LP "
@@ -416,7 +423,7 @@ def add_transition_sheets(wb, summary: dict) -> None:
         write_value(ws.cell(row=row, column=2), r["calendar_year"], wbb.YEAR)
         safe_text(ws.cell(row=row, column=3), _binding(r))
         write_value(ws.cell(row=row, column=4), r["slack"], wbb.MASS)
-        safe_text(ws.cell(row=row, column=5), r["unit"])
+        safe_text(ws.cell(row=row, column=5), _unit(r["unit"], cur))
         write_value(ws.cell(row=row, column=6), None if r["dual"] is None else -r["dual"],
                     "#,##0.000")
         write_value(ws.cell(row=row, column=7), r["step"], wbb.MASS)
