@@ -158,7 +158,7 @@ def test_batch_equals_individual_runs(three, tmp_path):
     first = _read(out / "clients" / outcome.scenarios[0].slug / "summary.json")
     for key in ("schema_version", "tool", "generated"):
         assert key in index and key in first
-    assert index["schema"] == "tco.batch.index/1" and index["schema_version"] == "1"
+    assert index["schema"] == "tco.batch.index/1.1" and index["schema_version"] == "1.1"
     for sc, row in zip(outcome.scenarios, index["rows"]):
         ref = _alone(three / sc.file)
         written = _read(out / "clients" / sc.slug / "summary.json")
@@ -549,3 +549,27 @@ def test_full_outputs_index_pdf_and_workbook(tmp_path):
     for phrase in ("not financial, tax or legal advice", "GHG Protocol", "ISO 14083",
                    "licensed electricians", "local law"):
         assert phrase in notes
+
+
+def test_index_cells_show_cost_per_mile_for_us_clients_and_irr_na_briefly():
+    # a hand-made row: 1.0 USD/km and 2.0 USD/km in a US-units study read per mile,
+    # × 1.609344 km/mi (international mile, NIST SP 811 B.8): 1.609 → 3.219 USD/mi
+    from tco.report.batch_index import _context_row
+
+    row = {"status": "ok", "study": "Client", "file": "c.toml", "currency": "USD",
+           "units": "us", "truck": "E", "baseline": "D", "battery_new": None,
+           "truck_powertrain": "electric", "baseline_powertrain": "diesel",
+           "battery_end_of_life": None, "depot_charger_ok": None,
+           "probability_cheaper": None, "draws": None, "present_value_baseline": 100.0,
+           "present_value_truck": 200.0, "present_value_difference": 100.0,
+           "truck_cheaper": False, "levelized_cost_per_km_baseline": 1.0,
+           "levelized_cost_per_km_truck": 2.0, "simple_payback_year": None, "irr": -0.6,
+           "irr_note": "", "avoided_t_co2e": 10.0, "abatement_cost_per_t_co2e": 10.0,
+           "links": {}}
+    cells = {c["text"]: c for c in _context_row(row)["cells"]}
+    assert "1.609 → 3.219" in cells and cells["1.609 → 3.219"]["note"] == "USD/mi"
+    # IRR with no payback: "n/a" in the cell, the reason in its small print
+    assert "n/a" in cells and "never recover" in cells["n/a"]["note"]
+    metric = dict(row, units="metric", currency="EUR")
+    cells = {c["text"]: c for c in _context_row(metric)["cells"]}
+    assert cells["1.000 → 2.000"]["note"] == "EUR/km"

@@ -9,7 +9,7 @@ One row per client and compared truck: a scenario with a diesel baseline and one
 electric truck gives one row; one with two candidate trucks gives two. A skipped scenario
 gives one row with status ``error`` and its one-line error.
 
-``index.json`` (``schema`` ``tco.batch.index/1``; ``schema_version`` ``"1"``, ``tool`` and
+``index.json`` (``schema`` ``tco.batch.index/1.1``; ``schema_version`` ``"1.1"``, ``tool`` and
 ``generated`` as in summary.json and fleet.json)
 -------------------------------------------------
 ``batch``, ``generated`` (ISO 8601, UTC), ``tool`` {name, version}, ``counts``
@@ -19,7 +19,7 @@ avoided_t_co2e}], ``all_currencies`` {clients, truck_cheaper, avoided_t_co2e},
 ``left_out`` [file]}, ``cautions`` [str].
 
 A row: ``file``, ``status`` (``ok``/``error``), ``error`` (one line or null), ``study``,
-``slug``, ``currency`` (ISO 4217), ``truck``, ``truck_powertrain``, ``baseline``,
+``slug``, ``currency`` (ISO 4217), ``units`` (since 1.1: ``metric``/``us``), ``truck``, ``truck_powertrain``, ``baseline``,
 ``baseline_powertrain``, ``compared_trucks`` (rows of this client),
 ``present_value_baseline``, ``present_value_truck``, ``present_value_difference``
 (truck − baseline; negative: the truck costs less) [currency], ``truck_cheaper`` (bool,
@@ -55,7 +55,7 @@ __all__ = ["INDEX_SCHEMA", "TEMPLATE", "index_data", "index_rows", "currency_tot
            "verdict_text", "build_index_context", "render_index_html", "write_index_workbook",
            "write_index"]
 
-INDEX_SCHEMA = "tco.batch.index/1"
+INDEX_SCHEMA = "tco.batch.index/1.1"
 TEMPLATE = "batch_index.html.j2"
 _CURRENCY = re.compile(r"^[A-Z]{3}$")
 
@@ -130,6 +130,7 @@ def _row(sc, s: dict, c: dict, n: int) -> dict:
         "file": sc.file, "status": "ok", "error": None,
         "study": _get(s, "scenario", "name"), "slug": _get(s, "scenario", "slug"),
         "currency": _get(s, "scenario", "currency"),
+        "units": _get(s, "scenario", "units") or "metric",
         "truck": truck, "truck_powertrain": _get(trucks, truck, "powertrain"),
         "baseline": baseline, "baseline_powertrain": _get(trucks, baseline, "powertrain"),
         "compared_trucks": n,
@@ -286,7 +287,7 @@ def _counts_text(counts: dict) -> str:
 
 # ---------------------------------------------------------------- report context -------
 COLUMNS = ["Client", "Verdict", "PV baseline", "PV compared", "Difference",
-           "Cost per km, baseline → compared", "Payback", "IRR", "Avoided [t CO2e]",
+           "Cost per distance, baseline → compared", "Payback", "IRR", "Avoided [t CO2e]",
            "Abatement [per t CO2e]", "Feasible, new / end of life", "P(cheaper)", "Reports"]
 #: CSS class of each column: text columns left-aligned, figures right-aligned.
 _CLASSES = ["client", "verdict-cell"] + ["num"] * (len(COLUMNS) - 3) + ["links"]
@@ -296,6 +297,27 @@ _REPORT_LINKS = ("report.pdf", "workbook.xlsx", "report.html")
 
 def _cell(text: str, note: str = "", cls: str = "num") -> dict:
     return {"text": text, "note": note, "cls": cls}
+
+
+def _per_distance_cell(r: dict) -> dict:
+    """Cost per km, or per mile for a client whose study is in US units."""
+    u = fm.Units(r.get("units") or "metric")
+    per = u.per_dist / 1000.0  # km per display distance unit
+
+    def one(x):
+        return _n(None if x is None else x * per, 3)
+
+    return _cell(f"{one(r['levelized_cost_per_km_baseline'])} → "
+                 f"{one(r['levelized_cost_per_km_truck'])}", f"{r['currency']}/{u.dist}")
+
+
+def _irr_cell(r: dict) -> dict:
+    """IRR, or "n/a" with its reason in the cell's small print."""
+    text = _irr(r)
+    if text.startswith("n/a (") and text.endswith(")"):
+        reason = text[len("n/a ("):-1]
+        return _cell("n/a", "; ".join(x for x in (reason, r["irr_note"]) if x))
+    return _cell(text, r["irr_note"])
 
 
 def _context_row(r: dict) -> dict:
@@ -316,10 +338,9 @@ def _context_row(r: dict) -> dict:
         _cell(_money(r["present_value_baseline"], cur)),
         _cell(_money(r["present_value_truck"], cur)),
         _cell(_money(r["present_value_difference"], cur)),
-        _cell(f"{_n(r['levelized_cost_per_km_baseline'], 3)} → "
-              f"{_n(r['levelized_cost_per_km_truck'], 3)}", f"{cur}/km"),
+        _per_distance_cell(r),
         _cell(_payback(r["simple_payback_year"])),
-        _cell(_irr(r), r["irr_note"]),
+        _irr_cell(r),
         _cell(_n(r["avoided_t_co2e"])),
         _cell(_money(r["abatement_cost_per_t_co2e"], cur)),
         _cell(feasible, depot),
