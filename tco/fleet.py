@@ -71,8 +71,6 @@ from tco.text import clean_text
 from tco.scenario import LoadedScenario, parse_scenario
 from tco.units import UnitError, from_si, to_si
 
-from tco.units import J_PER_KWH  # noqa: E402  [J/kWh]
-
 # column -> (required, default unit or None for text/number)
 COLUMNS: dict[str, tuple[bool, str | None]] = {
     "vehicle": (True, None), "cycle": (True, None), "current": (True, None),
@@ -556,16 +554,24 @@ def _map(fn, items, pool, jobs: int, progress=None):
 
 # --------------------------------------------------------------------------- feasibility
 def route_status(e: RouteEnergy, shortfall: float = 0.0) -> dict:
-    """Can the candidate do this route, and if not what would make it possible."""
+    """Can the candidate do this route, and if not what would make it possible.
+
+    The remedies are found here as codes with SI numbers (``remedy_findings``:
+    ``payload`` lost_per_trip [kg], extra_trips_per_year; ``enroute`` or ``battery``
+    deficit [J], enroute_time [s]; ``day_too_long`` driving, enroute, away [s];
+    ``depot`` shortfall [J]) and written as sentences by the report layer
+    (:func:`tco.report.findings.remedy_sentence`) in the base scenario's units.
+    """
+    from tco.report.findings import remedy_sentence
+
     cand = e.row.candidate
     f = e.feasibility[cand]
     s = e.summaries[cand]
-    remedies: list[str] = []
+    found: list[dict] = []
     ok_payload = bool(f["payload"]["ok"])
     if not ok_payload:
-        remedies.append(f"carry {f['payload']['lost_per_trip'] / 1000:.1f} t more per trip "
-                        f"(a higher gross limit) or run {f['payload']['extra_trips_per_year']:.0f}"
-                        " extra trips a year")
+        found.append({"code": "payload", "lost_per_trip": f["payload"]["lost_per_trip"],
+                      "extra_trips_per_year": f["payload"]["extra_trips_per_year"]})
     bat = f.get("battery")
     ok_battery = ok_enroute = True
     if bat:
@@ -573,14 +579,8 @@ def route_status(e: RouteEnergy, shortfall: float = 0.0) -> dict:
         ok_battery = bool(new["ok"])
         ok_enroute = bool(new["ok_with_enroute"])
         if not ok_battery:
-            kwh = new["deficit"] / J_PER_KWH
-            if ok_enroute:
-                remedies.append(f"{kwh:.0f} kWh of en-route charging a day "
-                                f"({new['enroute_time'] / 60:.0f} min), or {kwh:.0f} kWh more "
-                                "usable battery")
-            else:
-                remedies.append(f"{kwh:.0f} kWh more usable battery, or en-route charging "
-                                f"of {kwh:.0f} kWh a day")
+            found.append({"code": "enroute" if ok_enroute else "battery",
+                          "deficit": new["deficit"], "enroute_time": new["enroute_time"]})
     # the day must fit between leaving the depot and coming back, en-route charging included
     r = e.row
     away = (r.arrive - r.depart) % depot_model.DAY if r.arrive is not None and \
@@ -591,14 +591,13 @@ def route_status(e: RouteEnergy, shortfall: float = 0.0) -> dict:
     enroute = bat["new"]["enroute_time"] if bat and not ok_battery else 0.0
     if driving + enroute > away * (1 + 1e-9):
         ok_enroute = ok_battery = False
-        remedies.append(f"the day takes {driving / 3600:.1f} h of driving"
-                        + (f" and {enroute / 3600:.1f} h of en-route charging" if enroute
-                           else "") + f", more than the {away / 3600:.1f} h away from the "
-                        "depot: fewer trips or a longer day")
+        found.append({"code": "day_too_long", "driving": driving, "enroute": enroute,
+                      "away": away})
     ok_depot = shortfall <= 1.0
     if not ok_depot:
-        remedies.append(f"{shortfall / J_PER_KWH:.0f} kWh more depot charging a night: a "
-                        "longer stay at the depot or more powerful chargers")
+        found.append({"code": "depot", "shortfall": shortfall})
+    units = e.scenario.study.units
+    remedies = [remedy_sentence(x, units) for x in found]
     if bat is None:
         status = "feasible" if ok_payload else "not feasible"
     elif ok_payload and ok_battery and ok_depot:
@@ -608,7 +607,7 @@ def route_status(e: RouteEnergy, shortfall: float = 0.0) -> dict:
     else:
         status = "not feasible"
     return {"status": status, "feasible": status != "not feasible", "remedies": remedies,
-            "soc_min": s.get("soc_min")}
+            "remedy_findings": found, "soc_min": s.get("soc_min")}
 
 
 # --------------------------------------------------------------------------- stage 3: money

@@ -14,7 +14,7 @@ from tco.report import formatting as fm
 
 __all__ = ["payload_sentence", "power_sentence", "battery_sentence", "depot_sentence",
            "ageing_sentence", "ageing_verdict", "truck_sentences", "truck_warnings",
-           "sentences", "rewrite_warnings"]
+           "sentences", "rewrite_warnings", "remedy_sentence"]
 
 
 def _units(u) -> fm.Units:
@@ -217,6 +217,31 @@ def truck_warnings(tr, u) -> list[str]:
             out.append(text if head in ("payload", "power", "depot_charger")
                        else f"{tr.name}: {text}")
     return out
+
+
+def remedy_sentence(x: dict, u) -> str:
+    """What would make a fleet route feasible (:func:`tco.fleet.route_status`), from its
+    code and SI numbers, in ``u``'s units."""
+    u = _units(u)
+    code = x["code"]
+    if code == "payload":
+        return (f"carry {_mass(x['lost_per_trip'], u)} more per trip (a higher gross limit) "
+                f"or run {fm.count(x['extra_trips_per_year'])} extra trips a year")
+    if code == "enroute":
+        return (f"{fm.kwh(x['deficit'])} of en-route charging a day "
+                f"({fm.minutes(x['enroute_time'])}), or {fm.kwh(x['deficit'])} more usable "
+                "battery")
+    if code == "battery":
+        return (f"{fm.kwh(x['deficit'])} more usable battery, or en-route charging of "
+                f"{fm.kwh(x['deficit'])} a day")
+    if code == "day_too_long":
+        return (f"the day takes {fm.number(x['driving'] / 3600.0, 1)} h of driving"
+                + (f" and {fm.number(x['enroute'] / 3600.0, 1)} h of en-route charging"
+                   if x["enroute"] else "")
+                + f", more than the {fm.number(x['away'] / 3600.0, 1)} h away from the "
+                "depot: fewer trips or a longer day")
+    return (f"{fm.kwh(x['shortfall'])} more depot charging a night: a longer stay at the "
+            "depot or more powerful chargers")
 
 
 def sentences(tr, u) -> dict[str, str]:
