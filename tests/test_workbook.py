@@ -798,6 +798,12 @@ def test_uncertainty_sheets_follow_the_results(demo, variant):
              if st.cell(row=r, column=1).value == "Present value difference")
     assert [st.cell(row=r, column=c).value for c in (4, 5, 6)] == pytest.approx(
         [mc["p10"], mc["p50"], mc["p90"]])
+    # emissions in tonnes, as on the Summary sheet (1 t = 1000 kg)
+    r = next(r for r in range(1, st.max_row + 1) if st.cell(row=r, column=1).value
+             == "Emissions avoided, well-to-wheel, location-based")
+    av = unc["monte_carlo"][truck]["avoided_kg"]["location"]
+    assert st.cell(row=r, column=5).value == pytest.approx(av["p50"] / 1000, rel=1e-15)
+    assert st.cell(row=r, column=7).value == "t CO2e"
     r = next(r for r in range(1, st.max_row + 1)
              if str(st.cell(row=r, column=1).value).startswith("Probability the truck is"))
     assert st.cell(row=r, column=2).value == pytest.approx(

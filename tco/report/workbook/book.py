@@ -105,7 +105,13 @@ class Book(InputsSheet, CashflowSheet, AgeingRows, EmissionsSheet, EnergySheet,
         for ws in self.wb.worksheets:
             if ws.title == _IN:
                 continue  # the Unit column names the currency of every input
+            titled: set[int] = set()  # columns whose table heading names the currency
             for row in ws.iter_rows():
+                if any(c.fill == wbb.HEADER_FILL for c in row):
+                    titled = {c.column for c in row if names_currency(c.value)}
+                    continue
+                if not any(c.value is not None for c in row):
+                    titled = set()  # a table ends at an empty row
                 # the unit is shown once: year grids and tables whose title names the
                 # currency, rows with a Unit column or a label "[EUR…]" keep plain
                 # amounts; a figure with its unit nowhere else shows the code
@@ -116,11 +122,15 @@ class Book(InputsSheet, CashflowSheet, AgeingRows, EmissionsSheet, EnergySheet,
                     continue
                 for c in row:
                     f = money.get(c.number_format)
-                    if f and not (grid and c.column in years):
+                    if f and not (grid and c.column in years) and c.column not in titled:
                         c.number_format = f
+        self._wrap_cut_text()
         # a unit after a right-aligned number: one character apart, not touching it
         nt = len(self.trucks)
-        for title, col in ((_IN, 4), (_SU, 3 + nt), (_EN, 3 + nt)):
+        for title, col in ((_IN, 4), (_SU, 3 + nt), (_EN, 3 + nt), (_CF, _FIRST_COL + self.N + 3),
+                           (_SE, 10), (_ST, 7)):
+            if title not in self.wb.sheetnames:
+                continue
             ws = self.wb[title]
             for (cell,) in ws.iter_rows(min_row=2, min_col=col, max_col=col):
                 if isinstance(cell.value, str):
@@ -135,6 +145,34 @@ class Book(InputsSheet, CashflowSheet, AgeingRows, EmissionsSheet, EnergySheet,
         for ws in self.wb.worksheets:
             rows, cols = titles.get(ws.title, (None, None))
             wbb.print_setup(ws, study, title_rows=rows, title_cols=cols)
+
+    def _wrap_cut_text(self) -> None:
+        """Wrap a text that the next cell would cut (a long label before its key, a key
+        before its figure) and a long note in a table's last column (the page edge would
+        cut it); :func:`workbook_base.fit_row_heights` then gives the row its lines."""
+        from openpyxl.utils import get_column_letter
+
+        last = {_CF: _FIRST_COL + self.N + 3}
+        for ws in self.wb.worksheets:
+            if ws.title == _IN:
+                continue  # wrapped where it is written
+            for row in ws.iter_rows():
+                cells = [c for c in row if c.value is not None]
+                for k, c in enumerate(cells):
+                    if not isinstance(c.value, str) or c.data_type == "f" or \
+                            c.fill == wbb.HEADER_FILL:
+                        continue
+                    width = ws.column_dimensions[get_column_letter(c.column)].width or 8.43
+                    bold = 1.15 if c.font is not None and c.font.b else 1.0
+                    if len(c.value) * bold <= width * 1.15:
+                        continue
+                    cut = k + 1 < len(cells) and cells[k + 1].column == c.column + 1
+                    edge = c.column == last.get(ws.title) or (
+                        ws.title == _SE and c.column >= 10)
+                    if cut or edge:
+                        a = c.alignment
+                        c.alignment = Alignment(wrap_text=True, vertical="top",
+                                                horizontal=a.horizontal, indent=a.indent)
 
     # ------------------------------------------------------------------------ sources
     def source(self, path: str) -> str:

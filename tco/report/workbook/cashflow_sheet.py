@@ -253,7 +253,7 @@ class CashflowSheet:
             _number_header(ws, _YEAR_ROW, c, k)
         wbb.header_row(ws, _YEAR_ROW, ["Sum", "Present value", "Note"], start_col=c_sum)
         wbb.freeze(ws, f"{_col(_FIRST_COL)}{_YEAR_ROW + 1}")
-        wbb.set_widths(ws, {"A": 50, "B": 24, **{c: 11 for c in cols}, c_sum: 14, c_pv: 15,
+        wbb.set_widths(ws, {"A": 50, "B": 36, **{c: 11 for c in cols}, c_sum: 14, c_pv: 15,
                             c_note: 50})
         wbb.set_widths(ws, {_FIRST_COL: 15})  # also holds the single figures below
         first, last = _col(_FIRST_COL), _col(_FIRST_COL + N)

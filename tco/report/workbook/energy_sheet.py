@@ -25,7 +25,7 @@ class EnergySheet:
         hdr = 3
         wbb.header_row(ws, hdr, ["Quantity", "Key"] + list(names) + ["Unit"])
         wbb.freeze(ws, f"C{hdr + 1}")
-        wbb.set_widths(ws, {"A": 44, "B": 44, **{3 + k: 16 for k in range(len(names))},
+        wbb.set_widths(ws, {"A": 44, "B": 50, **{3 + k: 16 for k in range(len(names))},
                             3 + len(names): 16})
         rows: dict[str, dict] = {}
         order: list[str] = []

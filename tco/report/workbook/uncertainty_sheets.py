@@ -69,7 +69,8 @@ class UncertaintySheets:
                               last_row=row, cat_col=1, first_col=7, last_col=8,
                               anchor=f"L{head}", title=f"What moves the difference: {truck}"[:200],
                               x_title="Input", y_title=f"PV difference [{cur}]",
-                              y_number_format=wbb.MONEY, width=22, height=10)
+                              y_number_format=wbb.MONEY, width=22, horizontal=True,
+                              height=max(10.0, 0.6 * (row - head) + 4.0))
                 first_chart = False
             row += 2
             be = (unc.get("break_even") or {}).get(truck, [])
@@ -111,7 +112,8 @@ class UncertaintySheets:
                           anchor=f"L{head}",
                           title=f"What moves the emissions avoided: {truck}"[:200],
                           x_title="Input", y_title="Avoided [t CO2e]",
-                          y_number_format="#,##0", width=22, height=10)
+                          y_number_format="#,##0", width=22, horizontal=True,
+                          height=max(10.0, 0.6 * (row - head) + 4.0))
             row += 3
         for note in unc.get("notes") or []:
             safe_text(ws.cell(row=row, column=1), note)
@@ -162,10 +164,16 @@ class UncertaintySheets:
                 if st is None:
                     continue
                 safe_text(ws.cell(row=row, column=1), label)
+                # the format of the figure's unit: money in whole units, costs per km and
+                # years as elsewhere in the workbook, emissions in tonnes as on the Summary
+                fmt, k_unit = {cur: (wbb.MONEY, 1.0), "yr": ("0.0", 1.0),
+                               "kg CO2e": ("#,##0.0", 1e-3)}.get(unit, ("0.0000", 1.0))
                 for k, q in enumerate(("mean", "sd", "p10", "p50", "p90")):
-                    if q in st:
-                        write_value(ws.cell(row=row, column=2 + k), st[q], "#,##0.0000")
-                safe_text(ws.cell(row=row, column=7), unit)
+                    if q in st and st[q] is not None:
+                        write_value(ws.cell(row=row, column=2 + k), st[q] * k_unit, fmt)
+                    elif q in st:
+                        write_value(ws.cell(row=row, column=2 + k), st[q], fmt)
+                safe_text(ws.cell(row=row, column=7), "t CO2e" if unit == "kg CO2e" else unit)
                 safe_text(ws.cell(row=row, column=8), truck)
                 row += 1
             probs = [("Probability the truck is cheaper (PV difference < 0)",
