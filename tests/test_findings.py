@@ -121,3 +121,22 @@ def test_model_writes_no_sentences(us_demo):
             for it in items:
                 assert "text" not in it and "verdict" not in it, (tr.name, key)
                 assert "code" in it, (tr.name, key)
+
+
+def test_us_report_tables_and_labels_use_us_units(us_demo):
+    # the emissions intensity per mile: g/km × 1.609344 km/mi (NIST SP 811 B.8), and the
+    # appendix labels carry no metric bound such as "(at most 500 t)"
+    result, summary = us_demo
+    ctx = build_context(result, summary)
+    em = next(t for t in ctx["tables"] if t["title"].startswith("Emissions over"))
+    row = next(r for r in em["rows"] if r[0].startswith("Well-to-wheel intensity [g CO2e/"
+                                                        ) and "t·km" not in r[0])
+    assert row[0] == "Well-to-wheel intensity [g CO2e/mi]"
+    for name, cell in zip(em["columns"][1:], row[1:]):
+        per_km = summary["emissions"]["trucks"][name]["g_co2e_per_km"]["wtw"]
+        assert cell == f"{per_km * MILE_M / 1000:,.0f}"
+    labels = [r[0] for sec in ctx["assumptions"]["sections"] for r in sec["rows"]]
+    labels += [t.get("note", "") for sec in ctx["assumptions"]["sections"]
+               for t in sec.get("tables", [])]
+    assert not any(METRIC.search(x) for x in labels if "(at most" in x), labels
+    assert not any("(at most" in x for x in labels)

@@ -877,8 +877,10 @@ def _tables(result, u: DisplayUnits, summary: dict) -> list[dict]:
             for k, label in keys]
     rows.append(["Well-to-wheel intensity [g CO2e/t·km]"]
                 + [fmt_number(e[n]["g_co2e_per_tkm"]["wtw"], 1) for n in names])
-    rows.append(["Well-to-wheel intensity [g CO2e/km]"]
-                + [fmt_number(e[n]["g_co2e_per_km"]["wtw"], 0) for n in names])
+    # per km, or per mile in US units (g per km × km per mile)
+    rows.append([f"Well-to-wheel intensity [g CO2e/{u.dist}]"]
+                + [fmt_number(u.per_distance(e[n]["g_co2e_per_km"]["wtw"] / 1000.0), 0)
+                   for n in names])
     tables.append({"title": f"Emissions over {cf.analysis_years} years",
                    "columns": ["Frame"] + names, "rows": rows,
                    "note": "GHG Protocol scopes and ISO 14083 tank-to-wheel / well-to-wheel."})

@@ -361,6 +361,9 @@ def input_value(value, unit: str, key: str, currency: str, system: str = "metric
 
 _BRACKET = re.compile(r"\s*\[[^\]]*\]\s*$")
 _FRACTION = re.compile(r"\s*\((fraction|share)[^)]*\)")
+#: An input's bound in its description ("(at most 500 t)"): for the validator, not a
+#: label; it would also name a metric unit in a US report.
+_LIMIT = re.compile(r"\s*\((at most|up to) [^)]*\)")
 #: Labels for choice fields, whose descriptions list the choices rather than name them.
 CHOICE_LABELS = {
     "powertrain": "Powertrain", "method": "Method", "fuel_model": "Fuel model",
@@ -396,6 +399,7 @@ def label_from_description(description: str) -> str:
     text = _BRACKET.sub("", description or "").strip()
     text = _CURRENCY_PAREN.sub("", text)
     text = _FRACTION.sub("", text)
+    text = _LIMIT.sub("", text)
     text = text.split("; ")[0].strip()
     if text.count("(") > text.count(")"):  # a parenthesis cut by the semicolon
         text = text[:text.rindex("(")].strip()
