@@ -87,6 +87,7 @@ from tco.emission_factors import (  # noqa: F401  (re-exported: the model's publ
     load_factor_table,
 )
 from tco.errors import InputError
+from tco.report import formatting as fm
 from tco.units import J_PER_KWH
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -1198,7 +1199,7 @@ def _cautions(settings: "EmissionsSettings", rate, lifecycle: bool) -> list[str]
                    "discounted tonnes is shown beside it.")
     else:
         out.append("Abatement cost = present-value cost difference ÷ tonnes avoided "
-                   f"discounted at the same {rate:.2%} a year as the costs; the figure on "
+                   f"discounted at the same {fm.percent(rate)} a year as the costs; the figure on "
                    "undiscounted tonnes is shown beside it.")
     if settings.residual_mix_intensity is not None:
         out.append("Market-based Scope 2: electricity bought without a contractual "
@@ -1222,7 +1223,7 @@ def _cautions(settings: "EmissionsSettings", rate, lifecycle: bool) -> list[str]
                    "average, CO2 only, at generation); use your grid's figure.")
     if settings.electricity_upstream is None:
         out.append("Upstream emissions of electricity (well-to-tank of the power plants' "
-                   f"fuels) are taken as {settings.electricity_upstream_share:.0%} of the grid "
+                   f"fuels) are taken as {fm.percent(settings.electricity_upstream_share, 0)} of the grid "
                    "intensity"
                    + (" (a default from memory); give your grid's published figure."
                       if "electricity_upstream_share" not in settings.model_fields_set
@@ -1232,7 +1233,8 @@ def _cautions(settings: "EmissionsSettings", rate, lifecycle: bool) -> list[str]
                    "counted (factor 0) while diesel upstream is: this favours the electric "
                    "truck.")
     if settings.diesel_blend_share > 0:
-        out.append(f"The diesel holds {settings.diesel_blend_share:.0%} biodiesel by volume: "
+        out.append(f"The diesel holds {fm.percent(settings.diesel_blend_share, 0)} biodiesel by "
+                   "volume: "
                    "its CO2 is biogenic and reported apart, outside the scopes (GHG "
                    "Protocol); the fossil part carries the diesel factors.")
     if "td_loss" not in settings.model_fields_set:
