@@ -691,13 +691,25 @@ def load_plan_settings(path) -> PlanSettings:
     import tomllib
     from pathlib import Path
 
+    from tco.scenario.files import MAX_SCENARIO_BYTES
+    from tco.text import one_line
+
     path = Path(path)
     if not path.is_file():
         raise InputError("file not found", file=path)
-    try:
-        raw = tomllib.loads(path.read_text(encoding="utf-8"))
-    except (UnicodeDecodeError, tomllib.TOMLDecodeError) as exc:
-        raise InputError(f"not valid TOML: {exc}", file=path) from None
+    size = path.stat().st_size
+    if size > MAX_SCENARIO_BYTES:  # as a scenario file
+        raise InputError(f"is {size / 2**20:.1f} MiB; a plan file may be at most "
+                         f"{MAX_SCENARIO_BYTES / 2**20:.0f} MiB", file=path)
+    try:  # a byte-order mark, as some editors write, is accepted
+        raw = tomllib.loads(path.read_text(encoding="utf-8-sig"))
+    except UnicodeDecodeError:
+        raise InputError("not a UTF-8 text file", file=path) from None
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"not valid TOML: {one_line(str(exc))}", file=path) from None
+    except RecursionError:
+        raise InputError("not valid TOML: tables or arrays nested too deeply",
+                         file=path) from None
     if set(raw) - {"plan"}:
         raise InputError(f"unknown table '{sorted(set(raw) - {'plan'})[0]}' (expected [plan])",
                          file=path)

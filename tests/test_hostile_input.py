@@ -829,3 +829,20 @@ def test_telematics_errors_name_the_paths_as_the_user_gave_them(tmp_path, capsys
     line = assert_refused(["fleet", src / "fleet.csv", "--base", src / "base.toml",
                            "--telematics", "logs", "--out", out, "--json-only"], capsys, out)
     assert line.startswith("tco: error: logs/vehicle_days.csv: ")
+
+
+def test_plan_files_with_a_byte_order_mark_deep_nesting_or_bad_bytes(tmp_path):
+    from tco.plan import load_plan_settings
+
+    path = tmp_path / "plan.toml"
+    path.write_bytes(b"\xef\xbb\xbf[plan]\nservice_life = 12\n")  # as some editors save it
+    assert load_plan_settings(path).service_life == pytest.approx(12 * 365.25 * 86400)
+    path.write_text("x = " + "[" * 5000 + "]" * 5000 + "\n")
+    with pytest.raises(InputError, match="nested too deeply"):
+        load_plan_settings(path)
+    path.write_bytes(b"[plan]\nservice_life = \xff\n")
+    with pytest.raises(InputError, match="not a UTF-8 text file"):
+        load_plan_settings(path)
+    path.write_text("[plan]\nearliest_year = 3000\n")
+    with pytest.raises(InputError, match="plan.earliest_year: .*between 1990 and 2100"):
+        load_plan_settings(path)
