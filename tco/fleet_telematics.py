@@ -50,6 +50,16 @@ _COLUMNS = {
     "battery energy [kWh]": ("battery_J", _J_PER_KWH),
     "grid energy [kWh]": ("grid_J", _J_PER_KWH),
 }
+#: The most a logged vehicle-day can hold, per column in its written unit: a day is 24 h,
+#: and 24 h at 200 km/h (the fastest recorded speed accepted, tco.dutycycle) is 4,800 km;
+#: fuel and energy allow 1 L or 4 kWh a km over that distance, several times what a heavy
+#: truck uses (common practice: about 0.3–0.4 L or 1.1–1.5 kWh a km). Above: refused.
+DAY_LIMITS = {"distance [km]": 4_800.0, "duration [h]": 24.0, "gap time [h]": 24.0,
+              "diesel [L]": 4_800.0, "battery energy [kWh]": 19_200.0,
+              "grid energy [kWh]": 19_200.0}
+#: Largest vehicle_days.csv read (it is read whole): about 4 million vehicle-days of
+#: about 120 bytes a line. [bytes]
+MAX_LOG_BYTES = 512 * 2**20
 #: Optional columns (written by tco telematics since the dwell window was added).
 _OPTIONAL = {
     "first departure [h after 00:00 UTC]": ("depart_s", 3600.0),
@@ -103,6 +113,13 @@ def read_logged_duty(folder) -> pd.DataFrame:
     if not f.is_file():
         raise InputError("no vehicle_days.csv here (give the folder tco telematics wrote)",
                          file=f)
+    size = f.stat().st_size
+    if size > MAX_LOG_BYTES:  # before reading: the table is read whole
+        from tco.budget import size_text
+
+        raise InputError(f"is {size_text(size)}; the limit is {size_text(MAX_LOG_BYTES)} "
+                         "(about 4 million vehicle-days): give fewer days or vehicles",
+                         file=f)
     try:
         df = pd.read_csv(f, dtype={"vehicle": str, "truck": str})
     except (pd.errors.ParserError, UnicodeDecodeError, pd.errors.EmptyDataError) as exc:
@@ -128,6 +145,11 @@ def read_logged_duty(folder) -> pd.DataFrame:
         if bad.any():
             k = int(np.flatnonzero(bad.to_numpy())[0])
             raise InputError(f"'{col.iloc[k]}' is not a number ≥ 0", file=f,
+                             where=f"row {k + 2}, {head}")
+        if head in DAY_LIMITS and (x > DAY_LIMITS[head]).any():
+            k = int(np.flatnonzero((x > DAY_LIMITS[head]).to_numpy())[0])
+            raise InputError(f"{x.iloc[k]:,g} is more than one vehicle-day can hold (at "
+                             f"most {DAY_LIMITS[head]:,g})", file=f,
                              where=f"row {k + 2}, {head}")
         out[name] = x * factor
     g = out.groupby(["vehicle", "truck"], sort=False)

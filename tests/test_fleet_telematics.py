@@ -82,6 +82,18 @@ def test_bad_logs_name_the_row(tmp_path):
         read_logged_duty(tmp_path / "x")
 
 
+@pytest.mark.parametrize("row, column", [
+    # 24 h at 200 km/h is 4,800 km: 5,000 km cannot be one day's log
+    ("T1,2030-03-04,Diesel tractor,5000,9,1,90,,\n", "distance [km]"),
+    ("T1,2030-03-04,Diesel tractor,300,25,1,90,,\n", "duration [h]"),  # a day is 24 h
+    ("T1,2030-03-04,Electric tractor,300,9,1,,20000,0\n", "battery energy [kWh]"),
+])
+def test_logs_beyond_what_a_day_can_hold_are_refused(tmp_path, row, column):
+    with pytest.raises(InputError, match="more than one vehicle-day can hold") as e:
+        read_logged_duty(_logs(tmp_path, row))
+    assert f"row 2, {column}" in str(e.value)
+
+
 def test_real_telematics_output_feeds_the_fleet(tmp_path):
     """tco telematics on an invented dataset (two vehicles, two days), then the fleet:
     each vehicle's yearly distance is its mean logged day × operating days, its diesel
