@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import json
 import math
+import re
 import shutil
 import tomllib
 import zipfile
@@ -179,6 +180,31 @@ def test_starter_workbook(tmp_path):
     assert wb["Trucks"].cell(row=4, column=1).value.startswith("trucks[0].")
     assert main(["check", str(path)]) == 0
     assert main(["init", "--xlsx", str(path)]) == 2  # exists: not overwritten
+
+
+def test_starter_workbook_checks_number_ranges(tmp_path):
+    """Numbers with hard limits get a range check in the spreadsheet (text with a unit
+    stays allowed): operating days per year between 0 and 366 (a leap year's days, the
+    field's own limit), a share between 0 and 1; the formula is written for the group's
+    first cell, as a spreadsheet program shifts it to each cell of the range."""
+    from tco.cli import main
+
+    path = tmp_path / "start.xlsx"
+    assert main(["init", "--xlsx", str(path)]) == 0
+    wb = openpyxl.load_workbook(path)
+    found = {}
+    for ws in wb:
+        rows = {ws.cell(row=r, column=1).value: r for r in range(1, ws.max_row + 1)}
+        for field in ("route.days_per_year", "depot.residual_share"):
+            if field not in rows:
+                continue
+            coord = f"C{rows[field]}"
+            dv = next(d for d in ws.data_validations.dataValidation if coord in d.sqref)
+            first = min(dv.sqref.ranges, key=lambda r: r.min_row).coord.split(":")[0]
+            # 366 and 366.0 are the same limit
+            found[field] = re.sub(r"(\d)\.0\b", r"\1", dv.formula1.replace(first, "X"))
+    assert found["route.days_per_year"] == "OR(ISTEXT(X),AND(ISNUMBER(X),X>=0,X<=366))"
+    assert found["depot.residual_share"] == "OR(ISTEXT(X),AND(ISNUMBER(X),X>=0,X<=1))"
 
 
 def _starter(tmp_path):

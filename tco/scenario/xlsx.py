@@ -105,7 +105,10 @@ def _walk(model: BaseModel, prefix: str, out: list) -> None:
             choices = [a for a in typing.get_args(info.annotation)
                        if isinstance(a, str)] if typing.get_origin(info.annotation) is \
                 typing.Literal else []
+            from tco.scenario.base import field_limits
+
             out.append({"field": path, "unit": extra.get("unit", ""),
+                        "limits": field_limits(info),
                         "description": info.description or "",
                         "source": extra.get("source", ""), "default": default,
                         "choices": choices, "user": name in model.model_fields_set,
@@ -176,6 +179,7 @@ def write_field_table(ws, row: int, rows: list[dict], *, validations: bool = Tru
     number = DataValidation(type="custom", formula1="OR(ISNUMBER(C1),ISTEXT(C1))",
                             allow_blank=True)
     lists: dict[tuple, DataValidation] = {}
+    ranges: dict[tuple, tuple] = {}  # (low, high) in the field's unit -> (validation, row)
     for r in rows:
         wbb.safe_text(ws.cell(row=row, column=1), r["field"])
         wbb.safe_text(ws.cell(row=row, column=2), r["kind"])
@@ -201,13 +205,28 @@ def write_field_table(ws, row: int, rows: list[dict], *, validations: bool = Tru
                     lists[key].add(coord)
             elif r["kind"] == "yes/no":
                 yesno.add(coord)
+            elif r["kind"] == "number" and any(x is not None for x in
+                                               r.get("limits", (None, None))):
+                lo, hi = r["limits"]
+                if (lo, hi) not in ranges:  # relative to its first cell, as in the sheet
+                    ranges[(lo, hi)] = (DataValidation(type="custom", allow_blank=True),
+                                        row)
+                ranges[(lo, hi)][0].add(coord)
             elif r["kind"] == "number":
                 number.add(coord)
         row += 1
     if validations:
         number.formula1 = f"OR(ISNUMBER(C{head + 1}),ISTEXT(C{head + 1}))"
         number.error = "a number in the unit shown, or text with its unit such as '36 t'"
-        for dv in (yesno, number, *lists.values()):
+        for (lo, hi), (dv, first) in ranges.items():
+            c = f"C{first}"
+            bounds = [f"{c}>={lo!r}"] * (lo is not None) + [f"{c}<={hi!r}"] * (hi is not None)
+            dv.formula1 = f"OR(ISTEXT({c}),AND(ISNUMBER({c}),{','.join(bounds)}))"
+            span = (f"from {lo:g} to {hi:g}" if lo is not None and hi is not None else
+                    f"of at least {lo:g}" if lo is not None else f"of at most {hi:g}")
+            dv.error = (f"a number {span} in the unit shown, or text with its unit such as "
+                        "'36 t'")
+        for dv in (yesno, number, *lists.values(), *(v[0] for v in ranges.values())):
             if dv.sqref:
                 dv.showErrorMessage = True
                 ws.add_data_validation(dv)
