@@ -547,6 +547,33 @@ def dwell_window(t, v) -> tuple[float, float]:
     return float(t[a - 1] if a > 0 else t[a]), float(t[b + 1] if b + 1 < len(t) else t[b])
 
 
+@njit(cache=True, nogil=True)
+def _dwell_window_of_rows(t, v):
+    """:func:`dwell_window` of a sorted vehicle-day's rows whose repeated timestamps are
+    still there (each keeps its first row, as :func:`tco.stints.prepare_day`), without
+    copying the kept rows."""
+    nan = np.nan
+    first = nan
+    last = nan
+    prev = -1        # the kept row before the current one
+    pending = False  # a moving row seen; waiting for the kept row after it
+    found = False
+    for i in range(t.size):
+        if i > 0 and not t[i] - t[i - 1] > 0:
+            continue  # a repeated timestamp
+        if pending:
+            last = t[i]
+            pending = False
+        if v[i] > 0:
+            if not found:
+                first = t[prev] if prev >= 0 else t[i]
+                found = True
+            pending = True
+            last = t[i]  # the day may end moving
+        prev = i
+    return first, last
+
+
 class _Truck(NamedTuple):
     """A scenario truck's kernel parameters that do not depend on the day."""
 
@@ -738,9 +765,7 @@ def _process_columns(columns, scenario, source, file, gap_limit) -> PartitionRes
                             "no stretch of samples lasting one time step between gaps"))
             continue
         mean_z = d.mean_elevation
-        tg = t[a:b]  # sorted; a repeated timestamp keeps its first row, as prepare_day
-        keep = np.concatenate(([True], np.diff(tg) > 0))
-        first, last = dwell_window(tg[keep], speed[a:b][keep])
+        first, last = _dwell_window_of_rows(t[a:b], speed[a:b])
         common = {"samples": used - d.unused, "duplicates_dropped": dups,
                   "first_departure_s": first, "last_arrival_s": last,
                   "samples_unused": d.unused, "gaps": d.gaps, "gap_time_s": d.gap_time,

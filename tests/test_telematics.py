@@ -581,3 +581,17 @@ def test_vehicle_ids_read_as_a_dictionary_are_numbered_as_the_text():
     ref = pc.dictionary_encode(pa.array(text))
     assert codes.tolist() == ref.indices.to_pylist()
     assert ids == ref.dictionary.to_pylist() == ["V2", "V1", "V3"]
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.lists(st.tuples(st.integers(0, 3), st.sampled_from([0.0, 0.0, 2.5])),
+                min_size=1, max_size=40))
+def test_dwell_window_of_rows_keeps_the_first_of_repeated_times(steps):
+    """The compiled dwell window on rows with repeated timestamps equals dwell_window on
+    the rows kept (first of each repeated time), the rule written out here with numpy."""
+    t = np.cumsum([float(s) for s, _ in steps])
+    v = np.array([x for _, x in steps])
+    keep = np.concatenate(([True], np.diff(t) > 0))
+    ref = tm.dwell_window(t[keep], v[keep])
+    got = tm._dwell_window_of_rows(t, v)
+    assert (np.isnan(got[0]) and np.isnan(ref[0])) or got == ref
