@@ -293,8 +293,19 @@ def _smooth(s, z, window, out):
             out[i] = zu[0]
         return
     length = du[p - 1] - du[0]
-    spacing = np.median(np.diff(du))
-    h = min(max(spacing, window / 500.0), window / 50.0)
+    # h = min(max(median spacing, window/500), window/50). When the middle spacings are
+    # all at least window/50 (a truck moving at more than 5 m per sample with the default
+    # window), so is the median and h is window/50: a count instead of a selection.
+    hi = window / 50.0
+    below = 0
+    for i in range(p - 1):
+        if du[i + 1] - du[i] < hi:
+            below += 1
+    if below <= (p - 2) // 2:
+        h = hi
+    else:
+        spacing = np.median(np.diff(du))
+        h = min(max(spacing, window / 500.0), hi)
     h = max(h, length / _MAX_FINE_POINTS)
     n = max(1, int(math.ceil(length / h)))
     ng = n + 1

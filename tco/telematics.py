@@ -305,8 +305,8 @@ def _hive_keys(relative: str) -> dict:
     return keys
 
 
-def process_partition(path, scenario, root=None, gap_limit: float = GAP_LIMIT
-                      ) -> PartitionResult:
+def process_partition(path, scenario, root=None, gap_limit: float = GAP_LIMIT,
+                      threads: bool = True) -> PartitionResult:
     """Read one Parquet partition and drive each of its vehicle-days with every truck.
 
     Reads only the columns of :data:`INPUT_COLUMNS` present in the file, then calls
@@ -324,6 +324,9 @@ def process_partition(path, scenario, root=None, gap_limit: float = GAP_LIMIT
         vehicle column.
     gap_limit : float, optional
         Longest time between samples bridged by resampling. Default 600. [s]
+    threads : bool, optional
+        Decode the Parquet columns on pyarrow's thread pool (default); False reads on
+        this thread only (a Dask worker sharing the cores with other workers).
 
     Returns
     -------
@@ -335,11 +338,22 @@ def process_partition(path, scenario, root=None, gap_limit: float = GAP_LIMIT
         An unreadable file or a bad column, with ``file`` the partition and ``where`` the
         column.
     """
+    path = Path(path)
+    name = path.relative_to(root).as_posix() if root is not None else path.name
+    columns = _read_partition(path, name, threads)
+    if columns is None:
+        return PartitionResult(_empty(DAY_COLUMNS), _empty(SKIPPED_COLUMNS), 0)
+    return _process_columns(columns, scenario, name, path, gap_limit)
+
+
+def _read_partition(path: Path, name: str, threads: bool = True):
+    """The validated columns of one partition (:func:`_read_columns`), None when empty.
+
+    ``threads``: let pyarrow decode the columns on its thread pool (one process); a Dask
+    worker, one of several on the machine's cores, reads on its own thread."""
     import pyarrow as pa
     import pyarrow.parquet as pq
 
-    path = Path(path)
-    name = path.relative_to(root).as_posix() if root is not None else path.name
     try:
         # vehicle ids straight as a dictionary (Parquet stores text that way): no strings
         # to build and encode again, 40 % less reading time here
@@ -352,15 +366,13 @@ def process_partition(path, scenario, root=None, gap_limit: float = GAP_LIMIT
         problem = partition_problem(pf.metadata.num_rows)  # before reading any data
         if problem:
             raise InputError(problem, file=path)
-        table = pf.read(columns=present)
+        table = pf.read(columns=present, use_threads=threads)
     except (OSError, pa.ArrowException) as exc:
         text = " ".join(str(exc).split())
         raise InputError(f"not a readable Parquet file ({text})", file=path) from None
     if table.num_rows == 0:
-        return PartitionResult(_empty(DAY_COLUMNS), _empty(SKIPPED_COLUMNS), 0)
-    columns = _read_columns(table, path, _hive_keys(name))
-    del table  # only the validated arrays from here on
-    return _process_columns(columns, scenario, name, path, gap_limit)
+        return None
+    return _read_columns(table, path, _hive_keys(name))  # the table is let go here
 
 
 # ============================================================================ columns
@@ -823,7 +835,8 @@ def _partition_task(path: str, root: str, scenario, gap_limit: float):
     ``("error", (message, file, where))`` and is raised again on the client.
     """
     try:
-        return "ok", process_partition(path, scenario, root=root, gap_limit=gap_limit)
+        return "ok", process_partition(path, scenario, root=root, gap_limit=gap_limit,
+                                       threads=False)
     except InputError as exc:
         return "error", (exc.message, exc.file, exc.where)
 
