@@ -954,6 +954,27 @@ def test_an_edit_in_libreoffice_equals_a_new_run(name, value, edit, tmp_path):
     assert by_year["replacements"] and any(by_year["short_months"])  # steps are exercised
 
 
+@pytest.mark.parametrize("when", ["range", "never"])
+def test_ageing_rows_of_the_other_replacement_rules(when, tmp_path):
+    """The live ageing rows under the rules the demo and the variant do not use: "range"
+    (replaced before a year the day would fall short: the demo's battery is replaced at the
+    end of years 4 and 8) and "never" (short from year 5): every formula cell as written
+    equals the model (the replacement years, state of health, shortfall, en-route charging
+    and the costs that read them)."""
+    data = _demo_data()
+    data["uncertainty"] = {"enabled": False}
+    data["trucks"][1]["costs"]["battery_replacement"] = {"when": when, "cost_per_kwh": 140}
+    result, summary = _evaluate(data)
+    by_year = result.trucks["Electric tractor"].feasibility["battery_by_year"]
+    if when == "range":
+        assert by_year["replacements"] and not any(by_year["short_months"])
+    else:
+        assert not by_year["replacements"] and any(by_year["short_months"])
+    path = tmp_path / "w.xlsx"
+    write_workbook(result, summary, path)
+    _Checker(path, path, result, summary).run()
+
+
 def test_emissions_follow_trips_and_days(demo):
     """Emissions follow the inputs that drive them: 1.5 × the trips per day and 0.8 × the
     days per year give 1.2 × every truck's well-to-wheel emissions (hand: each yearly
