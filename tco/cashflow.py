@@ -1923,7 +1923,7 @@ def _compute_chain(inputs: CostInputs, overrides, params, totals_only: bool,
                     by_year[k][name] = by_year[k][name] + v if name in by_year[k] else v
             distance[k] = distance[k] + link.distance_by_year[k]
         assumptions += [a for a in link.assumptions if a not in assumptions]
-    order = {name: j for j, name in enumerate(_LINE_NAMES)}
+    order = {c.name: j for j, c in enumerate(_cl.registry())}
     by_year = [dict(sorted(d.items(), key=lambda kv: order[kv[0]])) for d in by_year]
     if totals_only:
         by_year = [{"total": sum(d.values())} for d in by_year]
