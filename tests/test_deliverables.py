@@ -182,3 +182,44 @@ def test_background_job_writes_returns_and_raises(tmp_path):
         assert (tmp_path / "c.txt").read_text(encoding="utf-8") == str(os.getpid())
     finally:
         context.CHART_WORKERS = saved
+
+
+def _failing_chart():
+    raise ValueError("no rows for truck 'X'")
+
+
+def test_deferred_charts_give_the_same_pdf_and_raise_a_chart_error(tmp_path, monkeypatch):
+    """Charts drawn by forked processes while weasyprint reads the HTML: the PDF is the
+    same bytes as from the finished HTML, the screen context is filled with the same
+    charts, and a chart that fails raises its own error instead of leaving a blank."""
+    from tco.report import charts
+    from tco.report import context as C
+    from tco.report.pdf import render_pdf
+
+    monkeypatch.setattr(C, "CHART_WORKERS", 2)
+    monkeypatch.setattr("os.cpu_count", lambda: 2)
+    jobs = [C._later(charts.equation, r"a^2 + b^2"), C._later(charts.equation, r"\eta_{1}")]
+    deferred = C.DeferredCharts()
+    try:
+        stand_ins = deferred.start(jobs)
+        assert deferred.active and all(u.startswith("data:image/svg+xml;base64,")
+                                       for u in stand_ins)
+        page = "<p>Charts</p>" + "".join(f'<img src="{u}">' for u in stand_ins)
+        render_pdf(page, tmp_path / "deferred.pdf", charts=deferred)
+        filled = deferred.fill({"charts": stand_ins, "other": "data:,x"})
+    finally:
+        deferred.close()
+    assert filled == {"charts": [job() for job in jobs], "other": "data:,x"}
+    done = "<p>Charts</p>" + "".join(f'<img src="{u}">' for u in filled["charts"])
+    render_pdf(done, tmp_path / "done.pdf")
+    assert (tmp_path / "deferred.pdf").read_bytes() == (tmp_path / "done.pdf").read_bytes()
+    assert deferred.resolve("data:,x") is None
+
+    failing = C.DeferredCharts()
+    try:
+        stand_ins = failing.start([jobs[0], C._later(_failing_chart)])
+        with pytest.raises(ValueError, match="no rows for truck"):
+            render_pdf("".join(f'<img src="{u}">' for u in stand_ins), tmp_path / "x.pdf",
+                       charts=failing)
+    finally:
+        failing.close()

@@ -6,6 +6,7 @@ one documented in :mod:`tco.report.html`. Display units follow ``study.units``.
 from __future__ import annotations
 
 import contextlib
+import functools
 import gc
 import math
 
@@ -202,6 +203,135 @@ class ChartsAhead:
             self._pool = self._future = None
 
 
+_DEFERRED: list[_Lazy] = []
+
+
+def _run_deferred(k: int) -> str:
+    return _DEFERRED[k]()
+
+
+class DeferredCharts:
+    """Charts drawn by forked children while weasyprint reads the report.
+
+    Give an instance to :func:`build_context`: each chart then stands in the context as a
+    placeholder ``data:`` URI (a blank 1 × 1 SVG naming the chart, so that the HTML is
+    valid and fetches nothing even if one were left), and its drawing starts at once, in
+    up to :data:`CHART_WORKERS` forked processes (or comes from the :class:`ChartsAhead`
+    child). :func:`tco.report.pdf.render_pdf` swaps each placeholder for the chart when
+    weasyprint reaches its image, so the charts are drawn while weasyprint parses the
+    HTML and resolves its styles (about a quarter of its time). :meth:`fill` gives the
+    finished context (for the screen HTML). Where the platform cannot fork, or with one
+    chart worker, the charts are drawn at once and no placeholder is made.
+    """
+
+    def __init__(self):
+        import secrets
+
+        self._token = secrets.token_hex(8)
+        self._stand_in: dict[str, int] = {}
+        self._get: list = []  # per chart: a callable giving its URI (waits)
+        self._done: dict[int, str] = {}
+        self._errors: list[BaseException] = []
+        self._pool = None
+
+    @property
+    def active(self) -> bool:
+        """Whether some charts are placeholders."""
+        return bool(self._stand_in)
+
+    def start(self, jobs: list[_Lazy], ahead: ChartsAhead | None = None) -> list[str]:
+        """Start drawing ``jobs``; their placeholders (or, drawn at once, their URIs)."""
+        global _DEFERRED
+        import base64
+        import multiprocessing as mp
+        import os
+        from concurrent.futures import ProcessPoolExecutor
+
+        if (CHART_WORKERS < 2 or (os.cpu_count() or 1) < 2
+                or "fork" not in mp.get_all_start_methods()):
+            return _draw_with(jobs, ahead)
+        pending = ahead.keys if ahead is not None else frozenset()
+        keys = [_job_key(j) for j in jobs] if pending else [None] * len(jobs)
+        mine = [k for k in range(len(jobs)) if keys[k] not in pending]
+        getters: dict[int, object] = {}
+        if mine:
+            _DEFERRED = [jobs[k] for k in mine]
+            try:
+                self._pool = ProcessPoolExecutor(min(CHART_WORKERS, len(mine)),
+                                                 mp_context=mp.get_context("fork"))
+                with frozen_heap():  # forks at the first submit
+                    order = sorted(range(len(mine)), key=lambda i: -_weight(_DEFERRED[i]))
+                    futures = {i: self._pool.submit(_run_deferred, i) for i in order}
+            except (OSError, RuntimeError):  # pragma: no cover - no fork in this sandbox
+                if self._pool is not None:
+                    self._pool.shutdown()
+                self._pool = None
+                return _draw_with(jobs, ahead)
+            finally:
+                _DEFERRED = []
+            getters.update((k, futures[i].result) for i, k in enumerate(mine))
+        if len(mine) < len(jobs):
+            taken: dict[str, str] = {}
+            getters_mine = frozenset(mine)
+
+            def from_ahead(k):
+                if not taken:
+                    taken.update(ahead.take() or {"": ""})
+                    ahead.used = sum(1 for j in range(len(jobs))
+                                     if j not in getters_mine and keys[j] in taken)
+                return taken[keys[k]] if keys[k] in taken else jobs[k]()
+
+            getters.update((k, functools.partial(from_ahead, k))
+                           for k in range(len(jobs)) if k not in getters)
+        self._get = [getters[k] for k in range(len(jobs))]
+        out = []
+        for k in range(len(jobs)):
+            svg = (f'<svg xmlns="http://www.w3.org/2000/svg" width="1" height="1"><desc>'
+                   f'chart {k} of report {self._token}, being drawn</desc></svg>')
+            uri = "data:image/svg+xml;base64," + base64.b64encode(svg.encode()).decode()
+            self._stand_in[uri] = k
+            out.append(uri)
+        return out
+
+    def _uri(self, k: int) -> str:
+        if k not in self._done:
+            self._done[k] = self._get[k]()
+        return self._done[k]
+
+    def resolve(self, uri: str) -> str | None:
+        """The chart for a placeholder (waiting for it); None for any other URI. A chart
+        that failed gives None here and its error at :meth:`check`."""
+        k = self._stand_in.get(uri)
+        if k is None:
+            return None
+        try:
+            return self._uri(k)
+        except Exception as exc:  # noqa: BLE001 - raised by check(), not lost in weasyprint
+            self._errors.append(exc)
+            return None
+
+    def check(self) -> None:
+        """Raise the first error of a chart that failed to draw."""
+        if self._errors:
+            raise self._errors[0]
+
+    def fill(self, obj):
+        """``obj`` (a context) with every placeholder replaced by its chart (waits)."""
+        if isinstance(obj, dict):
+            return {k: self.fill(v) for k, v in obj.items()}
+        if isinstance(obj, list):
+            return [self.fill(v) for v in obj]
+        if isinstance(obj, str) and obj in self._stand_in:
+            return self._uri(self._stand_in[obj])
+        return obj
+
+    def close(self) -> None:
+        """Wait for the drawing processes and end them."""
+        if self._pool is not None:
+            self._pool.shutdown()
+            self._pool = None
+
+
 def chart_jobs(result) -> list[_Lazy]:
     """The charts and equations of a Result's report, as jobs not yet drawn."""
     u = fm.Units(result.scenario.study.units)
@@ -248,11 +378,12 @@ def _weight(job: _Lazy) -> int:
     return heavy.get(job.fn.__name__, 1)
 
 
-def _resolve(obj, ahead: ChartsAhead | None = None):
-    """Replace every _Lazy inside the context by its drawn chart."""
+def _resolve(obj, ahead: ChartsAhead | None = None, deferred: DeferredCharts | None = None):
+    """Replace every _Lazy inside the context by its drawn chart (or its placeholder)."""
     found: list[_Lazy] = []
     _collect(obj, found)
-    drawn = dict(zip(map(id, found), _draw_with(found, ahead)))
+    uris = deferred.start(found, ahead) if deferred is not None else _draw_with(found, ahead)
+    drawn = dict(zip(map(id, found), uris))
 
     def put(x):
         if isinstance(x, dict):
@@ -1012,11 +1143,13 @@ METHOD_NOTES = [
 ]
 
 
-def build_context(result, summary: dict, ahead: ChartsAhead | None = None) -> dict:
+def build_context(result, summary: dict, ahead: ChartsAhead | None = None,
+                  deferred: DeferredCharts | None = None) -> dict:
     """The report context of a Result (see :mod:`tco.report.html` for the structure).
 
     ``ahead``: the :class:`ChartsAhead` given to :func:`tco.pipeline.evaluate`, whose
-    charts are taken where they are the same jobs.
+    charts are taken where they are the same jobs. ``deferred``: charts are placeholders
+    being drawn meanwhile (see :class:`DeferredCharts`).
     """
     s = result.scenario
     u = fm.Units(s.study.units)
@@ -1037,4 +1170,4 @@ def build_context(result, summary: dict, ahead: ChartsAhead | None = None) -> di
         "assumptions": _appendix(result, summary, u),
         "method_notes": notes,
         "cautions": cautions,
-    }, ahead)
+    }, ahead, deferred)

@@ -74,7 +74,7 @@ def write_deliverables(result, summary: dict, stage: Path, progress=None, ahead=
 
     ``ahead``: the :class:`tco.report.context.ChartsAhead` of the evaluation, if any.
     """
-    from tco.report.context import build_context
+    from tco.report.context import DeferredCharts, build_context
     from tco.report.html import render_html
     from tco.report.pdf import write_html_and_pdf
     from tco.report.workbook import write_workbook
@@ -83,15 +83,22 @@ def write_deliverables(result, summary: dict, stage: Path, progress=None, ahead=
     page = result.scenario.study.page_size
     if steps:
         steps.start("charts and report text")
-    context = build_context(result, summary, ahead)
-    workbook = _Background(lambda: write_workbook(result, summary, stage / "workbook.xlsx"))
+    # the charts are drawn by forked processes while weasyprint reads the report
+    charts = DeferredCharts()
     try:
-        write_html_and_pdf(lambda for_print: render_html(context, for_print=for_print,
-                                                         page_size=page),
-                           stage, "report", "the report", progress=steps)
-    except BaseException:
-        workbook.discard()
-        raise
+        context = build_context(result, summary, ahead, deferred=charts)
+        workbook = _Background(lambda: write_workbook(result, summary,
+                                                      stage / "workbook.xlsx"))
+        try:
+            write_html_and_pdf(lambda for_print: render_html(
+                context if for_print else charts.fill(context), for_print=for_print,
+                page_size=page), stage, "report", "the report", progress=steps,
+                charts=charts if charts.active else None)
+        except BaseException:
+            workbook.discard()
+            raise
+    finally:
+        charts.close()
     if steps:
         steps.start("writing the workbook")
     workbook.result()

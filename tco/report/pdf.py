@@ -27,13 +27,16 @@ class DataOnlyFetcher(URLFetcher):
     way.)
     """
 
-    def __init__(self):
+    def __init__(self, charts=None):
         super().__init__(allowed_protocols={"data"}, allow_redirects=False, timeout=1)
         self.blocked: list[str] = []
+        self._charts = charts
 
     def fetch(self, url, headers=None):
         if not str(url).lower().startswith("data:"):
             self.blocked.append(str(url))
+        elif self._charts is not None:  # a chart still being drawn: wait for it
+            url = self._charts.resolve(url) or url
         # The parent refuses every other scheme with ValueError before opening anything.
         return super().fetch(url, headers)
 
@@ -76,7 +79,7 @@ class PdfResult:
     warnings: list[str] = field(default_factory=list)
 
 
-def render_pdf(html: str, path) -> PdfResult:
+def render_pdf(html: str, path, charts=None) -> PdfResult:
     """Render report HTML to a PDF file, fetching nothing but ``data:`` URIs.
 
     Parameters
@@ -85,6 +88,10 @@ def render_pdf(html: str, path) -> PdfResult:
         The print HTML from :func:`tco.report.html.render_html` (``for_print=True``).
     path : str or Path
         Where to write the PDF (the caller stages it for atomic output).
+    charts : tco.report.context.DeferredCharts, optional
+        Charts still being drawn while weasyprint reads the document: the HTML holds
+        their stand-in ``data:`` URIs, and each is swapped for the chart (waiting for it)
+        when weasyprint reaches its image. The PDF is the same as from the finished HTML.
 
     Returns
     -------
@@ -99,7 +106,7 @@ def render_pdf(html: str, path) -> PdfResult:
     (1, [])
     """
     path = Path(path)
-    fetcher = DataOnlyFetcher()
+    fetcher = DataOnlyFetcher(charts)
     collect = _Collect()
     logger = logging.getLogger("weasyprint")
     old_level = logger.level
@@ -108,6 +115,8 @@ def render_pdf(html: str, path) -> PdfResult:
         logger.setLevel(logging.WARNING)  # collect warnings even if logging is quietened
     try:
         doc = weasyprint.HTML(string=html, base_url=None, url_fetcher=fetcher).render()
+        if charts is not None:
+            charts.check()  # a chart that failed raises here, not as a missing image
         doc.write_pdf(target=str(path))
     finally:
         logger.removeHandler(collect)
@@ -120,8 +129,8 @@ def render_pdf(html: str, path) -> PdfResult:
                      warnings=warnings)
 
 
-def write_html_and_pdf(render, stage: Path, stem: str, what: str, progress=None
-                       ) -> list[str]:
+def write_html_and_pdf(render, stage: Path, stem: str, what: str, progress=None,
+                       charts=None) -> list[str]:
     """Write ``<stem>.html`` (screen) and ``<stem>.pdf`` (print) of one report into a stage.
 
     Parameters
@@ -135,6 +144,9 @@ def write_html_and_pdf(render, stage: Path, stem: str, what: str, progress=None
     what : str
         The report's name in the error message, e.g. ``"the fleet report"``.
     progress : tco.progress.Steps, optional
+    charts : tco.report.context.DeferredCharts, optional
+        Charts still being drawn (see :func:`render_pdf`): the PDF is rendered first, from
+        ``render(True)`` with their stand-ins, and the HTML after it, when they are done.
 
     Returns
     -------
@@ -150,11 +162,14 @@ def write_html_and_pdf(render, stage: Path, stem: str, what: str, progress=None
     from tco.errors import InputError
 
     stage = Path(stage)
-    (stage / f"{stem}.html").write_text(render(False), encoding="utf-8")
+    if charts is None:
+        (stage / f"{stem}.html").write_text(render(False), encoding="utf-8")
     if progress:
         progress.start(f"rendering {what} (PDF)")
-    pdf = render_pdf(render(True), stage / f"{stem}.pdf")
+    pdf = render_pdf(render(True), stage / f"{stem}.pdf", charts=charts)
     if pdf.blocked:
         raise InputError(f"{what} tried to fetch outside resources: "
                          + ", ".join(pdf.blocked[:3]))
+    if charts is not None:
+        (stage / f"{stem}.html").write_text(render(False), encoding="utf-8")
     return [f"{stem}.html", f"{stem}.pdf"]
