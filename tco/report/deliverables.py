@@ -73,8 +73,12 @@ def write_deliverables(result, summary: dict, stage: Path, progress=None, ahead=
     """Write report.html, report.pdf and workbook.xlsx into ``stage``; return the names.
 
     ``ahead``: the :class:`tco.report.context.ChartsAhead` of the evaluation, if any.
+    The charts are drawn by forked processes while weasyprint reads the report
+    (:class:`tco.report.context.DeferredCharts`), and the objects alive before (the
+    models' results) are left out of garbage collection meanwhile
+    (:func:`tco.report.context.frozen_heap`).
     """
-    from tco.report.context import DeferredCharts, build_context
+    from tco.report.context import DeferredCharts, build_context, frozen_heap
     from tco.report.html import render_html
     from tco.report.pdf import write_html_and_pdf
     from tco.report.workbook import write_workbook
@@ -83,23 +87,23 @@ def write_deliverables(result, summary: dict, stage: Path, progress=None, ahead=
     page = result.scenario.study.page_size
     if steps:
         steps.start("charts and report text")
-    # the charts are drawn by forked processes while weasyprint reads the report
     charts = DeferredCharts()
-    try:
-        context = build_context(result, summary, ahead, deferred=charts)
-        workbook = _Background(lambda: write_workbook(result, summary,
-                                                      stage / "workbook.xlsx"))
+    with frozen_heap():
         try:
-            write_html_and_pdf(lambda for_print: render_html(
-                context if for_print else charts.fill(context), for_print=for_print,
-                page_size=page), stage, "report", "the report", progress=steps,
-                charts=charts if charts.active else None)
-        except BaseException:
-            workbook.discard()
-            raise
-    finally:
-        charts.close()
-    if steps:
-        steps.start("writing the workbook")
-    workbook.result()
+            context = build_context(result, summary, ahead, deferred=charts)
+            workbook = _Background(lambda: write_workbook(result, summary,
+                                                          stage / "workbook.xlsx"))
+            try:
+                write_html_and_pdf(lambda for_print: render_html(
+                    context if for_print else charts.fill(context), for_print=for_print,
+                    page_size=page), stage, "report", "the report", progress=steps,
+                    charts=charts if charts.active else None)
+            except BaseException:
+                workbook.discard()
+                raise
+        finally:
+            charts.close()
+        if steps:
+            steps.start("writing the workbook")
+        workbook.result()
     return ["report.pdf", "report.html", "workbook.xlsx"]
