@@ -25,6 +25,7 @@ from __future__ import annotations
 import math
 from typing import Iterable
 
+from tco.report import formatting as fm
 from tco.errors import InputError
 
 __all__ = ["BYTES_PER_DRAW", "BYTES_PER_FLEET_ROW", "BYTES_PER_SAMPLE",
@@ -108,7 +109,7 @@ def check_samples(n: float, dt: float, what: str = "this trip",
     if not math.isfinite(n) or n > MAX_TRIP_SAMPLES:
         need = size_text(n * BYTES_PER_SAMPLE) if math.isfinite(n) else "no end"
         raise InputError(
-            f"{what} would need {_count(n)} samples at {dt:g} s, about {need}; the limit "
+            f"{what} would need {_count(n)} samples at {fm.plain(dt)} s, about {need}; the limit "
             f"is {MAX_TRIP_SAMPLES:,} samples (about "
             f"{size_text(MAX_TRIP_SAMPLES * BYTES_PER_SAMPLE)}): use a longer time_step or a "
             "shorter trip", file=file, where=where)

@@ -56,6 +56,7 @@ import numpy as np
 import pandas as pd
 from scipy.interpolate import PchipInterpolator
 
+from tco.report import formatting as fm
 from tco.budget import check_samples
 from tco.errors import InputError
 from tco.units import UnitError, to_si, ureg
@@ -169,7 +170,7 @@ def _check_dt(dt: float) -> float:
     except (TypeError, ValueError):
         raise InputError(f"time step must be a number of seconds, got {dt!r}", where="dt") from None
     if not math.isfinite(dt) or dt <= 0:
-        raise InputError(f"time step must be positive, got {dt:g} s", where="dt")
+        raise InputError(f"time step must be positive, got {fm.plain(dt)} s", where="dt")
     return dt
 
 
@@ -179,7 +180,7 @@ def _check_positive(value: float, name: str, unit: str) -> float:
     except UnitError as exc:
         raise InputError(str(exc), where=name) from None
     if value <= 0:
-        raise InputError(f"must be positive, got {value:g} {unit}", where=name)
+        raise InputError(f"must be positive, got {fm.plain(value)} {unit}", where=name)
     return value
 
 
@@ -390,7 +391,8 @@ def _resample_arrays(
     span = float(t[-1])
     if span < dt * (1 - 1e-9):
         raise InputError(
-            f"the trace lasts {span:g} s, less than one time step (dt = {dt:g} s)", where="dt"
+            f"the trace lasts {fm.plain(span)} s, less than one time step "
+            f"(dt = {fm.plain(dt)} s)", where="dt"
         )
     check_samples(span / dt + 1, dt, what="this trace")  # before allocating the grid
     n = max(1, int(math.ceil(span / dt - 1e-9)))
@@ -761,10 +763,10 @@ def from_segments(
         n_stops = _segment_number(seg, "stops", i, "", 0)
         dwell = _segment_number(seg, "dwell", i, "s", 0.0)
         if length <= 0:
-            raise InputError(f"length must be positive, got {length:g} m",
+            raise InputError(f"length must be positive, got {fm.plain(length)} m",
                              where=f"segments[{i}].length")
         if speed <= 0:
-            raise InputError(f"speed must be positive, got {speed:g} m/s",
+            raise InputError(f"speed must be positive, got {fm.plain(speed)} m/s",
                              where=f"segments[{i}].speed")
         if abs(grade) > MAX_GRADE:
             raise InputError(
@@ -773,10 +775,12 @@ def from_segments(
             )
         if n_stops < 0 or n_stops != int(n_stops):
             raise InputError(
-                f"stops must be a whole number ≥ 0, got {n_stops:g}", where=f"segments[{i}].stops"
+                f"stops must be a whole number ≥ 0, got {fm.plain(n_stops)}",
+                where=f"segments[{i}].stops"
             )
         if dwell < 0:
-            raise InputError(f"dwell must be ≥ 0, got {dwell:g} s", where=f"segments[{i}].dwell")
+            raise InputError(f"dwell must be ≥ 0, got {fm.plain(dwell)} s",
+                             where=f"segments[{i}].dwell")
         lengths.append(length)
         speeds.append(speed)
         grades.append(grade)
@@ -1124,7 +1128,8 @@ def read_csv_trace(
         i = _first_bad(np.diff(t) <= 0)
         if i is not None:
             word = "repeats" if t[i + 1] == t[i] else "goes backwards"
-            raise InputError(f"time {word} ({t[i + 1]:g} s after {t[i]:g} s)", file=path,
+            raise InputError(f"time {word} ({fm.plain(t[i + 1])} s after {fm.plain(t[i])} s)",
+                             file=path,
                              where=cell_where("time", i + 1))
         i = _first_bad(v < 0)
         if i is not None:
@@ -1200,7 +1205,7 @@ def read_csv_trace(
                          "and grade or elevation; or distance and elevation (with speed or a "
                          "cruise speed)", file=path, where=hwhere)
     if "time" in names and cols["time"][0] != 0:
-        notes.append(f"time shifted to start at 0 (file starts at {cols['time'][0]:g} s)")
+        notes.append(f"time shifted to start at 0 (file starts at {fm.plain(cols['time'][0])} s)")
     df.attrs.update(
         source=str(path),
         smoothing=smoothing,
@@ -1220,7 +1225,7 @@ def _check_window(window) -> float | None:
     except UnitError as exc:
         raise InputError(str(exc), where="smoothing_window") from None
     if value < 0:
-        raise InputError(f"must be ≥ 0 m, got {value:g} m", where="smoothing_window")
+        raise InputError(f"must be ≥ 0 m, got {fm.plain(value)} m", where="smoothing_window")
     return value
 
 
@@ -1450,7 +1455,8 @@ def concatenate_legs(traces: Sequence[pd.DataFrame]) -> pd.DataFrame:
         if dt is None:
             dt = this_dt
         elif not math.isclose(this_dt, dt, rel_tol=1e-9):
-            raise InputError(f"time step {this_dt:g} s differs from the first leg's {dt:g} s",
+            raise InputError(f"time step {fm.plain(this_dt)} s differs from the first leg's "
+                             f"{fm.plain(dt)} s",
                              where=f"legs[{j}]")
         part = tr.loc[:, list(COLUMNS)].reset_index(drop=True).copy()
         part["parked"] = (tr["parked"].to_numpy(dtype=bool) if "parked" in tr.columns

@@ -148,8 +148,8 @@ def read_logged_duty(folder) -> pd.DataFrame:
                              where=f"row {k + 2}, {head}")
         if head in DAY_LIMITS and (x > DAY_LIMITS[head]).any():
             k = int(np.flatnonzero((x > DAY_LIMITS[head]).to_numpy())[0])
-            raise InputError(f"{x.iloc[k]:,g} is more than one vehicle-day can hold (at "
-                             f"most {DAY_LIMITS[head]:,g})", file=f,
+            raise InputError(f"{fm.plain(x.iloc[k])} is more than one vehicle-day can hold "
+                             f"(at most {fm.plain(DAY_LIMITS[head])})", file=f,
                              where=f"row {k + 2}, {head}")
         out[name] = x * factor
     g = out.groupby(["vehicle", "truck"], sort=False)

@@ -96,6 +96,7 @@ import numpy as np
 import pandas as pd
 from scipy import stats
 
+from tco.report import formatting as fm
 from tco import cashflow, emissions, heap, sampling
 from tco import finance as fin
 from tco.errors import InputError
@@ -737,8 +738,9 @@ def _search_ranges(inp: Input, scale_money: float) -> list[tuple[float, float, s
     if inp.group:
         top = inp.max_factor
         if math.isfinite(top):
-            return [(0.0, top, f"0 and {top:.4g} times the scenario's values")]
-        return [(0.0, h, f"0 and {h:g} times the scenario's values") for h in (10, 100, 1000)]
+            return [(0.0, top, f"0 and {fm.number(top)} times the scenario's values")]
+        return [(0.0, h, f"0 and {fm.plain(h)} times the scenario's values")
+                for h in (10, 100, 1000)]
     path, b = inp.paths[0], inp.base
     if _signed(path):
         return [(-0.5, 1.0, "-50 % and 100 % per year"),
@@ -747,7 +749,8 @@ def _search_ranges(inp: Input, scale_money: float) -> list[tuple[float, float, s
         return [(0.02 * b, 5 * b, "0.02 and 5 times the scenario's value"),
                 (0.02 * b, 50 * b, "0.02 and 50 times the scenario's value")]
     if math.isfinite(b) and b > 0:
-        return [(0.0, h * b, f"0 and {h:g} times the scenario's value") for h in (10, 100, 1000)]
+        return [(0.0, h * b, f"0 and {fm.plain(h)} times the scenario's value")
+                for h in (10, 100, 1000)]
     return [(0.0, h * scale_money, f"0 and {_to_unit(h * scale_money, inp.unit):.6g} "
              f"{inp.unit}".rstrip()) for h in (1, 10, 100)]
 

@@ -488,7 +488,7 @@ def test_trace_path_that_is_a_folder_says_so(tmp_path, capsys, out):
 
 def test_very_long_segment_names_the_length(tmp_path, capsys, out):
     path = write(tmp_path, set_in(demo(), "route.legs[0].segments[0].length", "1e7 km"))
-    line = assert_refused(["check", path], capsys, out, "segments[0].length", "at most 5000 km")
+    line = assert_refused(["check", path], capsys, out, "segments[0].length", "at most 5,000 km")
     assert "speed is zero" not in line
 
 

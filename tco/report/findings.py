@@ -14,7 +14,7 @@ from tco.report import formatting as fm
 
 __all__ = ["payload_sentence", "power_sentence", "battery_sentence", "depot_sentence",
            "ageing_sentence", "ageing_verdict", "truck_sentences", "truck_warnings",
-           "sentences", "rewrite_warnings", "remedy_sentence"]
+           "remedy_sentence"]
 
 
 def _units(u) -> fm.Units:
@@ -242,14 +242,3 @@ def remedy_sentence(x: dict, u) -> str:
                 "depot: fewer trips or a longer day")
     return (f"{fm.kwh(x['shortfall'])} more depot charging a night: a longer stay at the "
             "depot or more powerful chargers")
-
-
-def sentences(tr, u) -> dict[str, str]:
-    """Alias of :func:`truck_sentences`."""
-    return truck_sentences(tr, u)
-
-
-def rewrite_warnings(warnings: list[str], result, u) -> list[str]:
-    """The run's warnings (kept for callers: the findings are already written in the
-    study's units by :func:`truck_warnings`, so they pass through unchanged)."""
-    return list(warnings)

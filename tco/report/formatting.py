@@ -29,7 +29,7 @@ __all__ = [
     "quantity", "Units", "input_value", "label_from_description", "field_label", "hours_text",
     "irr_text", "range_text", "client_line", "EXCEL_FORMATS", "kwh", "kw", "minutes",
     "seconds", "count", "tonnes", "per_year", "years_list", "compact_number", "clock",
-    "signed_percent",
+    "signed_percent", "plain",
 ]
 
 #: Shown for a missing or non-finite figure.
@@ -99,6 +99,36 @@ def percent(share, digits: int = 1) -> str:
     if float(share) == 0:
         return "0 %"
     return f"{number(100.0 * float(share), digits)} %"
+
+
+_SUPERSCRIPT = str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹")
+
+
+def plain(x) -> str:
+    """A value as a person would type it, for messages: the shortest decimal that reads
+    back as ``x`` (``0.5``, ``1,250``, ``-3``), never e-notation; beyond 10^15 in size, its
+    order of magnitude (``about 10¹⁸``), so a hostile number cannot flood a line.
+
+    >>> plain(0.5), plain(1250.0), plain(-3.0), plain(1e12), plain(1e18), plain(2.5e-7)
+    ('0.5', '1,250', '-3', '1,000,000,000,000', 'about 10¹⁸', '0.00000025')
+    >>> plain(-0.25), plain(12345.5)
+    ('-0.25', '12,345.5')
+    """
+    if not _finite(x):
+        return str(x)
+    x = float(x)
+    if abs(x) >= 1e15:
+        sign = "-" if x < 0 else ""
+        return f"{sign}about 10{str(int(math.floor(math.log10(abs(x))))).translate(_SUPERSCRIPT)}"
+    if x == int(x):
+        return f"{int(x):,}"
+    text = repr(x)
+    if "e" in text or "E" in text:
+        import numpy as np
+
+        text = np.format_float_positional(x, trim="-")
+    whole, _, frac = text.partition(".")
+    return f"{int(whole):,}".replace("0", "-0", 1 if whole == "-0" else 0) + "." + frac
 
 
 def count(n) -> str:

@@ -41,6 +41,7 @@ from pydantic import (
     field_validator,
 )
 
+from tco.report import formatting as fm
 from tco.text import clean_text
 from tco.units import UnitError, to_si
 
@@ -106,8 +107,8 @@ def _show(si_value: float, unit: str) -> str:
     from tco.units import from_si
 
     if not unit:
-        return f"{si_value:g}"
-    return f"{from_si(si_value, unit):g} {unit}"
+        return f"{fm.plain(si_value)}"
+    return f"{fm.plain(from_si(si_value, unit))} {unit}"
 
 
 def Qty(unit: str, *, ge=None, gt=None, le=None, lt=None):
@@ -197,13 +198,13 @@ def _check_value(value: Any, extra: dict) -> Any:
         if not math.isfinite(value):
             raise ValueError("must be a finite number")
         if _is_money(unit) and abs(_plain_value(value, unit)) > MONEY_CEILING:
-            raise ValueError(f"{_plain_value(value, unit):.3g} is above the ceiling of "
-                             f"{MONEY_CEILING:.0e} for any amount or price in the scenario's "
+            raise ValueError(f"{fm.plain(_plain_value(value, unit))} is above the ceiling of "
+                             f"{fm.plain(MONEY_CEILING)} for any amount or price in the scenario's "
                              "currency")
         return value
     if isinstance(value, int):
         if abs(value) > INT_CEILING:
-            raise ValueError(f"must be at most {INT_CEILING:.3g}")
+            raise ValueError(f"must be at most {fm.plain(INT_CEILING)}")
         return value
     if isinstance(value, str):
         limit = extra.get("text_limit", TEXT_LIMIT)

@@ -45,6 +45,7 @@ from typing import Literal
 import numpy as np
 from pydantic import Field, ValidationInfo, field_validator, model_validator
 
+from tco.report import formatting as fm
 from tco.budget import MAX_DRAWS
 from tco.scenario.base import (
     ASSUMPTION,
@@ -81,7 +82,7 @@ _NUMBER_BOUNDS = dict(bounds=(-NUMBER_LIMIT, NUMBER_LIMIT),
 
 def _number_size(value):
     if isinstance(value, float) and abs(value) > NUMBER_LIMIT:
-        raise ValueError(f"{value:.3g} is above {NUMBER_LIMIT:.0e} in size")
+        raise ValueError(f"{fm.plain(value)} is above {fm.plain(NUMBER_LIMIT)} in size")
     return value
 _AS_NEEDED = "none: given by you where the kind needs it"
 SCALE_TEXT = ("relative: multipliers of the scenario's value (0.8, '120 %'); absolute: "
@@ -137,13 +138,14 @@ def check_distribution(kind: str, values: dict[str, float | None]) -> str | None
             return f"{name} must be a finite number"
     lo, mode, hi = v.get("low"), v.get("mode"), v.get("high")
     if lo is not None and hi is not None and lo >= hi:
-        return f"low ({lo:g}) must be below high ({hi:g})"
+        return f"low ({fm.plain(lo)}) must be below high ({fm.plain(hi)})"
     if mode is not None and not lo <= mode <= hi:
-        return f"mode ({mode:g}) must lie between low ({lo:g}) and high ({hi:g})"
+        return (f"mode ({fm.plain(mode)}) must lie between low ({fm.plain(lo)}) and high "
+                f"({fm.plain(hi)})")
     if "sd" in v and v["sd"] <= 0:
-        return f"the standard deviation sd ({v['sd']:g}) must be greater than zero"
+        return f"the standard deviation sd ({fm.plain(v['sd'])}) must be greater than zero"
     if kind == "lognormal" and v["mean"] <= 0:
-        return f"a lognormal distribution needs a mean above zero (got {v['mean']:g})"
+        return f"a lognormal distribution needs a mean above zero (got {fm.plain(v['mean'])})"
     if kind == "normal":
         if lo is not None and lo >= v["mean"] + 6 * v["sd"]:
             return "the truncation bound low lies more than 6 sd above the mean"
@@ -192,7 +194,7 @@ def correlation_problem(matrix: np.ndarray) -> str | None:
     w = np.linalg.eigvalsh(np.asarray(matrix, dtype=float))
     if w.min() < -1e-10:
         return ("the correlations are not consistent with each other: the correlation matrix "
-                f"is not positive semi-definite (smallest eigenvalue {w.min():.3g})")
+                f"is not positive semi-definite (smallest eigenvalue {fm.plain(w.min())})")
     return None
 
 
@@ -216,7 +218,7 @@ class TornadoInput(Section):
     def _order(self):
         lo, hi = _plain(self.low), _plain(self.high)
         if lo is not None and hi is not None and lo > hi:
-            raise ValueError(f"low ({lo:g}) is above high ({hi:g})")
+            raise ValueError(f"low ({fm.plain(lo)}) is above high ({fm.plain(hi)})")
         return self
 
 
@@ -252,7 +254,8 @@ class Distribution(Section):
     def _sd(cls, value):
         v = _plain(value)
         if v is not None and v <= 0:
-            raise ValueError(f"the standard deviation must be greater than zero (got {v:g})")
+            raise ValueError("the standard deviation must be greater than zero "
+                             f"(got {fm.plain(v)})")
         return value
 
     @model_validator(mode="after")
