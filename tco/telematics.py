@@ -760,13 +760,17 @@ def _process_columns(columns, scenario, source, file, gap_limit) -> PartitionRes
         t, speed, zg, payload = t[order], speed[order], zg[order], payload[order]
         del order
     bounds = _day_bounds(codes, day).tolist()
+    # one work space for every vehicle-day of the partition: at 1 Hz and the usual time
+    # steps a day's arrays fit in 32 slots per sample (larger needs get new arrays)
+    longest = max((b - a for a, b in zip(bounds[:-1], bounds[1:])), default=0)
+    workspace = np.empty(32 * longest + 4096)
     rows, skipped = [], []
     for a, b in zip(bounds[:-1], bounds[1:]):
         vehicle = ids[codes[a]]
         date = str(np.datetime64(int(day[a]), "D"))
         try:
             d = stints.prepare_day(t[a:b], speed[a:b], zg[a:b], payload[a:b], is_grade, dt,
-                                   window, gap_limit, float(ambient.altitude))
+                                   window, gap_limit, float(ambient.altitude), workspace)
         except InputError as exc:
             where = f" ({exc.where})" if exc.where else ""
             raise InputError(f"vehicle {vehicle!r} on {date}: {exc.message}{where}",

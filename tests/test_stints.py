@@ -243,12 +243,31 @@ def test_smoothing_matches_gaussian_filter1d():
     x = np.arange(0.0, 20_000.0, 5.0)
     z = 300 + 30 * np.sin(x / 900) + np.random.default_rng(0).normal(0, 2, x.size)
     out = np.empty_like(z)
-    stints._smooth(x, z, 250.0, out)
+    stints._smooth(x, z, 250.0, out, np.empty(0), np.zeros(1, np.int64))
     ref = gaussian_filter1d(z, sigma=250.0 / 4 / 5.0, truncate=4.0)
     inner = slice(100, -100)
     np.testing.assert_allclose(out[inner], ref[inner], rtol=1e-12)
     # a steady grade is kept exactly by the line extension at the ends
     z2 = 100 + 0.02 * x
-    stints._smooth(x, z2, 250.0, out)
+    stints._smooth(x, z2, 250.0, out, np.empty(0), np.zeros(1, np.int64))
     np.testing.assert_allclose(out, z2, rtol=1e-12)
     assert math.isclose(out[-1], z2[-1], rel_tol=1e-12)
+
+
+@pytest.mark.parametrize("size", [0, 1000, 20_000, 1_000_000])
+def test_a_work_space_of_any_size_gives_the_same_day(size):
+    """Arrays carved from a work space (too small, partly enough, ample) hold the same
+    numbers as fresh arrays, including when the day has repeated timestamps."""
+    rng = np.random.default_rng(7)
+    t, v, z, p = random_day(rng)
+    fresh = stints.prepare_day(t, v, z, p, False, 1.0, 250.0, 600.0, 0.0)
+    ws = np.full(size, 123.0)
+    got = stints.prepare_day(t, v, z, p, False, 1.0, 250.0, 600.0, 0.0, workspace=ws)
+    for a, b in zip(fresh, got):
+        if isinstance(a, np.ndarray):
+            np.testing.assert_array_equal(a, b)
+        else:
+            assert a == b
+    again = stints.prepare_day(t[::-1].copy()[::-1], v, z, p, False, 1.0, 250.0, 600.0,
+                               0.0, workspace=ws)  # reused: the same again
+    np.testing.assert_array_equal(again.elevation, fresh.elevation)
