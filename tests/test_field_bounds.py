@@ -275,3 +275,13 @@ def test_each_fleet_column_limit_is_enforced(tmp_path, column):
     (tmp_path / "f.csv").write_text(
         f"vehicle,cycle,current,candidate,{column}\nA,c.csv,d,e,{inside}\n")
     read_fleet(tmp_path / "f.csv")
+
+
+def test_zero_amounts_and_no_monte_carlo_are_not_unusual():
+    """0 leaves a cost out (driver cost, maintenance) and draws = 0 turns the Monte Carlo
+    off: neither is a slip to warn about; 0.001 per km of maintenance is."""
+    assert _warnings(finance__driver_cost_per_hour=0.0,
+                     trucks__0__costs__maintenance=0.0, uncertainty__draws=0) == []
+    assert _warnings(trucks__0__costs__maintenance=0.001) == [
+        "trucks[0].costs.maintenance = 0.001 per km is outside the usual range (0.01 to 0.5 "
+        "per km); check that it is meant"]

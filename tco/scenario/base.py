@@ -14,7 +14,8 @@ Bounds live beside each field, in its declared unit:
   declared with ``qfield(..., bounds=(low, high))`` so that they are documented beside the
   field like the others (``tests/test_field_bounds.py`` checks that each declared bound is
   enforced);
-* **usual range sources** — ``usual_source=`` says where a usual range comes from (a
+* **usual range sources** (an amount or price of 0, which leaves a cost out, is never
+  unusual) — ``usual_source=`` says where a usual range comes from (a
   published figure, "common practice" or "from memory"); a numeric field with no sensible
   usual range says why with ``usual="none: …"``. Money usual ranges are written for
   currencies worth roughly one US dollar (:data:`DOLLAR_LIKE`) and are checked only in
@@ -308,6 +309,8 @@ def unusual_values(model: BaseModel, prefix: str = "", currency: str | None = No
         for k, item in enumerate(items):
             if isinstance(item, bool) or not isinstance(item, (int, float)):
                 continue
+            if item == 0 and _is_money(extra.get("unit", "") or ""):
+                continue  # an amount or price of 0 leaves the cost out: never unusual
             shown = _plain_value(float(item), unit)
             low, high = usual
             if (low is not None and shown < low) or (high is not None and shown > high):
@@ -347,8 +350,6 @@ def field_limits(info) -> tuple[float | None, float | None]:
     Read from the field's :func:`Qty` type, its ``ge``/``gt``/``le``/``lt``, its declared
     ``bounds`` and, for money and prices, :data:`MONEY_CEILING` (the rule every field gets).
     """
-    import annotated_types as at
-
     lows: list[float] = []
     highs: list[float] = []
     for b in _limits_in(info.annotation):
@@ -358,10 +359,10 @@ def field_limits(info) -> tuple[float | None, float | None]:
         if isinstance(m, Bounds):
             lows += [v for v in (m.ge, m.gt) if v is not None]
             highs += [v for v in (m.le, m.lt) if v is not None]
-        if isinstance(m, (at.Ge, at.Gt)):
-            lows.append(getattr(m, "ge", getattr(m, "gt", None)))
-        if isinstance(m, (at.Le, at.Lt)):
-            highs.append(getattr(m, "le", getattr(m, "lt", None)))
+        # pydantic keeps Field(ge=…) etc. as annotated-types markers with one attribute
+        for attr, side in (("ge", lows), ("gt", lows), ("le", highs), ("lt", highs)):
+            if not isinstance(m, Bounds) and isinstance(getattr(m, attr, None), (int, float)):
+                side.append(getattr(m, attr))
     extra = info.json_schema_extra if isinstance(info.json_schema_extra, dict) else {}
     if "bounds" in extra:
         lows.append(extra["bounds"][0])
