@@ -124,7 +124,7 @@ def test_an_edit_in_the_field_table_reruns_the_model(delivered, tmp_path):
     """A value typed into the field table is what the rerun uses."""
     _, _, wb_path = delivered
     wb = openpyxl.load_workbook(wb_path)
-    ws = wb["Inputs"]
+    ws = wb["Scenario"]
     r = next(r for r in range(1, ws.max_row + 1) if ws.cell(row=r, column=1).value
              == "prices.diesel")
     ws.cell(row=r, column=3).value = 1.6
@@ -339,7 +339,7 @@ def test_a_field_edited_in_two_places_is_refused(delivered, tmp_path):
     wb = openpyxl.load_workbook(wb_path)
     cell = _named(wb, "diesel_price")
     cell.value = 1.6
-    ws = wb["Inputs"]
+    ws = wb["Scenario"]
     r = next(r for r in range(1, ws.max_row + 1) if ws.cell(row=r, column=1).value
              == "prices.diesel")
     ws.cell(row=r, column=3).value = 1.7

@@ -1098,7 +1098,8 @@ def test_libreoffice_prints_each_sheet_one_page_wide(demo_xlsx, tmp_path):
     # year-by-year rows and the emissions sensitivity table were added
     assert 1 <= len(pages) <= 20, len(pages)
     edges = {"Cash flow": ("Cost line", "Present value"), "Emissions": ("Line", "Total"),
-             "Inputs": ("Input", "Source"), "Energy": ("Quantity", "Unit")}
+             "Inputs": ("Input", "Source"), "Energy": ("Quantity", "Unit"),
+             "Scenario": ("Field", "Default")}
     seen = set()
     for p in pages:
         head = p.strip().splitlines()[0]

@@ -383,13 +383,14 @@ def fit_row_heights(ws) -> None:
             lines = max(lines, n)
         if lines > 1:
             ws.row_dimensions[row[0].row].height = _LINE_PT * lines + 2
-            for c in row:  # everything in a tall row starts at its top
+            for c in row:  # everything in a tall row starts at its top (indent kept)
                 if c.value is not None and (c.alignment is None
                                             or c.alignment.vertical is None):
-                    c.alignment = Alignment(wrap_text=c.alignment.wrap_text
-                                            if c.alignment is not None else None,
-                                            horizontal=c.alignment.horizontal
-                                            if c.alignment is not None else None,
+                    a = c.alignment
+                    c.alignment = Alignment(wrap_text=a.wrap_text if a is not None else None,
+                                            horizontal=a.horizontal if a is not None
+                                            else None,
+                                            indent=a.indent if a is not None else 0,
                                             vertical="top")
 
 
@@ -411,9 +412,28 @@ def _fewer_pages_landscape(ws) -> bool:
     :data:`_MIN_SCALE` go to landscape)."""
     from openpyxl.utils import get_column_letter as letter_of
 
-    width = sum(_width(ws, letter_of(c)) for c in range(1, ws.max_column + 1)
-                if not (ws.column_dimensions.get(letter_of(c)) is not None
-                        and ws.column_dimensions[letter_of(c)].hidden)) * _MM_PER_WIDTH
+    def hidden(c: int) -> bool:
+        d = ws.column_dimensions.get(letter_of(c))
+        return d is not None and bool(d.hidden)
+
+    # LibreOffice prints up to the last column with content that is not hidden, a merged
+    # range or a chart reaches
+    used = max([c.column for row in ws.iter_rows() for c in row
+                if c.value is not None and not hidden(c.column)]
+               + [m.max_col for m in ws.merged_cells.ranges] + [1])
+    width = sum(_width(ws, letter_of(c)) for c in range(1, used + 1)
+                if not hidden(c)) * _MM_PER_WIDTH
+    for chart in getattr(ws, "_charts", []):
+        a = chart.anchor  # "L5" until saved, else an anchor object (0-based column)
+        if isinstance(a, str):
+            from openpyxl.utils.cell import column_index_from_string, coordinate_from_string
+
+            start = column_index_from_string(coordinate_from_string(a)[0]) - 1
+        else:
+            start = a._from.col
+        left = sum(_width(ws, letter_of(c)) for c in range(1, start + 1)
+                   if not hidden(c)) * _MM_PER_WIDTH
+        width = max(width, left + 10.0 * chart.width)  # chart width [cm]
     height = sum((ws.row_dimensions[r].height if r in ws.row_dimensions and
                   ws.row_dimensions[r].height else _DEFAULT_ROW_PT) for r in
                  range(1, ws.max_row + 1)) * 0.3528  # pt -> mm

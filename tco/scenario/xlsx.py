@@ -18,10 +18,10 @@ Where the table lives:
   sheets: ``Inputs`` (study, ambient, route, finance, prices, depot, emissions,
   uncertainty), ``Route`` (legs and their segments) and ``Trucks``; choices have list
   validation and numbers a range check;
-* the workbook ``tco run`` delivers carries the same table at the foot of its ``Inputs``
+* the workbook ``tco run`` delivers carries the same table on its ``Scenario``
   sheet (the scenario as run, user values as written), so ``tco run workbook.xlsx``
-  reruns the whole model from it. The yellow named inputs above the table (the cells the
-  workbook's formulas read) are read too: one edited there goes into the field it shows
+  reruns the whole model from it. The yellow named inputs of its ``Inputs`` sheet (the
+  cells the workbook's formulas read) are read too: one edited there goes into the field it shows
   (hidden columns H–J hold the value as written, the field and the factor from the unit
   shown to the field's), so a finance user edits the visible input and reruns.
 

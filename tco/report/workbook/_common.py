@@ -11,11 +11,11 @@ from tco.units import J_PER_KWH, M_PER_MILE
 
 
 #: Sheet titles in workbook order (the last two only when uncertainty results exist).
-SHEETS = ("Summary", "Inputs", "Cash flow", "Emissions", "Energy", "Sensitivity",
+SHEETS = ("Summary", "Inputs", "Scenario", "Cash flow", "Emissions", "Energy", "Sensitivity",
           "Sample statistics")
 
 
-_SU, _IN, _CF, _EM, _EN, _SE, _ST = SHEETS
+_SU, _IN, _SC, _CF, _EM, _EN, _SE, _ST = SHEETS
 
 
 _J_PER_KWH = J_PER_KWH  # from tco.units, the one home of conversion constants

@@ -14,6 +14,7 @@ from tco.report.workbook._common import (
     _EmBlock,
     _FIRST_COL,
     _IN,
+    _SC,
     _SE,
     _ST,
     _SU,
@@ -71,6 +72,7 @@ class Book(InputsSheet, CashflowSheet, AgeingRows, EmissionsSheet, EnergySheet,
         self.ws_su = wb.active
         self.ws_su.title = _SU
         self.ws_in = wb.create_sheet(_IN)
+        self.ws_sc = wb.create_sheet(_SC)
         self.ws_cf = wb.create_sheet(_CF)
         self.ws_em = wb.create_sheet(_EM)
         self.ws_en = wb.create_sheet(_EN)
@@ -127,7 +129,7 @@ class Book(InputsSheet, CashflowSheet, AgeingRows, EmissionsSheet, EnergySheet,
         self._wrap_cut_text()
         # a unit after a right-aligned number: one character apart, not touching it
         nt = len(self.trucks)
-        for title, col in ((_IN, 4), (_SU, 3 + nt), (_EN, 3 + nt), (_CF, _FIRST_COL + self.N + 3),
+        for title, col in ((_IN, 4), (_SC, 4), (_SU, 3 + nt), (_EN, 3 + nt), (_CF, _FIRST_COL + self.N + 3),
                            (_SE, 10), (_ST, 7)):
             if title not in self.wb.sheetnames:
                 continue
@@ -139,7 +141,7 @@ class Book(InputsSheet, CashflowSheet, AgeingRows, EmissionsSheet, EnergySheet,
                                                vertical=a.vertical,
                                                wrap_text=a.wrap_text)
         study = self.summary.get("scenario", {}).get("name", self.s.study.name)
-        titles = {_SU: ("1:1", None), _IN: ("1:1", None),
+        titles = {_SU: ("1:1", None), _IN: ("1:1", None), _SC: ("1:2", None),
                   _CF: (f"1:{_YEAR_ROW}", "A:B"), _EM: (f"1:{_YEAR_ROW}", "A:B"),
                   _EN: ("1:3", "A:B"), _SE: ("1:2", None), _ST: ("1:4", None)}
         for ws in self.wb.worksheets:
@@ -154,8 +156,8 @@ class Book(InputsSheet, CashflowSheet, AgeingRows, EmissionsSheet, EnergySheet,
 
         last = {_CF: _FIRST_COL + self.N + 3}
         for ws in self.wb.worksheets:
-            if ws.title == _IN:
-                continue  # wrapped where it is written
+            if ws.title in (_IN, _SC):
+                continue  # wrapped where it is written (the scenario table: one line a field)
             for row in ws.iter_rows():
                 cells = [c for c in row if c.value is not None]
                 for k, c in enumerate(cells):

@@ -641,16 +641,20 @@ class InputsSheet:
                       "(tco.emissions.hour_matching_factor)", _FACTOR)
 
     def _all_fields(self) -> None:
-        """The scenario as run, as a field table ``tco run THIS_WORKBOOK`` reads back."""
+        """The scenario as run, as a field table ``tco run THIS_WORKBOOK`` reads back, on
+        its own sheet (its own column headings on every printed page)."""
         from tco.scenario.xlsx import field_rows, write_field_table
 
-        self._sec("The scenario as run: every field (empty value: the default). Edit a "
-                  "yellow input above or a value here, then rerun the whole model with: tco "
-                  "run THIS_WORKBOOK.xlsx (an edited yellow input is read into its field; "
-                  "grey model figures are computed again)")
+        ws = self.ws_sc
+        _section(ws, 1, "The scenario as run (empty value: the default). Edit a value here "
+                 "or a yellow input on the Inputs sheet, then rerun: tco run "
+                 "THIS_WORKBOOK.xlsx")
         raw = getattr(getattr(self.result, "loaded", None), "raw", None) or {}
-        self.row = write_field_table(self.ws_in, self.row, field_rows(self.s, raw),
-                                     widths=False, wrap=False)
+        write_field_table(ws, 2, field_rows(self.s, raw), wrap=False)
+        # one line a field, narrow enough to print upright: the description and source
+        # show in full on screen (the printed page cuts the longest)
+        wbb.set_widths(ws, {"A": 40, "B": 8, "C": 16, "D": 12, "E": 52, "F": 24, "G": 14})
+        wbb.freeze(ws, "A3")
         for c in (_AS_WRITTEN_COL, _FIELD_COL, _FIELD_FACTOR_COL):
             self.ws_in.column_dimensions[_col(c)].hidden = True
         safe_text(self.ws_in.cell(row=1, column=_AS_WRITTEN_COL), "as written")
