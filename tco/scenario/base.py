@@ -240,11 +240,9 @@ class Section(BaseModel):
 
 
 def number_text(v: float) -> str:
-    """A number for a warning: thousands separated, whole numbers in full (2,000,000),
-    others to six significant figures (0.45)."""
-    if abs(v) >= 1000 and abs(v) < 1e15 and v == round(v):
-        return f"{v:,.0f}"
-    return f"{v:,.6g}"
+    """A number for a warning, as every message writes it (:func:`tco.report.formatting.plain`:
+    thousands separated, the shortest decimal, never e-notation)."""
+    return fm.plain(v)
 
 
 def _unit_text(unit: str) -> str:
