@@ -21,7 +21,10 @@ run:
 * the Dask path on a local cluster of ``--workers`` processes with one thread each and
   ``--memory-limit`` each, warmed up the same way, given by its scheduler address:
   samples per second, the ratio to the single process (target ≥ 1.7× with 2 workers on
-  2 cores) and each worker's peak resident memory against its limit;
+  2 cores) and each worker's peak resident memory against its limit; and, since wall
+  time on a shared machine depends on the other work there, the CPU time of both (the
+  workers' summed through ``getrusage``) and the speed-up two idle cores could give at
+  most, 2 × single CPU / Dask CPU;
 * for information, the end-to-end ``process(..., local_workers=N)`` call that starts and
   stops its own cluster (start-up and numba loading included), and the warm cluster with
   Dask's default worker malloc settings (freed memory trimmed at once), which cost speed;
@@ -93,6 +96,14 @@ def _peak_rss() -> int:
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024
 
 
+def _cpu_seconds() -> float:
+    """CPU time of this process, all threads (user + system). [s]"""
+    import resource
+
+    r = resource.getrusage(resource.RUSAGE_SELF)
+    return r.ru_utime + r.ru_stime
+
+
 def _max_rel_diff(a, b) -> float:
     worst = 0.0
     for name in ("vehicle_days", "vehicles"):
@@ -118,7 +129,8 @@ def _warm_cluster(workers, limit, data, warm, loaded, malloc_env, repeat=1, sing
     ``repeat`` times, so that both see the same machine load.
 
     Returns (dask seconds per round, single seconds per round, start-up seconds, peak RSS
-    per worker [bytes], memory limit per worker [bytes], result).
+    per worker [bytes], memory limit per worker [bytes], result, workers' CPU seconds per
+    round (summed over workers), single-process CPU seconds per round).
     """
     from distributed import Client
 
@@ -134,17 +146,22 @@ def _warm_cluster(workers, limit, data, warm, loaded, malloc_env, repeat=1, sing
         telematics.process(warm, loaded, scheduler=address)
         t_start = time.perf_counter() - t0
         client.run(_reset_peak)
-        t_dask, t_single = [], []
+        t_dask, t_single, c_dask, c_single = [], [], [], []
         for _ in range(repeat):
             if single is not None:
+                c0 = _cpu_seconds()
                 t_single.append(single())
+                c_single.append(_cpu_seconds() - c0)
+            w0 = client.run(_cpu_seconds)
             t0 = time.perf_counter()
             result = telematics.process(data, loaded, scheduler=address)
             t_dask.append(time.perf_counter() - t0)
+            w1 = client.run(_cpu_seconds)
+            c_dask.append(sum(w1[w] - w0[w] for w in w1 if w in w0))
         peaks = client.run(_peak_rss)
         limits = {w: i["memory_limit"]
                   for w, i in client.scheduler_info(n_workers=-1)["workers"].items()}
-    return t_dask, t_single, t_start, peaks, limits, result
+    return t_dask, t_single, t_start, peaks, limits, result, c_dask, c_single
 
 
 def _read_floor(folder) -> float:
@@ -232,7 +249,8 @@ def main() -> None:
         # ---- Dask, warm local cluster given by its address, its workers started with the
         # malloc settings process() recommends for an existing cluster; timed in turn with
         # the single process, round by round, so both see the same machine load
-        t_dasks, t_singles, t_start, peaks, limits, dask_res = _warm_cluster(
+        (t_dasks, t_singles, t_start, peaks, limits, dask_res, c_dasks,
+         c_singles) = _warm_cluster(
             args.workers, limit, data, warm, loaded, TUNED_MALLOC, repeat=args.repeat,
             single=time_single)
         ratios = [a / b for a, b in zip(t_singles, t_dasks)]
@@ -244,6 +262,12 @@ def main() -> None:
               f"{rows / t_dask / 1e6:.2f} M samples/s; speed-up {ratio:.2f}× the single "
               f"process (median of {len(ratios)} rounds; target ≥ 1.7×); cluster start + "
               f"warm-up {t_start:.1f} s")
+        # CPU time does not depend on how busy the machine is: what two idle cores could give
+        c_single, c_dask = statistics.median(c_singles), statistics.median(c_dasks)
+        print(f"CPU time (medians): single process {c_single:.1f} s (pyarrow's threads "
+              f"included), Dask workers {c_dask:.1f} s summed; on {args.workers} idle cores "
+              f"the speed-up could be at most {args.workers * c_single / c_dask:.2f}× "
+              "(scheduling and the client's combining not counted)")
         for w in sorted(peaks):
             print(f"  worker {w}: peak RSS {peaks[w] / MB:,.0f} MB of its "
                   f"{limits.get(w, limit) / MB:,.0f} MB limit")
@@ -251,7 +275,7 @@ def main() -> None:
               f"(largest relative difference {_max_rel_diff(single, dask_res):.1e})")
 
         # ---- the same with Dask's default worker malloc setting (for information)
-        t_defs, _, _, peaks_def, _, _ = _warm_cluster(args.workers, limit, data, warm, loaded,
+        t_defs, _, _, peaks_def, _, _, _, _ = _warm_cluster(args.workers, limit, data, warm, loaded,
                                                       {"MALLOC_TRIM_THRESHOLD_": "65536"})
         t_def = t_defs[0]
         print(f"dask, {args.workers} workers, Dask's default MALLOC_TRIM_THRESHOLD_=65536: "
