@@ -88,12 +88,12 @@ def size_text(n_bytes: float) -> str:
     for unit, scale in (("TiB", 2**40), ("GiB", 2**30), ("MiB", 2**20), ("KiB", 2**10)):
         if n_bytes >= scale:
             v = n_bytes / scale
-            return f"{v:.2g} {unit}" if v < 10 else f"{v:,.0f} {unit}"
+            return f"{fm.number(v, 1 if v < 10 else 0)} {unit}"
     return f"{n_bytes:.0f} bytes"
 
 
 def _count(n: float) -> str:
-    return f"{n:,.0f}" if n < 1e6 else f"{n:.2g}"
+    return fm.number(n, 0)
 
 
 def check_samples(n: float, dt: float, what: str = "this trip",

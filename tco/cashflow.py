@@ -94,6 +94,7 @@ import pandas as pd
 from numba import njit
 from pydantic import BaseModel
 
+from tco.report import formatting as fm
 from tco import cost_lines as _cl
 from tco import finance as fin
 from tco.errors import InputError
@@ -1457,7 +1458,8 @@ def break_even(inputs: CostInputs, quantity: str, truck: int,
             return fin.BreakEven(None, "the scenario has no depot electricity price")
         many, one = diff_for(lambda k: {q: base[q] * k for q in paths})
         r = fin.find_break_even(many, one, lo_k, hi_k, 1.0,
-                                range_text=f"{lo_k:g} and {hi_k:g} times the scenario's "
+                                range_text=f"{fm.plain(lo_k)} and {fm.plain(hi_k)} times "
+                                           "the scenario's "
                                            "depot energy prices")
         if r.value is None:
             return r
@@ -1479,7 +1481,8 @@ def break_even(inputs: CostInputs, quantity: str, truck: int,
         return fin.BreakEven(None, f"{path} is zero in the scenario; no range to search")
     many, one = diff_for(lambda x: {path: x})
     r = fin.find_break_even(many, one, lo_k * x0, hi_k * x0, x0,
-                            range_text=f"{lo_k:g} and {hi_k:g} times the scenario's value")
+                            range_text=f"{fm.plain(lo_k)} and {fm.plain(hi_k)} times the "
+                                       "scenario's value")
     if quantity == "annual_distance" and r.value is not None:
         ctx = _Context(inputs, _Params(base, {path: r.value}))
         return fin.BreakEven(float(ctx.q(ref, "distance")), r.note)

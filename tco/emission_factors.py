@@ -17,6 +17,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from tco.report import formatting as fm
 from tco.errors import InputError
 from tco.units import Q_
 
@@ -288,11 +289,13 @@ def hourly_profile_24(values) -> np.ndarray:
                          f"{v.size}")
     bad = np.flatnonzero(~np.isfinite(v) | (v < 0))
     if bad.size:
-        raise ValueError(f"hourly profile value {v[bad[0]]:g} at hour {bad[0]} must be a "
+        raise ValueError(f"hourly profile value {fm.plain(v[bad[0]])} at hour {bad[0]} must "
+                         "be a "
                          "finite number, zero or more")
     big = np.flatnonzero(v > MAX_PROFILE_VALUE)
     if big.size:
-        raise ValueError(f"hourly profile value {v[big[0]]:g} at hour {big[0]} is above "
+        raise ValueError(f"hourly profile value {fm.plain(v[big[0]])} at hour {big[0]} is "
+                         "above "
                          f"{MAX_PROFILE_VALUE:,.0f} (g/kWh, or a shape in any unit)")
     if not np.any(v > 0):
         raise ValueError("hourly profile is all zero")

@@ -572,7 +572,8 @@ def _merge(params: Mapping[str, Any], overrides: Mapping[str, Any] | None) -> di
                         ("def_urea_share", 0, 1), ("diesel_blend_share", 0, 1)):
         v = np.asarray(p.get(_P + key, 0.0), dtype=float)
         if np.any((v < lo) | (v > hi)):
-            raise InputError(f"must be within {lo * 100:g}–{hi * 100:g} %", where=_P + key)
+            raise InputError(f"must be within {fm.plain(lo * 100)}–{fm.plain(hi * 100)} %",
+                             where=_P + key)
     return p
 
 

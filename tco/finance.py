@@ -36,6 +36,8 @@ import numpy as np
 from numba import njit
 from scipy.optimize import brentq
 
+from tco.report import formatting as fm
+
 __all__ = [
     "MACRS_GDS_HALF_YEAR", "BreakEven", "CostComparison", "FlowParts", "LoanSchedule",
     "annuity_payment", "compare_costs", "depreciation_flows",
@@ -950,7 +952,8 @@ def find_break_even(diff_many, diff_one, lo: float, hi: float, base: float | Non
     candidates = [(float(x[k]), float(x[k])) for k in zero]
     candidates += [(float(x[k]), float(x[k + 1])) for k in brackets]
     if not candidates:
-        return BreakEven(None, f"no break-even between {range_text or f'{lo:.6g} and {hi:.6g}'}")
+        within = range_text or f"{fm.number(lo)} and {fm.number(hi)}"
+        return BreakEven(None, f"no break-even between {within}")
     ref = base if base is not None else 0.5 * (lo + hi)
     candidates.sort(key=lambda ab: min(abs(ab[0] - ref), abs(ab[1] - ref)))
     for a, b in candidates:
@@ -959,4 +962,5 @@ def find_break_even(diff_many, diff_one, lo: float, hi: float, base: float | Non
         if abs(diff_one(root)) <= tol * size:
             return BreakEven(float(root))
     return BreakEven(None, "the difference jumps across zero (a step such as one more "
-                           f"replacement) near {candidates[0][1]:.6g}; no exact break-even")
+                           f"replacement) near {fm.number(candidates[0][1])}; no exact "
+                           "break-even")

@@ -302,7 +302,8 @@ class Input:
         if self.residual is not None:
             rate, n = self.residual
             if np.any(x > self.max_factor * (1 + 1e-12)):
-                raise InputError(f"a residual value factor above {self.max_factor:.4g} would "
+                raise InputError(f"a residual value factor above {fm.number(self.max_factor, 3)} "
+                                 "would "
                                  "make the end value exceed the purchase price")
             with np.errstate(divide="ignore"):
                 new = 1.0 - np.power(np.maximum(x, 0.0), 1.0 / n) * (1.0 - rate)
@@ -751,7 +752,7 @@ def _search_ranges(inp: Input, scale_money: float) -> list[tuple[float, float, s
     if math.isfinite(b) and b > 0:
         return [(0.0, h * b, f"0 and {fm.plain(h)} times the scenario's value")
                 for h in (10, 100, 1000)]
-    return [(0.0, h * scale_money, f"0 and {_to_unit(h * scale_money, inp.unit):.6g} "
+    return [(0.0, h * scale_money, f"0 and {fm.number(_to_unit(h * scale_money, inp.unit))} "
              f"{inp.unit}".rstrip()) for h in (1, 10, 100)]
 
 

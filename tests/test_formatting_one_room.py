@@ -117,3 +117,29 @@ def test_dead_code_is_gone():
     assert not hasattr(tco.units, "display") and not hasattr(tco.units, "DISPLAY_UNITS")
     assert not hasattr(tco.resources, "data_dir")
     assert not hasattr(tco.emissions, "TTW_LINES")
+
+
+#: Format specs that may print e-notation (``g``, ``e``) and are not text for a person:
+#: rounding a float before it is read back as a number, or a spreadsheet constant.
+E_SPEC_ALLOWED = {
+    ("tco/report/fleet_report.py", '{step / 3600:g}"'),
+    ("tco/report/workbook/inputs_sheet.py", 'return float(f"'),
+    ("tco/report/workbook/uncertainty_sheets.py", "fm.plain(float(f'{v:.6g}'))"),
+}
+
+
+def test_no_e_notation_spec_anywhere():
+    # "no scientific notation anywhere a person reads": no module of tco formats a number
+    # with a g / e spec into text (messages, notes, labels), outside the list above
+    bad = []
+    for path in sorted((ROOT / "tco").rglob("*.py")):
+        rel = path.relative_to(ROOT).as_posix()
+        text = path.read_text(encoding="utf-8")
+        lines = text.splitlines()
+        for line, what in local_formats(text):
+            if not what.startswith("format spec") or not what.endswith(("g", "e", "G", "E")):
+                continue
+            if any(m == rel and snippet in lines[line - 1] for m, snippet in E_SPEC_ALLOWED):
+                continue
+            bad.append(f"{rel}:{line}: {what}: {lines[line - 1].strip()}")
+    assert not bad, "\n".join(bad)

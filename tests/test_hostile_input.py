@@ -147,9 +147,9 @@ def test_a_unit_of_the_wrong_dimension_is_one_line(tmp_path, capsys, out, field,
 
 # --------------------------------------------------------------------------- 2. bounds
 @pytest.mark.parametrize("field, value, fragment", [
-    ("finance.discount_rate", 100, "the limit is 100%"),
-    ("finance.inflation", 8.0, "the limit is 100%"),
-    ("prices.escalation.diesel", 100, "the limit is 100%"),
+    ("finance.discount_rate", 100, "the limit is 100 %"),
+    ("finance.inflation", 8.0, "the limit is 100 %"),
+    ("prices.escalation.diesel", 100, "the limit is 100 %"),
     ("trucks[0].costs.escalation.tyres", -1.5, "above -100 %"),
     ("trucks[0].costs.purchase_price", math.inf, "finite"),
     ("trucks[0].costs.purchase_price", 1e308, "ceiling"),
@@ -219,10 +219,11 @@ def test_gpx_points_off_the_globe_or_too_fast(tmp_path, capsys, out, points, fra
 @pytest.mark.parametrize("field, value, fragment", [
     # two samples a stop at least: 2e9 samples x 600 bytes = 1.2e12 bytes = 1.1 TiB
     ("route.legs[0].segments[0].stops", 1e9, "1,000,000,000 stops would need at least "
-     "2e+09 samples, about 1.1 TiB; the limit is 3,000,000 samples"),
+     "2,000,000,000 samples, about 1.1 TiB; the limit is 3,000,000 samples"),
     ("route.time_step", "0.0001 s", "samples at 0.0001 s"),
     # 6e10 s at the longest step, 10 s: 6e9 samples x 600 bytes = 3.6e12 bytes = 3.3 TiB
-    ("route.legs[0].dwell_end", "1e9 min", "would need at least 6e+09 samples, about 3.3 TiB; "
+    ("route.legs[0].dwell_end", "1e9 min", "would need at least 6,000,000,000 samples, about "
+     "3.3 TiB; "
      "the limit is 3,000,000 samples"),
     # below the stop limit, but the leg's time is over the budget at the demo's 1 s step
     ("route.legs[0].segments[0].stops", 1_000_000, "samples at 1 s"),

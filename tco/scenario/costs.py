@@ -24,6 +24,7 @@ from typing import Annotated, Literal
 
 from pydantic import AfterValidator, Field, field_validator, model_validator
 
+from tco.report import formatting as fm
 from tco.scenario.base import ASSUMPTION, Bounds, Qty, Section, mfield, qfield
 
 __all__ = [
@@ -63,22 +64,24 @@ def _escalation_check(value: float) -> float:
     # any period exactly when e > -1, so this one bound is the whole "never negative" check.
     if value <= -1.0:
         raise ValueError(
-            f"an escalation of {value:.0%} per year would make the price zero or negative; "
+            f"an escalation of {fm.percent(value, 0)} per year would make the price zero or "
+            "negative; "
             "it must be above -100 %"
         )
     if value > RATE_CEILING:
-        raise ValueError(f"an escalation of {value:.4g} is {value:.0%} per year; the limit "
-                         f"is {RATE_CEILING:.0%} ({_AS_FRACTION})")
+        raise ValueError(f"an escalation of {fm.plain(value)} is {fm.percent(value, 0)} per "
+                         f"year; the limit is {fm.percent(RATE_CEILING, 0)} ({_AS_FRACTION})")
     return value
 
 
 def _rate_check(value: float) -> float:
     if value <= -1.0:
-        raise ValueError(f"a rate of {value:.0%} per year or less has no meaning; it must be "
+        raise ValueError(f"a rate of {fm.percent(value, 0)} per year or less has no meaning; "
+                         "it must be "
                          "above -100 %")
     if value > RATE_CEILING:
-        raise ValueError(f"a rate of {value:.4g} is {value:.0%} per year; the limit is "
-                         f"{RATE_CEILING:.0%} ({_AS_FRACTION})")
+        raise ValueError(f"a rate of {fm.plain(value)} is {fm.percent(value, 0)} per year; the "
+                         f"limit is {fm.percent(RATE_CEILING, 0)} ({_AS_FRACTION})")
     return value
 
 

@@ -6,6 +6,7 @@ from typing import Annotated, Literal
 
 from pydantic import AfterValidator, Field, field_validator, model_validator
 
+from tco.report import formatting as fm
 from tco.budget import LONGEST_TIME_STEP, MAX_DWELL, MAX_STOPS, least_samples_problem
 from tco.scenario.base import ASSUMPTION, Bounds, Qty, Section, mfield, qfield
 
@@ -104,7 +105,7 @@ class Ambient(Section):
 def _dwell_budget(value: float) -> float:
     if value > MAX_DWELL:
         raise ValueError(least_samples_problem(value / LONGEST_TIME_STEP,
-                                               f"a dwell of {value / 60:,.4g} min"))
+                                               f"a dwell of {fm.number(value / 60)} min"))
     return value
 
 

@@ -42,6 +42,7 @@ from pathlib import Path
 
 from pydantic import BaseModel
 
+from tco.report import formatting as fm
 from tco.errors import InputError
 
 __all__ = ["FIELD_HEADER", "MAX_ROWS", "MAX_COLUMNS", "MAX_BYTES", "field_rows",
@@ -222,8 +223,9 @@ def write_field_table(ws, row: int, rows: list[dict], *, validations: bool = Tru
             c = f"C{first}"
             bounds = [f"{c}>={lo!r}"] * (lo is not None) + [f"{c}<={hi!r}"] * (hi is not None)
             dv.formula1 = f"OR(ISTEXT({c}),AND(ISNUMBER({c}),{','.join(bounds)}))"
-            span = (f"from {lo:g} to {hi:g}" if lo is not None and hi is not None else
-                    f"of at least {lo:g}" if lo is not None else f"of at most {hi:g}")
+            span = (f"from {fm.plain(lo)} to {fm.plain(hi)}" if lo is not None and hi is not None
+                    else f"of at least {fm.plain(lo)}" if lo is not None
+                    else f"of at most {fm.plain(hi)}")
             dv.error = (f"a number {span} in the unit shown, or text with its unit such as "
                         "'36 t'")
         for dv in (yesno, number, *lists.values(), *(v[0] for v in ranges.values())):

@@ -8,6 +8,7 @@ import re
 
 from openpyxl.styles import Alignment
 
+from tco.report import formatting as fm
 from tco.report import workbook_base as wbb
 from tco.report.workbook_base import safe_text, write_value
 from tco.report.workbook._common import (
@@ -663,7 +664,8 @@ class CashflowSheet:
                        }.get(key, "#,##0.0000")
                 self._metric(r, label, "break_even." + key, f, fmt)
                 safe_text(ws.cell(row=r, column=c_note),
-                          f"{what} − PV difference ÷ slope; searched {lo:g}–{hi:g}× the "
+                          f"{what} − PV difference ÷ slope; searched "
+                          f"{fm.plain(lo)}–{fm.plain(hi)}× the "
                           "case's value" + ("; between battery replacements PV is affine in "
                                             "the distance: the root of the piece it lands in "
                                             "(workings below)" if cyc else ""))

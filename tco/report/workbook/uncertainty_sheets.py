@@ -1,6 +1,7 @@
 """The Sensitivity and Sample statistics sheets: model values (not live), marked as such."""
 from __future__ import annotations
 
+from tco.report import formatting as fm
 from tco.report import workbook_base as wbb
 from tco.report.workbook_base import safe_text, write_value
 from tco.report.workbook._common import (
@@ -199,7 +200,8 @@ class UncertaintySheets:
                                      "Scenario value", "Parameters (SI or factors)"])
             for r in inputs:
                 row += 1
-                params = ", ".join(f"{k} = {v:.6g}" if isinstance(v, (int, float)) else
+                params = ", ".join(f"{k} = {fm.plain(float(f'{v:.6g}'))}"
+                                   if isinstance(v, (int, float)) else
                                    f"{k} = {v}" for k, v in (r.get("parameters") or {}).items())
                 vals = [r.get("input"), r.get("key"), r.get("kind"), r.get("scale"),
                         _unit_text(r.get("unit"), cur), r.get("base_value"), params]
