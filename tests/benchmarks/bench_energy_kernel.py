@@ -13,7 +13,9 @@ It prints:
 * the kernel time for the whole model (road load, diesel, electric, state-of-charge
   track written into a preallocated output array) after a warm-up call, with the default
   single worker and with numba's thread count (np.dot may use all cores through BLAS),
-  and the ratios to the floor (target ≤ 6); for information also the time when
+  and the ratios to the floor (target ≤ 6; issue 17: ≤ 4× the one-thread floor), the
+  nanoseconds per sample of the floor and the kernel (in and out of cache: N/10 samples
+  fit a 32 MB L3), and the floor's read bandwidth; for information also the time when
   run_trace allocates the state-of-charge array itself (first-touch page faults
   included);
 * the peak memory above the inputs while the kernel runs — resident set size high-water
@@ -187,7 +189,11 @@ def main(argv=None):
     print(f"kernel run_trace, {workers} workers:          {t_all * 1e3:8.2f} ms   "
           f"ratio {t_all / floor:5.2f}   (target <= 6)")
     print(f"kernel run_trace, 1 worker (default):  {t_kernel * 1e3:8.2f} ms   "
-          f"ratio {t_kernel / floor:5.2f}; {t_kernel / floor_one:5.2f} x one-thread floor")
+          f"ratio {t_kernel / floor:5.2f}; {t_kernel / floor_one:5.2f} x one-thread floor "
+          "(issue 17: <= 4)")
+    print(f"per sample: one-thread floor {floor_one / n * 1e9:.2f} ns "
+          f"({input_bytes / floor_one / 1e9:.1f} GB/s read), kernel "
+          f"{t_kernel / n * 1e9:.2f} ns; at {m:,} samples {t_small / m * 1e9:.2f} ns")
     print(f"run_trace allocating the SOC array:    {t_alloc * 1e3:8.2f} ms   "
           f"ratio {t_alloc / floor:5.2f}   (first-touch page faults included)")
     print(f"peak memory above inputs (RSS{'' if reset else ', ru_maxrss'}): "
