@@ -151,7 +151,8 @@ class ChartsAhead:
     uncertainty study, and the method notes' equations, while this process runs the
     study (on a two-core machine the child has the other core). :func:`build_context`
     then takes each chart whose job (function and arguments, :func:`_job_key`) the child
-    drew, and draws the others itself meanwhile (the study's charts). Nothing is forked
+    drew; the others (the study's charts) are drawn meanwhile, by :class:`DeferredCharts`
+    or in this process. Nothing is forked
     where the platform cannot fork, with one core or in a batch worker
     (:data:`CHART_WORKERS` = 1); a chart the child failed to draw is drawn again, so any
     error is raised where it would have been. The charts are the same bytes either way.
