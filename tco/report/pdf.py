@@ -166,7 +166,8 @@ def write_html_and_pdf(render, stage: Path, stem: str, what: str, progress=None,
         (stage / f"{stem}.html").write_text(render(False), encoding="utf-8")
     if progress:
         progress.start(f"rendering {what} (PDF)")
-    pdf = render_pdf(render(True), stage / f"{stem}.pdf", charts=charts)
+    deferred = {} if charts is None else {"charts": charts}
+    pdf = render_pdf(render(True), stage / f"{stem}.pdf", **deferred)
     if pdf.blocked:
         raise InputError(f"{what} tried to fetch outside resources: "
                          + ", ".join(pdf.blocked[:3]))
