@@ -187,6 +187,8 @@ VEHICLE_COLUMNS = {
 SKIPPED_COLUMNS = {"vehicle": "str", "day": "str", "partition": "str", "samples": "int64",
                    "reason": "str"}
 
+#: Largest work space of a partition's vehicle-days (float64 slots: 32 MiB). [-]
+_WORKSPACE_SLOTS = 4 * 2**20
 _NS_PER_DAY = 86_400_000_000_000
 _S_PER_DAY = 86_400
 _TS_UNIT_NS = {"s": 1_000_000_000, "ms": 1_000_000, "us": 1_000, "ns": 1}
@@ -761,9 +763,11 @@ def _process_columns(columns, scenario, source, file, gap_limit) -> PartitionRes
         del order
     bounds = _day_bounds(codes, day).tolist()
     # one work space for every vehicle-day of the partition: at 1 Hz and the usual time
-    # steps a day's arrays fit in 32 slots per sample (larger needs get new arrays)
+    # steps a day's arrays fit in 32 slots per sample; at most 32 MiB (a whole day at
+    # 1 Hz), so memory stays within the partition budget (longer days and larger needs
+    # get new arrays, as without a work space)
     longest = max((b - a for a, b in zip(bounds[:-1], bounds[1:])), default=0)
-    workspace = np.empty(32 * longest + 4096)
+    workspace = np.empty(min(32 * longest + 4096, _WORKSPACE_SLOTS))
     rows, skipped = [], []
     for a, b in zip(bounds[:-1], bounds[1:]):
         vehicle = ids[codes[a]]
