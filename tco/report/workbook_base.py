@@ -314,6 +314,7 @@ def add_chart(ws, kind: str, *, data_ws, header_row: int, first_row: int, last_r
         chart.type = "bar" if horizontal else "col"
         if horizontal:
             chart.x_axis.scaling.orientation = "maxMin"  # the first row at the top
+            chart.x_axis.tickLblPos = "low"  # names at the left edge, clear of the bars
         if stacked:
             chart.grouping = "stacked"
             chart.overlap = 100
