@@ -129,8 +129,8 @@ class Book(InputsSheet, CashflowSheet, AgeingRows, EmissionsSheet, EnergySheet,
         self._wrap_cut_text()
         # a unit after a right-aligned number: one character apart, not touching it
         nt = len(self.trucks)
-        for title, col in ((_IN, 4), (_SC, 4), (_SU, 3 + nt), (_EN, 3 + nt), (_CF, _FIRST_COL + self.N + 3),
-                           (_SE, 10), (_ST, 7)):
+        for title, col in ((_IN, 4), (_SC, 4), (_SU, 3 + nt), (_EN, 3 + nt),
+                           (_CF, _FIRST_COL + self.N + 3), (_SE, 10), (_ST, 7)):
             if title not in self.wb.sheetnames:
                 continue
             ws = self.wb[title]
