@@ -64,6 +64,45 @@ QUANTITIES: dict[str, set[str]] = {
     "gwp.ch4": {"mass"},
     "gwp.n2o": {"mass"},
 }
+#: Hard limits on a factor, in SI per basis: a value outside is not a factor of this kind
+#: (a typing slip or a unit mix-up), so the table is refused. Generous physical bounds,
+#: not usual ranges: burning pure carbon gives 44/12 = 3.67 kg CO2 per kg (stoichiometry),
+#: and a well-to-wheel figure with upstream losses stays within a few times that, so 10 kg
+#: per kg of fuel, 10 kg per litre, 1 kg per MJ (diesel's net calorific value is about
+#: 43 MJ/kg, common practice) and 10 g per km of driving; diesel's density is about
+#: 0.83 kg/L and its net calorific value about 43 MJ/kg (common practice), bounded here
+#: at 0.5–1.2 kg/L and 10–150 MJ/kg; GWP100 of CH4 is 28–30 and of N2O 265–298 in the
+#: IPCC AR5/AR6 tables (from memory), bounded at 1–200 and 1–1,000; GWP of CO2 is 1 by
+#: definition. Tuples are (low, high) in SI, both allowed.
+_EMISSION_LIMITS_SI = {
+    "volume": (0.0, 10.0 / 1e-3),          # kg/m³ (10 kg/L)
+    "energy": (0.0, 1.0 / 1e6),            # kg/J (1 kg/MJ)
+    "mass": (0.0, 10.0),                   # kg/kg
+    "distance": (0.0, 10e-3 / 1e3),        # kg/m (10 g/km)
+}
+_QUANTITY_LIMITS_SI = {
+    "diesel.density": (500.0, 1200.0),                 # kg/m³
+    "diesel.net_calorific_value": (10e6, 150e6),       # J/kg
+    "gwp.co2": (1.0, 1.0),
+    "gwp.ch4": (1.0, 200.0),
+    "gwp.n2o": (1.0, 1000.0),
+}
+
+
+def _limits(quantity: str, basis: str) -> tuple[float, float]:
+    """Hard limits [SI] of a factor table value of ``quantity`` on ``basis``."""
+    return _QUANTITY_LIMITS_SI.get(quantity) or _EMISSION_LIMITS_SI[basis]
+
+
+def _in_unit(value_si: float, scale: float) -> str:
+    """A limit [SI] written in the row's own unit, to six significant digits (the unit's
+    scale can leave a last-bit remainder such as 10.000000000000002)."""
+    v = value_si / scale
+    if v:
+        v = round(v, 5 - int(math.floor(math.log10(abs(v)))))
+    return fm.plain(v)
+
+
 _SET_NAME = re.compile(r"^[A-Za-z0-9_.\-]+$")
 _GAS_WORDS = re.compile(r"\b(CO2e|CO2|CH4|N2O)\b", re.IGNORECASE)
 
@@ -177,6 +216,17 @@ def _read_factor_table(path: Path) -> pd.DataFrame:
             raise InputError(f"{quantity} of set '{name}' is given twice (also row "
                              f"{seen[key]})", file=path, where=where)
         seen[key] = line
+        low, high = _limits(quantity, basis)
+        if not low <= value * scale <= high:
+            unit = f" {rec['unit']}" if rec["unit"] else ""
+            if low == high:
+                bound = f"{quantity} is {_in_unit(low, scale)}{unit} by definition"
+            else:
+                bound = (f"{quantity} must lie between {_in_unit(low, scale)} and "
+                         f"{_in_unit(high, scale)}{unit}")
+            raise InputError(f"{fm.plain(value)}{unit} is not a plausible factor: {bound}"
+                             " (check the value and its unit)", file=path,
+                             where=f"{where}, column value")
         rows.append({
             "set": name, "quantity": quantity, "value": value, "unit": rec["unit"],
             "source": rec["source"], "year": year, "status": rec.get("status", ""),

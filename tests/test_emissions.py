@@ -610,6 +610,23 @@ def test_user_factor_file(tmp_path):
     (GOOD.replace("fleet_fuel_2024", "en_16258_2012"), r"also defined in"),
     (GOOD.replace("house_gwp,gwp.n2o,270,,Internal policy,2024,,\n", ""),
      r"set 'house_gwp': a GWP set needs gwp\.ch4 and gwp\.n2o"),
+    # hard limits: 2.6 kg/L typed as 2600 (grams meant) is beyond the 10 kg/L that burning
+    # pure carbon (44/12 kg CO2 per kg, stoichiometry) in a fuel of density ≤ 1.2 kg/L
+    # could give; GWP of CO2 is 1 by definition (IPCC); GWP100 of CH4 is 27.9–30 in AR5/AR6
+    # (from memory), so 2,800 is a slip; diesel density about 0.83 kg/L (common practice)
+    (GOOD.replace("2.6,kg CO2e/L", "2600,kg CO2e/L"),
+     r"row 2, column value: 2,600 kg CO2e/L is not a plausible factor: diesel\.co2e_ttw "
+     r"must lie between 0 and 10 kg CO2e/L"),
+    (GOOD + "house_gwp,gwp.co2,3,,Internal policy,2024,,\n",
+     r"row 6, column value: 3 is not a plausible factor: gwp\.co2 is 1 by definition"),
+    (GOOD.replace("house_gwp,gwp.ch4,30,", "house_gwp,gwp.ch4,2800,"),
+     r"row 4, column value: 2,800 is not a plausible factor: gwp\.ch4 must lie between 1 "
+     r"and 200"),
+    (GOOD + "fleet_fuel_2024,diesel.density,835,kg/L,Fuel declaration p. 3,2024,,\n",
+     r"row 6, column value: 835 kg/L is not a plausible factor: diesel\.density must lie "
+     r"between 0\.5 and 1\.2 kg/L"),
+    (GOOD.replace("0.6,kg/L", "1e300,kg/L"),
+     r"row 3, column value: about 10³⁰⁰ kg/L is not a plausible factor"),
 ])
 def test_user_factor_file_errors(tmp_path, text, message):
     f = tmp_path / "mine.csv"
