@@ -398,6 +398,22 @@ def _on_sigterm(signum, frame):
     raise Terminated()
 
 
+def _interrupted_line(what: str) -> str:
+    """The one line for Ctrl-C or SIGTERM: which output folders were put in place in full
+    before it (the moves are never interrupted halfway), and that the rest were left as
+    they were."""
+    from tco.report.atomic import COMMITTED
+    from tco.text import one_line
+
+    if not COMMITTED:
+        return f"tco: {what}; previous outputs left as they were"
+    shown = ", ".join(str(p) for p in COMMITTED[-3:])
+    more = len(COMMITTED) - 3
+    done = f"{shown} and {more} more" if more > 0 else shown
+    return one_line(f"tco: {what} after writing {done} in full; other outputs left as "
+                    "they were")
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = _parser()
     args = parser.parse_args(argv)
@@ -407,6 +423,9 @@ def main(argv: list[str] | None = None) -> int:
     handler = {"run": _cmd_run, "check": _cmd_check, "init": _cmd_init,
                "fleet": _cmd_fleet, "batch": _cmd_batch,
                "telematics": _cmd_telematics}[args.command]
+    from tco.report import atomic
+
+    atomic.COMMITTED.clear()
     try:
         previous = signal.signal(signal.SIGTERM, _on_sigterm)
     except ValueError:  # not the main thread (main() called from a thread): leave it
@@ -425,10 +444,10 @@ def main(argv: list[str] | None = None) -> int:
               file=sys.stderr)
         return EXIT_INPUT
     except Terminated:
-        print("tco: terminated; previous outputs left as they were", file=sys.stderr)
+        print(_interrupted_line("terminated"), file=sys.stderr)
         return 143
     except KeyboardInterrupt:
-        print("tco: interrupted; previous outputs left as they were", file=sys.stderr)
+        print(_interrupted_line("interrupted"), file=sys.stderr)
         return 130
     except Exception as exc:  # noqa: BLE001 - the one place internal errors are reported
         if os.environ.get("TCO_DEBUG"):

@@ -9,17 +9,66 @@ on success, on any error and on Ctrl-C or SIGTERM (the command line turns SIGTER
 same interruption). A process killed outright (SIGKILL, out of memory) cannot clean up, so
 each run first removes staging folders of its target whose process is no longer alive
 (:func:`remove_stale_stages`).
+
+The final moves of a staged output are made with Ctrl-C and SIGTERM held back
+(:func:`signals_held`): an interruption lands before the first file is moved or after the
+last, never between, so an output folder is never half old and half new. Targets moved
+in full are listed in :data:`COMMITTED`, so the command line can say what was written
+when an interruption comes after.
 """
 from __future__ import annotations
 
 import os
 import re
 import shutil
+import signal
 import tempfile
+import threading
 from contextlib import contextmanager
 from pathlib import Path
 
 from tco.errors import InputError
+
+
+#: Output folders this process has put in place in full, in order (cleared by the command
+#: line at the start of each command).
+COMMITTED: list[Path] = []
+
+
+_PENDING: list[int] = []
+
+
+def _defer(signum, frame) -> None:
+    _PENDING.append(signum)
+
+
+@contextmanager
+def signals_held():
+    """Hold back SIGINT and SIGTERM for the block; one that arrives meanwhile is handed to
+    the handler that was in place when the block ends.
+
+    The handlers are swapped for one that only records the signal, rather than the
+    signal mask changed: a signal sent to the process may be delivered to any of its
+    threads (pyarrow's, numba's, a pool's), which a mask set in the main thread does not
+    cover. Outside the main thread (where no handler can be set) the block runs as is.
+    """
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    held = (signal.SIGINT, signal.SIGTERM)
+    old = {s: signal.signal(s, _defer) for s in held}
+    try:
+        yield
+    finally:
+        for s, handler in old.items():
+            signal.signal(s, handler)
+        pending, _PENDING[:] = list(_PENDING), []
+        if pending:
+            first, handler = pending[0], old[pending[0]]
+            if callable(handler):
+                handler(first, None)  # raises (Ctrl-C, the command line's SIGTERM)
+            elif handler == signal.SIG_DFL:
+                signal.raise_signal(first)
 
 
 def file_mode() -> int:
@@ -150,8 +199,11 @@ def staged_output(target: Path):
                              file=target, where="--out") from None
         if not target.is_dir():
             raise InputError("exists and is not a folder", file=target, where="--out")
-        # Final moves: each file replaced atomically; files we did not write stay.
-        for item in sorted(stage.iterdir()):
-            os.replace(item, target / item.name)
+        # Final moves: each file replaced atomically; files we did not write stay. An
+        # interruption waits until all are moved (signals_held).
+        with signals_held():
+            for item in sorted(stage.iterdir()):
+                os.replace(item, target / item.name)
+            COMMITTED.append(target)
     finally:
         shutil.rmtree(stage, ignore_errors=True)
