@@ -33,7 +33,7 @@ __all__ = ["BYTES_PER_DRAW", "BYTES_PER_FLEET_ROW", "BYTES_PER_SAMPLE",
            "MAX_FLEET_ROWS", "MAX_PARTITION_ROWS", "MAX_RUN_BYTES", "MAX_TRIP_SAMPLES",
            "check_batch_size", "check_draws", "check_samples", "check_trip", "draws_problem",
            "fleet_problem", "fleet_workers", "least_samples_problem", "partition_problem",
-           "scenario_bytes", "segments_duration", "size_text", "trip_samples", "workers_for"]
+           "scenario_bytes", "segments_duration", "trip_samples", "workers_for"]
 
 #: Most samples in one trip. At a 1 s step that is about 35 days of driving and standing;
 #: at 0.1 s about 3.5 days. [-]
@@ -83,19 +83,6 @@ BYTES_PER_TELEMATICS_ROW = 200
 MAX_PARTITION_ROWS = MAX_RUN_BYTES // BYTES_PER_TELEMATICS_ROW
 
 
-def size_text(n_bytes: float) -> str:
-    """Bytes in binary units, one significant figure or two: ``34 GiB``, ``1.7 GiB``."""
-    for unit, scale in (("TiB", 2**40), ("GiB", 2**30), ("MiB", 2**20), ("KiB", 2**10)):
-        if n_bytes >= scale:
-            v = n_bytes / scale
-            return f"{fm.number(v, 1 if v < 10 else 0)} {unit}"
-    return f"{n_bytes:.0f} bytes"
-
-
-def _count(n: float) -> str:
-    return fm.number(n, 0)
-
-
 def check_samples(n: float, dt: float, what: str = "this trip",
                   where: str | None = None, file=None) -> None:
     """Refuse a trace of ``n`` samples at step ``dt`` [s] above :data:`MAX_TRIP_SAMPLES`.
@@ -103,15 +90,15 @@ def check_samples(n: float, dt: float, what: str = "this trip",
     Raises
     ------
     InputError
-        ``this trip would need 4.3e+09 samples at 0.0001 s, about 2.3 TiB; the limit is
-        3,000,000 samples (about 1.7 GiB): use a longer time_step or a shorter trip``.
+        ``this trip would need 4,320,000,000 samples at 0.0001 s, about 2.4 TiB; the limit
+        is 3,000,000 samples (about 1.7 GiB): use a longer time_step or a shorter trip``.
     """
     if not math.isfinite(n) or n > MAX_TRIP_SAMPLES:
-        need = size_text(n * BYTES_PER_SAMPLE) if math.isfinite(n) else "no end"
+        need = fm.data_size(n * BYTES_PER_SAMPLE) if math.isfinite(n) else "no end"
         raise InputError(
-            f"{what} would need {_count(n)} samples at {fm.plain(dt)} s, about {need}; the limit "
-            f"is {MAX_TRIP_SAMPLES:,} samples (about "
-            f"{size_text(MAX_TRIP_SAMPLES * BYTES_PER_SAMPLE)}): use a longer time_step or a "
+            f"{what} would need {fm.count(n)} samples at {fm.plain(dt)} s, about {need}; the limit "
+            f"is {fm.count(MAX_TRIP_SAMPLES)} samples (about "
+            f"{fm.data_size(MAX_TRIP_SAMPLES * BYTES_PER_SAMPLE)}): use a longer time_step or a "
             "shorter trip", file=file, where=where)
 
 
@@ -119,15 +106,15 @@ def least_samples_problem(n: float, what: str) -> str | None:
     """Why ``n`` samples, the fewest an input needs at any time step, are too many, or None.
 
     For a single field (a number of stops, a dwell) before the trip is put together:
-    ``1,000,000,000 stops would need at least 2e+09 samples, about 1.1 TiB; the limit is
+    ``1,000,000,000 stops would need at least 2,000,000,000 samples, about 1.1 TiB; the limit is
     3,000,000 samples (about 1.7 GiB)``.
     """
     if math.isfinite(n) and n <= MAX_TRIP_SAMPLES:
         return None
-    need = size_text(n * BYTES_PER_SAMPLE) if math.isfinite(n) else "no end"
-    return (f"{what} would need at least {_count(n)} samples, about {need}; the limit is "
-            f"{MAX_TRIP_SAMPLES:,} samples (about "
-            f"{size_text(MAX_TRIP_SAMPLES * BYTES_PER_SAMPLE)})")
+    need = fm.data_size(n * BYTES_PER_SAMPLE) if math.isfinite(n) else "no end"
+    return (f"{what} would need at least {fm.count(n)} samples, about {need}; the limit is "
+            f"{fm.count(MAX_TRIP_SAMPLES)} samples (about "
+            f"{fm.data_size(MAX_TRIP_SAMPLES * BYTES_PER_SAMPLE)})")
 
 
 def segments_duration(segments: Iterable, max_accel: float, max_decel: float) -> float:
@@ -193,9 +180,10 @@ def draws_problem(draws: int) -> str | None:
     if draws < 0:
         return "must be zero or more"
     if draws > MAX_DRAWS:
-        return (f"{_count(draws)} draws would need about {size_text(draws * BYTES_PER_DRAW)}; "
-                f"the limit is {MAX_DRAWS:,} draws (about "
-                f"{size_text(MAX_DRAWS * BYTES_PER_DRAW)})")
+        return (f"{fm.count(draws)} draws would need about "
+                f"{fm.data_size(draws * BYTES_PER_DRAW)}; the limit is {fm.count(MAX_DRAWS)} "
+                "draws (about "
+                f"{fm.data_size(MAX_DRAWS * BYTES_PER_DRAW)})")
     return None
 
 
@@ -236,8 +224,8 @@ def check_batch_size(n_files: int, file=None) -> None:
     """Refuse a batch folder with more than :data:`MAX_BATCH_SCENARIOS` scenario files."""
     if n_files > MAX_BATCH_SCENARIOS:
         raise InputError(
-            f"{n_files:,} scenario files would be read before the batch starts; the limit "
-            f"is {MAX_BATCH_SCENARIOS:,} scenarios: split the folder", file=file)
+            f"{fm.count(n_files)} scenario files would be read before the batch starts; the limit "
+            f"is {fm.count(MAX_BATCH_SCENARIOS)} scenarios: split the folder", file=file)
 
 
 def fleet_problem(n_rows: int, trip_samples_each: float) -> str | None:
@@ -246,13 +234,14 @@ def fleet_problem(n_rows: int, trip_samples_each: float) -> str | None:
     kept = n_rows * BYTES_PER_FLEET_ROW
     one = BYTES_PER_WORKER + trip_samples_each * BYTES_PER_SAMPLE
     if n_rows > MAX_FLEET_ROWS:
-        return (f"{n_rows:,} vehicles would keep about {size_text(kept)} of results; the "
-                f"limit is {MAX_FLEET_ROWS:,} vehicles (about "
-                f"{size_text(MAX_FLEET_ROWS * BYTES_PER_FLEET_ROW)}): split the fleet file")
+        return (f"{fm.count(n_rows)} vehicles would keep about {fm.data_size(kept)} of "
+                f"results; the limit is {fm.count(MAX_FLEET_ROWS)} vehicles (about "
+                f"{fm.data_size(MAX_FLEET_ROWS * BYTES_PER_FLEET_ROW)}): split the fleet file")
     if kept + one > MAX_RUN_BYTES:
-        return (f"this fleet would need about {size_text(kept + one)} ({n_rows:,} vehicles "
-                f"and a trip of up to {_count(trip_samples_each)} samples); the limit is "
-                f"{size_text(MAX_RUN_BYTES)}: split the fleet file or use shorter cycles")
+        return (f"this fleet would need about {fm.data_size(kept + one)} "
+                f"({fm.count(n_rows)} vehicles and a trip of up to "
+                f"{fm.count(trip_samples_each)} samples); the limit is "
+                f"{fm.data_size(MAX_RUN_BYTES)}: split the fleet file or use shorter cycles")
     return None
 
 
@@ -268,9 +257,9 @@ def fleet_workers(n_rows: int, jobs: int, trip_samples_each: float) -> int:
 def partition_problem(n_rows: int) -> str | None:
     """Why a telematics partition of ``n_rows`` rows is too big to read, or None."""
     if n_rows > MAX_PARTITION_ROWS:
-        return (f"this partition has {_count(n_rows)} rows and would need about "
-                f"{size_text(n_rows * BYTES_PER_TELEMATICS_ROW)}; the limit is "
-                f"{MAX_PARTITION_ROWS:,} rows (about {size_text(MAX_RUN_BYTES)}): write the "
-                "data in smaller files (one per vehicle or per month)")
+        return (f"this partition has {fm.count(n_rows)} rows and would need about "
+                f"{fm.data_size(n_rows * BYTES_PER_TELEMATICS_ROW)}; the limit is "
+                f"{fm.count(MAX_PARTITION_ROWS)} rows (about {fm.data_size(MAX_RUN_BYTES)}): "
+                "write the data in smaller files (one per vehicle or per month)")
     return None
 

@@ -101,6 +101,11 @@ DEFAULT_SMOOTHING_WINDOW = 250.0
 #: Largest grade magnitude accepted after smoothing. [-]
 MAX_GRADE = 0.30
 
+
+def grade_beyond(grade: float) -> str:
+    """``+35.0 % is beyond ±30 %``: a grade [-] refused for exceeding :data:`MAX_GRADE`."""
+    return f"{fm.signed_percent(grade, 1)} is beyond ±{fm.percent(MAX_GRADE, 0)}"
+
 #: Speed at or below which the truck counts as standing still in :func:`trace_summary`. [m/s]
 STOP_SPEED = 0.5
 
@@ -200,8 +205,8 @@ def _check_profile_grade(
         i = int(bad[0])
         after = " after smoothing" if smoothed else ""
         raise InputError(
-            f"grade of {100 * slopes[i]:+.1f} %{after} is beyond ±{100 * MAX_GRADE:.0f} %"
-            " (check the elevation data)",
+            f"grade of {fm.signed_percent(slopes[i], 1)}{after} is beyond "
+            f"±{fm.percent(MAX_GRADE, 0)} (check the elevation data)",
             file=file,
             where=locate(float(prof_d[i])),
         )
@@ -438,8 +443,8 @@ def _resample_arrays(
     if bad.size:
         i = int(bad[0])
         raise InputError(
-            f"grade of {100 * grade[i]:+.1f} % is beyond ±{100 * MAX_GRADE:.0f} %",
-            where=f"distance {dist[i]:.0f} m",
+            f"grade of {grade_beyond(grade[i])}",
+            where=f"distance {fm.quantity(dist[i], 'm', digits=0)}",
         )
     return Resampled(grid, v, grade, elev, dist, float(scale))
 
@@ -622,7 +627,8 @@ def _drive(
     ds = np.diff(s)
     if np.any((mean <= 0) & (ds > 0)):
         k = int(np.flatnonzero((mean <= 0) & (ds > 0))[0])
-        raise InputError(f"the speed is zero over a stretch of road near {s[k]:.0f} m")
+        raise InputError("the speed is zero over a stretch of road near "
+                         f"{fm.quantity(s[k], 'm', digits=0)}")
     t = np.concatenate(([0.0], np.cumsum(np.where(ds > 0, ds / np.where(mean > 0, mean, 1), 0))))
     knot_node = np.append(first, j.size)
     dwell = np.asarray(knot_dwell, dtype=float)
@@ -770,7 +776,7 @@ def from_segments(
                              where=f"segments[{i}].speed")
         if abs(grade) > MAX_GRADE:
             raise InputError(
-                f"grade {100 * grade:+.1f} % is beyond ±{100 * MAX_GRADE:.0f} %",
+                f"grade {grade_beyond(grade)}",
                 where=f"segments[{i}].grade",
             )
         if n_stops < 0 or n_stops != int(n_stops):
@@ -833,8 +839,9 @@ def _check_trace_speed(v: np.ndarray, where, path) -> None:
     """Refuse a recorded speed no truck reaches, naming the first such sample."""
     i = _first_bad(~(v <= MAX_TRACE_SPEED))
     if i is not None:
-        raise InputError(f"speed {v[i] * 3.6:,.0f} km/h is more than a truck can reach (the "
-                         f"limit is {MAX_TRACE_SPEED * 3.6:.0f} km/h)", file=path,
+        limit = fm.quantity(MAX_TRACE_SPEED, "km/h", digits=0)
+        raise InputError(f"speed {fm.quantity(v[i], 'km/h', digits=0)} is more than a truck "
+                         f"can reach (the limit is {limit})", file=path,
                          where=where(i))
 
 _HEADER = re.compile(r"^\s*([A-Za-z_][A-Za-z_ ]*?)\s*(?:\[\s*(.*?)\s*\])?\s*$")
@@ -1106,7 +1113,7 @@ def read_csv_trace(
     def nearest_line(s_rows: np.ndarray) -> Callable[[float], str]:
         def locate(x: float) -> str:
             i = int(np.clip(np.searchsorted(s_rows, x), 0, s_rows.size - 1))
-            return f"line {lines[i]} (distance {x:.0f} m)"
+            return f"line {lines[i]} (distance {fm.quantity(x, 'm', digits=0)})"
         return locate
 
     if len(lines) < 2:
@@ -1140,7 +1147,7 @@ def read_csv_trace(
             g = cols["grade"]
             i = _first_bad(np.abs(g) > MAX_GRADE + 1e-12)
             if i is not None:
-                raise InputError(f"grade {100 * g[i]:+.1f} % is beyond ±{100 * MAX_GRADE:.0f} %",
+                raise InputError(f"grade {grade_beyond(g[i])}",
                                  file=path, where=cell_where("grade", i))
             z = np.concatenate(([0.0], np.cumsum(g[:-1] * np.diff(s))))
             prof_d, prof_z = _unique_profile(s, z)
@@ -1342,7 +1349,7 @@ def read_gpx_trace(
 
     def locate(x: float) -> str:
         k = int(np.clip(np.searchsorted(s, x), 0, s.size - 1))
-        return f"{labels[k]} (distance {x:.0f} m)"
+        return f"{labels[k]} (distance {fm.quantity(x, 'm', digits=0)})"
 
     _check_profile_grade(prof_d, prof_z, locate, path, smoothing_on)
     try:

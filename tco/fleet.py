@@ -65,6 +65,7 @@ import pandas as pd
 
 from tco import depot as depot_model
 from tco.errors import InputError
+from tco.report import formatting as fm
 from tco.scenario.base import TEXT_LIMIT
 from tco.scenario.files import input_file
 from tco.text import clean_text
@@ -139,10 +140,12 @@ def _limit_problem(name: str, v: float) -> str | None:
     low, high, low_in = COLUMN_LIMITS[name]
     unit = COLUMNS[name][1] or ""
     u = f" {unit}" if unit else ""
+    # a calendar year reads 1990, not 1,990
+    num = (lambda x: str(int(x))) if name == "replacement_year" else fm.plain
     if not math.isfinite(v) or v > high:
-        return f"must be at most {high:,.0f}{u}"
+        return f"must be at most {num(high)}{u}"
     if v < low or (v == low and not low_in):
-        return f"must be {'at least' if low_in else 'more than'} {low:,.0f}{u}"
+        return f"must be {'at least' if low_in else 'more than'} {num(low)}{u}"
     return None
 _HEADER = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_ ]*?)\s*(?:\[(.*)\])?\s*$")
 _CLOCK = re.compile(r"^\s*(\d{1,2}):(\d{2})(?::00)?\s*$")  # a workbook time adds ":00"
@@ -300,8 +303,8 @@ def read_fleet(path: str | Path) -> list[FleetRow]:
             j = cols[name][0]
             text = str(r[j]).strip() if j < len(r) and r[j] is not None else ""
             if len(text) > TEXT_LIMIT:  # names and labels: bounded, like scenario text
-                raise InputError(f"is {len(text):,} characters long; the limit is "
-                                 f"{TEXT_LIMIT}", file=path, where=f"{where}, {name}")
+                raise InputError(f"is {fm.count(len(text))} characters long; the limit is "
+                                 f"{fm.count(TEXT_LIMIT)}", file=path, where=f"{where}, {name}")
             return clean_text(text)  # control characters replaced (see tco.text)
 
         vals: dict = {}
@@ -487,7 +490,7 @@ def _row_energy(args) -> RouteEnergy:
                 raise InputError("the cycle covers no distance", file=row.cycle)
             tpd = row.annual_distance / (s.route.days_per_year * trip_distance)
             if not 0 < tpd <= 50:
-                raise InputError(f"annual distance needs {tpd:.2f} trips a day on this "
+                raise InputError(f"annual distance needs {fm.number(tpd, 2)} trips a day on this "
                                  "cycle (allowed up to 50)", where="annual_distance")
             s.route.trips_per_day = tpd
         trucks = [with_finding_warnings(energy.simulate(t, s, trip), s.study.units)
@@ -1066,11 +1069,11 @@ def settle_depot(transition, resolve, schedule_of, vehicles: list[str]):
     for yr, need, have in short:
         notes.append(f"{yr}: the depot schedule needs {need} chargers, the plan buys {have}.")
     for yr, kw, plan_kw in over:
-        notes.append(f"{yr}: the depot schedule peaks at {kw:,.0f} kW, the plan counts "
-                     f"{plan_kw:,.0f} kW.")
+        notes.append(f"{yr}: the depot schedule peaks at {fm.kw(kw * 1e3)}, the plan counts "
+                     f"{fm.kw(plan_kw * 1e3)}.")
     for yr, kw, cap in grid:
-        notes.append(f"{yr}: the depot schedule's peak of {kw:,.0f} kW is over the grid "
-                     f"capacity of {cap:,.0f} kW.")
+        notes.append(f"{yr}: the depot schedule's peak of {fm.kw(kw * 1e3)} is over the grid "
+                     f"capacity of {fm.kw(cap * 1e3)}.")
     return transition
 
 

@@ -115,9 +115,7 @@ def read_logged_duty(folder) -> pd.DataFrame:
                          file=f)
     size = f.stat().st_size
     if size > MAX_LOG_BYTES:  # before reading: the table is read whole
-        from tco.budget import size_text
-
-        raise InputError(f"is {size_text(size)}; the limit is {size_text(MAX_LOG_BYTES)} "
+        raise InputError(f"is {fm.data_size(size)}; the limit is {fm.data_size(MAX_LOG_BYTES)} "
                          "(about 4 million vehicle-days): give fewer days or vehicles",
                          file=f)
     try:

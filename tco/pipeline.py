@@ -20,6 +20,7 @@ from tco import depot as depot_model
 from tco import dutycycle
 from tco.errors import InputError
 from tco.progress import Silent, Steps
+from tco.report import formatting as fm
 from tco.result import Result
 from tco.scenario import LoadedScenario, Scenario, field_sources
 from tco.scenario.base import unusual_values
@@ -285,14 +286,15 @@ def depot_sensitivity(loaded: LoadedScenario, sd, ops: list, cf, swing: float
         variants.append(("depot.charger_power", "Depot charger power", "kW", power / 1e3,
                          power * (1 - swing) / 1e3, power * (1 + swing) / 1e3,
                          {"charger_power": power * (1 - swing)},
-                         {"charger_power": power * (1 + swing)}, f"default ±{swing:.0%}"))
+                         {"charger_power": power * (1 + swing)},
+                         f"default ±{fm.percent(swing, 0)}"))
     managed, unmanaged = ({"charging": "managed"}, {"charging": "unmanaged"})
     variants.append(("depot.charging", f"Depot charging rule (low: managed, high: unmanaged; "
                      f"scenario: {rule})", "", math.nan, math.nan, math.nan, managed,
                      unmanaged, "the two rules"))
     variants.append(("depot.trucks_served", "Trucks sharing the depot", "", float(n0),
                      float(n_lo), float(n_hi), served(n_lo), served(n_hi),
-                     f"default ±{swing:.0%}, whole trucks"))
+                     f"default ±{fm.percent(swing, 0)}, whole trucks"))
     for key, label, unit, b, lo, hi, up_lo, up_hi, source in variants:
         try:
             d_lo, d_hi = diff(**up_lo), diff(**up_hi)
@@ -343,9 +345,10 @@ def depot_sensitivity(loaded: LoadedScenario, sd, ops: list, cf, swing: float
         # the rule
         try:
             alt = diff(charging=other)[n]
-            note = (f"the sign changes with {other} charging ({alt:,.0f})"
+            shown = fm.money(alt, s.study.currency)
+            note = (f"the sign changes with {other} charging ({shown})"
                     if np.sign(alt) != np.sign(base[n]) else
-                    f"no break-even: the same sign with {other} charging ({alt:,.0f})")
+                    f"no break-even: the same sign with {other} charging ({shown})")
         except (InputError, ValueError):
             note = f"{other} charging cannot run with the chargers given"
         bes.append(be_row(n, "depot.charging", "Depot charging rule", "", math.nan, math.nan,
@@ -469,7 +472,7 @@ def evaluate(loaded: LoadedScenario, progress: Steps | None = None,
     if unset:
         cf.assumptions.append(
             f"Nominal money: the {len(unset)} price escalations left unset follow general "
-            f"inflation, {s.finance.inflation * 100:.1f} % a year (0 % above inflation): "
+            f"inflation, {fm.percent(s.finance.inflation, 1)} a year (0 % above inflation): "
             + _unset_escalations_text(unset, [t.name for t in s.trucks]))
     pv = {m.name: m.present_value for m in cf.trucks}
     ref = cf.baseline
@@ -564,8 +567,8 @@ def other_conventions(loaded: LoadedScenario, trip: pd.DataFrame, diff: dict,
                     return "more" if x > 0 else "less"
                 out.append(
                     f"The verdict depends on a modelling convention: with {what}, "
-                    f"{name} would cost {abs(d2):,.0f} {cur} {word(d2)} than {baseline} "
-                    f"(present value) instead of {abs(d):,.0f} {cur} {word(d)}.")
+                    f"{name} would cost {fm.money(abs(d2), cur)} {word(d2)} than {baseline} "
+                    f"(present value) instead of {fm.money(abs(d), cur)} {word(d)}.")
     return out
 
 

@@ -484,8 +484,8 @@ def _what_binds(pb: PlanProblem, total_short: float, gap, time_limit) -> list[st
         lb, ub = m.bounds()
         r = _run_milp(m, _shortfall_objective(m), lb, ub, gap=gap, time_limit=time_limit)
         if r.x is not None and r.fun < total_short - 1e-6 * max(1.0, total_short):
-            out.append(f"{name} (lifting it cuts the shortfall from {total_short:,.1f} t to "
-                       f"{max(r.fun, 0.0):,.1f} t)")
+            out.append(f"{name} (lifting it cuts the shortfall from "
+                       f"{fm.number(total_short, 1)} t to {fm.number(max(r.fun, 0.0), 1)} t)")
     if not out:
         out.append("the vehicles themselves: every allowed electrification together does "
                    "not reach the target")
@@ -699,8 +699,8 @@ def load_plan_settings(path) -> PlanSettings:
         raise InputError("file not found", file=path)
     size = path.stat().st_size
     if size > MAX_SCENARIO_BYTES:  # as a scenario file
-        raise InputError(f"is {size / 2**20:.1f} MiB; a plan file may be at most "
-                         f"{MAX_SCENARIO_BYTES / 2**20:.0f} MiB", file=path)
+        raise InputError(f"is {fm.data_size(size)}; a plan file may be at most "
+                         f"{fm.data_size(MAX_SCENARIO_BYTES)}", file=path)
     try:  # a byte-order mark, as some editors write, is accepted
         raw = tomllib.loads(path.read_text(encoding="utf-8-sig"))
     except UnicodeDecodeError:
@@ -1146,8 +1146,8 @@ def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: P
                 reason_of[v] = ("it pays for the fleet as a whole (shared depot costs, and "
                                 "the years the budget and grid leave)")
             elif carbon_only.choice[v] > 0:
-                reason_of[v] = (f"the carbon price of {settings.carbon_price:,.0f} per t makes "
-                                "it worth it")
+                price = fm.unit_price(settings.carbon_price, "t", s.study.currency)
+                reason_of[v] = f"the carbon price of {price} makes it worth it"
             else:
                 reason_of[v] = "the emissions target needs it"
 
@@ -1227,7 +1227,7 @@ def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: P
                      "less the resale of the trucks they replace.")
     if sol.status != "optimal":
         notes.append(f"HiGHS stopped before proving the plan best ({sol.status}); the plan "
-                     f"kept is within {sol.mip_gap:.2%} of the best possible.")
+                     f"kept is within {fm.percent(sol.mip_gap, 2)} of the best possible.")
     if target is not None:
         if sol.target_met:
             notes.append(f"The target ({fm.percent(target.reduction, 0)} below "
@@ -1236,12 +1236,12 @@ def plan_fleet(base, energies, money, routes, sched, sched_vehicles, settings: P
         else:
             worst = int(np.argmax(sol.shortfall))
             notes.append(f"The target cannot be met within the constraints: "
-                         f"{sol.shortfall.sum():,.1f} t over it in total, "
-                         f"{sol.shortfall[worst]:,.1f} t in {start + worst}. What binds: "
+                         f"{fm.number(sol.shortfall.sum(), 1)} t over it in total, "
+                         f"{fm.number(sol.shortfall[worst], 1)} t in {start + worst}. What binds: "
                          + "; ".join(sol.binds) + ".")
     for v in np.flatnonzero(loses & chosen_e):
         o = int(sol.choice[v])
-        notes.append(f"{energies[v].row.vehicle} costs {pv[v, o] - pv[v, 0]:,.0f} {cur} more "
+        notes.append(f"{energies[v].row.vehicle} costs {fm.money(pv[v, o] - pv[v, 0], cur)} more "
                      f"electric from {start + o - 1} than staying diesel and is electrified "
                      f"because {reason_of[v]}.")
     n_lossy = int(np.sum((best_e > pv[:, 0]) & ~chosen_e & allowed[:, 1:].any(axis=1)))

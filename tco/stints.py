@@ -48,8 +48,9 @@ import numpy as np
 from numba import njit
 
 from tco.budget import check_samples
-from tco.dutycycle import MAX_GRADE
+from tco.dutycycle import MAX_GRADE, grade_beyond
 from tco.errors import InputError
+from tco.report import formatting as fm
 
 __all__ = ["PreparedDay", "prepare_day"]
 
@@ -640,8 +641,8 @@ def prepare_day(time, speed, terrain, payload, is_grade: bool, dt: float, window
     if err == _TOO_MANY:
         check_samples(e1, float(dt), what="this trace")
     elif err == _STEEP:
-        raise InputError(f"grade of {100 * e1:+.1f} % is beyond ±{100 * MAX_GRADE:.0f} %",
-                         where=f"distance {e2:.0f} m")
+        raise InputError(f"grade of {grade_beyond(e1)}",
+                         where=f"distance {fm.quantity(e2, 'm', digits=0)}")
     dups = int(arrays[0].size - kept)
     if sp.size == 0:
         return PreparedDay(None, None, None, None, int(kept), dups, int(gaps),

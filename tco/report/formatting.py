@@ -29,7 +29,7 @@ __all__ = [
     "quantity", "Units", "input_value", "label_from_description", "field_label", "hours_text",
     "irr_text", "range_text", "client_line", "EXCEL_FORMATS", "kwh", "kw", "minutes",
     "seconds", "count", "tonnes", "per_year", "years_list", "compact_number", "clock",
-    "signed_percent", "plain",
+    "signed_percent", "plain", "data_size",
 ]
 
 #: Shown for a missing or non-finite figure.
@@ -104,19 +104,24 @@ def percent(share, digits: int = 1) -> str:
 _SUPERSCRIPT = str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹")
 
 
-def plain(x) -> str:
+def plain(x, significant: int | None = None) -> str:
     """A value as a person would type it, for messages: the shortest decimal that reads
     back as ``x`` (``0.5``, ``1,250``, ``-3``), never e-notation; beyond 10^15 in size, its
     order of magnitude (``about 10¹⁸``), so a hostile number cannot flood a line.
 
+    ``significant``: first round ``x`` to that many significant figures (a fitted
+    parameter shown as ``0.333333``, not ``0.3333333333333333``).
+
     >>> plain(0.5), plain(1250.0), plain(-3.0), plain(1e12), plain(1e18), plain(2.5e-7)
     ('0.5', '1,250', '-3', '1,000,000,000,000', 'about 10¹⁸', '0.00000025')
-    >>> plain(-0.25), plain(12345.5)
-    ('-0.25', '12,345.5')
+    >>> plain(-0.25), plain(12345.5), plain(1 / 3, significant=6), plain(2e-7 / 3, 3)
+    ('-0.25', '12,345.5', '0.333333', '0.0000000667')
     """
     if not _finite(x):
         return str(x)
     x = float(x)
+    if significant is not None:
+        x = float(f"{x:.{int(significant)}g}")  # correctly rounded decimal, read back
     if abs(x) >= 1e15:
         sign = "-" if x < 0 else ""
         return f"{sign}about 10{str(int(math.floor(math.log10(abs(x))))).translate(_SUPERSCRIPT)}"
@@ -129,6 +134,24 @@ def plain(x) -> str:
         text = np.format_float_positional(x, trim="-")
     whole, _, frac = text.partition(".")
     return f"{int(whole):,}".replace("0", "-0", 1 if whole == "-0" else 0) + "." + frac
+
+
+def data_size(n_bytes) -> str:
+    """A size in bytes in binary units, two significant figures below 10 of a unit, whole
+    ones above: ``34 GiB``, ``1.7 GiB``, ``4 MiB`` (an exact whole number of units),
+    ``512 bytes``.
+
+    >>> data_size(34 * 2**30), data_size(1.7 * 2**30), data_size(4 * 2**20), data_size(512)
+    ('34 GiB', '1.7 GiB', '4 MiB', '512 bytes')
+    """
+    if not _finite(n_bytes):
+        return DASH
+    n_bytes = float(n_bytes)
+    for unit, scale in (("TiB", 2**40), ("GiB", 2**30), ("MiB", 2**20), ("KiB", 2**10)):
+        if abs(n_bytes) >= scale:
+            v = n_bytes / scale
+            return f"{number(v, 0 if abs(v) >= 10 or v.is_integer() else 1)} {unit}"
+    return f"{number(n_bytes, 0)} bytes"
 
 
 def count(n) -> str:
