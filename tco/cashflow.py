@@ -1167,7 +1167,8 @@ class _Context:
             years = 1.0 / float(np.max(lives_per_year))
             self.assumptions.append(
                 f"{t.name}: the battery reaches its end of life (cycles and calendar ageing) "
-                f"after about {years:.1f} years, after the {N}-year period: no replacement "
+                f"after about {fm.number(years, 1)} years, after the {N}-year period: no "
+                "replacement "
                 "counted")
         if credit_on:
             out["battery_remaining_life"] = _Outer(self.eN, -credit)
@@ -1734,7 +1735,7 @@ def _irr_and_note(savings: np.ndarray) -> tuple[float | None, str]:
     r, status = fin.irr(savings)
     note = "" if status == 0 else fin.IRR_STATUS[status]
     if status == 2:
-        note += ": " + ", ".join(f"{x:.2%}" for x in fin.irr_roots(savings))
+        note += ": " + ", ".join(fm.percent(x, 2) for x in fin.irr_roots(savings))
     return (None if status else float(r)), note
 
 

@@ -346,7 +346,7 @@ def hourly_profile_24(values) -> np.ndarray:
     if big.size:
         raise ValueError(f"hourly profile value {fm.plain(v[big[0]])} at hour {big[0]} is "
                          "above "
-                         f"{MAX_PROFILE_VALUE:,.0f} (g/kWh, or a shape in any unit)")
+                         f"{fm.plain(MAX_PROFILE_VALUE)} (g/kWh, or a shape in any unit)")
     if not np.any(v > 0):
         raise ValueError("hourly profile is all zero")
     return v.reshape(-1, 24).mean(axis=0)

@@ -631,7 +631,8 @@ def tornado_bars(case: Case, settings: UncertaintySettings, emission_inputs: boo
     user_keys = {t.input for t in settings.tornado}
     ranges = distribution_ranges(case, settings)
     lo_q, hi_q = TORNADO_QUANTILES
-    from_dist = f"P{lo_q * 100:.0f}–P{hi_q * 100:.0f} of its distribution"
+    from_dist = (f"P{fm.number(lo_q * 100, 0)}–P{fm.number(hi_q * 100, 0)} of its "
+                 "distribution")
     inputs = default_inputs(case) if settings.default_inputs else []
     seen = {inp.key for inp in inputs}
     for key in ranges:  # inputs with a distribution that are not standard ones
@@ -657,7 +658,8 @@ def tornado_bars(case: Case, settings: UncertaintySettings, emission_inputs: boo
         if inp.residual is not None:
             hi = min(hi, inp.max_factor)
         lo, hi = min(lo, hi), max(lo, hi)  # a negative value (a falling grid) stays ordered
-        bars.append((inp, lo, hi, f"default ±{s:.0%}", "uncertainty.default_swing"))
+        bars.append((inp, lo, hi, f"default ±{fm.percent(s, 0)}",
+                     "uncertainty.default_swing"))
     for k, t in enumerate(settings.tornado):
         where = f"uncertainty.tornado[{k}]"
         inp = resolve_input(case, t.input, f"{where}.input")
@@ -1104,8 +1106,8 @@ def resolve_distributions(case: Case, settings: UncertaintySettings
         if given:
             notes.append(
                 "No distributions were given: each standard input is drawn from a triangular "
-                f"distribution over ±{settings.default_swing:.0%} around its scenario value, "
-                "independently (a first look; give your own distributions).")
+                f"distribution over ±{fm.percent(settings.default_swing, 0)} around its "
+                "scenario value, independently (a first look; give your own distributions).")
     out: list[Uncertain] = []
     owner: dict[str, int] = {}
     for k, d in enumerate(given):

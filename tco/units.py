@@ -58,8 +58,10 @@ _POWER = re.compile(r"(\*\*|\^)\s*\(?\s*([-+]?[\d.]+)")
 
 def _parse_string(text: str) -> pint.Quantity:
     if len(text) > MAX_QUANTITY_TEXT:
-        raise UnitError(f"a quantity is at most {MAX_QUANTITY_TEXT} characters (got "
-                        f"{len(text):,})")
+        from tco.report import formatting as fm  # here: formatting imports this module
+
+        raise UnitError(f"a quantity is at most {fm.count(MAX_QUANTITY_TEXT)} characters "
+                        f"(got {fm.count(len(text))})")
     # a power is a unit's exponent (m^2, m**3): refuse big ones before pint evaluates them
     # (2**2000 is an integer too large for a float; 9**9**9 would take hours)
     if text.count("**") + text.count("^") > 3 or any(

@@ -23,6 +23,30 @@ def test_number_has_separators_and_no_exponent():
         assert "e" not in fm.number(x).lower()
 
 
+def test_data_size_in_binary_units():
+    # IEC 80000-13 binary prefixes: 1 KiB = 2**10 bytes, 1 MiB = 2**20, 1 GiB = 2**30,
+    # 1 TiB = 2**40. Hand calculation: 2,000,000,000 bytes / 2**30 = 1.8626... GiB → 1.9;
+    # 1.2e12 bytes / 2**40 = 1.0914 TiB → 1.1; 50 * 2**30 bytes = 50 GiB (whole above 10)
+    assert fm.data_size(2_000_000_000) == "1.9 GiB"
+    assert fm.data_size(1.2e12) == "1.1 TiB"
+    assert fm.data_size(50 * 2**30) == "50 GiB"
+    assert fm.data_size(4 * 2**20) == "4 MiB"  # a whole number of units has no decimals
+    assert fm.data_size(2_200) == "2.1 KiB"  # 2,200 / 1,024 = 2.148
+    assert fm.data_size(1023) == "1,023 bytes"
+    assert fm.data_size(float("inf")) == fm.DASH
+    assert "e" not in fm.data_size(1e30).lower()  # 1e30 / 2**40 ≈ 9.1e17 TiB, written out
+
+
+def test_plain_with_significant_figures():
+    # hand values: 1/3 to six significant figures is 0.333333; 123456789 to three is
+    # 123,000,000; 2/3 × 10**-7 to three is 0.0000000667 (never e-notation)
+    assert fm.plain(1 / 3, significant=6) == "0.333333"
+    assert fm.plain(123_456_789.0, significant=3) == "123,000,000"
+    assert fm.plain(2e-7 / 3, significant=3) == "0.0000000667"
+    assert fm.plain(0.1 + 0.2) == "0.30000000000000004"  # without: the shortest repr
+    assert fm.plain(0.1 + 0.2, significant=15) == "0.3"
+
+
 def test_money_and_percent():
     assert fm.money(19955.4, "EUR") == "19,955 EUR"
     assert fm.money(-102000, "USD") == "-102,000 USD"

@@ -219,7 +219,7 @@ def test_tornado_spans_the_p10_p90_of_the_scenario_distribution(demo_unc):
     # an input without a distribution keeps the default ±20 %
     pp = t[(t.truck == "Electric tractor") & (t.key == "trucks[1].costs.purchase_price")]
     assert pp.iloc[0].low_value == pytest.approx(0.8 * 265000)
-    assert pp.iloc[0].source == "default ±20%"
+    assert pp.iloc[0].source == "default ±20 %"
 
 
 def test_tornado_and_monte_carlo_agree_on_every_range(demo_unc):

@@ -21,6 +21,7 @@ from typing import Literal
 from pydantic import Field, ValidationError, model_validator
 
 from tco.errors import InputError
+from tco.report import formatting as fm
 from tco.scenario.base import Section, field_sources, mfield
 from tco.scenario.costs import Depot, Finance, Prices, TruckCosts
 from tco.scenario.emissions import EmissionsSettings
@@ -294,8 +295,8 @@ def load_scenario(path: str | Path) -> LoadedScenario:
         raise InputError("file not found", file=path)
     size = path.stat().st_size
     if size > MAX_SCENARIO_BYTES:
-        raise InputError(f"is {size / 2**20:.1f} MiB; a scenario file may be at most "
-                         f"{MAX_SCENARIO_BYTES / 2**20:.0f} MiB", file=path)
+        raise InputError(f"is {fm.data_size(size)}; a scenario file may be at most "
+                         f"{fm.data_size(MAX_SCENARIO_BYTES)}", file=path)
     blob = path.read_bytes()
     try:
         raw = tomllib.loads(blob.decode("utf-8-sig"))  # a byte-order mark is allowed

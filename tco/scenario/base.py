@@ -210,7 +210,8 @@ def _check_value(value: Any, extra: dict) -> Any:
     if isinstance(value, str):
         limit = extra.get("text_limit", TEXT_LIMIT)
         if len(value) > limit:
-            raise ValueError(f"is {len(value):,} characters long; the limit is {limit:,}")
+            raise ValueError(f"is {fm.count(len(value))} characters long; the limit is "
+                             f"{fm.count(limit)}")
         return clean_text(value, multiline=bool(extra.get("multiline")))
     if isinstance(value, list):
         return [_check_value(v, extra) for v in value]

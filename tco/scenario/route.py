@@ -44,7 +44,7 @@ class Study(Section):
         usual_source="common practice: a study of trucks bought now or in the coming years")
     page_size: Literal["A4", "Letter"] = mfield("A4", "", "Report page size", ASSUMPTION)
     notes: str = mfield("", "", "Free text shown in the report (line breaks kept; at most "
-                        f"{NOTES_LIMIT:,} characters, a few pages)", ASSUMPTION,
+                        f"{fm.count(NOTES_LIMIT)} characters, a few pages)", ASSUMPTION,
                         text_limit=NOTES_LIMIT, multiline=True)
 
     @field_validator("slug")
@@ -119,7 +119,7 @@ class Segment(Section):
     """One stretch of a synthetic route."""
 
     length: Qty("km", gt=0, le=MAX_SEGMENT_KM) = qfield(
-        ..., "km", f"Horizontal length of the stretch (at most {MAX_SEGMENT_KM:,} km)",
+        ..., "km", f"Horizontal length of the stretch (at most {fm.count(MAX_SEGMENT_KM)} km)",
         usual=(None, 1000),
         usual_source="common practice: a stretch is a part of a day's drive")
     speed: Qty("km/h", gt=0, le=MAX_TRUCK_SPEED_KMH) = qfield(
@@ -132,7 +132,7 @@ class Segment(Section):
         usual_source="common practice: main roads are built to grades below about 6–8 %; steep "
         "local roads reach 12 %")
     stops: int = mfield(0, "", "Stops inside the stretch (evenly spaced; at most "
-                        f"{MAX_STOPS:,}: each needs two samples of the trip budget, "
+                        f"{fm.count(MAX_STOPS)}: each needs two samples of the trip budget, "
                         "tco.budget)", ASSUMPTION, ge=0, bounds=(0, MAX_STOPS),
         usual=(None, 500),
         usual_source="common practice: urban delivery makes up to a few hundred stops a day")
@@ -145,7 +145,7 @@ class Segment(Section):
     @classmethod
     def _stops_budget(cls, v: int) -> int:
         if v > MAX_STOPS:
-            raise ValueError(least_samples_problem(2.0 * v, f"{v:,} stops"))
+            raise ValueError(least_samples_problem(2.0 * v, f"{fm.count(v)} stops"))
         return v
 
 

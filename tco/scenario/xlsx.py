@@ -295,8 +295,9 @@ def _refuse_macros_and_size(path: Path) -> None:
     if not path.is_file():
         raise InputError("file not found", file=path)
     if path.stat().st_size > MAX_BYTES:
-        raise InputError(f"too large for a scenario workbook ({path.stat().st_size:,} "
-                         f"bytes; at most {MAX_BYTES:,})", file=path)
+        raise InputError(f"too large for a scenario workbook "
+                         f"({fm.count(path.stat().st_size)} bytes; at most "
+                         f"{fm.count(MAX_BYTES)})", file=path)
     try:
         with zipfile.ZipFile(path) as z:
             infos = z.infolist()

@@ -200,7 +200,7 @@ class UncertaintySheets:
                                      "Scenario value", "Parameters (SI or factors)"])
             for r in inputs:
                 row += 1
-                params = ", ".join(f"{k} = {fm.plain(float(f'{v:.6g}'))}"
+                params = ", ".join(f"{k} = {fm.plain(v, significant=6)}"
                                    if isinstance(v, (int, float)) else
                                    f"{k} = {v}" for k, v in (r.get("parameters") or {}).items())
                 vals = [r.get("input"), r.get("key"), r.get("kind"), r.get("scale"),
