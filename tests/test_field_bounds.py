@@ -277,6 +277,24 @@ def test_each_fleet_column_limit_is_enforced(tmp_path, column):
     read_fleet(tmp_path / "f.csv")
 
 
+def test_fleet_limits_read_as_written(tmp_path):
+    """The refusal names the limit as a person writes it: a calendar year without a
+    thousands separator (1990, not 1,990), a distance with one (1,500,000 km); the limits
+    are those of docs: replacement years 1990 to 2100, at most 1.5 million km a year."""
+    from tco.errors import InputError
+    from tco.fleet import read_fleet
+
+    (tmp_path / "c.csv").write_text("time [s],speed [km/h]\n0,0\n10,50\n")
+    for column, value, expected in [("replacement_year", 1989, "must be at least 1990"),
+                                    ("replacement_year", 2101, "must be at most 2100"),
+                                    ("annual_distance", 2e6, "must be at most 1,500,000 km")]:
+        (tmp_path / "f.csv").write_text(
+            f"vehicle,cycle,current,candidate,{column}\nA,c.csv,d,e,{value}\n")
+        with pytest.raises(InputError) as err:
+            read_fleet(tmp_path / "f.csv")
+        assert expected in str(err.value), str(err.value)
+
+
 def test_zero_amounts_and_no_monte_carlo_are_not_unusual():
     """0 leaves a cost out (driver cost, maintenance) and draws = 0 turns the Monte Carlo
     off: neither is a slip to warn about; 0.001 per km of maintenance is."""
