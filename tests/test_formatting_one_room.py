@@ -23,8 +23,6 @@ FORMATTING = "tco/report/formatting.py"
 
 #: (module, text on the line) → why it may format locally. Keep it short.
 ALLOWED = {
-    ("tco/report/fleet_report.py", '{step / 3600:g}"'): "a constant inside a spreadsheet "
-    "formula (hours per sample), read by the spreadsheet, not by a person",
     ("tco/report/workbook/inputs_sheet.py", 'return float(f"'): "a cell's factor rounded to "
     "15 significant figures and read back as a number (1.0000000000000002 → 1), not text",
 }
@@ -131,7 +129,6 @@ def test_dead_code_is_gone():
 #: Format specs that may print e-notation (``g``, ``e``) and are not text for a person:
 #: rounding a float before it is read back as a number, or a spreadsheet constant.
 E_SPEC_ALLOWED = {
-    ("tco/report/fleet_report.py", '{step / 3600:g}"'),
     ("tco/report/workbook/inputs_sheet.py", 'return float(f"'),
     (FORMATTING, 'x = float(f"{x:.{int(significant)}g}")'),
 }

@@ -927,7 +927,7 @@ class _FleetBook:
              "[kW]", "formula",
              f"=MAX(C{first}:C{last})"),
             ("Energy per operating day [kWh]", "formula",
-             f"=SUM(C{first}:C{last})*{step / 3600:g}"),
+             f"=SUM(C{first}:C{last})*{float(step)!r}/3600"),  # full precision
         ]
         self.depot_info = {}
         for k, (label, kind, value) in enumerate(info, start=2):
