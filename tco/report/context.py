@@ -867,6 +867,8 @@ def _break_even_table(result, summary: dict, cur: str, system: str) -> dict:
                 "present value, all other inputs unchanged. " + " ".join(notes)}
     return {"title": "Break-even values", "columns": ["Input", "Break-even", "Scenario value",
                                                       "Change"], "rows": rows,
+            # room for a unit price kept on one line ("25.14 EUR/kW·month")
+            "widths": [34, 25, 25, 16],
             "note": "The value at which the trucks cost the same in present value, all "
                     "other inputs unchanged; change: from the scenario's value. "
                     + " ".join(f"{n}." if not n.endswith(".") else n for n in notes)}

@@ -29,7 +29,7 @@ __all__ = [
     "quantity", "Units", "input_value", "label_from_description", "field_label", "hours_text",
     "irr_text", "range_text", "client_line", "EXCEL_FORMATS", "kwh", "kw", "minutes",
     "seconds", "count", "tonnes", "per_year", "years_list", "compact_number", "clock",
-    "signed_percent", "plain", "data_size",
+    "signed_percent", "plain", "data_size", "figure_spans",
 ]
 
 #: Shown for a missing or non-finite figure.
@@ -224,6 +224,27 @@ def signed_percent(share, digits: int = 1) -> str:
     """A change as a percentage with its sign: ``signed_percent(0.123)`` → ``'+12.3 %'``."""
     text = percent(share, digits)
     return text if text == DASH or text.startswith(("-", "0 ")) else "+" + text
+
+
+# --------------------------------------------------------------------------- line breaks
+#: A figure and the unit (or word) after it, which a page or screen must not break apart:
+#: ``684,568 EUR``, ``25.14 EUR/kW·month``, ``751 t CO2e``, ``12.5 US gal``, ``13.5 %``,
+#: ``0.81 × scenario``, ``−150k``. A number inside a word (``CO2e``) is not a figure.
+_FIGURE_AND_UNIT = re.compile(
+    r"(?<![\w.,·/])[-+\u2212]?\d[\d,]*(?:\.\d+)?"
+    r" (?:%|× [^\s,;:()]+|(?:US gal|(?:k?g|t) CO2e)[^\s,;:()]*|[A-Za-zµ°][^\s,;:()]*)")
+
+
+def figure_spans(text: str) -> list[tuple[int, int]]:
+    """Where ``text`` has a figure followed by its unit, as ``(start, end)`` slices, for
+    the HTML and PDF to keep each on one line (:func:`tco.report.html.nobreak`). The text
+    itself is unchanged: the workbook, console and JSON read the same words.
+
+    >>> t = "Demand charge 25.14 EUR/kW·month; 751 t CO2e over 10 years; CO2e 2 %"
+    >>> [t[a:b] for a, b in figure_spans(t)]
+    ['25.14 EUR/kW·month', '751 t CO2e', '10 years', '2 %']
+    """
+    return [m.span() for m in _FIGURE_AND_UNIT.finditer(text or "")]
 
 
 # --------------------------------------------------------------------------- units

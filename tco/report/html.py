@@ -40,7 +40,9 @@ lists may be empty, and an empty chart group or list leaves its heading out.
     Plain-word warnings (model range exceeded, defaults relied on, ...).
 ``tables`` : list of dict
     ``{"title", "columns": [str], "rows": [[str]], "note"}`` and optionally ``"total"``
-    (the last row is a total, set in bold) and ``"wide"`` (more than
+    (the last row is a total, set in bold), ``"widths"`` (each column's share of the
+    width in percent, for a table whose figures need more room than the default split)
+    and ``"wide"`` (more than
     ``context.WIDE_COLUMNS`` columns: the PDF prints it on a landscape page of its own,
     the named page ``wide``): detailed tables
     (cash flow per year, per-truck summary ...). The first column is text (left-aligned),
@@ -75,7 +77,7 @@ from tco.errors import InputError
 from tco.resources import templates_dir
 
 __all__ = ["environment", "render_html", "check_context", "PAGE_SIZES", "TEMPLATE",
-           "STYLESHEET", "REQUIRED_KEYS", "CHART_GROUPS"]
+           "STYLESHEET", "REQUIRED_KEYS", "CHART_GROUPS", "nobreak"]
 
 TEMPLATE = "report.html.j2"
 STYLESHEET = "report.css"
@@ -104,20 +106,44 @@ def _no_control_characters(value):
     return value
 
 
+def nobreak(value) -> Markup:
+    """The template filter ``nobreak``: ``value`` escaped, with each figure and its unit
+    (:func:`tco.report.formatting.figure_spans`) in a ``<span class="nw">`` that the
+    stylesheet keeps on one line, so "684,568" and "EUR" never end up on two lines.
+
+    >>> str(nobreak("Cost 684,568 EUR <b>"))
+    'Cost <span class="nw">684,568 EUR</span> &lt;b&gt;'
+    """
+    from markupsafe import escape
+
+    from tco.report.formatting import figure_spans
+
+    if isinstance(value, Markup) or not isinstance(value, str):
+        return value if isinstance(value, Markup) else escape(value)
+    out, at = [], 0
+    for a, b in figure_spans(value):
+        out += [escape(value[at:a]), Markup('<span class="nw">'), escape(value[a:b]),
+                Markup("</span>")]
+        at = b
+    out.append(escape(value[at:]))
+    return Markup("").join(out)
+
+
 def environment() -> jinja2.Environment:
     """The jinja2 environment of the report templates.
 
     ``autoescape=True`` escapes every value in every template, whatever its file name
     (``select_autoescape`` would not treat ``*.j2`` as HTML); ``finalize`` replaces control
     characters in every printed string, whatever its origin. ``StrictUndefined`` makes a
-    missing context key an error instead of an empty string.
+    missing context key an error instead of an empty string. The filter ``nobreak``
+    (:func:`nobreak`) keeps figures with their units in text and table cells.
 
     Returns
     -------
     jinja2.Environment
         Loader on :func:`tco.resources.templates_dir`.
     """
-    return jinja2.Environment(
+    env = jinja2.Environment(
         loader=jinja2.FileSystemLoader(str(templates_dir())),
         autoescape=True,
         finalize=_no_control_characters,
@@ -126,6 +152,8 @@ def environment() -> jinja2.Environment:
         lstrip_blocks=True,
         keep_trailing_newline=True,
     )
+    env.filters["nobreak"] = nobreak
+    return env
 
 
 def check_context(context: dict) -> None:
