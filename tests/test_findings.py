@@ -140,3 +140,29 @@ def test_us_report_tables_and_labels_use_us_units(us_demo):
                for t in sec.get("tables", [])]
     assert not any(METRIC.search(x) for x in labels if "(at most" in x), labels
     assert not any("(at most" in x for x in labels)
+
+
+def test_report_gives_each_warning_finding_once(us_demo):
+    """A finding that is a warning (payload left behind, power short) sits in the report's
+    feasibility table, marked, and is not repeated in the list of other warnings; the
+    summary still counts every warning of the run."""
+    import html as html_lib
+
+    from tco.report.html import render_html
+
+    result, summary = us_demo
+    ctx = build_context(result, summary)
+    page = render_html(ctx, for_print=False)
+    body = re.sub(r"</?(span|b)\b[^>]*>", "", page[page.index("<body"):])  # inline
+    text = " ".join(html_lib.unescape(re.sub(r"<[^>]+>", " ", body)).split())
+    details = " ".join(row["detail"] for row in ctx["feasibility"])
+    # the run's warnings whose sentence (after a "Truck name: " lead) is a finding
+    repeated = [w for w in result.warnings if w in details
+                or w.split(": ", 1)[-1] in details]
+    assert len(repeated) >= 2  # the payload and the power finding of this case
+    for w in repeated:
+        sentence = w if w in details else w.split(": ", 1)[-1]
+        assert text.count(" ".join(sentence.split())) == 1, sentence
+        assert w not in ctx["warnings"]
+    assert text.count("Warning:") == len(repeated)
+    assert f"{len(result.warnings)} warnings: see" in text

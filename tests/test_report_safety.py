@@ -46,7 +46,9 @@ def _hostile_context(ctx: dict, hostile: list[str]) -> dict:
     ctx["meta"]["fingerprint"] = hostile[4]
     ctx["verdict"] = joined
     ctx["key_figures"][0].update(label=hostile[2], value=hostile[4], note=hostile[6])
-    ctx["feasibility"][0].update(truck=hostile[0], verdict=hostile[5], detail=hostile[1])
+    ctx["feasibility"][0].update(truck=hostile[0], verdict=hostile[5], detail=hostile[1],
+                                 parts=[{"text": hostile[1], "warn": True},
+                                        {"text": hostile[7], "warn": False}])
     ctx["warnings"] = list(hostile)
     ctx["tables"][1]["columns"][1] = hostile[8]
     ctx["tables"][1]["rows"].append(list(hostile[:3]))

@@ -17,7 +17,7 @@ from tco import __version__
 from tco.report import charts
 from tco.report import formatting as fm
 from tco.report.assumptions import build_appendix
-from tco.report.findings import ageing_verdict
+from tco.report.findings import ageing_verdict, other_warnings
 from tco.report.formatting import money as fmt_money  # noqa: F401 - public for other writers
 from tco.report.formatting import number as _auto_number
 from tco.units import J_PER_KWH as KWH
@@ -571,16 +571,17 @@ def _key_figures(result, u: DisplayUnits, summary: dict) -> list[dict]:
 
 
 def _feasibility(result, u: DisplayUnits | None = None) -> list[dict]:
-    from tco.report.findings import truck_sentences
+    """One row per truck: its verdict, its findings as one text (``detail``) and as
+    ``parts`` (``{"text", "warn"}``: the report marks the findings that are warnings
+    there and does not repeat them among the other warnings)."""
+    from tco.report.findings import truck_findings
 
     u = u or fm.Units(result.scenario.study.units)
     rows = []
-    order = ("payload", "power", "battery.new", "battery.end_of_life", "battery_by_year",
-             "depot_charger")
     for name, tr in result.trucks.items():
-        said = truck_sentences(tr, u)
+        parts = [{"text": f["text"], "warn": f["warn"]} for f in truck_findings(tr, u)]
         rows.append({"truck": name, "verdict": _feasible_text(tr).capitalize(),
-                     "detail": " ".join(said[k] for k in order if k in said)})
+                     "detail": " ".join(p["text"] for p in parts), "parts": parts})
     return rows
 
 
@@ -1178,7 +1179,7 @@ def build_context(result, summary: dict, ahead: ChartsAhead | None = None,
         "key_figures": _key_figures(result, u, summary),
         "charts": _charts(result, u),
         "feasibility": _feasibility(result, u),
-        "warnings": list(result.warnings),
+        "warnings": other_warnings(result.warnings, result.trucks, u),
         "tables": _tables(result, u, summary),
         "assumptions": _appendix(result, summary, u),
         "method_notes": notes,

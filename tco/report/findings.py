@@ -14,7 +14,11 @@ from tco.report import formatting as fm
 
 __all__ = ["payload_sentence", "power_sentence", "battery_sentence", "depot_sentence",
            "ageing_sentence", "ageing_verdict", "truck_sentences", "truck_warnings",
-           "remedy_sentence"]
+           "truck_findings", "other_warnings", "remedy_sentence", "REPORT_ORDER"]
+
+#: The order of a truck's findings in the report's feasibility table.
+REPORT_ORDER = ("payload", "power", "battery.new", "battery.end_of_life", "battery_by_year",
+                "depot_charger")
 
 
 def _units(u) -> fm.Units:
@@ -202,21 +206,39 @@ def truck_sentences(tr, u) -> dict[str, str]:
     return out
 
 
+def _warns(tr, key: str) -> bool:
+    head, _, label = key.partition(".")
+    item = tr.feasibility[head][label] if label else tr.feasibility[head]
+    return bool(item.get("warn"))
+
+
+def truck_findings(tr, u) -> list[dict]:
+    """One truck's findings for the report's feasibility table, in :data:`REPORT_ORDER`:
+    ``{"key", "text", "warn"}``, where ``warn`` marks the findings that are warnings."""
+    said = truck_sentences(tr, u)
+    return [{"key": k, "text": said[k], "warn": _warns(tr, k)}
+            for k in REPORT_ORDER if k in said]
+
+
 def truck_warnings(tr, u) -> list[str]:
     """The findings of one truck that are warnings, as sentences (payload left behind,
     power short on grades, a battery that cannot do the day, a depot charger too small,
     an aged battery short of the day)."""
-    f = tr.feasibility
-    said = truck_sentences(tr, u)
     out = []
-    for key, text in said.items():
-        head, _, label = key.partition(".")
-        item = f[head][label] if label else f[head]
-        if item.get("warn"):
+    for key, text in truck_sentences(tr, u).items():
+        if _warns(tr, key):
             # the payload, power and depot sentences name the truck already
+            head = key.partition(".")[0]
             out.append(text if head in ("payload", "power", "depot_charger")
                        else f"{tr.name}: {text}")
     return out
+
+
+def other_warnings(warnings, trucks, u) -> list[str]:
+    """``warnings`` (a run's) without the trucks' feasibility findings, which the report
+    gives once, marked, in its feasibility table (``trucks``: name → truck result)."""
+    given = {w for tr in trucks.values() for w in truck_warnings(tr, u)}
+    return [w for w in warnings if w not in given]
 
 
 def remedy_sentence(x: dict, u) -> str:

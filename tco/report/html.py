@@ -35,9 +35,14 @@ lists may be empty, and an empty chart group or list leaves its heading out.
     distribution of the present value difference). All four keys must be present; an
     empty list leaves the group out.
 ``feasibility`` : list of dict
-    ``{"truck", "verdict", "detail"}``, one per truck, in plain words.
+    ``{"truck", "verdict", "detail"}``, one per truck, in plain words, and optionally
+    ``"parts"``: the findings that make up ``detail`` as ``{"text", "warn"}``; the
+    findings that are warnings are marked in the table (and counted in the summary's
+    number of warnings).
 ``warnings`` : list of str
-    Plain-word warnings (model range exceeded, defaults relied on, ...).
+    Plain-word warnings (model range exceeded, defaults relied on, ...), without the
+    findings already marked in the feasibility table
+    (:func:`tco.report.findings.other_warnings`): a reader meets each finding once.
 ``tables`` : list of dict
     ``{"title", "columns": [str], "rows": [[str]], "note"}`` and optionally ``"total"``
     (the last row is a total, set in bold), ``"widths"`` (each column's share of the
