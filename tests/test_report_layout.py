@@ -109,6 +109,7 @@ class _Text(HTMLParser):
     def handle_data(self, data):
         if "style" in self.stack or "title" in self.stack:
             return
+        data = data.replace("\u2060", "")  # word joiner: holds a unit together, unseen
         self.text.append(data)
         if self._h is not None:
             self._h.append(data)
@@ -163,6 +164,39 @@ def test_no_words_run_into_each_other(demo_pdf):
             for (t0, _, x1), (t1, x0, _) in zip(words, words[1:]):
                 if x0 - x1 < 1.0:
                     bad.append((n, t0, t1, round(x0 - x1, 1)))
+    assert not bad, bad[:20]
+
+
+def test_no_line_broken_early(demo_pdf):
+    """In every paragraph (a pdftotext block of three or more left-aligned lines), a line
+    ends early only when the next line's first word would not have fitted after it: the
+    block's widest line marks the measure, a word space is taken as 2 pt (common
+    practice: about a quarter of an em at 8–10 pt); a figure is measured with its unit,
+    and a line starting with a capital is left out (table blocks put one cell a line).
+    A paragraph whose first word stands alone on its line, a weasyprint fault before a
+    ``nowrap`` span holding an ordinary space, fails here."""
+    bad = []
+    for n, page in enumerate(demo_pdf["pages"], start=1):
+        for block in page.iter(f"{NS}block"):
+            lines = []
+            for line in block.iter(f"{NS}line"):
+                ws = [(w.text or "", float(w.get("xMin")), float(w.get("xMax")))
+                      for w in line.iter(f"{NS}word") if w.text != "•"]  # list marker
+                if ws:
+                    lines.append(ws)
+            if len(lines) < 3 or len({round(ln[0][1]) for ln in lines}) != 1:
+                continue
+            right = max(ln[-1][2] for ln in lines)
+            if right - lines[0][0][1] < 100:  # a narrow column of figures, not a measure
+                continue
+            for this, nxt in zip(lines, lines[1:]):
+                word, x0, x1 = nxt[0]
+                if word[:1].isupper():  # a new cell or sentence may start a line
+                    continue
+                if word[:1].isdigit() and len(nxt) > 1:  # a figure goes with its unit
+                    x1 = nxt[1][2]
+                if this[-1][2] + 2.0 + (x1 - x0) < right - 1.0:
+                    bad.append((n, this[-1][0], word))
     assert not bad, bad[:20]
 
 

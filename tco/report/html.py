@@ -73,6 +73,7 @@ page is standalone.
 """
 from __future__ import annotations
 
+import functools
 from typing import Literal
 
 import jinja2
@@ -111,13 +112,23 @@ def _no_control_characters(value):
     return value
 
 
-def nobreak(value) -> Markup:
+def nobreak(value, hard: bool = False) -> Markup:
     """The template filter ``nobreak``: ``value`` escaped, with each figure and its unit
     (:func:`tco.report.formatting.figure_spans`) in a ``<span class="nw">`` that the
     stylesheet keeps on one line, so "684,568" and "EUR" never end up on two lines.
 
+    ``hard`` (the PDF) holds the figure together with characters instead, and no span:
+    no-break spaces for its spaces and a word joiner (U+2060) after each slash
+    ("EUR/\u2060kW·month"). Weasyprint (70), given an inline box whose first
+    unbreakable run does not fit at the end of a line, can break the line far too early
+    (a paragraph's first word left alone on its line). Text read back from the PDF has
+    a plain space there and no joiner. The browser page keeps the text as written (it
+    is found and copied as written).
+
     >>> str(nobreak("Cost 684,568 EUR <b>"))
     'Cost <span class="nw">684,568 EUR</span> &lt;b&gt;'
+    >>> str(nobreak("Cost 0.15 EUR/km", hard=True))
+    'Cost 0.15\xa0EUR/\u2060km'
     """
     from markupsafe import escape
 
@@ -127,8 +138,12 @@ def nobreak(value) -> Markup:
         return value if isinstance(value, Markup) else escape(value)
     out, at = [], 0
     for a, b in figure_spans(value):
-        out += [escape(value[at:a]), Markup('<span class="nw">'), escape(value[a:b]),
-                Markup("</span>")]
+        if hard:
+            out += [escape(value[at:a]),
+                    escape(value[a:b].replace(" ", "\u00a0").replace("/", "/\u2060"))]
+        else:
+            out += [escape(value[at:a]), Markup('<span class="nw">'), escape(value[a:b]),
+                    Markup("</span>")]
         at = b
     out.append(escape(value[at:]))
     return Markup("").join(out)
@@ -215,6 +230,7 @@ def render_html(context: dict, *, for_print: bool,
                          where="study.page_size")
     check_context(context)
     env = environment()
+    env.filters["nobreak"] = functools.partial(nobreak, hard=for_print)
     # The stylesheet is our own package file, not user input: inlined as trusted markup.
     css = (templates_dir() / STYLESHEET).read_text(encoding="utf-8")
     if not for_print:
