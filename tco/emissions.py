@@ -401,8 +401,9 @@ def _resolve(settings: "EmissionsSettings") -> tuple[dict[str, float], list[dict
     for r in grows.itertuples(index=False):
         add(f"{settings.gwp}:{r.quantity}", r.value, r.unit, r.source, r.status)
     if d.all_gas:
-        notes.append(f"{settings.diesel_factors} gives one all-gas tank-to-wheel CO2e figure: "
-                     "diesel_co2 holds CO2, CH4 and N2O together (diesel_ch4_n2o is zero).")
+        notes.append(f"The diesel factor set {settings.diesel_factors} gives one tank-to-wheel "
+                     "CO2e figure for all gases: it is counted as the diesel's CO2 factor, "
+                     "with CH4 and N2O inside it (not added again).")
 
     upstream = d.upstream
     if settings.diesel_upstream is not None:

@@ -115,6 +115,17 @@ def test_labels_come_from_descriptions():
         == "Maintenance and repair per distance"
     assert fm.field_label("trucks[0].costs.residual.method", "declining_balance or table [-]") \
         == "Residual value method"
+    # a description naming another field, a choice or an option: the label stops before
+    # that clause (the machine names stay in the workbook and summary.json)
+    for description, label in [
+            ("Tax credit received in tax_credit_year [currency]", "Tax credit received"),
+            ("Loss of value per year (declining_balance) [-]", "Loss of value per year"),
+            ("Count the driver's wages as a cost line: driver_cost_per_hour for the duty "
+             "time of every trip", "Count the driver's wages as a cost line"),
+            ("Name of the output folder under --out", "Name of the output folder"),
+            ("Wind speed. With wind_treatment 'average' its direction is averaged [km/h]",
+             "Wind speed")]:
+        assert fm.label_from_description(description) == label
 
 
 def test_irr_text():

@@ -404,3 +404,26 @@ def test_wide_tables_print_on_landscape_pages(four_truck_pdf):
             assert x1 <= right, f"page {n + 1}: '{t}' ends at {x1:.1f} pt (> {right:.1f})"
     portrait = sum(float(b.mediabox.width) < float(b.mediabox.height) for b in reader.pages)
     assert portrait >= len(reader.pages) - 4  # only the wide tables' pages turn
+
+
+# A machine name as a reader would spot one: words joined by underscores
+# ("tax_credit_year", "as_financed") or a command-line option ("--out").
+MACHINE_NAME = re.compile(r"(?<![\w-])(?:[a-z]+(?:_[a-z]+)+(?![\w])|--[a-z])")
+
+
+def test_body_and_appendix_speak_without_machine_names(demo_pdf):
+    """The verdict, key figures, findings, warnings, tables, cautions and the assumption
+    appendix's labels and tables name inputs in words; the machine keys stay in the
+    workbook and summary.json (the method notes name the settings they describe, and
+    the sources quote their citations as written)."""
+    ctx = demo_pdf["ctx"]
+    texts = [ctx["verdict"], *ctx["warnings"], *ctx["cautions"]]
+    texts += [v for f in ctx["key_figures"] for v in f.values()]
+    texts += [f["detail"] for f in ctx["feasibility"]]
+    texts += [c for t in ctx["tables"] for row in t["rows"] for c in row] + \
+        [t["note"] for t in ctx["tables"]]
+    for sec in ctx["assumptions"]["sections"]:
+        texts += [c for row in sec["rows"] for c in row] + list(sec.get("notes", []))
+        texts += [c for t in sec["tables"] for row in t["rows"] for c in row]
+    found = [t for t in texts if isinstance(t, str) and MACHINE_NAME.search(t)]
+    assert not found, found[:10]

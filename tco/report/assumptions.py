@@ -304,6 +304,17 @@ def build_appendix(rows: list[dict], scenario, units: str = "metric") -> dict:
             "rows": [[_cell(b[k], cur, units, sources) if k in b else ""
                       for k in ("name", "hours", "price")] for _, b in sorted(band_rows.items())]})
     input_labels = {k: fm.field_label(k, r["description"]) for k, r in by_key.items()}
+    from tco.uncertainty import label_of
+
+    def input_label(key) -> str:
+        """An uncertain input by the name the sensitivity table gives it, else by its
+        field's label (never the machine key)."""
+        key = str(key)
+        shown = label_of(key, names)
+        return shown if shown != key else input_labels.get(key, key)
+
+    input_labels = {**input_labels, **{str(d["input"]["value"]): input_label(
+        d["input"]["value"]) for d in dist_rows.values() if d.get("input")}}
     if dist_rows:
         unc = section(SECTION_TITLES["uncertainty"])
         cols = ("input", "kind", "scale", "low", "mode", "high", "mean", "sd")
@@ -317,7 +328,7 @@ def build_appendix(rows: list[dict], scenario, units: str = "metric") -> dict:
         unc = section(SECTION_TITLES["uncertainty"])
         unc["tables"].append({
             "title": "Rank correlations", "note": "", "columns": ["Inputs", "Rank correlation"],
-            "rows": [[" and ".join(str(x) for x in (c.get("inputs", {}).get("value") or [])),
+            "rows": [[" and ".join(input_label(x) for x in (c.get("inputs", {}).get("value") or [])),
                       fm.number(c.get("rank", {}).get("value"), 2)]
                      for _, c in sorted(corr_rows.items())]})
     order = ["Study", "Route and conditions", "Trucks", "Prices", "Finance", "Depot charging",

@@ -1039,6 +1039,27 @@ def _tables(result, u: DisplayUnits, summary: dict) -> list[dict]:
     return tables
 
 
+#: Reader's names of the emission factor quantities (tco/data/README.md); the machine
+#: names (with their factor set) stay in summary.json's ``emissions.factors``, and the
+#: source column names the publication.
+FACTOR_LABELS = {
+    "diesel.co2": "Diesel CO2, tank-to-wheel", "diesel.ch4": "Diesel CH4, tank-to-wheel",
+    "diesel.n2o": "Diesel N2O, tank-to-wheel", "diesel.co2e_ttw": "Diesel CO2e, tank-to-wheel",
+    "diesel.co2e_wtw": "Diesel CO2e, well-to-wheel",
+    "diesel.co2e_wtt": "Diesel CO2e, well-to-tank",
+    "diesel.net_calorific_value": "Diesel net calorific value",
+    "diesel.density": "Diesel density", "gwp.co2": "GWP-100, CO2", "gwp.ch4": "GWP-100, CH4",
+    "gwp.n2o": "GWP-100, N2O", "diesel_upstream": "Diesel upstream, well-to-tank",
+    "electricity_upstream_share": "Electricity upstream share",
+}
+
+
+def _factor_name(parameter: str) -> str:
+    """``"desnz_2025:diesel.co2e_ttw"`` → ``"Diesel CO2e, tank-to-wheel"``."""
+    quantity = str(parameter).rpartition(":")[2]
+    return FACTOR_LABELS.get(quantity, quantity)
+
+
 def _factor_table(summary: dict) -> dict | None:
     """The emission factors used, with their sources: a reference table of the appendix."""
     # factors without a status are scenario inputs or tool defaults: the appendix lists
@@ -1049,8 +1070,8 @@ def _factor_table(summary: dict) -> dict | None:
     return {
         "kind": "reference", "title": "Emission factors used",
         "columns": ["Factor", "Value", "Unit", "Source", "Status"],
-        "widths": [22, 9, 10, 45, 14],
-        "rows": [[str(f["parameter"]), fmt_number(f["value"], None), str(f["unit"]),
+        "widths": [19, 8, 11, 50, 12],
+        "rows": [[_factor_name(f["parameter"]), fmt_number(f["value"], None), str(f["unit"]),
                   str(f["source"]), str(f["status"])] for f in factors],
         "note": "Status: confirmed (in the source), seen in a public copy, third-party copy "
                 "(only as reproduced by others: unconfirmed), from memory. Factors that "

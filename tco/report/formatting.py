@@ -479,7 +479,27 @@ def label_from_description(description: str) -> str:
         text = text[:text.rindex("(")].strip()
     if len(text) > 70:  # long: the parenthetical detail stays in the workbook's notes
         text = re.sub(r"\s*\([^()]*\)", "", text).strip()
+    text = _without_keys(text)
     return text[:1].upper() + text[1:] if text else text
+
+
+#: A machine name in a description: another field (``tax_credit_year``), a choice
+#: (``as_financed``) or a command-line option (``--out``).
+_MACHINE_NAME = re.compile(r"(?<![\w-])(?:[a-z][a-z0-9]*_[a-z0-9_]+|--[a-z][\w-]*)")
+#: Where a label may end before the clause that names one.
+_CLAUSE = re.compile(r"(?:: |\. |, | \(| in | to | under | over | with )")
+
+
+def _without_keys(text: str) -> str:
+    """A label up to the clause that names a machine name, which the reader's label
+    leaves to the workbook and summary.json (``"Tax credit received in
+    tax_credit_year"`` → ``"Tax credit received"``); unchanged if no clause boundary
+    comes before the name."""
+    m = _MACHINE_NAME.search(text)
+    if not m:
+        return text
+    cuts = [c.start() for c in _CLAUSE.finditer(text, 0, m.start()) if c.start() > 0]
+    return text[:cuts[-1]].rstrip(" ,:;.") if cuts else text
 
 
 def hours_text(hours) -> str:

@@ -200,7 +200,7 @@ def driver_sentence(result) -> str:
         return (f"Driver wages are included ({fm.money(f.driver_cost_per_hour * 3600, cur, 2)} "
                 "an hour of duty), so the cost per km is the full operating cost.")
     return ("Driver wages are not included, only driver time that differs between the "
-            "trucks ([finance] driver_wages = true adds them).")
+            "trucks (the scenario's finance setting for driver wages adds them).")
 
 
 def depot_summary(result) -> dict | None:
