@@ -396,11 +396,15 @@ def render_index_html(context: dict, *, for_print: bool) -> str:
     The stylesheet ``report.css`` is inlined as in the client reports; every value is
     escaped (the environment of :func:`tco.report.html.environment` has autoescape on).
     """
-    from tco.report.html import STYLESHEET, environment
+    import functools
+
+    from tco.report.html import STYLESHEET, environment, nobreak
     from tco.resources import templates_dir
 
     css = (templates_dir() / STYLESHEET).read_text(encoding="utf-8")
-    return environment().get_template(TEMPLATE).render(
+    env = environment()
+    env.filters["nobreak"] = functools.partial(nobreak, hard=for_print)  # as the report
+    return env.get_template(TEMPLATE).render(
         **context, css=Markup(css), for_print=for_print)
 
 
