@@ -104,7 +104,8 @@ def _write_all(result, out: Path):
     folder = out / result.base.slug
     reader = pypdf.PdfReader(str(folder / "fleet-report.pdf"))
     return {"paths": paths, "folder": folder, "pdf": spy.results[-1], "reader": reader,
-            "pages": [p.extract_text() for p in reader.pages],
+            # a figure's no-break spaces (tco.report.html.nobreak) read as plain spaces
+            "pages": [p.extract_text().replace("\xa0", " ") for p in reader.pages],
             "json": json.loads((folder / "fleet.json").read_text(encoding="utf-8")),
             "html": (folder / "fleet-report.html").read_text(encoding="utf-8")}
 

@@ -33,6 +33,7 @@ All keys are required (``StrictUndefined``). Tables are ``{"title", "columns": [
 """
 from __future__ import annotations
 
+import functools
 from pathlib import Path
 from typing import Literal
 
@@ -51,7 +52,7 @@ from tco.report.context import fmt_number as _n
 from tco.report.fleet_plan import add_transition_sheets, transition_context
 from tco.report.fleet_summary import (build_fleet_summary, depot_vehicles, dumps,
                                       interval_means, table_interval)
-from tco.report.html import PAGE_SIZES, STYLESHEET, environment
+from tco.report.html import PAGE_SIZES, STYLESHEET, environment, nobreak
 from tco.report.pdf import write_html_and_pdf
 from tco.report.workbook_base import safe_text, write_value
 from tco.resources import templates_dir
@@ -657,7 +658,9 @@ def render_fleet_html(context: dict, *, for_print: bool,
         if not str(fig.get("uri", "")).startswith(_DATA_URI):
             raise ValueError(f"chart {fig.get('title')!r} is not an embedded data: image")
     css = (templates_dir() / STYLESHEET).read_text(encoding="utf-8")
-    return environment().get_template(TEMPLATE).render(
+    env = environment()
+    env.filters["nobreak"] = functools.partial(nobreak, hard=for_print)  # as the report
+    return env.get_template(TEMPLATE).render(
         **context, css=Markup(css), page_css_size=PAGE_SIZES[page_size],
         for_print=for_print)
 

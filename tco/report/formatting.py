@@ -232,7 +232,8 @@ def signed_percent(share, digits: int = 1) -> str:
 #: ``0.81 × scenario``, ``−150k``. A number inside a word (``CO2e``) is not a figure.
 _FIGURE_AND_UNIT = re.compile(
     r"(?<![\w.,·/])[-+\u2212]?\d[\d,]*(?:\.\d+)?"
-    r" (?:%|× [^\s,;:()]+|(?:US gal|(?:k?g|t) CO2e)[^\s,;:()]*|[A-Za-zµ°][^\s,;:()]*)")
+    r" (?:%|× [^\s,;:()]+|(?:US gal|(?:[A-Z]{3}/)?(?:k?g|t) CO2e)[^\s,;:()]*"
+    r"|[A-Za-zµ°][^\s,;:()]*)")
 
 
 def figure_spans(text: str) -> list[tuple[int, int]]:
@@ -243,6 +244,9 @@ def figure_spans(text: str) -> list[tuple[int, int]]:
     >>> t = "Demand charge 25.14 EUR/kW·month; 751 t CO2e over 10 years; CO2e 2 %"
     >>> [t[a:b] for a, b in figure_spans(t)]
     ['25.14 EUR/kW·month', '751 t CO2e', '10 years', '2 %']
+    >>> t = "abatement -129 EUR/t CO2e, 27.3 g CO2e/t·km"
+    >>> [t[a:b] for a, b in figure_spans(t)]
+    ['-129 EUR/t CO2e', '27.3 g CO2e/t·km']
     """
     return [m.span() for m in _FIGURE_AND_UNIT.finditer(text or "")]
 
