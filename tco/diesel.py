@@ -24,6 +24,8 @@ formulas (``_engine_demand``, ``_willans_fuel_rate``) into its fused loop.
 """
 from __future__ import annotations
 
+import math
+
 from typing import NamedTuple
 
 import numpy as np
@@ -406,6 +408,12 @@ def def_volume(diesel_volume, def_ratio=DEF_RATIO):
     ----------
     .. [1] Common practice (trade articles): DEF use about 2 % of diesel volume.
     """
+    if type(diesel_volume) is float and type(def_ratio) is float:
+        # one number (a trace's totals): the same checks and product without arrays
+        for name, x in (("diesel_volume", diesel_volume), ("def_ratio", def_ratio)):
+            if not (math.isfinite(x) and x >= 0):
+                raise ValueError(f"{name} must be finite and >= 0")
+        return def_ratio * diesel_volume
     (v,), restore = _inputs(diesel_volume)
     _check_nonnegative("diesel_volume", v)
     _check_nonnegative("def_ratio", def_ratio)

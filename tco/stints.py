@@ -233,6 +233,38 @@ def _interp_sorted(x, xp, fp, out):
 
 
 @njit(**_JIT)
+def _interp_pieces(x, xp, fp, out):
+    """``numpy.interp(x, xp, fp)`` into ``out`` for non-decreasing ``x`` and strictly
+    increasing ``xp`` of at least two points, piece by piece of ``xp`` rather than point by
+    point of ``x``: the same bracket, the same formula, the same bits as
+    :func:`_interp_sorted`. Faster where ``x`` is the denser (the smoothing grid: several
+    points a sample): the test for a new piece is taken once a piece, not once a point
+    (7 % of :func:`prepare_day`, measured)."""
+    n = xp.size
+    m = x.size
+    i = 0
+    first = xp[0]
+    while i < m and x[i] < first:
+        out[i] = fp[0]
+        i += 1
+    for j in range(n - 1):
+        if i == m:
+            break
+        hi = xp[j + 1]
+        if x[i] < hi:
+            xj = xp[j]
+            fj = fp[j]
+            slope = (fp[j + 1] - fj) / (hi - xj)
+            while i < m and x[i] < hi:
+                xv = x[i]
+                out[i] = fj if xv == xj else slope * (xv - xj) + fj
+                i += 1
+    while i < m:
+        out[i] = fp[n - 1]
+        i += 1
+
+
+@njit(**_JIT)
 def _unique_profile(d, z, ws, top):
     """``tco.dutycycle._unique_profile`` for non-decreasing ``d``: distances made strictly
     increasing, the elevations at one distance averaged (summed in order, then divided,
@@ -335,7 +367,7 @@ def _smooth(s, z, window, out, ws, top):
     k = max(2, min(ng, _round_half_even(window / h) + 1))
     padded = _take(ws, top, ng + 2 * pad)
     zg = padded[pad:pad + ng]
-    _interp_sorted(grid, du, zu, zg)
+    _interp_pieces(grid, du, zu, zg)
     # ends: the least-squares line through the last window of the grid
     bh, ah = _line_fit(grid, zg, 0, k, grid[0])
     bt, at = _line_fit(grid, zg, ng - k, k, grid[ng - 1])
@@ -380,19 +412,16 @@ def _resample(t, s, z, v, pay, dt, n, o, sp, gr, el, pl, ws, top):
     Returns (0, 0, 0) or, for a grade beyond the limit, (2, grade [-], distance [m])."""
     m = t.size
     tt = _take(ws, top, m + 1)
-    ss = _take(ws, top, m + 1)
     vv = _take(ws, top, m + 1)
     t0 = t[0]
     for i in range(m):
         tt[i] = t[i] - t0
-        ss[i] = s[i]
         vv[i] = v[i]
     span = tt[m - 1]
     mm = m
     if v[m - 1] == 0.0 and n * dt > span:
         # ends at rest: stand a little longer instead of stretching the time axis
         tt[m] = n * dt
-        ss[m] = s[m - 1]
         vv[m] = 0.0
         span = n * dt
         mm = m + 1

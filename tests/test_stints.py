@@ -212,14 +212,22 @@ def test_pairwise_sum_is_numpys(n):
     assert stints._pairwise_sum(a, 0, n) == np.sum(a)
 
 
-def test_interp_is_numpys():
-    rng = np.random.default_rng(3)
+@pytest.mark.parametrize("interp", ["_interp_sorted", "_interp_pieces"])
+@pytest.mark.parametrize("seed, points", [(3, 2000), (4, 40), (5, 300)])
+def test_interp_is_numpys(interp, seed, points):
+    # numpy.interp itself is the reference (same bits): points denser and sparser than
+    # the pieces, outside both ends, on the knots, repeated; a uniform grid as in the
+    # smoothing
+    rng = np.random.default_rng(seed)
     xp = np.cumsum(rng.uniform(0.1, 2.0, 300))
     fp = rng.normal(0, 100, 300)
-    x = np.sort(np.concatenate([rng.uniform(xp[0] - 5, xp[-1] + 5, 2000), xp[::7]]))
-    out = np.empty_like(x)
-    stints._interp_sorted(x, xp, fp, out)
-    np.testing.assert_array_equal(out, np.interp(x, xp, fp))
+    x = np.sort(np.concatenate([rng.uniform(xp[0] - 5, xp[-1] + 5, points), xp[::7],
+                                xp[5:6], xp[5:6], [xp[-1]]]))
+    grid = np.linspace(xp[0], xp[-1], points)
+    for xs in (x, grid, x[:1], x[-1:]):
+        out = np.empty_like(xs)
+        getattr(stints, interp)(xs, xp, fp, out)
+        np.testing.assert_array_equal(out, np.interp(xs, xp, fp))
 
 
 @pytest.mark.parametrize("n", [2, 3, 10, 11, 250])
