@@ -410,8 +410,9 @@ def _first_null(col) -> int:
     return int(pc.index(pc.is_null(col), True).as_py())
 
 
-def _numeric(table, name, file) -> np.ndarray:
-    """A numeric column as float64, finite; InputError otherwise."""
+def _numeric(table, name, file, lo=-np.inf, hi=np.inf) -> tuple[np.ndarray, int]:
+    """A numeric column as float64, finite (InputError otherwise), and the row of its
+    first value outside [lo, hi] (−1 for none)."""
     import pyarrow as pa
 
     col = _chunked(table, name)
@@ -421,11 +422,24 @@ def _numeric(table, name, file) -> np.ndarray:
     if col.null_count:
         _fail(f"blank value at row {_first_null(col)} (rows count from 0)", file, name)
     arr = col.cast(pa.float64()).to_numpy()
-    bad = np.flatnonzero(~np.isfinite(arr))
-    if bad.size:
-        _fail(f"non-finite value {arr[bad[0]]} at row {bad[0]} (rows count from 0)", file,
-              name)
-    return arr
+    bad, outside = _first_bad(arr, lo, hi)
+    if bad >= 0:
+        _fail(f"non-finite value {arr[bad]} at row {bad} (rows count from 0)", file, name)
+    return arr, outside
+
+
+@njit(cache=True, nogil=True)
+def _first_bad(a, lo, hi):
+    """Row of the first non-finite value, and of the first finite value outside
+    [lo, hi] (−1 for none), in one pass without temporary arrays."""
+    outside = -1
+    for i in range(a.size):
+        x = a[i]
+        if not np.isfinite(x):
+            return i, outside
+        if outside < 0 and (x < lo or x > hi):
+            outside = i
+    return -1, outside
 
 
 def _vehicle_codes(table, file, hive, n) -> tuple[np.ndarray, list]:
@@ -538,28 +552,26 @@ def _read_columns(table, file, hive):
         _fail("missing column 'elevation' (or 'grade')", file, "elevation")
     codes, ids = _vehicle_codes(table, file, hive, n)
     day, t = _day_and_time(table, file)
-    speed = _numeric(table, "speed", file)
-    bad = np.flatnonzero(speed < 0)
-    if bad.size:
-        _fail(f"negative speed {fm.number(speed[bad[0]])} m/s at row {bad[0]} (rows count "
+    speed, bad = _numeric(table, "speed", file, lo=0.0)
+    if bad >= 0:
+        _fail(f"negative speed {fm.number(speed[bad])} m/s at row {bad} (rows count "
               "from 0)",
               file, "speed")
-    payload = _numeric(table, "payload", file)
-    bad = np.flatnonzero(payload < 0)
-    if bad.size:
-        _fail(f"negative payload {fm.number(payload[bad[0]])} kg at row {bad[0]} (rows count "
+    payload, bad = _numeric(table, "payload", file, lo=0.0)
+    if bad >= 0:
+        _fail(f"negative payload {fm.number(payload[bad])} kg at row {bad} (rows count "
               "from 0)",
               file, "payload")
     if has_g:
-        zg = _numeric(table, "grade", file)
-        bad = np.flatnonzero(np.abs(zg) > dutycycle.MAX_GRADE + 1e-12)
-        if bad.size:
-            _fail(f"grade {fm.percent(zg[bad[0]], 1)} at row {bad[0]} is beyond "
+        limit = dutycycle.MAX_GRADE + 1e-12  # |grade| > limit, as -limit ≤ g ≤ limit
+        zg, bad = _numeric(table, "grade", file, lo=-limit, hi=limit)
+        if bad >= 0:
+            _fail(f"grade {fm.percent(zg[bad], 1)} at row {bad} is beyond "
                   f"±{fm.percent(dutycycle.MAX_GRADE, 0)} (grade is rise over run, not "
                   "percent)",
                   file, "grade")
     else:
-        zg = _numeric(table, "elevation", file)
+        zg, _ = _numeric(table, "elevation", file)
     return codes, ids, day, t, speed, zg, has_g, payload
 
 
@@ -753,21 +765,31 @@ def process_table(table, scenario, source: str = "table", file=None,
 
 
 @njit(cache=True, nogil=True)
-def _in_order(codes, day, t) -> bool:
-    """Whether rows are already sorted by vehicle code, day and time (ties kept in order,
-    as the stable sort would keep them)."""
-    for i in range(1, codes.size):
+def _bounds_if_in_order(codes, day, t):
+    """:func:`_day_bounds` of rows already sorted by vehicle code, day and time, in the
+    same pass as the test of that order (a repeated time is in order: the stable sort
+    would keep it); an empty array when they are not sorted."""
+    n = codes.size
+    bounds = np.empty(n + 2, dtype=np.int64)
+    bounds[0] = 0
+    k = 1
+    for i in range(1, n):
         if codes[i] != codes[i - 1]:
             if codes[i] < codes[i - 1]:
-                return False
+                return bounds[:0]
+            bounds[k] = i
+            k += 1
             continue
         if day[i] != day[i - 1]:
             if day[i] < day[i - 1]:
-                return False
+                return bounds[:0]
+            bounds[k] = i
+            k += 1
             continue
         if not t[i] - t[i - 1] >= 0:
-            return False
-    return True
+            return bounds[:0]
+    bounds[k] = n
+    return bounds[:k + 1].copy()
 
 
 @njit(cache=True, nogil=True)
@@ -821,12 +843,14 @@ def _process_columns(columns, scenario, source, file, gap_limit) -> PartitionRes
 
     # Vehicle, day, time; the row number last, so a repeated timestamp keeps its first row.
     # Files written in that order (the usual case) skip the sort: it would not move a row.
-    if not _in_order(codes, day, t):
+    bounds = _bounds_if_in_order(codes, day, t)
+    if bounds.size == 0:
         order = np.lexsort((np.arange(n), t, day, codes))
         codes, day = codes[order], day[order]
         t, speed, zg, payload = t[order], speed[order], zg[order], payload[order]
         del order
-    bounds = _day_bounds(codes, day).tolist()
+        bounds = _day_bounds(codes, day)
+    bounds = bounds.tolist()
     # one work space for every vehicle-day of the partition: at 1 Hz and the usual time
     # steps a day's arrays fit in 32 slots per sample; at most 32 MiB (a whole day at
     # 1 Hz), so memory stays within the partition budget (longer days and larger needs

@@ -595,3 +595,29 @@ def test_dwell_window_of_rows_keeps_the_first_of_repeated_times(steps):
     ref = tm.dwell_window(t[keep], v[keep])
     got = tm._dwell_window_of_rows(t, v)
     assert (np.isnan(got[0]) and np.isnan(ref[0])) or got == ref
+
+
+@pytest.mark.parametrize("column, value, row, message", [
+    ("speed", np.nan, 7, "blank value at row 7"),  # pandas NaN: an Arrow null
+    ("speed", -np.inf, 3, "non-finite value -inf at row 3"),
+    ("speed", -0.5, 5, r"negative speed -0\.5\d* m/s at row 5"),
+    ("payload", -1.0, 9, r"negative payload -1(\.0+)? kg at row 9"),
+    ("elevation", np.inf, 2, "non-finite value inf at row 2"),
+    ("grade", 0.35, 4, "grade 35.0 % at row 4 is beyond"),
+    ("grade", -0.31, 6, "grade -31.0 % at row 6 is beyond"),
+])
+def test_bad_value_names_its_column_and_first_row(column, value, row, message):
+    # Hand-made table: the first bad row is where the value was put (a second bad value
+    # later on must not be the one named); rows count from 0.
+    n = 12
+    terrain = "grade" if column == "grade" else "elevation"
+    df = pd.DataFrame({"vehicle": ["A"] * n,
+                       "timestamp": pd.date_range("2030-03-04 06:00", periods=n, freq="s",
+                                                  tz="UTC"),
+                       "speed": np.full(n, 10.0), terrain: np.zeros(n),
+                       "payload": np.full(n, 5e3)})
+    df.loc[row, column] = value
+    df.loc[n - 1, column] = value
+    with pytest.raises(InputError, match=message) as exc:
+        tm.process_table(df, load_scenario(demo_path()), source="p.parquet")
+    assert exc.value.where == column
