@@ -79,6 +79,28 @@ def test_pdf_key_figures_equal_summary(demo_run):
         assert caution in text
 
 
+def test_pdf_break_evens_equal_the_workbook_summary(demo_run):
+    """The break-even depot electricity price and annual distance, which the workbook's
+    Summary sheet states per kWh and per year (summary.json ``break_even``), are in the
+    PDF's break-even table in those terms too, rounded to the shown decimals."""
+    folder, s, text = demo_run
+    cur = s["scenario"]["currency"]
+    be = s["cashflow"]["comparisons"][0]["break_even"]
+    assert _rounds_to(_shown(text, f" {cur}/kWh)", 3),
+                      be["electricity_price_per_kwh"]["value"], 3)
+    assert _rounds_to(_shown(text, " km/year)", 0), be["annual_distance_km"]["value"], 0)
+    # and the workbook's cached Summary values are the same numbers
+    from openpyxl import load_workbook
+
+    ws = load_workbook(folder / "workbook.xlsx", data_only=True)["Summary"]
+    cells = {ws.cell(row=r, column=2).value: ws.cell(row=r, column=4).value
+             for r in range(1, ws.max_row + 1)}
+    assert abs(cells["break_even.electricity_price_per_kwh"]
+               - be["electricity_price_per_kwh"]["value"]) < 1e-9
+    assert abs(cells["break_even.annual_distance_km"]
+               - be["annual_distance_km"]["value"]) < 1e-6
+
+
 def test_html_is_standalone(demo_run):
     folder, _, _ = demo_run
     html = (folder / "report.html").read_text()

@@ -835,6 +835,14 @@ def _break_even_table(result, summary: dict, cur: str, system: str) -> dict:
     if unc is not None and not unc.break_even.empty:
         b = unc.break_even
         key = "key" if "key" in b.columns else "input"
+        # the same break-evens as the workbook's Summary sheet states them (a price per
+        # kWh, a distance a year), beside the study's multiplier or days
+        u = fm.Units(system)
+        absolute = {c["truck"]: c["break_even"] for c in summary["cashflow"]["comparisons"]}
+        also = {"electricity_price": ("electricity_price_per_kwh",
+                                      lambda v: fm.unit_price(v, "kWh", cur, system)),
+                "route.days_per_year": ("annual_distance_km",
+                                        lambda v: f"{u.quantity(v * 1000.0, 'km', 0)}/year")}
         for r in b.itertuples():
             k = getattr(r, key)
             factor = getattr(r, "factor", None)
@@ -842,7 +850,13 @@ def _break_even_table(result, summary: dict, cur: str, system: str) -> dict:
             label = (f"{r.truck}: " if len(unc.trucks) > 1 else "") + r.input
             if r.note:
                 notes.append(f"{label}: {r.note}")
-            rows.append([label, _tornado_input_value(r.value, r.unit, k, cur, system),
+            shown = _tornado_input_value(r.value, r.unit, k, cur, system)
+            if k in also and fm._finite(r.value):
+                name, show = also[k]
+                v = (absolute.get(r.truck) or {}).get(name, {}).get("value")
+                if fm._finite(v):
+                    shown = f"{shown} ({show(v)})"
+            rows.append([label, shown,
                          _tornado_input_value(r.base_value, r.unit, k, cur, system), change])
     else:
         u = fm.Units(system)
