@@ -22,6 +22,14 @@ inverse CDFs in closed form or from a checked polynomial table:
 
 Anything else falls back to the frozen object's own ``rvs`` / ``ppf``.
 
+Speed without changing a bit: the generators write straight into the caller's row where
+NumPy lets them (``out=``), and the arithmetic around Φ, Φ⁻¹ and the power function runs
+in compiled loops (numba) that repeat the array form's operations in the same order
+(no fused multiply-add). Φ (``special.ndtr``), Φ⁻¹ (``special.ndtri``), ``**`` and
+``exp`` stay SciPy's and NumPy's own: NumPy's vectorized ``**`` and ``exp`` differ from
+the C library's in the last bit for some numbers, so a compiled loop calling the C
+library would change the draws.
+
 Inverse of the regularized incomplete beta function
 ---------------------------------------------------
 ``x = I⁻¹(u; a, b)``. Near u = 0, ``I_x(a, b) = x^a g(x) / (a B(a, b))`` with g analytic
@@ -54,6 +62,7 @@ from __future__ import annotations
 import functools
 
 import numpy as np
+from numba import njit
 from scipy import special
 
 __all__ = ["BETA_SHAPES", "DEGREE", "PIECES", "beta_ppf", "draw", "inverse_cdf",
@@ -130,18 +139,24 @@ def draw(dist, n: int, rng: np.random.Generator, out: np.ndarray | None = None
     if form is None:
         return _into(dist.rvs(size=n, random_state=rng), out)
     name, shapes, loc, scale = form
-    if name == "uniform":
-        x = rng.uniform(0.0, 1.0, n)
-    elif name == "triang":
+    if name in ("uniform", "norm", "lognorm"):  # generated in place, then scaled there
+        dest = _destination(out, n)
+        if name == "uniform":
+            rng.random(out=dest)  # uniform(0, 1): 0 + 1·d, the same doubles
+        else:
+            rng.standard_normal(out=dest)
+            if name == "lognorm":
+                np.multiply(dest, shapes[0], out=dest)
+                np.exp(dest, out=dest)
+        return _into(_scaled(dest, scale, loc, dest), out)
+    if name == "triang":
         x = rng.triangular(0, shapes[0], 1, n)
     elif name == "beta":
         x = rng.beta(shapes[0], shapes[1], n)
-    elif name == "norm":
-        x = rng.standard_normal(n)
-    elif name == "lognorm":
-        x = np.exp(shapes[0] * rng.standard_normal(n))
     elif name == "truncnorm" and _truncnorm_plain(*shapes):
-        x = truncnorm_ppf(rng.uniform(size=n), *shapes)
+        dest = _destination(out, n)
+        _truncnorm_into(rng.uniform(size=n), *shapes, scale, loc, dest)
+        return _into(dest, out)
     else:
         return _into(dist.rvs(size=n, random_state=rng), out)
     return _scaled(x, scale, loc, out)
@@ -169,23 +184,36 @@ def inverse_cdf(dist, z: np.ndarray, out: np.ndarray | None = None) -> np.ndarra
     form = standard_form(dist)
     if form is not None and form[0] in ("norm", "lognorm"):
         name, shapes, loc, scale = form
-        return _scaled(z if name == "norm" else np.exp(shapes[0] * z), scale, loc, out)
-    u = special.ndtr(z)
+        if name == "norm":
+            return _scaled(z, scale, loc, out)
+        dest = _destination(out, np.shape(z))
+        np.multiply(z, shapes[0], out=dest)
+        np.exp(dest, out=dest)
+        return _into(_scaled(dest, scale, loc, dest), out)
     if form is None:
-        return _into(dist.ppf(u), out)
+        return _into(dist.ppf(special.ndtr(z)), out)
     name, shapes, loc, scale = form
-    if name == "uniform":
-        x = u
-    elif name == "triang":
-        c = shapes[0]
-        x = np.where(u < c, np.sqrt(c * u), 1 - np.sqrt((1 - c) * (1 - u)))
-    elif name == "beta":
-        x = beta_ppf(u, *shapes)
-    elif name == "truncnorm" and _truncnorm_plain(*shapes):
-        x = truncnorm_ppf(u, *shapes)
-    else:
+    plain = name in ("uniform", "triang") or (name == "beta" and _in_table(*shapes)) or (
+        name == "truncnorm" and _truncnorm_plain(*shapes))
+    if not plain:
+        u = special.ndtr(z)
+        if name == "beta":  # shapes outside the table: the exact inverse
+            return _scaled(special.betaincinv(*shapes, u), scale, loc, out)
         return _into(dist.ppf(u), out)
-    return _scaled(x, scale, loc, out)
+    dest = _destination(out, np.shape(z))
+    flat = dest.reshape(-1)
+    if name == "uniform":
+        special.ndtr(z, out=dest)
+        return _into(_scaled(dest, scale, loc, dest), out)
+    if name == "truncnorm":
+        _truncnorm_into(special.ndtr(np.ravel(z)), *shapes, scale, loc, flat)
+    else:
+        special.ndtr(z, out=dest)  # u, then overwritten with the quantiles
+        if name == "triang":
+            _triangular_inverse(flat, shapes[0], scale, loc, flat)
+        else:
+            _beta_into(flat, *shapes, scale, loc, flat)
+    return _into(dest, out)
 
 
 def _scaled(x: np.ndarray, scale: float, loc: float, out: np.ndarray | None) -> np.ndarray:
@@ -198,10 +226,29 @@ def _scaled(x: np.ndarray, scale: float, loc: float, out: np.ndarray | None) -> 
 
 
 def _into(x, out: np.ndarray | None) -> np.ndarray:
-    if out is None:
+    if out is None or x is out:
         return x
     out[...] = x
     return out
+
+
+def _destination(out: np.ndarray | None, shape) -> np.ndarray:
+    """``out`` when the generators and the compiled loops can write into it (contiguous
+    float64), else a new array (copied into ``out`` by :func:`_into`)."""
+    if (out is not None and out.dtype == np.float64 and out.flags.c_contiguous
+            and out.shape == (shape if isinstance(shape, tuple) else (shape,))):
+        return out
+    return np.empty(shape)
+
+
+@njit(cache=True, nogil=True)
+def _triangular_inverse(u, c, scale, loc, out):
+    """``F⁻¹(u)`` of the standard triangular distribution with mode c, times ``scale``
+    plus ``loc`` (SciPy's formula, ``triang._ppf``), into ``out`` (may be ``u``)."""
+    for i in range(u.shape[0]):
+        v = u[i]
+        x = np.sqrt(c * v) if v < c else 1 - np.sqrt((1 - c) * (1 - v))
+        out[i] = x * scale + loc
 
 
 # --------------------------------------------------------------------------- beta
@@ -249,26 +296,74 @@ def beta_ppf(u, a: float, b: float) -> np.ndarray:
     0.5
     """
     u = np.asarray(u, dtype=float)
-    lo, hi = BETA_SHAPES
-    if not (lo <= a <= hi and lo <= b <= hi):
+    if not _in_table(a, b):
         return special.betaincinv(a, b, u)
+    out = np.empty(u.shape)
+    _beta_into(np.ravel(u), a, b, 1.0, 0.0, out.reshape(-1))
+    return out
+
+
+def _in_table(a: float, b: float) -> bool:
+    lo, hi = BETA_SHAPES
+    return bool(lo <= a <= hi and lo <= b <= hi)
+
+
+def _beta_into(u: np.ndarray, a: float, b: float, scale: float, loc: float,
+               out: np.ndarray) -> None:
+    """:func:`beta_ppf` of the 1-D ``u`` (shapes within :data:`BETA_SHAPES`) times
+    ``scale`` plus ``loc``, into ``out`` (which may be ``u``).
+
+    Two compiled passes around NumPy's power function: the first forms the bases of
+    ``s`` for both halves, NumPy raises them to their powers (its own power function,
+    which differs from the C library's in the last bit for some numbers, so it stays),
+    the second evaluates the table.
+    """
     table = _beta_table(float(a), float(b))
-    valid = (u >= 0) & (u <= 1)  # NaN and outside [0, 1]: NaN, as scipy.stats.beta.ppf
-    if not valid.all():
-        u = np.where(valid, u, _SPLIT)
-    upper = u >= _SPLIT
-    s = np.where(upper, ((1 - u) / (1 - _SPLIT)) ** (1 / b), (u / _SPLIT) ** (1 / a))
-    t = s * PIECES
-    i = np.minimum(t.astype(np.intp), PIECES - 1)
-    r = 2 * (t - i) - 1
-    i += PIECES * upper
-    x = table[DEGREE].take(i)
-    for j in range(DEGREE - 1, -1, -1):  # Horner
-        x *= r
-        x += table[j].take(i)
-    x *= s
-    out = np.clip(np.where(upper, 1 - x, x), 0.0, 1.0)
-    return out if valid.all() else np.where(valid, out, np.nan)
+    lower = np.empty(u.shape[0])
+    upper = np.empty(u.shape[0])
+    _beta_bases(u, _SPLIT, lower, upper)
+    lower **= 1 / a
+    upper **= 1 / b
+    _beta_table_values(u, _SPLIT, lower, upper, table, PIECES, scale, loc, out)
+
+
+@njit(cache=True, nogil=True)
+def _beta_bases(u, split, lower, upper):
+    """The bases of ``s`` on each half, ``u/split`` into ``lower`` and ``(1 − u)/(1 −
+    split)`` into ``upper``; a u that is NaN or outside [0, 1] counts as the split."""
+    for i in range(u.shape[0]):
+        v = u[i]
+        v = v if (v >= 0.0 and v <= 1.0) else split
+        upper[i] = (1 - v) / (1 - split)
+        lower[i] = v / split
+
+
+@njit(cache=True, nogil=True)
+def _beta_table_values(u, split, s_lower, s_upper, table, pieces, scale, loc, out):
+    """x from the table at ``s`` (``s_lower`` or ``s_upper`` as u is below or above the
+    split), clipped to [0, 1] as ``np.clip``, times ``scale`` plus ``loc`` into ``out``
+    (may be ``u``); NaN where u is NaN or outside [0, 1]. Without branches, and with the
+    degree a constant (the Horner loop is unrolled), so that the loop over u runs in
+    vector registers."""
+    for i in range(u.shape[0]):
+        v = u[i]
+        valid = v >= 0.0 and v <= 1.0
+        v = v if valid else split
+        above = v >= split
+        s = s_upper[i] if above else s_lower[i]
+        t = s * pieces
+        k = min(int(t), pieces - 1)
+        r = 2 * (t - k) - 1
+        col = k + pieces * above
+        x = table[DEGREE, col]
+        for j in range(DEGREE - 1, -1, -1):  # Horner
+            x = x * r
+            x = x + table[j, col]
+        x = x * s
+        x = 1 - x if above else x
+        x = 0.0 if x < 0.0 else x  # np.clip(x, 0, 1): x itself at the bounds and if NaN
+        x = 1.0 if x > 1.0 else x
+        out[i] = x * scale + loc if valid else np.nan
 
 
 # --------------------------------------------------------------------------- truncated normal
@@ -302,7 +397,39 @@ def truncnorm_ppf(q, a: float, b: float) -> np.ndarray:
     0.0
     """
     q = np.asarray(q, dtype=float)
-    p = special.ndtr(a) * (1 - q) + special.ndtr(b) * q
-    upper = p > 0.5
-    x = special.ndtri(np.where(upper, special.ndtr(-a) * (1 - q) + special.ndtr(-b) * q, p))
-    return np.clip(np.where(upper, -x, x), a, b)
+    out = np.empty(q.shape)
+    _truncnorm_into(np.ravel(q), a, b, 1.0, 0.0, out.reshape(-1))
+    return out
+
+
+def _truncnorm_into(q: np.ndarray, a: float, b: float, scale: float, loc: float,
+                    out: np.ndarray) -> None:
+    """:func:`truncnorm_ppf` of the 1-D ``q`` times ``scale`` plus ``loc``, into ``out``
+    (not ``q``): a compiled pass for the probabilities, SciPy's ``ndtri`` in place, a
+    compiled pass for the sign, the clip and the scale."""
+    a, b = float(a), float(b)
+    phi = (special.ndtr(a), special.ndtr(b), special.ndtr(-a), special.ndtr(-b))
+    _truncnorm_probability(q, *phi, out)
+    special.ndtri(out, out=out)
+    _truncnorm_finish(q, phi[0], phi[1], a, b, float(scale), float(loc), out)
+
+
+@njit(cache=True, nogil=True)
+def _truncnorm_probability(q, phi_a, phi_b, phi_minus_a, phi_minus_b, out):
+    """Φ(x) below the mean, Φ(−x) above it (the module's formulas), into ``out``."""
+    for i in range(q.shape[0]):
+        v = q[i]
+        p = phi_a * (1 - v) + phi_b * v
+        out[i] = phi_minus_a * (1 - v) + phi_minus_b * v if p > 0.5 else p
+
+
+@njit(cache=True, nogil=True)
+def _truncnorm_finish(q, phi_a, phi_b, a, b, scale, loc, x):
+    """x → −x above the mean, clipped to [a, b] as ``np.clip`` (NaN kept), times
+    ``scale`` plus ``loc``, in place."""
+    for i in range(q.shape[0]):
+        v = q[i]
+        y = -x[i] if phi_a * (1 - v) + phi_b * v > 0.5 else x[i]
+        y = a if y < a else y  # np.clip(y, a, b): y itself at the bounds and if NaN
+        y = b if y > b else y
+        x[i] = y * scale + loc
