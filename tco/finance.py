@@ -39,8 +39,9 @@ from scipy.optimize import brentq
 from tco.report import formatting as fm
 
 __all__ = [
-    "MACRS_GDS_HALF_YEAR", "BreakEven", "CostComparison", "FlowParts", "LoanSchedule",
-    "annuity_payment", "compare_costs", "depreciation_flows",
+    "MACRS_GDS_HALF_YEAR", "BreakEven", "CostComparison", "FlowParts",
+    "LevelizedComparison", "LoanSchedule", "annuity_payment", "compare_costs",
+    "compare_levelized", "depreciation_flows",
     "depreciation_fractions",
     "discount_factors", "find_break_even", "irr", "irr_roots", "IRR_STATUS",
     "levelized_cost", "loan_schedule", "nominal_rate", "payback_year", "present_value",
@@ -630,6 +631,44 @@ def _compare_parts_pass(b_const, b_shapes, b_factors, b_rest, b_scale,
                        discounted[j0:], annuity[j0:])
 
 
+@njit(cache=True, nogil=True, error_model="numpy")  # x/0: inf or NaN, as numpy
+def _compare_parts_levelized(b_const, b_shapes, b_factors, b_rest, b_scale,
+                             c_const, c_shapes, c_factors, c_rest, c_scale,
+                             growth, dist_b, dist_c, pv_difference, levelized,
+                             levelized_base, levelized_difference, simple, discounted):
+    """:func:`_compare_parts_pass`, then the outputs of :func:`compare_levelized` worked
+    out from each block while it is in cache (the same operations, in the same order, as
+    the array form on the results of :func:`compare_costs`). ``dist_b``, ``dist_c``:
+    (m,) or (1,)."""
+    m = simple.shape[0]
+    b = np.empty((b_const.shape[0], _BLOCK))
+    c = np.empty((b_const.shape[0], _BLOCK))
+    v = np.empty(_BLOCK)
+    pv_b = np.empty(_BLOCK)
+    pv_c = np.empty(_BLOCK)
+    pay_s = np.empty(_BLOCK)
+    pay_d = np.empty(_BLOCK)
+    ann = np.empty(_BLOCK)
+    wide_b = dist_b.shape[0] > 1
+    wide_c = dist_c.shape[0] > 1
+    for j0 in range(0, m, _BLOCK):
+        k = min(_BLOCK, m - j0)
+        _fill_block(b_const, b_shapes, b_factors, b_rest, b_scale, j0, k, b)
+        _fill_block(c_const, c_shapes, c_factors, c_rest, c_scale, j0, k, c)
+        _rates_block(growth, j0, k, v)
+        _compare_block(b, c, v, k, pv_b, pv_c, pay_s, pay_d, ann)
+        for i in range(k):
+            j = j0 + i
+            lc_c = pv_c[i] / (dist_c[j if wide_c else 0] * ann[i])
+            lc_b = pv_b[i] / (dist_b[j if wide_b else 0] * ann[i])
+            pv_difference[j] = pv_c[i] - pv_b[i]
+            levelized[j] = lc_c
+            levelized_base[j] = lc_b
+            levelized_difference[j] = lc_c - lc_b
+            simple[j] = np.inf if np.isnan(pay_s[i]) else pay_s[i]
+            discounted[j] = np.inf if np.isnan(pay_d[i]) else pay_d[i]
+
+
 @dataclass(frozen=True)
 class FlowParts:
     """Yearly flows of many series (Monte Carlo draws) kept as parts.
@@ -747,6 +786,90 @@ def compare_costs(baseline, costs, rate, years_first: bool = False) -> CostCompa
     if single:
         return CostComparison(*(float(x[0]) for x in out))
     return CostComparison(*out)
+
+
+class LevelizedComparison(NamedTuple):
+    """Result of :func:`compare_levelized` (arrays of shape (n,)).
+
+    Attributes
+    ----------
+    present_value_difference : ndarray
+        ``pv − pv_baseline``. [currency]
+    levelized_cost, baseline_levelized_cost, levelized_cost_difference : ndarray
+        Present value over the discounted distance, ``pv / (distance · annuity)``, of the
+        compared series and the baseline, and the compared minus the baseline.
+        [currency/m]
+    simple_payback, discounted_payback : ndarray
+        As :class:`CostComparison`, with inf where the savings do not pay back within the
+        period (NaN there). [yr]
+    """
+
+    present_value_difference: np.ndarray
+    levelized_cost: np.ndarray
+    baseline_levelized_cost: np.ndarray
+    levelized_cost_difference: np.ndarray
+    simple_payback: np.ndarray
+    discounted_payback: np.ndarray
+
+
+def compare_levelized(baseline: FlowParts, costs: FlowParts, rate, distance_baseline,
+                      distance, out: LevelizedComparison | None = None
+                      ) -> LevelizedComparison:
+    """:func:`compare_costs` of two :class:`FlowParts` and the levelized costs over a
+    distance that is the same in each year 1..N, in one compiled pass.
+
+    .. math:: LC = \\frac{PV}{d \\sum_{y=1}^{N} (1 + r)^{-y}}
+
+    The numbers are those of the array form on the results of :func:`compare_costs`
+    (``pv − pv_baseline``, ``pv / (distance · annuity)``, ``where(isnan(payback), inf,
+    payback)``), bit for bit, without its (n,) temporaries.
+
+    Parameters
+    ----------
+    baseline, costs : FlowParts
+        Costs by year of the baseline and of the compared series. [currency]
+    rate : float or array of shape (n,)
+        Discount rate per year. [-]
+    distance_baseline, distance : float or array of shape (n,)
+        Distance in each year 1..N of the baseline and of the compared series. [m]
+    out : LevelizedComparison, optional
+        Arrays of shape (n,) to write the results into (contiguous float64); when the
+        inputs are a single series (nothing varies across draws), its values fill them.
+
+    Returns
+    -------
+    LevelizedComparison
+        ``out`` when given.
+
+    Examples
+    --------
+    >>> f = FlowParts(np.array([100.0, 10.0, 10.0]), np.zeros((0, 3)), np.zeros((0, 1)),
+    ...               None, np.ones(3))
+    >>> g = FlowParts(np.array([150.0, 5.0, 5.0]), np.zeros((0, 3)), np.zeros((0, 1)),
+    ...               None, np.ones(3))
+    >>> c = compare_levelized(f, g, 0.0, 2.0, 2.0)
+    >>> float(c.present_value_difference[0]), float(c.levelized_cost[0])
+    (40.0, 40.0)
+    """
+    g = np.atleast_1d(1.0 + np.asarray(rate, dtype=float))
+    if len(baseline.const) != len(costs.const):
+        raise ValueError("the two series have different numbers of years")
+    d_b = np.atleast_1d(np.asarray(distance_baseline, dtype=float))
+    d_c = np.atleast_1d(np.asarray(distance, dtype=float))
+    m = _series_count(baseline.n_series, costs.n_series, g.shape[0], d_b.shape[0],
+                      d_c.shape[0])
+    n = m if out is None else len(out[0])
+    if m not in (1, n):
+        raise ValueError(f"the inputs have {m} series; out has {n}")
+    res = LevelizedComparison(*(np.empty(m) for _ in LevelizedComparison._fields)) \
+        if out is None or m != n else out
+    _compare_parts_levelized(*baseline._kernel_args(m), *costs._kernel_args(m), g, d_b, d_c,
+                             *res)
+    if res is not out and out is not None:  # one series for every draw
+        for into, value in zip(out, res, strict=True):
+            into[...] = value
+        return out
+    return res
 
 
 #: Status codes of :func:`irr`.

@@ -992,51 +992,41 @@ def run_draws(case: Case, overrides: dict) -> dict[int, dict[str, np.ndarray]]:
     n = max((len(v) for v in overrides.values() if np.ndim(v) == 1), default=1)
     if n > 1:
         heap.keep_freed_memory()  # no page faults for each pass's temporaries
-    if n <= DRAWS_PER_CALL:
-        return _run_models(case, overrides)
-    size = -(-n // -(-n // DRAWS_PER_CALL))  # equal calls: no small last one
-    parts = [_run_models(case, {p: v[a:a + size] if np.ndim(v) == 1 else v
-                                for p, v in overrides.items()})
-             for a in range(0, n, size)]
-    return {k: {q: np.concatenate([part[k][q] for part in parts]) for q in parts[0][k]}
-            for k in case.compared}
+    names = [q for q in OUTPUTS if case.emissions_settings is not None
+             or not q.startswith("avoided_")]
+    out = {k: {q: np.empty(n) for q in names} for k in case.compared}
+    size = n if n <= DRAWS_PER_CALL else -(-n // -(-n // DRAWS_PER_CALL))  # equal calls
+    for a in range(0, n, size):
+        _run_models(case, {p: v[a:a + size] if np.ndim(v) == 1 else v
+                           for p, v in overrides.items()},
+                    {k: {q: v[a:a + size] for q, v in o.items()} for k, o in out.items()})
+    return out
 
 
-def _run_models(case: Case, overrides: dict) -> dict[int, dict[str, np.ndarray]]:
-    """:func:`run_draws` in one call of each model."""
+def _run_models(case: Case, overrides: dict, out: dict) -> None:
+    """:func:`run_draws` in one call of each model, into the arrays of ``out`` (as
+    :func:`run_draws` returns them, for the draws of this call)."""
     cost, em_over, ops = case.split(overrides)
-    n = max((len(v) for v in overrides.values() if np.ndim(v) == 1), default=1)
     ref = case.baseline
     # the lean paths: sums over the years (emissions), yearly totals as parts (costs)
-    avoided = {}
     if case.emissions_settings is not None:
         wtw = emissions.totals(case.emission_params, ops, case.years, em_over)
         r = case.ops[ref].truck
-        avoided = {i: tuple(np.broadcast_to(wtw[r][f] - wtw[case.ops[i].truck][f], (n,))
-                            for f in ("wtw", "wtw_market")) for i in case.compared}
+        for i in case.compared:
+            for f, q in (("wtw", "avoided_kg_location"), ("wtw_market", "avoided_kg_market")):
+                np.subtract(wtw[r][f], wtw[case.ops[i].truck][f], out=out[i][q])
         del wtw
     ct = cashflow.compute_totals(case.inputs, cost, case.cost_params)
-    res = {}
     for k in case.compared:
-        # present values and both payback years of the savings in one pass over the years
-        c = fin.compare_costs(ct.flows[ref], ct.flows[k], ct.discount_rate)
-        # levelized: over the discounted distance, the same distance in each year 1..N
-        lc_k = c.pv / (ct.annual_distance[k] * c.annuity)
-        lc_ref = c.pv_baseline / (ct.annual_distance[ref] * c.annuity)
-        r = {
-            "present_value_difference": np.broadcast_to(c.pv - c.pv_baseline, (n,)),
-            "levelized_cost": np.broadcast_to(lc_k, (n,)),
-            "baseline_levelized_cost": np.broadcast_to(lc_ref, (n,)),
-            "levelized_cost_difference": np.broadcast_to(lc_k - lc_ref, (n,)),
-            "simple_payback_year": np.broadcast_to(
-                np.where(np.isnan(c.simple_payback), np.inf, c.simple_payback), (n,)),
-            "discounted_payback_year": np.broadcast_to(
-                np.where(np.isnan(c.discounted_payback), np.inf, c.discounted_payback), (n,)),
-        }
-        if k in avoided:
-            r["avoided_kg_location"], r["avoided_kg_market"] = avoided[k]
-        res[k] = r
-    return res
+        # present values, both payback years of the savings and the levelized costs (over
+        # the discounted distance, the same distance in each year 1..N) in one pass
+        o = out[k]
+        fin.compare_levelized(
+            ct.flows[ref], ct.flows[k], ct.discount_rate, ct.annual_distance[ref],
+            ct.annual_distance[k], out=fin.LevelizedComparison(
+                o["present_value_difference"], o["levelized_cost"],
+                o["baseline_levelized_cost"], o["levelized_cost_difference"],
+                o["simple_payback_year"], o["discounted_payback_year"]))
 
 
 # --------------------------------------------------------------------------- Monte Carlo
