@@ -682,26 +682,60 @@ class CostComparison(NamedTuple):
 @njit(cache=True, nogil=True)
 def _fill_block(const, shapes, factors, rest, scale, j0, k, out):
     """Flows of series ``j0..j0+k-1`` (see :class:`FlowParts`) into the years-first block
-    ``out``; ``rest`` is (N + 1, n), or (N + 1, 0) when there is none."""
+    ``out``; ``rest`` is (N + 1, n), or (N + 1, 0) when there is none.
+
+    Each year's row is ``const``, plus ``w·a`` for each shape with a non-zero weight that
+    year (a one-off shape is zero in all years but one), plus the rest, times the scale
+    when it is not 1, in that order; up to four shapes (and the rest and the scale) are
+    added in one pass over the row, so the row is written once per four shapes.
+    """
     n_groups, n_years = shapes.shape
+    live = np.empty(n_groups, dtype=np.int64)
+    has_rest = rest.shape[1] > 0
     for y in range(n_years):
         row = out[y, :k]
-        row[:] = const[y]
+        m = 0
         for g in range(n_groups):
-            w = shapes[g, y]
-            if w == 0.0:  # a one-off shape is zero in all years but one
-                continue
-            a = factors[g, j0:j0 + k]
-            for i in range(k):
-                row[i] += w * a[i]
-        if rest.shape[1] > 0:
-            r = rest[y, j0:j0 + k]
-            for i in range(k):
-                row[i] += r[i]
+            if shapes[g, y] != 0.0:
+                live[m] = g
+                m += 1
         s = scale[y]
-        if s != 1.0:
+        c0 = const[y]
+        pos = 0
+        first = True
+        while True:
+            take = min(4, m - pos)
+            last = pos + take >= m
+            w0 = shapes[live[pos], y] if take > 0 else 0.0
+            w1 = shapes[live[pos + 1], y] if take > 1 else 0.0
+            w2 = shapes[live[pos + 2], y] if take > 2 else 0.0
+            w3 = shapes[live[pos + 3], y] if take > 3 else 0.0
+            a0 = factors[live[pos], j0:j0 + k] if take > 0 else rest[y, 0:0]
+            a1 = factors[live[pos + 1], j0:j0 + k] if take > 1 else rest[y, 0:0]
+            a2 = factors[live[pos + 2], j0:j0 + k] if take > 2 else rest[y, 0:0]
+            a3 = factors[live[pos + 3], j0:j0 + k] if take > 3 else rest[y, 0:0]
+            r = rest[y, j0:j0 + k] if has_rest else rest[y, 0:0]
+            add_rest = last and has_rest
+            times = last and s != 1.0
             for i in range(k):
-                row[i] *= s
+                x = c0 if first else row[i]
+                if take > 0:
+                    x = x + w0 * a0[i]
+                if take > 1:
+                    x = x + w1 * a1[i]
+                if take > 2:
+                    x = x + w2 * a2[i]
+                if take > 3:
+                    x = x + w3 * a3[i]
+                if add_rest:
+                    x = x + r[i]
+                if times:
+                    x = x * s
+                row[i] = x
+            pos += take
+            first = False
+            if last:
+                break
 
 
 @njit(cache=True, nogil=True)

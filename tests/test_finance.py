@@ -441,6 +441,31 @@ def test_flow_parts_are_formed_as_written():
     np.testing.assert_allclose(flat.years_last(), [const * scale], rtol=1e-15)
 
 
+@pytest.mark.parametrize("n_shapes", [0, 1, 4, 6, 9])
+def test_flow_parts_add_in_the_documented_order(n_shapes):
+    """FlowParts.years_last adds, year by year, c_y, then w·a for each shape with a
+    non-zero weight that year in shape order, then the rest, then multiplies by s_y when
+    it is not 1: the same numbers bit for bit as those steps written here with numpy
+    (shapes with zero years, a scale of 1 in some years, more than one block of series)."""
+    rng = np.random.default_rng(n_shapes)
+    years, n = 7, 1100
+    const = rng.normal(size=years)
+    shapes = rng.normal(size=(n_shapes, years)) * (rng.random((n_shapes, years)) < 0.6)
+    factors = rng.normal(size=(n_shapes, n)) * 1e3
+    rest = rng.normal(size=(years, n))
+    scale = np.where(rng.random(years) < 0.5, 1.0, rng.uniform(0.5, 1.5, years))
+    want = np.empty((years, n))
+    for y in range(years):
+        row = np.full(n, const[y])
+        for g in range(n_shapes):
+            if shapes[g, y] != 0.0:
+                row = row + shapes[g, y] * factors[g]
+        row = row + rest[y]
+        want[y] = row * scale[y] if scale[y] != 1.0 else row
+    got = fin.FlowParts(const, shapes, factors, rest, scale).years_last()
+    np.testing.assert_array_equal(got, want.T)
+
+
 @pytest.mark.parametrize("rate", [0.0, 0.05, -0.02, 0.3])
 def test_compare_costs_annuity_equals_numpy_financial_pv(rate):
     """The annuity factor returned with the comparison is numpy_financial.pv(r, N, -1),
