@@ -217,12 +217,26 @@ def inverse_cdf(dist, z: np.ndarray, out: np.ndarray | None = None) -> np.ndarra
 
 
 def _scaled(x: np.ndarray, scale: float, loc: float, out: np.ndarray | None) -> np.ndarray:
-    """``x * scale + loc`` (in that order, as scipy.stats), into ``out`` when given."""
+    """``x * scale + loc`` (in that order, as scipy.stats), into ``out`` when given
+    (one compiled pass for 1-D float64 arrays)."""
     if out is None:
-        return x * scale + loc
+        if np.ndim(x) != 1 or x.dtype != np.float64:
+            return x * scale + loc
+        out = np.empty(x.shape)
+    if (x.ndim == 1 and out.ndim == 1 and x.shape == out.shape
+            and x.dtype == np.float64 and out.dtype == np.float64):
+        _affine(x, float(scale), float(loc), out)
+        return out
     np.multiply(x, scale, out=out)
     out += loc
     return out
+
+
+@njit(cache=True, nogil=True)
+def _affine(x, scale, loc, out):
+    """``out = x * scale + loc`` (two roundings, as the array form), ``out`` may be ``x``."""
+    for i in range(x.shape[0]):
+        out[i] = x[i] * scale + loc
 
 
 def _into(x, out: np.ndarray | None) -> np.ndarray:
