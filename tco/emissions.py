@@ -567,12 +567,17 @@ def _merge(params: Mapping[str, Any], overrides: Mapping[str, Any] | None) -> di
                              "settings)", where=key)
         p[key] = value
     for key, value in p.items():
-        if _used(key) and np.ndim(value) > 1:
+        if type(value) is not float and _used(key) and np.ndim(value) > 1:
             raise InputError("a parameter must be a number or a 1-D array of draws", where=key)
     for key, lo, hi in (("renewable_share", 0, 1), ("td_loss", 0, 0.999999),
                         ("def_urea_share", 0, 1), ("diesel_blend_share", 0, 1)):
-        v = np.asarray(p.get(_P + key, 0.0), dtype=float)
-        if np.any((v < lo) | (v > hi)):
+        v = p.get(_P + key, 0.0)
+        if type(v) is float:  # (a plain number: the same test without numpy's overhead)
+            out = v < lo or v > hi
+        else:
+            v = np.asarray(v, dtype=float)
+            out = np.any((v < lo) | (v > hi))
+        if out:
             raise InputError(f"must be within {fm.plain(lo * 100)}–{fm.plain(hi * 100)} %",
                              where=_P + key)
     return p
@@ -711,10 +716,11 @@ def _prepare(params, operations, years, overrides):
     years = np.asarray(years)
     if years.ndim != 1 or years.size == 0:
         raise InputError("years must be a non-empty 1-D sequence", where="years")
-    arrays = [np.asarray(v) for k, v in p.items() if _used(k)]
-    arrays += [np.asarray(getattr(op, f)) for op in operations for f in _OP_FIELDS]
+    values = [v for k, v in p.items() if _used(k)]
+    values += [getattr(op, f) for op in operations for f in _OP_FIELDS]
+    shapes = [np.shape(v) for v in values if type(v) is not float]  # (a float is ())
     try:
-        lead = np.broadcast_shapes(*[a.shape for a in arrays if a.ndim == 1])
+        lead = np.broadcast_shapes(*[s for s in shapes if len(s) == 1])
     except ValueError:
         raise InputError("arrays of draws have different lengths", where="overrides") from None
     table = {int(k[len(_P) + 11:]): v for k, v in p.items() if k.startswith(_P + "grid_table.")}
@@ -747,8 +753,10 @@ def _quantities(op: "AnnualOperation", scale) -> dict[str, np.ndarray]:
 
 def _hourly_shape(p: Mapping[str, Any]) -> np.ndarray:
     """The 24 hour-of-day intensity shares, (24,) or (24, n). [-]"""
-    return np.stack(np.broadcast_arrays(
-        *[np.asarray(p[f"{_P}hourly_shape.{h:02d}"], dtype=float) for h in range(24)]))
+    values = [p[f"{_P}hourly_shape.{h:02d}"] for h in range(24)]
+    if all(type(v) is float for v in values):  # plain numbers: one array at once
+        return np.array(values, dtype=float)
+    return np.stack(np.broadcast_arrays(*[np.asarray(v, dtype=float) for v in values]))
 
 
 def _truck_lines(p: Mapping[str, Any], op: "AnnualOperation", q: dict, grid: np.ndarray,

@@ -467,6 +467,15 @@ def test_override_errors():
         em.compute(p, [electric_truck()], YEARS,
                    overrides={"emissions.td_loss": np.zeros(3),
                               "emissions.grid_intensity": np.ones(4) * 1e-7})
+    # plain numbers are checked as arrays are (the shares' bounds, numbers or 1-D arrays)
+    with pytest.raises(InputError, match="td_loss"):
+        em.totals(p, [electric_truck()], YEARS, overrides={"emissions.td_loss": 1.0})
+    with pytest.raises(InputError, match="diesel_blend_share"):
+        em.totals(p, [diesel_truck()], YEARS, overrides={"emissions.diesel_blend_share": -0.1})
+    with pytest.raises(InputError, match="1-D array of draws"):
+        em.totals(p, [electric_truck()], YEARS,
+                  overrides={"emissions.grid_intensity": np.ones((2, 2)) * 1e-7})
+    em.totals(p, [electric_truck()], YEARS, overrides={"emissions.td_loss": 0.999999})
 
 
 # ------------------------------------------------------------------ comparison
