@@ -1152,14 +1152,16 @@ class _Context:
             else "battery_energy"
         per_year = self.q(i, thru) / cap
         with np.errstate(invalid="ignore", divide="ignore"):
-            lives_per_year = np.where(np.isfinite(life), per_year / life, 0.0) + p(
-                f"operations[{i}].calendar_fade") / (1.0 - p(
-                    f"operations[{i}].eol_state_of_health"))
+            # (a finite cycle life given as one number: the same values without np.where)
+            used = per_year / life if isinstance(life, float) and math.isfinite(life) \
+                else np.where(np.isfinite(life), per_year / life, 0.0)
+            lives_per_year = used + p(f"operations[{i}].calendar_fade") / (1.0 - p(
+                f"operations[{i}].eol_state_of_health"))
         m = int(np.prod(np.broadcast_shapes(np.shape(lives_per_year), unit_price.shape[1:])))
         repl = np.empty((N + 1, m))
         done = np.empty(m)  # replacements in the period
         credit = np.empty(m)  # unused life of the battery in use at the end, if replaced
-        _battery_replacements(np.atleast_1d(lives_per_year).astype(float),
+        _battery_replacements(np.ascontiguousarray(np.atleast_1d(lives_per_year), dtype=float),
                               np.ascontiguousarray(unit_price, dtype=float), repl, done,
                               credit)
         out = {"battery_replacement": repl}
