@@ -701,11 +701,15 @@ def totals(params: Mapping[str, Any], operations: Sequence["AnnualOperation"], y
     shape24 = _hourly_shape(p)
     out: dict[str, dict[str, np.ndarray]] = {}
     for op in operations:
-        q = _quantities(op, _days_scale(p, op) * n_years)
+        # the distances only where a line reads them (a diesel truck's CH4 and N2O by
+        # distance) or they are asked for: each is one pass over the draws
+        fields = [f for f in _OP_FIELDS if f in names or f not in ("distance", "payload_distance")
+                  or (f == "distance" and op.powertrain == "diesel")]
+        q = _quantities(op, _days_scale(p, op) * n_years, fields)
         values = _truck_lines(p, op, q, mean_grid, shape24)
         if any(n in FRAMES for n in names):
             values.update(_frames(values))
-        values["distance"], values["payload_distance"] = q["distance"], q["payload_distance"]
+        values.update({f: q[f] for f in ("distance", "payload_distance") if f in q})
         out[op.truck] = {n: np.broadcast_to(values[n][..., 0], lead) for n in names}
     return out
 
@@ -744,11 +748,12 @@ def _days_scale(p: Mapping[str, Any], op: "AnnualOperation"):
     return _col(days) / op.operating_days
 
 
-def _quantities(op: "AnnualOperation", scale) -> dict[str, np.ndarray]:
-    """An operation's yearly quantities as columns, times ``scale``. A quantity that is
-    zero (a diesel truck's electricity) stays one zero, not one per draw."""
+def _quantities(op: "AnnualOperation", scale, fields=_OP_FIELDS) -> dict[str, np.ndarray]:
+    """An operation's yearly quantities (``fields`` of them) as columns, times ``scale``. A
+    quantity that is zero (a diesel truck's electricity) stays one zero, not one per
+    draw."""
     return {f: _col(v) * scale if np.ndim(v) or v != 0 else _col(0.0)
-            for f in _OP_FIELDS for v in [getattr(op, f)]}
+            for f in fields for v in [getattr(op, f)]}
 
 
 def _hourly_shape(p: Mapping[str, Any]) -> np.ndarray:
