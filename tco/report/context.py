@@ -815,7 +815,12 @@ def _uncertainty_tables(result, cur: str, system: str = "metric") -> list[dict]:
                                                                   "P90"], "rows": rows,
                    "note": f"{fm.count(unc.draws)} draws, seed {unc.seed}. P10, P50, P90: the "
                            "values that 10 %, 50 % and 90 % of the draws fall below."})
-    events = {"cheaper": "is cheaper than the " + unc.baseline}
+    events = {"cheaper": "is cheaper than the " + unc.baseline,
+              "pays_back_simple": "pays back its extra cost within the period",
+              "pays_back_discounted": "pays back its extra cost within the period, "
+                                      "discounted",
+              "avoids_emissions_location": "avoids emissions (location-based)",
+              "avoids_emissions_market": "avoids emissions (market-based)"}
     prows = [[f"The {r.truck} " + events.get(r.event, r.event.replace("_", " ")),
               fm.percent(r.probability, 1), "± " + fm.percent(r.standard_error, 1)]
              for r in unc.probabilities.itertuples()]
