@@ -124,3 +124,21 @@ def test_charts_ahead_does_nothing_in_a_batch_worker(monkeypatch):
     ahead = C.ChartsAhead()
     ahead(object())  # not even looked at
     assert ahead.keys == frozenset() and ahead.take() == {}
+
+
+def test_financing_irr_reads_na_when_the_savings_never_recover_the_cost():
+    """A negative rate of return on the financed extra cost means its undiscounted
+    savings never pay it back (for flows that start with the outlay, NPV at 0 % < 0):
+    the table says so in words, as the key figure does; a positive rate is shown."""
+    from tco.report.context import _financing_table
+
+    truck = {"method": "loan", "after_tax_cost_of_debt": 0.055,
+             "present_value_at_cost_of_debt": 0.0, "present_value_as_financed": 100.0}
+    rows = {}
+    for irr in (-0.319, 0.159):
+        cf = {"financing": {"trucks": {"A": truck}, "comparisons": [
+            {"truck": "B", "baseline": "A", "irr_as_financed": irr,
+             "present_value_difference_as_financed": 261591.0}]}}
+        rows[irr] = _financing_table(cf, "USD")["rows"][-1][1]
+    assert rows[-0.319] == "n/a (the savings never recover the extra cost)"
+    assert rows[0.159] == "15.9 %"

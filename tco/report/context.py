@@ -1129,9 +1129,13 @@ def _financing_table(cashflow: dict, cur: str) -> dict | None:
         irr = c.get("irr_as_financed")
         rows.append([f"{c['truck']} − {c['baseline']}: present value difference as financed "
                      f"[{cur}]", fmt_number(c.get("present_value_difference_as_financed"))])
+        # a negative rate means the undiscounted savings never recover the extra cost:
+        # "n/a" with that reason, as the key figure's IRR (no payback year is known here)
         rows.append([f"{c['truck']} − {c['baseline']}: IRR as financed (return on equity)",
-                     fm.irr_text(irr, c.get("irr_note_as_financed")
-                                 or "the flows have no meaningful rate of return")])
+                     fm.irr_text(irr, None if fm._finite(irr) else (
+                         c.get("irr_note_as_financed")
+                         or "the flows have no meaningful rate of return"),
+                                 None, check_payback=True)])
     return {"title": "Financing, shown apart", "columns": ["Figure", "Value"], "rows": rows,
             "note": "Positive: the loan or lease costs more than paying cash. The financing's "
                     "flows are the net cost as financed minus the net cost paid in cash, "
