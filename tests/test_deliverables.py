@@ -101,6 +101,23 @@ def test_pdf_break_evens_equal_the_workbook_summary(demo_run):
                - be["annual_distance_km"]["value"]) < 1e-6
 
 
+def test_workbook_summary_gives_each_finding_once(demo_run):
+    """The demo's aged-battery findings are warnings: the workbook's Summary sheet reads
+    each once (in its feasibility block), as the report does, while summary.json keeps
+    them among its warnings."""
+    from openpyxl import load_workbook
+
+    folder, s, _ = demo_run
+    ws = load_workbook(folder / "workbook.xlsx", data_only=True)["Summary"]
+    cells = [c.value for row in ws.iter_rows() for c in row if isinstance(c.value, str)]
+    findings = [w.split(": ", 1)[1] for w in s["warnings"]
+                if w.startswith("Electric tractor: ")]
+    assert len(findings) >= 2
+    for sentence in findings:
+        assert sum(sentence in c for c in cells) == 1, sentence
+    assert any(c.startswith("Other warnings") for c in cells)
+
+
 def test_html_is_standalone(demo_run):
     folder, _, _ = demo_run
     html = (folder / "report.html").read_text()

@@ -122,7 +122,14 @@ class SummarySheet:
         row = self._comparison_values(row + 1)
         row = self._financing(row + 1)
         row = self._feasibility(row + 1)
-        row = self._text_list(row + 1, "Warnings", self.summary.get("warnings", []))
+        # a finding that is a warning is read once, in the feasibility block above (as in
+        # the report); summary.json keeps every warning
+        shown = getattr(self, "_finding_texts", [])
+        others = [w for w in self.summary.get("warnings", [])
+                  if not any(w in t or w.split(": ", 1)[-1] in t for t in shown)]
+        row = self._text_list(row + 1, "Other warnings (the findings above are not repeated)"
+                              if len(others) < len(self.summary.get("warnings", []))
+                              else "Warnings", others)
         row = self._text_list(row + 1, "How the purchase case was read",
                               self.summary.get("cashflow", {}).get("assumptions", []))
         row = self._text_list(row + 1, "Emissions cautions",
@@ -222,6 +229,7 @@ class SummarySheet:
         ws = self.ws_su
         _section(ws, row, "Feasibility on the duty cycle")
         row += 1
+        self._finding_texts = []
         for name in self.trucks:
             f = self.summary.get("trucks", {}).get(name, {}).get("feasibility", {})
             texts = []
@@ -245,7 +253,8 @@ class SummarySheet:
                       "feasible" if f.get("feasible", True) else "not feasible")
             row += 1
             for key, ok, text in texts:
-                safe_text(ws.cell(row=row, column=1), f"  {key}")
+                self._finding_texts.append(text or "")
+                safe_text(ws.cell(row=row, column=1), f"  {key.replace('_', ' ')}")
                 safe_text(ws.cell(row=row, column=2),
                           ok if isinstance(ok, str) else "ok" if ok else "check")
                 self._wrapped(row, 3, 4 + len(self.trucks), text)
