@@ -107,11 +107,17 @@ def browser():
         b.close()
 
 
+def _open(browser, path, width: int, height: int):
+    """A new page of ``width`` × ``height`` CSS px showing the report at ``path``."""
+    page = browser.new_page(viewport={"width": width, "height": height})
+    page.goto(Path(path).as_uri())
+    return page
+
+
 @pytest.mark.parametrize("width", [1280, 390])
 def test_nothing_overflows_the_window(report, browser, width):
     ctx, path = report
-    page = browser.new_page(viewport={"width": width, "height": 900})
-    page.goto(Path(path).as_uri())
+    page = _open(browser, path, width, 900)
     assert page.evaluate("document.documentElement.scrollWidth") <= width
     assert page.evaluate(OVERFLOW_JS) == []
     # the text column uses the window up to a reading measure, not a fixed narrow column
@@ -126,8 +132,7 @@ def test_nothing_overflows_the_window(report, browser, width):
 @pytest.mark.parametrize("width", [390, 1280])
 def test_no_figure_split_from_its_unit(report, browser, width):
     ctx, path = report
-    page = browser.new_page(viewport={"width": width, "height": 900})
-    page.goto(Path(path).as_uri())
+    page = _open(browser, path, width, 900)
     found = page.evaluate(SPLIT_FIGURES_JS)
     assert found["checked"] >= 250  # the demo's tables, cards and lists are measured
     assert found["split"] == []
@@ -140,8 +145,7 @@ def test_no_figure_split_from_its_unit(report, browser, width):
 @pytest.mark.parametrize("width", [1280, 390])
 def test_navigation_links_reach_their_sections(report, browser, width):
     ctx, path = report
-    page = browser.new_page(viewport={"width": width, "height": 800})
-    page.goto(Path(path).as_uri())
+    page = _open(browser, path, width, 800)
     links = page.locator("nav.contents a")
     n = links.count()
     assert n >= 8
@@ -161,8 +165,7 @@ def test_navigation_links_reach_their_sections(report, browser, width):
 
 def test_key_figures_present_and_verdict_once(report, browser):
     ctx, path = report
-    page = browser.new_page(viewport={"width": 1280, "height": 900})
-    page.goto(Path(path).as_uri())
+    page = _open(browser, path, 1280, 900)
     text = page.inner_text("body")
     for fig in ctx["key_figures"]:
         assert fig["value"] in text, fig

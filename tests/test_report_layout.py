@@ -27,26 +27,31 @@ PAGE_H = 297 * MM
 NS = "{http://www.w3.org/1999/xhtml}"
 
 
-@pytest.fixture(scope="module")
-def demo_pdf(tmp_path_factory):
-    from tco.pipeline import evaluate
+def _print_pdf(result, folder):
+    """The result's report as a print PDF in ``folder``: (context, html, PDF, pages of
+    pdftotext's word boxes)."""
     from tco.report.context import build_context
     from tco.report.html import render_html
     from tco.report.pdf import render_pdf
     from tco.report.summary import build_summary
+
+    ctx = build_context(result, build_summary(result))
+    html = render_html(ctx, for_print=True, page_size="A4")
+    pdf = render_pdf(html, folder / "report.pdf")
+    bbox = folder / "bbox.html"
+    subprocess.run(["pdftotext", "-bbox-layout", str(pdf.path), str(bbox)], check=True)
+    return ctx, html, pdf, ET.parse(bbox).getroot().findall(f".//{NS}page")
+
+
+@pytest.fixture(scope="module")
+def demo_pdf(tmp_path_factory):
+    from tco.pipeline import evaluate
     from tco.resources import demo_path
     from tco.scenario import load_scenario
 
     loaded = load_scenario(demo_path())
     loaded.scenario.uncertainty.draws = 2000  # the tables have the same shape at 10,000
-    result = evaluate(loaded)
-    ctx = build_context(result, build_summary(result))
-    html = render_html(ctx, for_print=True, page_size="A4")
-    folder = tmp_path_factory.mktemp("layout")
-    pdf = render_pdf(html, folder / "report.pdf")
-    bbox = folder / "bbox.html"
-    subprocess.run(["pdftotext", "-bbox-layout", str(pdf.path), str(bbox)], check=True)
-    pages = ET.parse(bbox).getroot().findall(f".//{NS}page")
+    ctx, html, pdf, pages = _print_pdf(evaluate(loaded), tmp_path_factory.mktemp("layout"))
     text = subprocess.run(["pdftotext", str(pdf.path), "-"], check=True,
                           capture_output=True, text=True).stdout
     return {"ctx": ctx, "html": html, "pages": pages, "text": text, "count": pdf.pages}
@@ -349,10 +354,6 @@ def four_truck_pdf(tmp_path_factory):
     cost by year and the present value by cost line then have 8 columns (the line, four
     trucks, three differences), more than a portrait page holds (context.WIDE_COLUMNS)."""
     from tco.pipeline import evaluate
-    from tco.report.context import build_context
-    from tco.report.html import render_html
-    from tco.report.pdf import render_pdf
-    from tco.report.summary import build_summary
     from tco.resources import demo_path
     from tco.scenario import load_scenario
 
@@ -364,14 +365,7 @@ def four_truck_pdf(tmp_path_factory):
         twin.name = t.name + " B"
         s.trucks.append(twin)
     s.depot.chargers = 2  # managed charging: one charger per electric truck
-    result = evaluate(loaded)
-    ctx = build_context(result, build_summary(result))
-    html = render_html(ctx, for_print=True, page_size="A4")
-    folder = tmp_path_factory.mktemp("wide")
-    pdf = render_pdf(html, folder / "report.pdf")
-    bbox = folder / "bbox.html"
-    subprocess.run(["pdftotext", "-bbox-layout", str(pdf.path), str(bbox)], check=True)
-    pages = ET.parse(bbox).getroot().findall(f".//{NS}page")
+    ctx, _, pdf, pages = _print_pdf(evaluate(loaded), tmp_path_factory.mktemp("wide"))
     return {"ctx": ctx, "pages": pages, "path": pdf.path}
 
 
