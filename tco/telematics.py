@@ -1046,6 +1046,34 @@ def _run_dask(client, files, root, scenario, gap_limit, progress):
     return out
 
 
+def _process_reading_ahead(files, names, scenario, gap_limit, progress) -> list:
+    """:func:`process_partition` on each file in order, the next file read and checked
+    on a second thread while this one's vehicle-days are driven (pyarrow decodes and the
+    compiled checks run without Python's lock, so on two cores the reading hides behind
+    the work). Results and errors come in file order, as one file at a time would give
+    them; at most two partitions' columns are held at once."""
+    from concurrent.futures import ThreadPoolExecutor
+
+    parts = []
+    with ThreadPoolExecutor(1, thread_name_prefix="tco-read") as reader:
+        ahead = reader.submit(_read_partition, files[0], names[0]) if files else None
+        for i, f in enumerate(files):
+            columns = ahead.result()
+            ahead = (reader.submit(_read_partition, files[i + 1], names[i + 1])
+                     if i + 1 < len(files) else None)
+            try:
+                parts.append(PartitionResult([], [], 0) if columns is None else
+                             _process_columns(columns, scenario, names[i], f, gap_limit))
+            except BaseException:
+                if ahead is not None:
+                    ahead.cancel()
+                raise
+            del columns
+            if progress is not None:
+                progress(i + 1, len(files))
+    return parts
+
+
 def process(dataset, loaded_scenario, scheduler: str | None = None,
             local_workers: int | None = None, memory_limit=None,
             progress: Callable[[int, int], None] | None = None,
@@ -1139,11 +1167,7 @@ def process(dataset, loaded_scenario, scheduler: str | None = None,
         # freed arrays reused for the next partition's, not mapped and faulted in afresh
         # (the same numbers; see tco.heap)
         heap.keep_freed_memory()
-        parts = []
-        for i, f in enumerate(files, start=1):
-            parts.append(process_partition(f, scenario, root=root, gap_limit=gap_limit))
-            if progress is not None:
-                progress(i, len(files))
+        parts = _process_reading_ahead(files, names, scenario, gap_limit, progress)
         backend = "single process"
     else:
         from distributed import Client

@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import math
 import socket
+import time
 
 import numpy as np
 import pandas as pd
@@ -621,3 +622,50 @@ def test_bad_value_names_its_column_and_first_row(column, value, row, message):
     with pytest.raises(InputError, match=message) as exc:
         tm.process_table(df, load_scenario(demo_path()), source="p.parquet")
     assert exc.value.where == column
+
+
+def test_reading_ahead_gives_each_partition_in_order(tmp_path, monkeypatch):
+    """One process reads the next partition on a second thread while it works on one: the
+    rows equal process_partition on each file in turn, and of two bad partitions the
+    first in file order is the one reported (as one file at a time would), even though
+    the second was read while the first was being worked on."""
+    loaded = write_scenario(tmp_path)
+    folder = tmp_path / "ok"
+    files = tm.write_example_dataset(folder, vehicles=2, days=2, seed=7, trips=1,
+                                     files_per_day=2)
+    res = tm.process(folder, loaded)
+    one_by_one = [tm.process_partition(f, loaded.scenario, root=folder).rows
+                  for f in tm.find_partitions(folder)[1]]
+    assert len(files) >= 3
+    expected = pd.concat(one_by_one, ignore_index=True)
+    assert len(expected) == len(res.vehicle_days) == 2 * 2 * 2  # vehicles × days × trucks
+    key = ["vehicle", "day", "truck"]
+    pd.testing.assert_frame_equal(
+        res.vehicle_days.sort_values(key).reset_index(drop=True),
+        expected.sort_values(key).reset_index(drop=True), check_exact=True)
+    bad = tmp_path / "bad"
+    # a fails while its vehicle-days are driven (a stand-in fault), after b, itself
+    # unreadable, has been read on the other thread: a's error is the one reported
+    first = write(bad / "a.parquet", day_frame())
+    write(bad / "b.parquet", day_frame(vehicle="B1").drop(columns="speed"))
+    read, drive = [], tm._process_columns
+    real_read = tm._read_partition
+
+    def reading(path, name, threads=True):
+        read.append(name)
+        return real_read(path, name, threads)
+
+    def driving(columns, scenario, name, path, gap_limit):
+        if name == "a.parquet":
+            deadline = time.monotonic() + 30
+            while len(read) < 2 and time.monotonic() < deadline:  # b's reading started
+                time.sleep(0.01)
+            raise InputError("stand-in fault", file=path, where="speed")
+        return drive(columns, scenario, name, path, gap_limit)
+
+    monkeypatch.setattr(tm, "_read_partition", reading)
+    monkeypatch.setattr(tm, "_process_columns", driving)
+    with pytest.raises(InputError, match="stand-in fault") as info:
+        tm.process(bad, loaded)
+    assert read == ["a.parquet", "b.parquet"]
+    assert_one_line(info.value, file=first, where="speed")
