@@ -97,10 +97,7 @@ def _limits(quantity: str, basis: str) -> tuple[float, float]:
 def _in_unit(value_si: float, scale: float) -> str:
     """A limit [SI] written in the row's own unit, to six significant digits (the unit's
     scale can leave a last-bit remainder such as 10.000000000000002)."""
-    v = value_si / scale
-    if v:
-        v = round(v, 5 - int(math.floor(math.log10(abs(v)))))
-    return fm.plain(v)
+    return fm.plain(value_si / scale, significant=6)
 
 
 _SET_NAME = re.compile(r"^[A-Za-z0-9_.\-]+$")
