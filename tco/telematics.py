@@ -357,10 +357,8 @@ def process_partition(path, scenario, root=None, gap_limit: float = GAP_LIMIT,
     """
     path = Path(path)
     name = path.relative_to(root).as_posix() if root is not None else path.name
-    columns = _read_partition(path, name, threads)
-    if columns is None:
-        return PartitionResult([], [], 0)
-    return _process_columns(columns, scenario, name, path, gap_limit)
+    return _process_columns(_read_partition(path, name, threads), scenario, name, path,
+                            gap_limit)
 
 
 def _read_partition(path: Path, name: str, threads: bool = True):
@@ -667,7 +665,6 @@ class _Runner:
         # (tco.energy.vehicle_parameters at any valid elevation; the density is replaced)
         self.vehicle = energy.vehicle_parameters(tk.truck, ambient, 0.0)
         self.stream = kernel.TraceStream(dt, self.vehicle, tk.diesel, tk.electric)
-        self.curb_mass = float(tk.truck.body.curb_mass)
         self.soc = np.empty(0)
 
     def drive(self, day: stints.PreparedDay, air_density: float) -> dict:
@@ -827,7 +824,10 @@ def _workspace(slots: int) -> np.ndarray:
 
 def _process_columns(columns, scenario, source, file, gap_limit) -> PartitionResult:
     """:func:`process_table` on the validated columns of :func:`_read_columns` (which
-    the caller may hold without the table, to keep memory down)."""
+    the caller may hold without the table, to keep memory down); None (an empty
+    partition, :func:`_read_partition`) gives an empty result."""
+    if columns is None:
+        return PartitionResult([], [], 0)
     scenario = getattr(scenario, "scenario", scenario)
     gap_limit = float(gap_limit)
     if not gap_limit > 0:
@@ -1062,8 +1062,7 @@ def _process_reading_ahead(files, names, scenario, gap_limit, progress) -> list:
             ahead = (reader.submit(_read_partition, files[i + 1], names[i + 1])
                      if i + 1 < len(files) else None)
             try:
-                parts.append(PartitionResult([], [], 0) if columns is None else
-                             _process_columns(columns, scenario, names[i], f, gap_limit))
+                parts.append(_process_columns(columns, scenario, names[i], f, gap_limit))
             except BaseException:
                 if ahead is not None:
                     ahead.cancel()
