@@ -104,6 +104,37 @@ def _cpu_seconds() -> float:
     return r.ru_utime + r.ru_stime
 
 
+class _Pinned:
+    """Run every thread of this process, and the threads it starts, on ``cpus`` only
+    (Linux affinity, thread by thread: a process-wide call reaches only the calling
+    thread, and pyarrow's pool threads exist already); restore the old sets on exit."""
+
+    def __init__(self, cpus):
+        self.cpus, self.old = set(cpus), {}
+
+    def __enter__(self):
+        for tid in (int(t) for t in os.listdir("/proc/self/task")):
+            try:
+                self.old[tid] = os.sched_getaffinity(tid)
+                os.sched_setaffinity(tid, self.cpus)
+            except OSError:  # the thread ended meanwhile
+                pass
+        return self
+
+    def __exit__(self, *exc):
+        for tid, cpus in self.old.items():
+            try:
+                os.sched_setaffinity(tid, cpus)
+            except OSError:
+                pass
+        for tid in (int(t) for t in os.listdir("/proc/self/task")):
+            if tid not in self.old:  # started while pinned (a reader thread kept alive)
+                try:
+                    os.sched_setaffinity(tid, self.old[os.getpid()])
+                except (OSError, KeyError):
+                    pass
+
+
 def _max_rel_diff(a, b) -> float:
     worst = 0.0
     for name in ("vehicle_days", "vehicles"):
@@ -262,17 +293,41 @@ def main() -> None:
               f"{rows / t_dask / 1e6:.2f} M samples/s; speed-up {ratio:.2f}× the single "
               f"process (median of {len(ratios)} rounds; target ≥ 1.7×); cluster start + "
               f"warm-up {t_start:.1f} s")
-        # CPU time does not depend on how busy the machine is: what two idle cores could give
+        # CPU time does not depend on how busy the machine is. A Dask run on n cores
+        # cannot end before its workers' CPU time / n, so against the single process it is
+        # at most n × single wall / Dask CPU; the single process itself keeps
+        # single CPU / single wall cores busy (its read-ahead thread and pyarrow's pool).
         c_single, c_dask = statistics.median(c_singles), statistics.median(c_dasks)
-        print(f"CPU time (medians): single process {c_single:.1f} s (pyarrow's threads "
-              f"included), Dask workers {c_dask:.1f} s summed; on {args.workers} idle cores "
-              f"the speed-up could be at most {args.workers * c_single / c_dask:.2f}× "
-              "(scheduling and the client's combining not counted)")
+        cores = len(os.sched_getaffinity(0))
+        n = min(args.workers, cores)
+        print(f"CPU time (medians): single process {c_single:.1f} s in {t_single:.1f} s, so "
+              f"{c_single / t_single:.2f} cores busy (its reading thread and pyarrow's "
+              f"included); Dask workers {c_dask:.1f} s summed. With {n} of this machine's "
+              f"{cores} cores, Dask can be at most {n} × {t_single:.1f} s / {c_dask:.1f} s = "
+              f"{n * t_single / c_dask:.2f}× the single process (measured {ratio:.2f}×, "
+              f"{ratio / (n * t_single / c_dask):.0%} of that bound); with workers as cheap as "
+              f"the single process and one core each, at most "
+              f"{n * t_single / c_single:.2f}×")
         for w in sorted(peaks):
             print(f"  worker {w}: peak RSS {peaks[w] / MB:,.0f} MB of its "
                   f"{limits.get(w, limit) / MB:,.0f} MB limit")
         print(f"results identical: {_identical(single, dask_res)} "
               f"(largest relative difference {_max_rel_diff(single, dask_res):.1e})")
+
+        # ---- scale-out on this machine, for information: the single process with all
+        # its threads on one core (reading and driving take turns), and one Dask worker,
+        # each against the two-worker runs above
+        with _Pinned(sorted(os.sched_getaffinity(0))[:1]):
+            t_pins = [time_single() for _ in range(args.repeat)]
+        t_pin = statistics.median(t_pins)
+        t_ones, _, _, _, _, one_res, c_ones, _ = _warm_cluster(
+            1, limit, data, warm, loaded, TUNED_MALLOC, repeat=args.repeat)
+        t_one = statistics.median(t_ones)
+        print(f"scale-out: single process on one core {t_pin:.1f} s (median of "
+              f"{len(t_pins)}), Dask {args.workers} workers {t_pin / t_dask:.2f}× it; Dask one "
+              f"worker {t_one:.1f} s (CPU {statistics.median(c_ones):.1f} s), {args.workers} "
+              f"workers {t_one / t_dask:.2f}× one worker; identical: "
+              f"{_identical(single, one_res)}")
 
         # ---- the same with Dask's default worker malloc setting (for information)
         t_defs, _, _, peaks_def, _, _, _, _ = _warm_cluster(args.workers, limit, data, warm, loaded,
