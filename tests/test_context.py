@@ -139,6 +139,9 @@ def test_financing_irr_reads_na_when_the_savings_never_recover_the_cost():
         cf = {"financing": {"trucks": {"A": truck}, "comparisons": [
             {"truck": "B", "baseline": "A", "irr_as_financed": irr,
              "present_value_difference_as_financed": 261591.0}]}}
-        rows[irr] = _financing_table(cf, "USD")["rows"][-1][1]
+        table = _financing_table(cf, "USD")
+        assert table["columns"] == ["Figure", "A", "B"]
+        assert table["rows"][-1][1] == "baseline"
+        rows[irr] = table["rows"][-1][2]
     assert rows[-0.319] == "n/a (the savings never recover the extra cost)"
     assert rows[0.159] == "15.9 %"

@@ -1138,18 +1138,31 @@ def test_every_cost_line_has_a_workbook_formula(demo):
 
 def test_financing_values_agree_with_the_summary(demo, demo_xlsx):
     """The Summary sheet's financing block shows the same figures as summary.json (one
-    figure, one value everywhere); the loans of the demo are at the borrowing rate, so
+    figure, one value everywhere), one column per truck under a header row, each row
+    named by its summary.json key; the loans of the demo are at the borrowing rate, so
     each is worth 0 against paying cash (a loan at its own rate has zero NPV)."""
     _, summary = demo
     f = summary["cashflow"]["financing"]
     ws = openpyxl.load_workbook(demo_xlsx)["Summary"]
-    shown = {str(ws.cell(r, 1).value): ws.cell(r, 3).value for r in range(1, ws.max_row + 1)}
+    keys = {str(ws.cell(r, 2).value): r for r in range(1, ws.max_row + 1)}
+    header = keys["method"] - 1
+    names = [ws.cell(header, c).value for c in range(3, 3 + len(summary["trucks"]))]
+    assert ws.cell(header, 1).value == "Figure" and set(names) == set(summary["trucks"])
+    col = {n: 3 + i for i, n in enumerate(names)}
+
+    def shown(key, name):
+        return ws.cell(keys[key.rsplit(".", 1)[-1]], col[name]).value
+
     for name, t in f["trucks"].items():
-        assert shown[f"{name}: present value as financed (equity view)"] == pytest.approx(
+        assert shown("trucks.method", name) == t["method"]
+        assert shown("trucks.present_value_as_financed", name) == pytest.approx(
             t["present_value_as_financed"], rel=1e-12)
-        key = (f"{name}: {t['method']} against paying cash, PV at the after-tax cost of debt "
-               "(positive: costs more)")
-        assert shown[key] == 0
+        assert shown("trucks.after_tax_cost_of_debt", name) == pytest.approx(
+            t["after_tax_cost_of_debt"], rel=1e-12)
+        assert shown("trucks.present_value_at_cost_of_debt", name) == 0
     c = f["comparisons"][0]
-    assert shown[f"{c['truck']} − {c['baseline']}: IRR as financed (return on equity)"] == \
-        pytest.approx(c["irr_as_financed"], rel=1e-12)
+    assert shown("comparisons.irr_as_financed", c["baseline"]) == "baseline"
+    assert shown("comparisons.irr_as_financed", c["truck"]) == pytest.approx(
+        c["irr_as_financed"], rel=1e-12)
+    assert shown("comparisons.present_value_difference_as_financed", c["truck"]) == \
+        pytest.approx(c["present_value_difference_as_financed"], rel=1e-12)

@@ -993,7 +993,8 @@ def _tables(result, u: DisplayUnits, summary: dict) -> list[dict]:
                            + ("every truck paid in cash (unlevered; financing below)."
                               if view == "unlevered" else "loans and leases included "
                               "(as financed).")})
-    fin_table = _financing_table(summary["cashflow"], cur)
+    fin_table = _financing_table(summary["cashflow"], cur,
+                                 [m.name for m in cf.trucks])
     if fin_table is not None:
         tables.append(fin_table)
     # present value by line: human labels, a total and the difference to the baseline
@@ -1112,31 +1113,40 @@ def _appendix(result, summary: dict, u) -> dict:
     return appendix
 
 
-def _financing_table(cashflow: dict, cur: str) -> dict | None:
-    """Loans and leases shown apart from the headline (None when every truck pays cash)."""
+def _financing_table(cashflow: dict, cur: str, names: list[str] | None = None) -> dict | None:
+    """Loans and leases shown apart from the headline, one column per truck (None when
+    every truck pays cash); ``names`` orders the columns (default: financed trucks first,
+    then the compared ones)."""
+    from tco.report.summary_sections import financing_rows
+
     f = cashflow.get("financing") or {}
-    trucks = f.get("trucks") or {}
-    if not trucks:
+    if not f.get("trucks"):
         return None
+    if names is None:
+        names = list(f["trucks"])
+        for c in f.get("comparisons") or []:
+            names += [n for n in (c["baseline"], c["truck"]) if n not in names]
     rows = []
-    for name, t in trucks.items():
-        rows.append([f"{name}: {t['method']} against paying cash, PV at the after-tax cost "
-                     f"of debt {fm.percent(t['after_tax_cost_of_debt'], 2)} [{cur}]",
-                     fmt_number(round(t["present_value_at_cost_of_debt"]) + 0.0)])
-        rows.append([f"{name}: present value as financed (equity view) [{cur}]",
-                     fmt_number(t["present_value_as_financed"])])
-    for c in f.get("comparisons") or []:
-        irr = c.get("irr_as_financed")
-        rows.append([f"{c['truck']} − {c['baseline']}: present value difference as financed "
-                     f"[{cur}]", fmt_number(c.get("present_value_difference_as_financed"))])
-        # a negative rate means the undiscounted savings never recover the extra cost:
-        # "n/a" with that reason, as the key figure's IRR (no payback year is known here)
-        rows.append([f"{c['truck']} − {c['baseline']}: IRR as financed (return on equity)",
-                     fm.irr_text(irr, None if fm._finite(irr) else (
-                         c.get("irr_note_as_financed")
-                         or "the flows have no meaningful rate of return"),
-                                 None, check_payback=True)])
-    return {"title": "Financing, shown apart", "columns": ["Figure", "Value"], "rows": rows,
+    for r in financing_rows(f, names):
+        cells = []
+        for n in names:
+            v = r["values"][n]
+            if isinstance(v, str):
+                cells.append(v)
+            elif r["kind"] == "money":
+                cells.append(fmt_number(v) if v is not None else "–")
+            elif "notes" in r:
+                # a negative rate means the undiscounted savings never recover the extra
+                # cost: "n/a" with that reason, as the key figure's IRR
+                cells.append(fm.irr_text(v, None if fm._finite(v) else (
+                    r["notes"][n] or "the flows have no meaningful rate of return"),
+                    None, check_payback=True))
+            else:
+                cells.append(fm.percent(v, 2) if v is not None else "–")
+        unit = f" [{cur}]" if r["kind"] == "money" else ""
+        rows.append([r["label"] + unit] + cells)
+    return {"title": "Financing, shown apart", "columns": ["Figure"] + list(names),
+            "rows": rows,
             "note": "Positive: the loan or lease costs more than paying cash. The financing's "
                     "flows are the net cost as financed minus the net cost paid in cash, "
                     "tax effects included."}

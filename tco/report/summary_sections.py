@@ -27,7 +27,8 @@ from tco.emissions import SUMMARY_SCHEMA as EMISSIONS_SUMMARY_SCHEMA
 from tco.uncertainty import _EVENTS, UncertaintyResult
 from tco.uncertainty import SUMMARY_SCHEMA as UNCERTAINTY_SUMMARY_SCHEMA
 
-__all__ = ["cashflow_summary", "emissions_summary", "uncertainty_summary"]
+__all__ = ["cashflow_summary", "emissions_summary", "financing_rows",
+           "uncertainty_summary"]
 
 
 # --------------------------------------------------------------------------- cash flow
@@ -174,6 +175,67 @@ def _financing_summary(f: FinancingResult | None) -> dict:
     comps = [{k: (_num_cf(v) if isinstance(v, float) else v) for k, v in c.items()}
              for c in f.comparisons]
     return {"trucks": trucks, "comparisons": comps}
+
+
+def financing_rows(financing: dict, names: list[str]) -> list[dict]:
+    """The rows of the "Financing, shown apart" table, one column per truck, for every
+    writer (PDF/HTML and the workbook's Summary sheet), from summary.json's
+    ``cashflow.financing`` section.
+
+    Parameters
+    ----------
+    financing : dict
+        ``summary["cashflow"]["financing"]`` (:func:`_financing_summary`).
+    names : list of str
+        The trucks, in the order of the table's columns.
+
+    Returns
+    -------
+    list of dict
+        ``label`` (no unit), ``key`` (its key under ``cashflow.financing``), ``kind``
+        (``"text"``, ``"money"`` [currency] or ``"rate"`` [-/yr]) and ``values``: per truck
+        name a number, a text (``"cash"``, ``"baseline"``) or None (does not apply); an
+        IRR row also has ``notes``, per truck the reason it has no rate (or None).
+    """
+    trucks = financing.get("trucks") or {}
+    comps = {c["truck"]: c for c in financing.get("comparisons") or []}
+    base = {c["baseline"] for c in comps.values()}
+
+    def per_truck(field, transform=lambda v: v):
+        return {n: (transform(trucks[n][field]) if n in trucks and trucks[n].get(field)
+                    is not None else None) for n in names}
+
+    def per_comparison(field):
+        return {n: ("baseline" if n in base else comps[n].get(field) if n in comps
+                    else None) for n in names}
+
+    # the value of a loan at its own rate is 0 up to rounding: whole currency units, and
+    # never a "-0"
+    rows = [
+        {"label": "Financing", "key": "trucks.method", "kind": "text",
+         "values": {n: trucks[n]["method"] if n in trucks else "cash" for n in names}},
+        {"label": "After-tax cost of debt", "key": "trucks.after_tax_cost_of_debt",
+         "kind": "rate", "values": per_truck("after_tax_cost_of_debt")},
+        {"label": "Loan or lease against paying cash, present value at the after-tax cost "
+                  "of debt (positive: costs more)", "key":
+         "trucks.present_value_at_cost_of_debt", "kind": "money",
+         "values": per_truck("present_value_at_cost_of_debt", lambda v: round(v) + 0.0)},
+        {"label": "Present value as financed (equity view)",
+         "key": "trucks.present_value_as_financed", "kind": "money",
+         "values": per_truck("present_value_as_financed")},
+    ]
+    if comps:
+        rows += [
+            {"label": "Present value difference to the baseline, as financed",
+             "key": "comparisons.present_value_difference_as_financed", "kind": "money",
+             "values": per_comparison("present_value_difference_as_financed")},
+            {"label": "IRR of the extra investment, as financed (return on equity)",
+             "key": "comparisons.irr_as_financed", "kind": "rate",
+             "values": per_comparison("irr_as_financed"),
+             "notes": {n: comps[n].get("irr_note_as_financed") if n in comps else None
+                       for n in names}},
+        ]
+    return rows
 
 
 # --------------------------------------------------------------------------- emissions

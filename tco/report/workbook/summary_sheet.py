@@ -3,9 +3,12 @@ references, feasibility, warnings, cautions, the cumulative-cost chart.
 """
 from __future__ import annotations
 
+import math
+
 from openpyxl.styles import Alignment
 
 from tco.report import workbook_base as wbb
+from tco.report.summary_sections import financing_rows
 from tco.report.workbook_base import safe_text, write_value
 from tco.report.workbook._common import (
     _BOLD,
@@ -199,29 +202,26 @@ class SummarySheet:
                           + ("pay every truck in cash)" if view == "unlevered"
                              else "include the loans and leases)"))
         row += 1
-        items = []
-        for name, t in trucks.items():
-            items += [
-                (f"{name}: {t['method']} against paying cash, PV at the after-tax cost of "
-                 "debt (positive: costs more)", round(t["present_value_at_cost_of_debt"]) + 0.0,
-                 cur, wbb.MONEY),
-                (f"{name}: after-tax cost of debt", t["after_tax_cost_of_debt"], "per year", _RATE),
-                (f"{name}: present value as financed (equity view)",
-                 t["present_value_as_financed"], cur, wbb.MONEY)]
-        for c in f.get("comparisons") or []:
-            items += [
-                (f"{c['truck']} − {c['baseline']}: PV difference as financed",
-                 c.get("present_value_difference_as_financed"), cur, wbb.MONEY),
-                (f"{c['truck']} − {c['baseline']}: IRR as financed (return on equity)",
-                 c.get("irr_as_financed"), "per year", _RATE)]
-        for label, value, unit, fmt in items:
-            safe_text(ws.cell(row=row, column=1), label)
-            cell = ws.cell(row=row, column=3)
-            if value is None:
-                safe_text(cell, "none")
-            else:
-                write_value(cell, float(value), fmt)
-            safe_text(ws.cell(row=row, column=4), unit)
+        names = list(self.trucks)
+        wbb.header_row(ws, row, ["Figure", "Key"] + names + ["Unit"])
+        row += 1
+        units = {"money": cur, "rate": "per year", "text": ""}
+        for r in financing_rows(f, names):
+            safe_text(ws.cell(row=row, column=1), r["label"])
+            # the field's name in summary.json's cashflow.financing (as the other keys
+            # here, the name without its path)
+            safe_text(ws.cell(row=row, column=2), r["key"].rsplit(".", 1)[-1])
+            for i, n in enumerate(names):
+                cell, v = ws.cell(row=row, column=3 + i), r["values"][n]
+                if isinstance(v, str):
+                    safe_text(cell, v)
+                elif v is None or not math.isfinite(v) or ("notes" in r and v < 0):
+                    # a negative rate of return on the extra cost: the savings never
+                    # recover it, "n/a" as in the report (formatting.irr_text)
+                    safe_text(cell, "n/a" if "notes" in r else "-")
+                else:
+                    write_value(cell, float(v), wbb.MONEY if r["kind"] == "money" else _RATE)
+            safe_text(ws.cell(row=row, column=3 + len(names)), units[r["kind"]])
             row += 1
         return row
 
