@@ -27,7 +27,7 @@ import numpy as np
 import numpy_financial as npf
 import openpyxl
 import pytest
-from recalc import needs_soffice, recalculate
+from recalc import SOFFICE, needs_soffice, recalculate
 
 from tco.report import workbook_base as wbb
 from tco.report.workbook import SHEETS, build_workbook, write_workbook
@@ -54,6 +54,17 @@ def _evaluate(data: dict):
     loaded = LoadedScenario(parse_scenario(data), None, data, "test")
     result = evaluate(loaded)
     return result, build_summary(result)
+
+
+def _shown(comp: dict, key: str):
+    """A comparison figure as the report shows it: an IRR is read as "n/a" (None here)
+    when it is negative and the extra cost is never paid back within the period (the
+    savings never recover it, so no rate describes it; tco.report.formatting.irr_text's
+    documented rule, held by the workbook's formula too)."""
+    v = comp[key]
+    if key == "irr" and v is not None and v < 0 and comp["simple_payback_year"] is None:
+        return None
+    return v
 
 
 def _variant_data() -> dict:
@@ -214,7 +225,7 @@ class _Checker:
                 self.row("Cash flow", r, 3, list(want), f"{truck}/{key}")
                 continue
             if key in ("simple_payback_year", "discounted_payback_year", "irr"):
-                want = comp[key]
+                want = _shown(comp, key)
                 if want is None:
                     got = self.v["Cash flow"][f"C{r}"].value
                     self.checked.add(("Cash flow", f"C{r}"))
@@ -438,7 +449,7 @@ class _Checker:
                     continue
                 c = comps[name]
                 want = (c["break_even"][key.split(".", 1)[1]]["value"]
-                        if key.startswith("break_even.") else c[key])
+                        if key.startswith("break_even.") else _shown(c, key))
                 if want is None:
                     self.checked.add(("Summary", coord))
                     if not isinstance(self.v["Summary"][coord].value, str):
@@ -889,7 +900,7 @@ def _sheet_figures(values, formulas, truck):
 def _model_figures(summary, truck):
     c = next(c for c in summary["cashflow"]["comparisons"] if c["truck"] == truck)
     e = summary["emissions"]
-    out = {k: c[k] for k in ("simple_payback_year", "discounted_payback_year", "irr")}
+    out = {k: _shown(c, k) for k in ("simple_payback_year", "discounted_payback_year", "irr")}
     out.update({f"break_even.{k}": v["value"] for k, v in c["break_even"].items()})
     tot = e["trucks"][truck]["total_kg"]
     out.update(wtw_t=tot["wtw"] / 1000, wtw_market_t=tot["wtw_market"] / 1000,
@@ -1134,6 +1145,38 @@ def test_every_cost_line_has_a_workbook_formula(demo):
         else:
             missing.append(spec.name)
     assert not missing, f"cost lines without a workbook formula: {missing}"
+
+
+@pytest.mark.slow
+def test_a_negative_irr_never_paid_back_reads_na_as_in_the_report(tmp_path):
+    """An electric truck whose extra cost the savings never recover (its price raised to
+    700,000 in the demo: about 575,000 more than the diesel against roughly 40,000 a
+    year of savings over 10 years) has a negative rate of return and no payback year; the
+    report reads that IRR as "n/a", and so do the workbook's cached value and, when
+    LibreOffice is there, its recalculation of the formula."""
+    from tco.report.context import build_context
+
+    data = _demo_data()
+    data["uncertainty"] = {"enabled": False}
+    data["trucks"][1]["costs"]["purchase_price"] = 700000
+    result, summary = _evaluate(data)
+    comp = summary["cashflow"]["comparisons"][0]
+    assert comp["simple_payback_year"] is None and comp["irr"] < 0  # the case is set up
+    path = tmp_path / "na.xlsx"
+    write_workbook(result, summary, path)
+    books = [openpyxl.load_workbook(path, data_only=True)]
+    if SOFFICE is not None:  # without LibreOffice: the cached values only
+        books.append(openpyxl.load_workbook(recalculate(path, tmp_path / "out"),
+                                            data_only=True))
+    for wb in books:
+        for sheet in ("Cash flow", "Summary"):
+            ws = wb[sheet]
+            cells = [ws.cell(r, c).value for r in range(1, ws.max_row + 1)
+                     if ws.cell(r, 2).value == "irr" for c in range(3, ws.max_column + 1)]
+            assert "n/a" in cells and not any(isinstance(v, float) for v in cells), \
+                (sheet, cells)
+    figures = {k["label"]: k["value"] for k in build_context(result, summary)["key_figures"]}
+    assert figures["IRR of the extra investment"].startswith("n/a")
 
 
 def test_financing_values_agree_with_the_summary(demo, demo_xlsx):

@@ -579,9 +579,14 @@ class CashflowSheet:
             # the rate itself is recomputed from the savings row after any edit).
             model_irr = self._model_comparison(i).get("irr")
             guess = repr(float(model_irr)) if model_irr is not None else "0.1"
+            # as the report reads it (formatting.irr_text): a negative rate on an extra cost
+            # never paid back within the period (no simple payback year) is "n/a", the
+            # savings never recover the extra cost; no rate at all is "n/a" too
+            irr = f"IRR({first}{R['savings']}:{last}{R['savings']},{guess})"
+            payback = f"{_col(_FIRST_COL)}{R['simple_payback_year']}"
             self._metric(row, "IRR of the extra investment (spreadsheet IRR over the savings)",
-                         "irr", f"=IFERROR(IRR({first}{R['savings']}:{last}{R['savings']},"
-                         f"{guess}),\"-\")", _RATE)
+                         "irr", f"=IFERROR(IF(AND({irr}<0,NOT(ISNUMBER({payback}))),"
+                         f"\"n/a\",{irr}),\"n/a\")", _RATE)
             row += 1
             work.append((i, R, row))
             row += len(self._break_even_specs(i)) + 1
