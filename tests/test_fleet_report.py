@@ -492,6 +492,24 @@ def test_workbook_structure_formulas_and_literal_inputs(book, summary):
     assert depot.cell(9, 1).value == "00:00" and depot.cell(104, 1).value == "23:45"
 
 
+def test_workbook_irr_reads_as_the_report_reads_it(fleet, summary, tmp_path):
+    """A route whose extra cost is never paid back within the period and whose rate of
+    return is negative reads "n/a" in the report's table; the Routes sheet says the same
+    (not a "-12.0 %" beside it); a route with a rate shows the number."""
+    import copy
+
+    from tco.report.fleet_report import _irr_cell
+
+    s = copy.deepcopy(summary)
+    s["routes"][0].update(irr=-0.12, simple_payback_year=None)
+    path = tmp_path / "fleet.xlsx"
+    build_fleet_workbook(fleet, s).save(path)
+    routes = openpyxl.load_workbook(path)["Routes"]
+    col = [c.value for c in routes[1]].index("IRR [%]") + 1
+    assert _irr_cell(s["routes"][0]) == "n/a" == routes.cell(2, col).value
+    assert routes.cell(3, col).value == pytest.approx(s["routes"][1]["irr"], rel=1e-14)
+
+
 def _formula_cells(wb):
     for ws in wb.worksheets:
         for row in ws.iter_rows():

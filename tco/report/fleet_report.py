@@ -793,6 +793,8 @@ class _FleetBook:
                     safe_text(cell, "; ".join(r["remedies"]))
                 elif key == "status":
                     safe_text(cell, r["status"])
+                elif key == "irr" and _irr_cell(r) == "n/a":  # as the report reads it
+                    safe_text(cell, "n/a")
                 else:
                     write_value(cell, r[key], fmt)
         last = 1 + len(routes)
