@@ -793,7 +793,8 @@ class _FleetBook:
                     safe_text(cell, "; ".join(r["remedies"]))
                 elif key == "status":
                     safe_text(cell, r["status"])
-                elif key == "irr" and _irr_cell(r) == "n/a":  # as the report reads it
+                elif key == "irr" and fm.irr_reads_na(r["irr"], r["simple_payback_year"],
+                                                      check_payback=True):  # as the report
                     safe_text(cell, "n/a")
                 else:
                     write_value(cell, r[key], fmt)

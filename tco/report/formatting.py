@@ -541,6 +541,14 @@ def range_text(low: str, high: str) -> str:
     return f"{' '.join(a[:-k])} – {high}"
 
 
+def irr_reads_na(irr, payback_year=None, check_payback: bool = False) -> bool:
+    """Whether an internal rate of return is shown as ``n/a`` (:func:`irr_text`): no
+    finite rate, or, with ``check_payback``, a negative rate on an extra investment that
+    is never paid back (no ``payback_year``). Writers that keep the number (workbooks)
+    ask this so they read a rate as the reports do."""
+    return not _finite(irr) or (check_payback and payback_year is None and float(irr) < 0)
+
+
 def irr_text(irr, reason: str | None = None, payback_year=None,
              check_payback: bool = False) -> str:
     """An internal rate of return as a percentage, or ``n/a`` with the reason.
@@ -549,7 +557,7 @@ def irr_text(irr, reason: str | None = None, payback_year=None,
     back (no ``payback_year``) is shown as ``n/a``: the savings never recover the extra
     cost, so no rate of return describes it (a "−60 %" would read as a figure to weigh).
     """
-    if _finite(irr) and not (check_payback and payback_year is None and float(irr) < 0):
+    if not irr_reads_na(irr, payback_year, check_payback):
         return percent(irr, 1)
     if _finite(irr):
         reason = reason or "the savings never recover the extra cost"

@@ -7,6 +7,7 @@ import math
 
 from openpyxl.styles import Alignment
 
+from tco.report import formatting as fm
 from tco.report import workbook_base as wbb
 from tco.report.summary_sections import financing_rows
 from tco.report.workbook_base import safe_text, write_value
@@ -215,10 +216,10 @@ class SummarySheet:
                 cell, v = ws.cell(row=row, column=3 + i), r["values"][n]
                 if isinstance(v, str):
                     safe_text(cell, v)
-                elif v is None or not math.isfinite(v) or ("notes" in r and v < 0):
-                    # a negative rate of return on the extra cost: the savings never
-                    # recover it, "n/a" as in the report (formatting.irr_text)
-                    safe_text(cell, "n/a" if "notes" in r else "-")
+                elif "notes" in r and fm.irr_reads_na(v, None, check_payback=True):
+                    safe_text(cell, "n/a")  # as the report reads the rate
+                elif v is None or not math.isfinite(v):
+                    safe_text(cell, "-")
                 else:
                     write_value(cell, float(v), wbb.MONEY if r["kind"] == "money" else _RATE)
             safe_text(ws.cell(row=row, column=3 + len(names)), units[r["kind"]])
